@@ -1,0 +1,106 @@
+"""Plain-text rendering of check results: grouped by file, one block per model, mode tables."""
+
+from __future__ import annotations
+
+import math
+from typing import Iterable, Sequence
+
+from .findings import Finding, ModeRow
+
+__all__ = ["render_results", "mode_table", "format_eigenvalue"]
+
+
+def format_eigenvalue(z: complex, pair: bool) -> str:
+    if z.imag == 0.0:
+        return f"{z.real:.6g}"
+    sign = "±" if pair else ("+" if z.imag > 0 else "-")
+    return f"{z.real:.6g}{sign}{abs(z.imag):.6g}j"
+
+
+def _num(x: float, unit: str = "") -> str:
+    if math.isinf(x):
+        return ("-" if x < 0 else "") + "∞"
+    text = f"{x:.4g}"
+    return f"{text} {unit}".rstrip()
+
+
+def mode_table(rows: Sequence[ModeRow], discrete: bool = False, indent: str = "    ") -> list[str]:
+    """Rows of a fixed-width table: mode, eigenvalue, ζ, ωn, τ, participating states."""
+    head = ["mode", "z" if discrete else "eigenvalue", "ζ", "ωn [rad/s]", "τ [s]",
+            "participating states"]
+    body = []
+    for r in rows:
+        ev = format_eigenvalue(r.eigenvalue, r.pair)
+        if r.multiplicity > 1:
+            ev += f" ×{r.multiplicity}" + (" (defective)" if r.defective else "")
+        states = ", ".join(f"{n} {p:.2f}" for n, p in r.top_states)
+        body.append([f"#{r.index}", ev, f"{r.damping_ratio:.3g}", _num(r.natural_frequency),
+                     _num(r.time_constant), states])
+    widths = [max(len(h), *(len(b[i]) for b in body)) if body else len(h)
+              for i, h in enumerate(head)]
+    lines = [indent + "  ".join(h.ljust(w) for h, w in zip(head, widths)).rstrip()]
+    for b in body:
+        lines.append(indent + "  ".join(c.ljust(w) for c, w in zip(b, widths)).rstrip())
+    return lines
+
+
+def _finding_lines(f: Finding, discrete: bool) -> list[str]:
+    mark = "FAIL" if f.severity == "error" else "warn"
+    where = f"line {f.line}" if f.line else ""
+    head = f"  {mark}  {f.rule} {f.name}"
+    if f.requirement and f.rule != "EG001":
+        head += f"  [{f.requirement}]"
+    if where:
+        head += f"  ({where})"
+    out = [head, f"        {f.message}"]
+    if f.uncertain:
+        out.append("        note: numerically uncertain: a value lies within its error bound "
+                   "of the threshold")
+    if f.suggestion:
+        out.append(f"        hint: {f.suggestion}")
+    if f.modes:
+        out.extend(mode_table(f.modes, discrete, indent="        "))
+    return out
+
+
+def render_results(results: Iterable["object"], *, verbose: bool = True) -> str:
+    """Render :class:`~eigengate.engine.FileResult` objects as text, with a one-line summary."""
+    lines: list[str] = []
+    files = models = failing = 0
+    errors = warnings = 0
+    for fr in results:
+        files += 1
+        lines.append(fr.source)
+        if fr.error is not None:
+            failing += 1
+            for f in fr.findings:
+                lines.extend(_finding_lines(f, False))
+                errors += 1
+            lines.append("")
+            continue
+        for r in fr.results:
+            models += 1
+            sp, m = r.spectrum, r.model
+            status = "ok" if r.passed else "FAILED"
+            failing += 0 if r.passed else 1
+            figure = (f"spectral radius {sp.spectral_radius:.6g}" if m.discrete else
+                      f"spectral abscissa {sp.spectral_abscissa:.6g} 1/s")
+            extra = f", {sp.infinite} infinite" if sp.infinite else ""
+            lines.append(f"  {m.title}: {status} — {len(sp.modes)} modes{extra}, {figure}, "
+                         f"min ζ {sp.min_damping:.3g}; origin: {r.equilibrium.type}")
+            if verbose:
+                for v in r.verdicts:
+                    if v.passed and not v.uncertain:
+                        margin = "" if v.margin is None else f" (margin {v.margin:.4g})"
+                        lines.append(f"    pass  {v.rule} {v.name}  [{v.requirement}]{margin}")
+            for f in r.findings:
+                lines.extend(_finding_lines(f, m.discrete))
+                if f.severity == "error":
+                    errors += 1
+                else:
+                    warnings += 1
+        lines.append("")
+    lines.append(f"{files} file{'s' if files != 1 else ''}, {models} model"
+                 f"{'s' if models != 1 else ''} checked: {failing} failing, {errors} error"
+                 f"{'s' if errors != 1 else ''}, {warnings} warning{'s' if warnings != 1 else ''}")
+    return "\n".join(lines) + "\n"
