@@ -239,32 +239,28 @@ def analyse(model: Model) -> Spectrum:
     part = raw / sums
 
     clusters = _clusters(lam, delta)
-    modes = []
+    rows = []
     for members in clusters:
-        vals = lam[members]
-        centre = complex(vals.mean())
-        spread = float(np.max(np.abs(vals - centre)))
-        err = float(delta[members[0]]) if len(members) == 1 else max(spread, float(base))
+        if len(members) == 1:  # the common case: no numpy calls per eigenvalue
+            i = members[0]
+            centre, err, geometric = complex(lam[i]), float(delta[i]), 1
+            kap, weights = float(kappa[i]), part[:, i]
+        else:
+            vals = lam[members]
+            centre = complex(vals.mean())
+            err = max(float(np.max(np.abs(vals - centre))), float(base))
+            geometric = _geometric(model, centre, vr[:, members], len(members), norm)
+            kap, weights = float(kappa[members].max()), part[:, members].mean(axis=1)
         if abs(centre.imag) <= err:
             centre = complex(centre.real, 0.0)
         elif centre.imag < 0:
             continue  # the conjugate cluster stands for this one
-        geometric = len(members) if len(members) == 1 else _geometric(model, centre, vr[:, members],
-                                                                         len(members), norm)
-        modes.append(_make_mode(model, centre, err, len(members), geometric,
-                                float(kappa[members].max()), part[:, members].mean(axis=1)))
-    modes.sort(key=lambda m: (_round_sig(m.s.real), _round_sig(-abs(m.s.imag)),
-                              int(np.argmax(m.participation))), reverse=False)
-    modes.reverse()  # least stable (largest Re s) first
-    modes = [_reindex(m, i + 1) for i, m in enumerate(modes)]
-    return Spectrum(model=model, modes=tuple(modes), infinite=infinite, norm=norm,
-                    balanced=balanced)
-
-
-def _reindex(mode: Mode, index: int) -> Mode:
-    from dataclasses import replace
-
-    return replace(mode, index=index)
+        rows.append(_mode_fields(model, centre, err, len(members), geometric, kap, weights))
+    # Least stable (largest Re s) first, on rounded keys so round-off cannot reorder ties.
+    rows.sort(key=lambda r: (-_round_sig(r["s"].real), _round_sig(abs(r["s"].imag)),
+                             int(np.argmax(r["participation"]))))
+    modes = tuple(Mode(index=k + 1, states=model.states, **r) for k, r in enumerate(rows))
+    return Spectrum(model=model, modes=modes, infinite=infinite, norm=norm, balanced=balanced)
 
 
 def _clusters(lam: "np.ndarray", delta: "np.ndarray") -> list[list[int]]:
@@ -318,8 +314,8 @@ def _geometric(model: Model, centre: complex, vectors: "np.ndarray", size: int,
     return int(max(1, np.sum(sv > 10.0 * eps ** (1.0 / size) * sv[0])))
 
 
-def _make_mode(model: Model, centre: complex, err: float, multiplicity: int, geometric: int,
-               kappa: float, participation: "np.ndarray") -> Mode:
+def _mode_fields(model: Model, centre: complex, err: float, multiplicity: int, geometric: int,
+                 kappa: float, participation: "np.ndarray") -> dict:
     pair = centre.imag != 0.0
     if model.sample_period is None:
         s, err_s = centre, err
@@ -341,7 +337,7 @@ def _make_mode(model: Model, centre: complex, err: float, multiplicity: int, geo
     else:
         zeta = -s.real / wn + 0.0  # + 0.0 turns -0.0 into 0.0
         tau = math.inf if s.real == 0.0 else -1.0 / s.real
-    return Mode(index=0, eigenvalue=centre, s=s, multiplicity=multiplicity,
+    return dict(eigenvalue=centre, s=s, multiplicity=multiplicity,
                 geometric_multiplicity=geometric, pair=pair, natural_frequency=wn,
                 damping_ratio=zeta, time_constant=tau, uncertainty=err_s, condition=kappa,
-                participation=participation, states=model.states)
+                participation=participation)

@@ -86,12 +86,15 @@ def render_results(results: Iterable["object"], *, verbose: bool = True) -> str:
             figure = (f"spectral radius {sp.spectral_radius:.6g}" if m.discrete else
                       f"spectral abscissa {sp.spectral_abscissa:.6g} 1/s")
             extra = f", {sp.infinite} infinite" if sp.infinite else ""
-            lines.append(f"  {m.title}: {status} — {len(sp.modes)} modes{extra}, {figure}, "
+            count = sum(mode.count for mode in sp.modes)
+            lines.append(f"  {m.title}: {status} — {count} eigenvalues in {len(sp.modes)} "
+                         f"modes{extra}, {figure}, "
                          f"min ζ {sp.min_damping:.3g}; origin: {r.equilibrium.type}")
             if verbose:
                 for v in r.verdicts:
                     if v.passed and not v.uncertain:
-                        margin = "" if v.margin is None else f" (margin {v.margin:.4g})"
+                        margin = f" ({v.message})" if v.margin is None else \
+                            f" (margin {v.margin:.4g})"
                         lines.append(f"    pass  {v.rule} {v.name}  [{v.requirement}]{margin}")
             for f in r.findings:
                 lines.extend(_finding_lines(f, m.discrete))

@@ -194,6 +194,8 @@ class Stability(Requirement):
         if not parts:
             parts.append(f"all {sum(m.count for m in modes)} eigenvalues satisfy {where}; "
                          f"slowest decay rate {_fmt(margin)} 1/s")
+        if discrete:  # margin in the plane of the measured value: 1 - spectral radius
+            margin = 1.0 - measured
         return self._verdict(passed=passed, uncertain=uncertain, measured=measured,
                              threshold=1.0 if discrete else 0.0,
                              margin=margin if math.isfinite(margin) else None,

@@ -1,0 +1,510 @@
+"""Load model files (format 1) into validated :class:`~eigengate.model.Model` objects.
+
+One file gives one model, or one per operating point. The file format is documented in
+``docs/model-format.md`` and described by ``schema/model-v1.schema.json``; the key sets
+below are the single list both are checked against.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import os
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any, Mapping
+
+from ._formats import read_document, suggest
+from .errors import ModelError
+from .model import Model, as_matrix, from_arrays
+
+__all__ = ["FORMAT_VERSIONS", "TOP_KEYS", "load_models", "load_models_with_refs",
+           "load_document", "find_root"]
+
+#: Versions of ``model_format`` this loader reads.
+FORMAT_VERSIONS = (1,)
+TOP_KEYS = ("model_format", "name", "description", "domain", "sample_period", "plant",
+            "feedback", "requirements", "known_modes", "on_uncertain", "operating_points")
+POINT_KEYS = ("label", "plant", "feedback", "requirements", "known_modes", "on_uncertain")
+SS_KEYS = ("A", "B", "C", "D", "E", "states", "inputs", "outputs")
+TF_KEYS = ("num", "den", "states", "inputs", "outputs")
+FEEDBACK_KEYS = ("state_gain", "output_gain", "controller", "inputs", "outputs")
+FEEDBACK_KINDS = ("state_gain", "output_gain", "controller")
+CONTROLLER_SS_KEYS = ("A", "B", "C", "D", "states", "domain", "sample_period")
+CONTROLLER_TF_KEYS = ("num", "den", "states", "domain", "sample_period")
+DOMAINS = ("continuous", "discrete")
+_STRUCTURE = {"state_gain": "closed loop: state feedback",
+              "output_gain": "closed loop: output feedback",
+              "controller": "closed loop: dynamic controller"}
+
+
+def find_root(path: Path) -> Path:
+    """Nearest folder at or above ``path``'s folder holding ``.git`` or ``pyproject.toml``;
+    the file's own folder when there is none."""
+    start = Path(path).resolve().parent
+    for folder in (start, *start.parents):
+        if (folder / ".git").exists() or (folder / "pyproject.toml").is_file():
+            return folder
+    return start
+
+
+def load_models(path: str | os.PathLike[str], root: str | os.PathLike[str] | None = None
+                ) -> list[Model]:
+    """Load the model file at ``path``: one :class:`Model` per operating point, or one.
+
+    Parameters
+    ----------
+    path
+        A ``.yaml``/``.yml``/``.toml``/``.json`` model file.
+    root
+        Repository root; found from ``path`` with :func:`find_root` when None. Model sources
+        are reported relative to it and referenced matrix files must lie inside it.
+
+    Raises
+    ------
+    ModelError
+        For any problem with the file, naming the file, field and line.
+    """
+    return load_models_with_refs(path, root)[0]
+
+
+def load_models_with_refs(path: str | os.PathLike[str],
+                          root: str | os.PathLike[str] | None = None
+                          ) -> tuple[list[Model], list[str]]:
+    """Like :func:`load_models`, also returning the repository-relative paths (POSIX) of the
+    matrix files the model references, sorted and without repeats, so a cache can hash them."""
+    file = Path(path)
+    base = Path(root) if root is not None else find_root(file)
+    try:
+        source = file.resolve().relative_to(base.resolve()).as_posix()
+    except ValueError:  # a file outside the given root still gets a usable name
+        source = file.as_posix()
+    data, lines = read_document(file, source)
+    refs: list[str] = []
+    models = _load(data, source=source, root=base, base_dir=file.parent, lines=lines, refs=refs,
+                   stem=file.stem)
+    return models, sorted(set(refs))
+
+
+def load_document(data: Mapping[str, Any], *, source: str = "<document>",
+                  root: Path | None = None, base_dir: Path | None = None,
+                  lines: Mapping[str, int] | None = None) -> list[Model]:
+    """Build models from an already parsed document (same rules as :func:`load_models`).
+
+    Parameters
+    ----------
+    data
+        The top-level mapping.
+    source
+        Name for messages and ``Model.source``; its stem is the default model name.
+    root, base_dir
+        Repository root and the folder file references are relative to; references are
+        refused when ``base_dir`` is None.
+    lines
+        ``{dotted.field: line}`` as produced by the readers, when known.
+    """
+    if not isinstance(data, Mapping):
+        raise ModelError(source, "", f"must be a mapping of fields, got {type(data).__name__}")
+    return _load(dict(data), source=source, root=root, base_dir=base_dir,
+                 lines=dict(lines or {}), refs=[], stem=Path(source).stem or "model")
+
+
+@dataclass
+class _Ctx:
+    """Where the fields being read come from, so every error names file, field and line."""
+
+    source: str
+    root: Path | None
+    base_dir: Path | None
+    lines: dict[str, int]  # unprefixed dotted paths → lines for this operating point
+    refs: list[str]
+    prefix: str = ""  # "operating_points[1] (label 'v=30')." for a point
+    sample_period: float | None = None
+    domain: str = "continuous"
+
+    def line(self, path: str) -> int | None:
+        parts = path.split(".")
+        while parts:
+            found = self.lines.get(".".join(parts))
+            if found is not None:
+                return found
+            parts.pop()
+        return None
+
+    def err(self, path: str, problem: str, hint: str | None = None) -> ModelError:
+        return ModelError(self.source, self.prefix + path, problem, line=self.line(path),
+                          hint=hint)
+
+    def prefixed_lines(self) -> dict[str, int]:
+        return {self.prefix + k: v for k, v in self.lines.items()}
+
+
+def _check_keys(block: Mapping[str, Any], allowed: tuple[str, ...], ctx: _Ctx, path: str,
+                what: str) -> None:
+    for key in block:
+        if key not in allowed:
+            close = suggest(str(key), allowed)
+            where = f"{path}.{key}" if path else str(key)
+            raise ctx.err(where, f"is not a field of {what}",
+                          f"did you mean {close!r}?" if close
+                          else "known fields: " + ", ".join(allowed))
+
+
+def _mapping(value: Any, ctx: _Ctx, path: str) -> dict[str, Any]:
+    if not isinstance(value, Mapping):
+        raise ctx.err(path, f"must be a mapping, got {_kind(value)} {value!r:.60}")
+    return dict(value)
+
+
+def _kind(value: Any) -> str:
+    if value is None:
+        return "null"
+    return {list: "a list", str: "a string", bool: "a boolean", int: "a number",
+            float: "a number"}.get(type(value), type(value).__name__)
+
+
+def _load(data: dict[str, Any], *, source: str, root: Path | None, base_dir: Path | None,
+          lines: dict[str, int], refs: list[str], stem: str) -> list[Model]:
+    ctx = _Ctx(source, root, base_dir, lines, refs)
+    if "model_format" not in data:
+        raise ctx.err("model_format", "is missing",
+                      f"start the file with 'model_format: {FORMAT_VERSIONS[-1]}'")
+    version = data["model_format"]
+    if isinstance(version, bool) or version not in FORMAT_VERSIONS:
+        raise ctx.err("model_format", f"is {version!r}, but this version of eigengate reads "
+                      f"model_format {', '.join(map(str, FORMAT_VERSIONS))} only",
+                      "upgrade eigengate to read newer files")
+    _check_keys(data, TOP_KEYS, ctx, "", "a model file")
+    name = data.get("name", stem)
+    if not isinstance(name, str) or not name.strip():
+        raise ctx.err("name", f"must be a non-empty string, got {name!r}")
+    if not isinstance(data.get("description", ""), str):
+        raise ctx.err("description", f"must be text, got {_kind(data['description'])}")
+    domain = data.get("domain", "continuous")
+    if domain not in DOMAINS:
+        close = suggest(str(domain), DOMAINS)
+        raise ctx.err("domain", f"must be 'continuous' or 'discrete', got {domain!r}",
+                      f"did you mean {close!r}?" if close else None)
+    ctx.domain = domain
+    ctx.sample_period = _sample_period(data, domain, ctx, "sample_period")
+    if "plant" not in data and "operating_points" not in data:
+        raise ctx.err("plant", "is missing", "describe the plant with A (state space) or "
+                      "num and den (transfer function)")
+    points = data.get("operating_points")
+    base = {k: v for k, v in data.items() if k != "operating_points"}
+    if points is None:
+        return [_build(base, ctx, name, None)]
+    if not isinstance(points, list) or not points:
+        raise ctx.err("operating_points", f"must be a non-empty list of mappings, got "
+                      f"{_kind(points) if points != [] else 'an empty list'}")
+    models: list[Model] = []
+    seen: dict[str, int] = {}
+    for i, point in enumerate(points):
+        where = f"operating_points.{i}"
+        pctx = dataclasses.replace(ctx, prefix=f"operating_points[{i}].")
+        pctx.lines = {**ctx.lines, **{k[len(where) + 1:]: v for k, v in ctx.lines.items()
+                                      if k.startswith(where + ".")}}
+        point = _mapping(point, pctx, "")
+        label = point.get("label")
+        if label is None:
+            raise ModelError(source, f"operating_points[{i}].label", "is missing",
+                             line=ctx.lines.get(where),
+                             hint="each operating point needs a unique label, e.g. label: 'v=30'")
+        if not isinstance(label, str) or not label.strip():
+            raise pctx.err("label", f"must be a non-empty string, got {label!r}",
+                           "quote it, e.g. label: '30'")
+        if label in seen:
+            raise pctx.err("label", f"is {label!r}, already used by operating_points"
+                           f"[{seen[label]}]", "labels must be unique")
+        seen[label] = i
+        pctx.prefix = f"operating_points[{i}] (label {label!r})."
+        _check_keys(point, POINT_KEYS, pctx, "", "an operating point")
+        merged = _merge(base, {k: v for k, v in point.items() if k != "label"})
+        models.append(_build(merged, pctx, name, label))
+    return models
+
+
+def _merge(base: Any, over: Any) -> Any:
+    # Mappings merge key by key; a null removes the key; anything else replaces, and a matrix
+    # file reference ({file: ...}) replaces as a whole rather than mixing keys of two files.
+    if not isinstance(base, Mapping) or not isinstance(over, Mapping) or "file" in over \
+            or "file" in base:
+        return over
+    out = dict(base)
+    for k, v in over.items():
+        if v is None:
+            out.pop(k, None)
+        elif k in out:
+            out[k] = _merge(out[k], v)
+        else:
+            out[k] = v
+    return out
+
+
+def _sample_period(block: Mapping[str, Any], domain: str, ctx: _Ctx, path: str) -> float | None:
+    import math
+
+    value = block.get("sample_period")
+    if domain == "continuous":
+        if value is not None:
+            raise ctx.err(path, f"is {value!r}, but a continuous model has no sample period",
+                          "set domain: discrete, or remove sample_period")
+        return None
+    if value is None:
+        raise ctx.err(path, "is missing; a discrete model needs its sample period in seconds",
+                      "add e.g. sample_period: 0.01")
+    if isinstance(value, bool) or not isinstance(value, (int, float)) \
+            or not math.isfinite(value) or value <= 0:
+        raise ctx.err(path, f"must be a positive number of seconds, got {value!r}")
+    return float(value)
+
+
+def _names(block: Mapping[str, Any], key: str, ctx: _Ctx, path: str) -> list[str] | None:
+    value = block.get(key)
+    if value is None:
+        return None
+    if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
+        raise ctx.err(f"{path}.{key}", f"must be a list of names, got {value!r:.80}")
+    return value
+
+
+def _matrix(value: Any, ctx: _Ctx, path: str) -> Any:
+    """Inline value as is (from_arrays converts it); a file reference loaded and checked."""
+    from ._matrixfiles import is_reference, load_reference
+
+    if value is None or not is_reference(value):
+        return value
+    arr, rel = load_reference(value, source=ctx.source, field=ctx.prefix + path,
+                              line=ctx.line(path), base_dir=ctx.base_dir, root=ctx.root)
+    ctx.refs.append(rel)
+    return as_matrix(arr, ctx.source, ctx.prefix + path, line=ctx.line(path))
+
+
+def _build(doc: Mapping[str, Any], ctx: _Ctx, name: str, label: str | None) -> Model:
+    if "plant" not in doc:
+        raise ctx.err("plant", "is missing (neither the file nor this operating point gives it)")
+    plant_block = _mapping(doc["plant"], ctx, "plant")
+    plant, structure = _system(plant_block, ctx, "plant", plant=True)
+    matrices = (plant.A, plant.B, plant.C, plant.D)
+    e, states = plant.E, list(plant.states)
+    if "feedback" in doc:
+        feedback = _mapping(doc["feedback"], ctx, "feedback")
+        kind, matrices, extra_states = _feedback(feedback, plant, ctx)
+        structure = _STRUCTURE[kind]
+        states += extra_states
+        if e is not None and extra_states:
+            import numpy as np
+
+            nc = len(extra_states)  # descriptor plant: controller states are ordinary states
+            e = np.block([[e, np.zeros((e.shape[0], nc))],
+                          [np.zeros((nc, e.shape[1])), np.eye(nc)]])
+    requirements, known_modes = _requirements(doc, ctx, states)
+    on_uncertain = doc.get("on_uncertain", "fail")
+    if on_uncertain not in ("fail", "pass"):
+        raise ctx.err("on_uncertain", f"must be 'fail' or 'pass', got {on_uncertain!r}")
+    model = from_arrays(*matrices, e, sample_period=ctx.sample_period, name=name,
+                        states=states, inputs=plant.inputs, outputs=plant.outputs, label=label,
+                        source=ctx.source, structure=structure, requirements=requirements,
+                        known_modes=known_modes, on_uncertain=on_uncertain,
+                        lines=ctx.prefixed_lines(), prefix=ctx.prefix)
+    return dataclasses.replace(model, lines=dict(ctx.lines))
+
+
+def _system(block: dict[str, Any], ctx: _Ctx, path: str, *, plant: bool) -> tuple[Model, str]:
+    """A plant or controller block, state space or transfer function, as a Model."""
+    from . import _interconnect as ic
+
+    ss_keys = SS_KEYS if plant else CONTROLLER_SS_KEYS
+    tf_keys = TF_KEYS if plant else CONTROLLER_TF_KEYS
+    what = "a plant" if plant else "a controller"
+    _check_keys(block, tuple(dict.fromkeys(ss_keys + tf_keys)), ctx, path, what)
+    ss_given = [k for k in ("A", "B", "C", "D", "E") if k in block]
+    tf_given = [k for k in ("num", "den") if k in block]
+    if ss_given and tf_given:
+        raise ctx.err(f"{path}.{tf_given[0]}", f"is given together with {path}.{ss_given[0]}: "
+                      f"{what} is either state space (A, B, C, D) or a transfer function "
+                      "(num, den), not both", "remove one of the two forms")
+    if not ss_given and not tf_given:
+        raise ctx.err(path, "must give A (state space) or num and den (transfer function), "
+                      "got neither")
+    if not plant:
+        domain = block.get("domain", ctx.domain)
+        if domain != ctx.domain:
+            raise ctx.err(f"{path}.domain", f"is {domain!r}, but the plant is {ctx.domain}",
+                          "plant and controller must share the domain")
+        if "sample_period" in block and block["sample_period"] != ctx.sample_period:
+            raise ctx.err(f"{path}.sample_period", f"is {block['sample_period']!r}, but the "
+                          f"plant's sample period is {ctx.sample_period!r}",
+                          "plant and controller must share the sample period")
+    prefix = ctx.prefix + path + "."
+    if ss_given:
+        if "A" not in block:
+            raise ctx.err(f"{path}.A", f"is missing; {path}.{ss_given[0]} is given, so "
+                          "this is a state-space block and needs its A matrix")
+        if not plant and "E" in block:
+            raise ctx.err(f"{path}.E", "is not allowed: controllers are not descriptor systems")
+        mats = {k: _matrix(block.get(k), ctx, f"{path}.{k}") for k in ("A", "B", "C", "D", "E")}
+        model = from_arrays(**mats, states=_names(block, "states", ctx, path),
+                            inputs=_names(block, "inputs", ctx, path),
+                            outputs=_names(block, "outputs", ctx, path), source=ctx.source,
+                            lines=ctx.prefixed_lines(), prefix=prefix)
+        return model, "descriptor" if model.E is not None else "state-space"
+    for k in ("num", "den"):
+        if k not in block:
+            raise ctx.err(f"{path}.{k}", "is missing; a transfer function needs num and den")
+    nums, dens = _tf_entries(block, ctx, path)
+    try:
+        if len(nums) == 1 and len(nums[0]) == 1:
+            a, b, c, d = ic.tf_siso(nums[0][0], dens[0][0])
+        else:
+            a, b, c, d = ic.tf_mimo(nums, dens)
+    except ic.InterconnectError as exc:
+        raise ctx.err(f"{path}.num", str(exc)) from None
+    if plant and a.shape[0] == 0:
+        raise ctx.err(f"{path}.den", "gives a static gain with no states; eigengate needs a "
+                      "plant with at least one state")
+    if not a.shape[0]:
+        return _static(d, ctx), "transfer function"
+    # states, when named, follow the realisation: controllable canonical form, column by column
+    model = from_arrays(a, b, c, d, states=_names(block, "states", ctx, path),
+                        inputs=_names(block, "inputs", ctx, path),
+                        outputs=_names(block, "outputs", ctx, path), source=ctx.source,
+                        lines=ctx.prefixed_lines(), prefix=prefix)
+    return model, "transfer function"
+
+
+def _static(d: Any, ctx: _Ctx) -> Model:
+    # A controller that is a pure gain has no states; Model needs one, so carry D alone.
+    import numpy as np
+
+    return Model(name="controller", A=np.zeros((0, 0)), B=np.zeros((0, d.shape[1])),
+                 C=np.zeros((d.shape[0], 0)), D=d, source=ctx.source,
+                 inputs=tuple(f"u{i + 1}" for i in range(d.shape[1])),
+                 outputs=tuple(f"y{i + 1}" for i in range(d.shape[0])))
+
+
+def _tf_entries(block: Mapping[str, Any], ctx: _Ctx, path: str
+                ) -> tuple[list[list[Any]], list[list[Any]]]:
+    """Coefficient rows of num and den: [[row]] for SISO, nested for a matrix."""
+    def coeffs(value: Any, where: str) -> Any:
+        return as_matrix(value, ctx.source, ctx.prefix + where, line=ctx.line(where),
+                         allow_vector=True).ravel()
+
+    def siso(value: Any) -> bool:
+        return not isinstance(value, list) or all(not isinstance(v, list) for v in value)
+
+    num, den = block["num"], block["den"]
+    if siso(num):
+        if not siso(den):
+            raise ctx.err(f"{path}.den", "must be one coefficient list, like num, got a matrix")
+        return [[coeffs(num, f"{path}.num")]], [[coeffs(den, f"{path}.den")]]
+    rows = []
+    for i, row in enumerate(num):
+        if not isinstance(row, list):
+            raise ctx.err(f"{path}.num", f"must be a matrix of coefficient lists, row {i + 1} "
+                          f"is {row!r}")
+        rows.append([coeffs(e, f"{path}.num[{i}][{j}]") for j, e in enumerate(row)])
+    if siso(den):  # one denominator shared by every entry
+        shared = coeffs(den, f"{path}.den")
+        return rows, [[shared] * len(r) for r in rows]
+    shape = [len(r) for r in rows]
+    if not isinstance(den, list) or len(den) != len(rows) or any(
+            not isinstance(r, list) or len(r) != n for r, n in zip(den, shape)):
+        raise ctx.err(f"{path}.den", f"must have the shape of num (rows of lengths {shape}) "
+                      "or be one coefficient list shared by every entry")
+    return rows, [[coeffs(e, f"{path}.den[{i}][{j}]") for j, e in enumerate(r)]
+                  for i, r in enumerate(den)]
+
+
+def _select(names: list[str] | None, available: tuple[str, ...], ctx: _Ctx, path: str,
+            what: str) -> list[int]:
+    if names is None:
+        return list(range(len(available)))
+    picked: list[int] = []
+    for n in names:
+        if n not in available:
+            close = suggest(n, available)
+            raise ctx.err(path, f"names {n!r}, which is not a plant {what} (plant {what}s: "
+                          f"{', '.join(available) or 'none'})",
+                          f"did you mean {close!r}?" if close else None)
+        if available.index(n) in picked:
+            raise ctx.err(path, f"names {n!r} twice")
+        picked.append(available.index(n))
+    return picked
+
+
+def _feedback(block: dict[str, Any], plant: Model, ctx: _Ctx) -> tuple[str, tuple, list[str]]:
+    from . import _interconnect as ic
+
+    _check_keys(block, FEEDBACK_KEYS, ctx, "feedback", "feedback")
+    kinds = [k for k in FEEDBACK_KINDS if k in block]
+    if len(kinds) != 1:
+        raise ctx.err("feedback", f"must give exactly one of {', '.join(FEEDBACK_KINDS)}, got "
+                      f"{', '.join(kinds) if kinds else 'none'}")
+    kind = kinds[0]
+    ins = _select(_names(block, "inputs", ctx, "feedback"), plant.inputs, ctx,
+                  "feedback.inputs", "input")
+    if not ins:
+        raise ctx.err("feedback.inputs", "selects no plant inputs; the plant has no inputs "
+                      "(B has no columns)" if not plant.inputs else "must not be empty")
+    if kind == "state_gain" and "outputs" in block:
+        raise ctx.err("feedback.outputs", "is not used by state_gain, which feeds back states")
+    outs = _select(_names(block, "outputs", ctx, "feedback"), plant.outputs, ctx,
+                   "feedback.outputs", "output")
+    if kind != "state_gain" and not outs:
+        raise ctx.err("feedback.outputs", "selects no plant outputs; the plant has no outputs "
+                      "(C has no rows)" if not plant.outputs else "must not be empty")
+    a, b, c, d = plant.A, plant.B, plant.C, plant.D
+    n, m_sel, p_sel = a.shape[0], len(ins), len(outs)
+    try:
+        if kind in ("state_gain", "output_gain"):
+            k = as_matrix(_matrix(block[kind], ctx, f"feedback.{kind}"), ctx.source,
+                          ctx.prefix + f"feedback.{kind}", line=ctx.line(f"feedback.{kind}"))
+            cols = n if kind == "state_gain" else p_sel
+            if k.shape != (m_sel, cols):
+                why = "plant states" if kind == "state_gain" else "measured outputs"
+                raise ctx.err(f"feedback.{kind}", f"must be {m_sel}×{cols} (driven inputs × "
+                              f"{why}), got {k.shape[0]}×{k.shape[1]}")
+            if kind == "state_gain":
+                return kind, ic.state_feedback(a, b, c, d, k, ins), []
+            return kind, ic.output_feedback(a, b, c, d, k, ins, outs), []
+        ctrl_block = _mapping(block["controller"], ctx, "feedback.controller")
+        ctrl, _ = _system(ctrl_block, ctx, "feedback.controller", plant=False)
+        path = "feedback.controller"
+        if ctrl.B.shape[1] != p_sel:
+            raise ctx.err(f"{path}.B" if ctrl.n_states else f"{path}.D",
+                          f"must have {p_sel} columns (one per measured plant output), "
+                          f"got {ctrl.D.shape[1] if not ctrl.n_states else ctrl.B.shape[1]}")
+        if ctrl.C.shape[0] != m_sel:
+            raise ctx.err(f"{path}.C" if ctrl.n_states else f"{path}.D",
+                          f"must have {m_sel} rows (one per driven plant input), got "
+                          f"{ctrl.C.shape[0]}")
+        extra = [f"ctrl.x{i + 1}" for i in range(ctrl.n_states)]
+        if "states" in ctrl_block:
+            extra = list(ctrl.states)
+        for s in extra:
+            if s in plant.states:
+                raise ctx.err(f"{path}.states", f"names {s!r}, which is also a plant state",
+                              "controller and plant states need different names")
+        return kind, ic.dynamic_feedback(a, b, c, d, ctrl.A, ctrl.B, ctrl.C, ctrl.D,
+                                         ins, outs), extra
+    except ic.InterconnectError as exc:
+        raise ctx.err(f"feedback.{kind}", str(exc)) from None
+
+
+def _requirements(doc: Mapping[str, Any], ctx: _Ctx, states: list[str]) -> tuple[tuple, tuple]:
+    requirements: tuple = ()
+    known: tuple = ()
+    if "requirements" in doc or "known_modes" in doc:
+        try:
+            from . import requirements as req
+        except ImportError:  # pragma: no cover - only while requirements.py is missing
+            raise ctx.err("requirements", "cannot be read: eigengate.requirements is not "
+                          "installed") from None
+        lines = ctx.prefixed_lines()
+        if "requirements" in doc:
+            requirements = tuple(req.parse_requirements(doc["requirements"], ctx.source,
+                                                        ctx.prefix + "requirements.", lines))
+        if "known_modes" in doc:
+            known = tuple(req.parse_known_modes(doc["known_modes"], ctx.source,
+                                                ctx.prefix + "known_modes", lines, states))
+    return requirements, known

@@ -1,0 +1,99 @@
+"""The command line as a real subprocess: verdicts, findings with offending modes, exit codes."""
+
+import os
+import subprocess
+import sys
+import textwrap
+from pathlib import Path
+
+import pytest
+
+EXAMPLE = Path(__file__).resolve().parents[1] / "example_repo"
+
+
+def run_cli(*args, cwd=None):
+    env = dict(os.environ, PYTHONIOENCODING="utf-8")
+    return subprocess.run([sys.executable, "-m", "eigengate", *args], capture_output=True,
+                          text=True, cwd=cwd, env=env, timeout=120)
+
+
+def write(path: Path, text: str) -> Path:
+    path.parent.mkdir(parents=True, exist_ok=True)
+    path.write_text(textwrap.dedent(text), encoding="utf-8")
+    return path
+
+
+@pytest.fixture
+def repo(tmp_path):
+    (tmp_path / ".git").mkdir()
+    # A lightly damped oscillator: s^2 + 0.4 s + 4 -> zeta = 0.4 / (2*2) = 0.1
+    # (second-order standard form, common in control textbooks).
+    write(tmp_path / "models" / "osc.yaml", """\
+        model_format: 1
+        name: osc
+        plant:
+          states: [angle, rate]
+          A: [[0, 1], [-4, -0.4]]
+        requirements:
+          stable: true
+          min_damping: 0.3
+        """)
+    write(tmp_path / "models" / "fine.yaml", """\
+        model_format: 1
+        name: fine
+        plant:
+          A: [[-1, 0], [0, -2]]
+        requirements:
+          stable: true
+        """)
+    return tmp_path
+
+
+def test_failing_requirement_names_mode_and_states(repo):
+    out = run_cli("check", "models", cwd=repo)
+    assert out.returncode == 1, out.stderr
+    text = out.stdout
+    assert "models/osc.yaml" in text and "EG103 damping-ratio" in text
+    assert "-0.2±1.98997j" in text  # -ζωn ± jωn√(1-ζ²) with ζ = 0.1, ωn = 2
+    assert "angle" in text and "rate" in text
+    assert "fine: ok" in text
+    assert text.rstrip().endswith("2 files, 2 models checked: 1 failing, 1 error, 0 warnings")
+
+
+def test_clean_repository_exits_zero(repo):
+    out = run_cli("check", "models/fine.yaml", cwd=repo)
+    assert out.returncode == 0, out.stdout + out.stderr
+    assert "EG101 asymptotic-stability" in out.stdout
+
+
+def test_bad_file_is_a_finding_and_others_still_run(repo):
+    write(repo / "models" / "broken.yaml", """\
+        model_format: 1
+        plant:
+          A: [[1, 2, 3], [4, 5, 6]]
+        """)
+    out = run_cli("check", "models", cwd=repo)
+    assert out.returncode == 1
+    assert "EG001 invalid-model" in out.stdout
+    assert "plant.A must be square, got 2×3" in out.stdout
+    assert "Traceback" not in out.stdout + out.stderr
+    assert "fine: ok" in out.stdout and "osc: FAILED" in out.stdout
+
+
+def test_usage_errors_exit_two(repo):
+    assert run_cli(cwd=repo).returncode == 2
+    out = run_cli("check", "nowhere.yaml", cwd=repo)
+    assert out.returncode == 2 and "no such file" in out.stderr
+
+
+def test_output_is_deterministic(repo):
+    first = run_cli("check", "models", cwd=repo).stdout
+    assert first == run_cli("check", "models", cwd=repo).stdout
+
+
+def test_example_repo_shows_the_deliberate_regression():
+    out = run_cli("check", str(EXAMPLE))
+    assert out.returncode == 1
+    assert "mast-sway-damper: FAILED" in out.stdout
+    assert "sway_rate" in out.stdout and "sway_angle" in out.stdout
+    assert out.stdout.count("FAIL ") == 1
