@@ -2,10 +2,11 @@
 
 import pytest
 
+from eigengate._reqparse import parse_known_modes, parse_requirement_layer, parse_requirements
 from eigengate.errors import ModelError
+from eigengate.known_modes import KnownMode
 from eigengate.requirements import (
-    DirectionCounts, EquilibriumType, KnownMode, MinDamping, PoleRegion, Stability,
-    parse_known_modes, parse_requirements,
+    DirectionCounts, EquilibriumType, MinDamping, PoleRegion, Stability, apply_layers,
 )
 
 
@@ -27,6 +28,17 @@ def test_every_key_parses_in_rule_order():
 def test_false_switches_a_requirement_off():
     assert parse({"stable": False, "no_saddle": False}) == ()
     assert parse({"stable": "marginal"}) == (Stability(allow_marginal=True),)
+    reqs, off = parse_requirement_layer({"stable": False, "min_damping": 0.2}, "m.yaml")
+    assert off == ("EG101",) and reqs == (MinDamping(0.2),)
+
+
+def test_layers_merge_rule_by_rule_and_switch_offs_win():
+    policy = (Stability(), MinDamping(0.5))
+    model = (MinDamping(0.2),)
+    assert apply_layers([(policy, ()), (model, ())]) == (Stability(), MinDamping(0.2))
+    assert apply_layers([(policy, ()), (model, ("EG101",))]) == (MinDamping(0.2),)
+    # a later layer can switch a rule back on
+    assert apply_layers([((), ("EG101",)), ((Stability(),), ())]) == (Stability(),)
 
 
 @pytest.mark.parametrize("raw, field, found", [

@@ -32,6 +32,9 @@ def _parser() -> argparse.ArgumentParser:
     check.add_argument("--root", metavar="DIR", default=None,
                        help="repository root that referenced matrix files must stay inside "
                             "(default: nearest folder with .git or pyproject.toml)")
+    check.add_argument("--config", metavar="FILE", default=None,
+                       help="configuration file (default: the nearest pyproject.toml with a "
+                            "[tool.eigengate] table, or eigengate.toml)")
     check.add_argument("-q", "--quiet", action="store_true",
                        help="print findings only, not the requirements that passed")
     return p
@@ -56,7 +59,15 @@ def main(argv: Sequence[str] | None = None) -> int:
     if missing:
         print(f"eigengate: error: no such file or folder: {', '.join(missing)}", file=sys.stderr)
         return Exit.USAGE
-    results = check_paths(args.paths, root=args.root)
+    from .config import ConfigError, load_config
+
+    try:
+        config = load_config(Path(args.config) if args.config else None,
+                             start=Path(args.paths[0]))
+    except ConfigError as exc:
+        print(f"eigengate: error: {exc}", file=sys.stderr)
+        return Exit.USAGE
+    results = check_paths(args.paths, root=args.root, config=config)
     if not results:
         print("eigengate: no model files found (a model file is .yaml/.yml/.toml/.json with "
               "a model_format key)", file=sys.stderr)

@@ -10,10 +10,11 @@ from dataclasses import dataclass
 from typing import TYPE_CHECKING, Iterable
 
 if TYPE_CHECKING:  # pragma: no cover
+    from .config import Config
     from .errors import ModelError
     from .model import Model
     from .modes import Mode
-    from .requirements import Verdict
+    from .rules import Verdict
 
 __all__ = ["Finding", "ModeRow", "findings_of", "error_finding", "INVALID_RULE"]
 
@@ -73,18 +74,24 @@ class Finding:
         return self.model if self.label is None else f"{self.model}[{self.label}]"
 
 
-def findings_of(model: "Model", verdicts: Iterable["Verdict"]) -> list[Finding]:
-    """Findings for one analysed model: every failed verdict (error) and every verdict that
-    passed only by the on_uncertain=pass policy (warning)."""
+def findings_of(model: "Model", verdicts: Iterable["Verdict"],
+                config: "Config | None" = None) -> list[Finding]:
+    """Findings for one analysed model: every failed verdict (severity from the configuration,
+    ``error`` by default) and every verdict that passed only by the on_uncertain=pass policy
+    (warning)."""
     out = []
     for v in verdicts:
         if v.passed and not v.uncertain:
             continue
+        if config is not None and not config.rule_enabled(v.rule):
+            continue
+        severity = "warning" if v.passed else (
+            "error" if config is None else config.severity_of(v.rule))
         key = v.requirement.split(":")[0]
         line = model.line_of(f"requirements.{key}") or model.line_of("requirements") \
             or model.line_of("plant.A")
         out.append(Finding(
-            rule=v.rule, name=v.name, severity="error" if not v.passed else "warning",
+            rule=v.rule, name=v.name, severity=severity,
             source=model.source, line=line, model=model.name, label=model.label,
             message=v.message, requirement=v.requirement, measured=v.measured,
             threshold=v.threshold, margin=v.margin, unit=v.unit, uncertain=v.uncertain,

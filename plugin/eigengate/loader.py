@@ -297,15 +297,15 @@ def _build(doc: Mapping[str, Any], ctx: _Ctx, name: str, label: str | None) -> M
             nc = len(extra_states)  # descriptor plant: controller states are ordinary states
             e = np.block([[e, np.zeros((e.shape[0], nc))],
                           [np.zeros((nc, e.shape[1])), np.eye(nc)]])
-    requirements, known_modes = _requirements(doc, ctx, states)
-    on_uncertain = doc.get("on_uncertain", "fail")
-    if on_uncertain not in ("fail", "pass"):
+    requirements, disabled, known_modes = _requirements(doc, ctx, states)
+    on_uncertain = doc.get("on_uncertain")
+    if on_uncertain not in (None, "fail", "pass"):
         raise ctx.err("on_uncertain", f"must be 'fail' or 'pass', got {on_uncertain!r}")
     model = from_arrays(*matrices, e, sample_period=ctx.sample_period, name=name,
                         states=states, inputs=plant.inputs, outputs=plant.outputs, label=label,
                         source=ctx.source, structure=structure, requirements=requirements,
                         known_modes=known_modes, on_uncertain=on_uncertain,
-                        lines=ctx.prefixed_lines(), prefix=ctx.prefix)
+                        disabled=disabled, lines=ctx.prefixed_lines(), prefix=ctx.prefix)
     return dataclasses.replace(model, lines=dict(ctx.lines))
 
 
@@ -491,20 +491,18 @@ def _feedback(block: dict[str, Any], plant: Model, ctx: _Ctx) -> tuple[str, tupl
         raise ctx.err(f"feedback.{kind}", str(exc)) from None
 
 
-def _requirements(doc: Mapping[str, Any], ctx: _Ctx, states: list[str]) -> tuple[tuple, tuple]:
+def _requirements(doc: Mapping[str, Any], ctx: _Ctx, states: list[str]
+                  ) -> tuple[tuple, tuple[str, ...], tuple]:
+    from . import _reqparse
+
+    lines = ctx.prefixed_lines()
     requirements: tuple = ()
+    disabled: tuple[str, ...] = ()
     known: tuple = ()
-    if "requirements" in doc or "known_modes" in doc:
-        try:
-            from . import requirements as req
-        except ImportError:  # pragma: no cover - only while requirements.py is missing
-            raise ctx.err("requirements", "cannot be read: eigengate.requirements is not "
-                          "installed") from None
-        lines = ctx.prefixed_lines()
-        if "requirements" in doc:
-            requirements = tuple(req.parse_requirements(doc["requirements"], ctx.source,
-                                                        ctx.prefix + "requirements.", lines))
-        if "known_modes" in doc:
-            known = tuple(req.parse_known_modes(doc["known_modes"], ctx.source,
-                                                ctx.prefix + "known_modes", lines, states))
-    return requirements, known
+    if "requirements" in doc:
+        requirements, disabled = _reqparse.parse_requirement_layer(
+            doc["requirements"], ctx.source, ctx.prefix + "requirements.", lines)
+    if "known_modes" in doc:
+        known = _reqparse.parse_known_modes(doc["known_modes"], ctx.source,
+                                            ctx.prefix + "known_modes", lines, states)
+    return requirements, disabled, known

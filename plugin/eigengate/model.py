@@ -15,7 +15,8 @@ from .errors import ModelError
 if TYPE_CHECKING:  # pragma: no cover
     import numpy as np
 
-    from .requirements import KnownMode, Requirement
+    from .known_modes import KnownMode
+    from .requirements import Requirement
 
 __all__ = ["Model", "from_arrays", "from_control", "as_matrix", "MAX_STATES"]
 
@@ -30,7 +31,9 @@ class Model:
     ``x' = A x + B u`` (or ``E x' = A x + B u`` for descriptor models), ``y = C x + D u``;
     for discrete models ``x[k+1] = A x[k] + B u[k]`` with sample period ``sample_period``.
     A closed loop formed by the loader is stored as its closed-loop matrices; ``structure``
-    says how it was formed.
+    says how it was formed. ``requirements`` are the model's own; ``disabled`` lists rule ids
+    the model switches off (``stable: false``) so a repository default does not apply to it;
+    ``on_uncertain`` is None when the model leaves it to the repository policy.
     """
 
     name: str
@@ -48,7 +51,8 @@ class Model:
     structure: str = "state-space"
     requirements: tuple["Requirement", ...] = ()
     known_modes: tuple["KnownMode", ...] = ()
-    on_uncertain: str = "fail"
+    on_uncertain: str | None = None
+    disabled: tuple[str, ...] = ()
     lines: Mapping[str, int] = field(default_factory=dict)
 
     @property
@@ -195,7 +199,8 @@ def from_arrays(
     structure: str = "state-space",
     requirements: Sequence["Requirement"] = (),
     known_modes: Sequence["KnownMode"] = (),
-    on_uncertain: str = "fail",
+    on_uncertain: str | None = None,
+    disabled: Sequence[str] = (),
     lines: Mapping[str, int] | None = None,
     prefix: str = "",
 ) -> Model:
@@ -260,7 +265,7 @@ def from_arrays(
                              f"must be a positive number of seconds, got {sample_period!r}",
                              line=lines.get("sample_period"))
         sample_period = float(sample_period)
-    if on_uncertain not in ("fail", "pass"):
+    if on_uncertain not in (None, "fail", "pass"):
         raise ModelError(source, "on_uncertain", f"must be 'fail' or 'pass', got {on_uncertain!r}",
                          line=lines.get("on_uncertain"))
     return Model(
@@ -276,6 +281,7 @@ def from_arrays(
         requirements=tuple(requirements),
         known_modes=tuple(known_modes),
         on_uncertain=on_uncertain,
+        disabled=tuple(disabled),
         lines=lines,
     )
 

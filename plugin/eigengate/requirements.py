@@ -12,74 +12,20 @@ threshold in 1/s or rad/s means the same thing for both kinds of model.
 
 from __future__ import annotations
 
-import difflib
 import math
-from dataclasses import dataclass, field
-from typing import Any, Callable, Iterable, Mapping, Sequence
+from dataclasses import dataclass
+from typing import Any, Callable, Iterable, Sequence
 
-from .equilibrium import EQUILIBRIUM_TYPES, classify, side
-from .errors import ModelError
+from .equilibrium import classify, side
+from .known_modes import KnownMode, known_modes_verdict, split_known_modes
 from .modes import Mode, Spectrum
+from .rules import RULES, Rule, Verdict
 
 __all__ = [
     "Verdict", "Requirement", "Stability", "MinDecayRate", "MinDamping", "MaxFrequency",
     "PoleRegion", "EquilibriumType", "NoSaddle", "DirectionCounts", "KnownMode",
-    "RULES", "evaluate", "parse_requirements", "parse_known_modes", "split_known_modes",
+    "RULES", "Rule", "evaluate", "apply_layers", "region_distance",
 ]
-
-
-@dataclass(frozen=True, eq=False)
-class Verdict:
-    """Outcome of one requirement on one model (and operating point)."""
-
-    rule: str
-    name: str
-    requirement: str
-    passed: bool
-    uncertain: bool
-    measured: float | str
-    threshold: float | str
-    margin: float | None
-    unit: str
-    offending: tuple[Mode, ...]
-    message: str
-    suggestion: str | None = None
-
-
-@dataclass(frozen=True)
-class Rule:
-    """Stable identity of a requirement: id, name, file key, units and what it checks."""
-
-    id: str
-    name: str
-    key: str
-    unit: str
-    summary: str
-
-
-RULES: dict[str, Rule] = {r.id: r for r in (
-    Rule("EG101", "asymptotic-stability", "stable", "1/s",
-         "Every mode decays: Re(s) < 0 (Hurwitz) or |z| < 1 (Schur). `stable: marginal` also "
-         "accepts simple eigenvalues on the boundary; defective ones (Jordan blocks) always fail."),
-    Rule("EG102", "decay-rate", "min_decay_rate", "1/s",
-         "Every mode decays at least like exp(-αt): -Re(s) ≥ α (discrete: |z| ≤ exp(-αT))."),
-    Rule("EG103", "damping-ratio", "min_damping", "",
-         "Every oscillatory mode has damping ratio ζ = -Re(s)/|s| ≥ ζmin."),
-    Rule("EG104", "natural-frequency", "max_frequency", "rad/s",
-         "Every mode has natural frequency ωn = |s| ≤ ωmax (deadbeat z = 0 modes excepted)."),
-    Rule("EG105", "pole-region", "pole_region", "rad/s",
-         "Every pole lies in the region given by min_decay_rate, min_damping and max_frequency; "
-         "the margin is the s-plane distance to the region's boundary."),
-    Rule("EG106", "equilibrium-type", "equilibrium",
-         "", "The origin has the expected type: " + ", ".join(EQUILIBRIUM_TYPES) + "."),
-    Rule("EG107", "no-saddle", "no_saddle", "",
-         "The origin is not a saddle: not both stable and unstable directions."),
-    Rule("EG108", "direction-counts", "directions", "",
-         "The numbers of stable, unstable and center directions are as stated."),
-    Rule("EG109", "known-modes", "known_modes", "",
-         "Every declared known mode (integrator, rigid-body mode, conserved quantity) is present "
-         "exactly as declared; known modes are left out of every other requirement."),
-)}
 
 
 class Requirement:
@@ -377,84 +323,6 @@ class DirectionCounts(Requirement):
                              offending=tuple(modes) if wrong else (), message=message)
 
 
-@dataclass(frozen=True)
-class KnownMode:
-    """A mode the model is expected to have and the requirements leave out.
-
-    Selected by ``eigenvalue`` (in the model's own plane, within ``tolerance`` or the mode's
-    error bound), by participating ``states`` (their participation factors sum to at least
-    one half), or, with neither, as modes on the stability boundary. ``count`` counts
-    eigenvalues (a conjugate pair is two).
-    """
-
-    count: int = 1
-    eigenvalue: complex | None = None
-    tolerance: float = 1e-8
-    states: tuple[str, ...] = ()
-    reason: str = ""
-
-    def describe(self) -> str:
-        sel = (f"eigenvalue {self.eigenvalue}" if self.eigenvalue is not None else
-               f"states {', '.join(self.states)}" if self.states else "on the stability boundary")
-        return f"{self.count} eigenvalue(s) {sel}" + (f" ({self.reason})" if self.reason else "")
-
-    def matches(self, mode: Mode, spectrum: Spectrum) -> bool:
-        if self.eigenvalue is not None:
-            native_err = mode.uncertainty
-            if spectrum.model.discrete:
-                native_err *= abs(mode.eigenvalue) * spectrum.model.sample_period
-            ev = self.eigenvalue
-            near = min(abs(mode.eigenvalue - ev), abs(mode.eigenvalue.conjugate() - ev))
-            if near > max(self.tolerance * max(1.0, abs(ev)), 4.0 * native_err):
-                return False
-        if self.states:
-            names = spectrum.model.states
-            idx = [names.index(s) for s in self.states if s in names]
-            if not idx or float(mode.participation[idx].sum()) < 0.5:
-                return False
-        if self.eigenvalue is None and not self.states:
-            return side(mode) == 0
-        return True
-
-
-def split_known_modes(spectrum: Spectrum, known: Sequence[KnownMode]
-                      ) -> tuple[list[Mode], list[tuple[KnownMode, list[Mode]]]]:
-    """Remove the declared known modes; return the rest and what each declaration took."""
-    remaining = list(spectrum.modes)
-    taken: list[tuple[KnownMode, list[Mode]]] = []
-    for k in known:
-        got: list[Mode] = []
-        total = 0
-        for m in list(remaining):
-            if total >= k.count:
-                break
-            if k.matches(m, spectrum):
-                got.append(m)
-                total += m.count
-                remaining.remove(m)
-        taken.append((k, got))
-    return remaining, taken
-
-
-def _known_verdict(taken: list[tuple[KnownMode, list[Mode]]]) -> Verdict:
-    wrong = [(k, got) for k, got in taken if sum(m.count for m in got) != k.count]
-    parts = []
-    for k, got in wrong:
-        found = sum(m.count for m in got)
-        parts.append(f"declared {k.describe()}, found {found}")
-    ok = not wrong
-    message = ("; ".join(parts) if parts else
-               "all declared known modes present: " + "; ".join(k.describe() for k, _ in taken))
-    rule = RULES["EG109"]
-    return Verdict(rule=rule.id, name=rule.name, requirement="known_modes",
-                   passed=ok, uncertain=False, measured=str(sum(sum(m.count for m in g)
-                                                                for _, g in taken)),
-                   threshold=str(sum(k.count for k, _ in taken)), margin=None, unit="",
-                   offending=tuple(m for _, got in wrong for m in got), message=message,
-                   suggestion=None if ok else "update known_modes to what the model has, or "
-                   "find why the mode moved")
-
-
 def evaluate(spectrum: Spectrum, requirements: Sequence[Requirement] | None = None, *,
              known_modes: Sequence[KnownMode] | None = None,
              on_uncertain: str | None = None) -> tuple[Verdict, ...]:
@@ -466,190 +334,25 @@ def evaluate(spectrum: Spectrum, requirements: Sequence[Requirement] | None = No
     model = spectrum.model
     reqs = model.requirements if requirements is None else tuple(requirements)
     known = model.known_modes if known_modes is None else tuple(known_modes)
-    policy = model.on_uncertain if on_uncertain is None else on_uncertain
+    policy = on_uncertain or model.on_uncertain or "fail"
     if policy not in ("fail", "pass"):
         raise ValueError(f"on_uncertain must be 'fail' or 'pass', got {policy!r}")
     modes, taken = split_known_modes(spectrum, known)
-    out = [_known_verdict(taken)] if known else []
+    out = [known_modes_verdict(taken)] if known else []
     out.extend(r.check(modes, spectrum, policy) for r in reqs)
     return tuple(out)
 
 
-# ---------------------------------------------------------------- parsing from model files
-
-def _positive(value: Any, source: str, fld: str, line: int | None, *, allow_zero: bool = False,
-              upper: float | None = None) -> float:
-    ok = not isinstance(value, bool) and isinstance(value, (int, float)) and math.isfinite(value)
-    if ok:
-        ok = value >= 0 if allow_zero else value > 0
-    if ok and upper is not None:
-        ok = value <= upper
-    if not ok:
-        want = "a non-negative number" if allow_zero else "a positive number"
-        if upper is not None:
-            want += f" at most {upper:g}"
-        raise ModelError(source, fld, f"must be {want}, got {value!r}", line=line)
-    return float(value)
 
 
-def _unknown(key: str, allowed: Iterable[str], source: str, fld: str, line: int | None) -> ModelError:
-    allowed = sorted(allowed)
-    close = difflib.get_close_matches(key, allowed, n=1)
-    hint = f"did you mean {close[0]!r}?" if close else "allowed: " + ", ".join(allowed)
-    return ModelError(source, fld, f"is not a known field (got {key!r})", line=line, hint=hint)
-
-
-def _mapping(value: Any, source: str, fld: str, line: int | None) -> Mapping[str, Any]:
-    if not isinstance(value, Mapping):
-        raise ModelError(source, fld, f"must be a mapping, got {type(value).__name__} {value!r:.60}",
-                         line=line)
-    return value
-
-
-def _region(value, source, fld, line):
-    value = _mapping(value, source, fld, line)
-    keys = {"min_decay_rate": "alpha", "min_damping": "zeta", "max_frequency": "omega"}
-    kw = {}
-    for k, v in value.items():
-        if k not in keys:
-            raise _unknown(k, keys, source, f"{fld}.{k}", line)
-        kw[keys[k]] = _positive(v, source, f"{fld}.{k}", line, allow_zero=k != "max_frequency",
-                                upper=1.0 if k == "min_damping" else None)
-    if not kw:
-        raise ModelError(source, fld, "must set at least one of " + ", ".join(keys) + ", got {}",
-                         line=line)
-    return PoleRegion(**kw)
-
-
-def _stable(value, source, fld, line):
-    if value is True:
-        return Stability()
-    if value == "marginal":
-        return Stability(allow_marginal=True)
-    if value is False:
-        return None
-    raise ModelError(source, fld, f"must be true, false or 'marginal', got {value!r}", line=line)
-
-
-def _equilibrium(value, source, fld, line):
-    if value not in EQUILIBRIUM_TYPES:
-        close = difflib.get_close_matches(str(value), EQUILIBRIUM_TYPES, n=1)
-        raise ModelError(source, fld, f"must be one of {', '.join(EQUILIBRIUM_TYPES)}, got "
-                         f"{value!r}", line=line,
-                         hint=f"did you mean {close[0]!r}?" if close else None)
-    return EquilibriumType(value)
-
-
-def _no_saddle(value, source, fld, line):
-    if not isinstance(value, bool):
-        raise ModelError(source, fld, f"must be true or false, got {value!r}", line=line)
-    return NoSaddle() if value else None
-
-
-def _directions(value, source, fld, line):
-    value = _mapping(value, source, fld, line)
-    kw = {}
-    for k, v in value.items():
-        if k not in ("stable", "unstable", "center"):
-            raise _unknown(k, ("stable", "unstable", "center"), source, f"{fld}.{k}", line)
-        if isinstance(v, bool) or not isinstance(v, int) or v < 0:
-            raise ModelError(source, f"{fld}.{k}", f"must be a non-negative integer, got {v!r}",
-                             line=line)
-        kw[k] = v
-    if not kw:
-        raise ModelError(source, fld, "must set at least one of stable, unstable, center, got {}",
-                         line=line)
-    return DirectionCounts(**kw)
-
-
-_PARSERS: dict[str, Callable[..., Requirement | None]] = {
-    "stable": _stable,
-    "min_decay_rate": lambda v, s, f, l: MinDecayRate(_positive(v, s, f, l, allow_zero=True)),
-    "min_damping": lambda v, s, f, l: MinDamping(_positive(v, s, f, l, allow_zero=True, upper=1.0)),
-    "max_frequency": lambda v, s, f, l: MaxFrequency(_positive(v, s, f, l)),
-    "pole_region": _region,
-    "equilibrium": _equilibrium,
-    "no_saddle": _no_saddle,
-    "directions": _directions,
-}
-
-#: Keys accepted under ``requirements:`` in a model file.
-REQUIREMENT_KEYS = tuple(_PARSERS)
-
-
-def parse_requirements(raw: Any, source: str, prefix: str = "requirements.",
-                       lines: Mapping[str, int] | None = None) -> tuple[Requirement, ...]:
-    """Validate the ``requirements:`` mapping of a model file; return requirements by rule id."""
-    lines = lines or {}
-    base = prefix.rstrip(".")
-    raw = _mapping(raw, source, base, lines.get(base))
-    out = []
-    for key, value in raw.items():
-        fld = prefix + str(key)
-        line = lines.get(fld, lines.get(base))
-        if key not in _PARSERS:
-            raise _unknown(str(key), _PARSERS, source, fld, line)
-        req = _PARSERS[key](value, source, fld, line)
-        if req is not None:
-            out.append(req)
-    return tuple(sorted(out, key=lambda r: r.rule))
-
-
-def _eigenvalue(value: Any, source: str, fld: str, line: int | None) -> complex:
-    if isinstance(value, bool):
-        pass
-    elif isinstance(value, (int, float)) and math.isfinite(value):
-        return complex(value)
-    elif isinstance(value, (list, tuple)) and len(value) == 2 and all(
-            isinstance(v, (int, float)) and not isinstance(v, bool) and math.isfinite(v)
-            for v in value):
-        return complex(value[0], value[1])
-    raise ModelError(source, fld, f"must be a real number or [real, imaginary], got {value!r}",
-                     line=line)
-
-
-def parse_known_modes(raw: Any, source: str, prefix: str = "known_modes",
-                      lines: Mapping[str, int] | None = None,
-                      states: Sequence[str] | None = None) -> tuple[KnownMode, ...]:
-    """Validate the ``known_modes:`` list of a model file.
-
-    ``states`` (the model's state names), when given, is used to check ``states`` entries.
-    """
-    lines = lines or {}
-    base = prefix.rstrip(".")
-    if not isinstance(raw, list):
-        raise ModelError(source, base, f"must be a list of mappings, got {type(raw).__name__}",
-                         line=lines.get(base))
-    allowed = ("count", "eigenvalue", "tolerance", "states", "reason")
-    out = []
-    for i, item in enumerate(raw):
-        fld = f"{base}[{i}]"
-        line = lines.get(f"{base}.{i}", lines.get(base))
-        item = _mapping(item, source, fld, line)
-        for k in item:
-            if k not in allowed:
-                raise _unknown(str(k), allowed, source, f"{fld}.{k}", line)
-        count = item.get("count", 1)
-        if isinstance(count, bool) or not isinstance(count, int) or count < 1:
-            raise ModelError(source, f"{fld}.count", f"must be a positive integer, got {count!r}",
-                             line=line)
-        ev = item.get("eigenvalue")
-        ev = None if ev is None else _eigenvalue(ev, source, f"{fld}.eigenvalue", line)
-        tol = _positive(item.get("tolerance", 1e-8), source, f"{fld}.tolerance", line)
-        names = item.get("states", [])
-        if not isinstance(names, list) or not all(isinstance(n, str) for n in names):
-            raise ModelError(source, f"{fld}.states", f"must be a list of state names, got "
-                             f"{names!r}", line=line)
-        if states is not None:
-            for n in names:
-                if n not in states:
-                    close = difflib.get_close_matches(n, states, n=1)
-                    raise ModelError(source, f"{fld}.states", f"names no state of the model "
-                                     f"(got {n!r})", line=line,
-                                     hint=f"did you mean {close[0]!r}?" if close else None)
-        reason = item.get("reason", "")
-        if not isinstance(reason, str):
-            raise ModelError(source, f"{fld}.reason", f"must be text, got {reason!r}", line=line)
-        out.append(KnownMode(count=count, eigenvalue=ev, tolerance=tol, states=tuple(names),
-                             reason=reason))
-    return tuple(out)
+def apply_layers(layers: Iterable[tuple[Sequence[Requirement], Sequence[str]]]
+                 ) -> tuple[Requirement, ...]:
+    """Combine requirement layers, general first: each layer's ``(requirements, off)`` first
+    switches off the rule ids in ``off``, then replaces rules of the same id."""
+    by_rule: dict[str, Requirement] = {}
+    for reqs, off in layers:
+        for rule in off:
+            by_rule.pop(rule, None)
+        for r in reqs:
+            by_rule[r.rule] = r
+    return tuple(by_rule[k] for k in sorted(by_rule))
