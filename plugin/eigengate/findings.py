@@ -68,6 +68,7 @@ class Finding:
     uncertain: bool = False
     modes: tuple[ModeRow, ...] = ()
     suggestion: str | None = None
+    waived: str | None = None  # the waiver's reason, when a waiver accepts this finding
 
     @property
     def title(self) -> str:

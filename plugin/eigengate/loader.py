@@ -23,7 +23,8 @@ __all__ = ["FORMAT_VERSIONS", "TOP_KEYS", "load_models", "load_models_with_refs"
 #: Versions of ``model_format`` this loader reads.
 FORMAT_VERSIONS = (1,)
 TOP_KEYS = ("model_format", "name", "description", "domain", "sample_period", "plant",
-            "feedback", "requirements", "known_modes", "on_uncertain", "operating_points")
+            "feedback", "requirements", "known_modes", "on_uncertain", "operating_points",
+            "waivers")
 POINT_KEYS = ("label", "plant", "feedback", "requirements", "known_modes", "on_uncertain")
 SS_KEYS = ("A", "B", "C", "D", "E", "states", "inputs", "outputs")
 TF_KEYS = ("num", "den", "states", "inputs", "outputs")
@@ -120,6 +121,7 @@ class _Ctx:
     prefix: str = ""  # "operating_points[1] (label 'v=30')." for a point
     sample_period: float | None = None
     domain: str = "continuous"
+    waivers: tuple = ()
 
     def line(self, path: str) -> int | None:
         parts = path.split(".")
@@ -191,6 +193,10 @@ def _load(data: dict[str, Any], *, source: str, root: Path | None, base_dir: Pat
                       "num and den (transfer function)")
     points = data.get("operating_points")
     base = {k: v for k, v in data.items() if k != "operating_points"}
+    if "waivers" in data:
+        from .waivers import parse_waivers
+
+        ctx.waivers = parse_waivers(data["waivers"], source, "waivers", lines)
     if points is None:
         return [_build(base, ctx, name, None)]
     if not isinstance(points, list) or not points:
@@ -220,6 +226,12 @@ def _load(data: dict[str, Any], *, source: str, root: Path | None, base_dir: Pat
         _check_keys(point, POINT_KEYS, pctx, "", "an operating point")
         merged = _merge(base, {k: v for k, v in point.items() if k != "label"})
         models.append(_build(merged, pctx, name, label))
+    for i, w in enumerate(ctx.waivers):
+        if w.label is not None and w.label not in seen:
+            close = suggest(w.label, list(seen))
+            raise ctx.err(f"waivers[{i}].label", f"names no operating point (got {w.label!r})",
+                          f"did you mean {close!r}?" if close else
+                          "labels: " + ", ".join(seen))
     return models
 
 
@@ -305,7 +317,8 @@ def _build(doc: Mapping[str, Any], ctx: _Ctx, name: str, label: str | None) -> M
                         states=states, inputs=plant.inputs, outputs=plant.outputs, label=label,
                         source=ctx.source, structure=structure, requirements=requirements,
                         known_modes=known_modes, on_uncertain=on_uncertain,
-                        disabled=disabled, lines=ctx.prefixed_lines(), prefix=ctx.prefix)
+                        disabled=disabled, waivers=ctx.waivers, lines=ctx.prefixed_lines(),
+                        prefix=ctx.prefix)
     return dataclasses.replace(model, lines=dict(ctx.lines))
 
 

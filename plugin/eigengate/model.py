@@ -17,6 +17,7 @@ if TYPE_CHECKING:  # pragma: no cover
 
     from .known_modes import KnownMode
     from .requirements import Requirement
+    from .waivers import Waiver
 
 __all__ = ["Model", "from_arrays", "from_control", "as_matrix", "MAX_STATES"]
 
@@ -53,6 +54,7 @@ class Model:
     known_modes: tuple["KnownMode", ...] = ()
     on_uncertain: str | None = None
     disabled: tuple[str, ...] = ()
+    waivers: tuple["Waiver", ...] = ()
     lines: Mapping[str, int] = field(default_factory=dict)
 
     @property
@@ -201,6 +203,7 @@ def from_arrays(
     known_modes: Sequence["KnownMode"] = (),
     on_uncertain: str | None = None,
     disabled: Sequence[str] = (),
+    waivers: Sequence["Waiver"] = (),
     lines: Mapping[str, int] | None = None,
     prefix: str = "",
 ) -> Model:
@@ -282,6 +285,7 @@ def from_arrays(
         known_modes=tuple(known_modes),
         on_uncertain=on_uncertain,
         disabled=tuple(disabled),
+        waivers=tuple(waivers),
         lines=lines,
     )
 

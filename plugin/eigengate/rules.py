@@ -67,6 +67,12 @@ RULES: dict[str, Rule] = {r.id: r for r in (
     Rule("EG001", "invalid-model", "", "",
          "The model file could not be read, or a field is malformed; the message names the "
          "file, the field, what was found and what was expected."),
+    Rule("EG002", "expired-waiver", "waivers", "",
+         "A waiver's expiry date has passed: it no longer waives anything, and the finding it "
+         "covered is reported again."),
+    Rule("EG003", "unused-waiver", "waivers", "",
+         "A waiver matched no finding: the problem it was written for is gone, or the waiver "
+         "names the wrong rule, model or operating point."),
     Rule("EG109", "known-modes", "known_modes", "",
          "Every declared known mode (integrator, rigid-body mode, conserved quantity) is present "
          "exactly as declared; known modes are left out of every other requirement."),
