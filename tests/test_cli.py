@@ -81,9 +81,19 @@ def test_bad_file_is_a_finding_and_others_still_run(repo):
 
 
 def test_usage_errors_exit_two(repo):
-    assert run_cli(cwd=repo).returncode == 2
     out = run_cli("check", "nowhere.yaml", cwd=repo)
     assert out.returncode == 2 and "no such file" in out.stderr
+    out = run_cli("check", "--jobs", "0", cwd=repo)
+    assert out.returncode == 2 and "--jobs must be at least 1, got 0" in out.stderr
+    out = run_cli("check", "--output", "pdf:x.pdf", cwd=repo)
+    assert out.returncode == 2 and "'pdf:x.pdf'" in out.stderr
+    assert run_cli("--no-such-option", cwd=repo).returncode == 2
+
+
+def test_default_command_checks_the_repository_root(repo):
+    out = run_cli(cwd=repo / "models")
+    assert out.returncode == 1
+    assert "models/osc.yaml" in out.stdout and "models/fine.yaml" in out.stdout
 
 
 def test_output_is_deterministic(repo):

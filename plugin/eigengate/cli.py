@@ -1,13 +1,31 @@
-"""Command line: ``eigengate check PATH...`` analyses model files and prints their verdicts."""
+"""Command line: check a repository's models, show one model, list and explain the rules.
+
+``main(argv) -> int`` is importable and testable in-process; ``eigengate`` and
+``python -m eigengate`` call it. Exit status: 0 clean, 1 findings, 2 usage, configuration or
+internal error.
+"""
 
 from __future__ import annotations
 
 import argparse
 import enum
+import os
 import sys
+from pathlib import Path
 from typing import Sequence
 
-__all__ = ["main", "run", "Exit"]
+__all__ = ["main", "run", "Exit", "FORMATS"]
+
+COMMANDS = ("check", "show", "rules", "explain")
+#: Output formats: name → (module, function, takes tool_version).
+FORMATS = {
+    "text": ("report_text", "render_results", False),
+    "json": ("report_json", "render_json", True),
+    "sarif": ("report_sarif", "render_sarif", True),
+    "junit": ("report_junit", "render_junit", False),
+    "markdown": ("report_markdown", "render_markdown", False),
+    "annotations": ("report_annotations", "render_annotations", False),
+}
 
 
 class Exit(enum.IntEnum):
@@ -16,65 +34,213 @@ class Exit(enum.IntEnum):
     USAGE = 2
 
 
+class UsageError(Exception):
+    """A command-line mistake: printed as one line, exit status 2."""
+
+
 def _parser() -> argparse.ArgumentParser:
     from . import __version__
 
     p = argparse.ArgumentParser(
         prog="eigengate",
-        description="Check the stability requirements of control-system model files. "
-                    "An engineering aid for model regression checks, not a safety sign-off.")
+        description="Check the stability requirements of control-system model files. An "
+                    "engineering aid for model regression checks, not a safety sign-off.")
     p.add_argument("--version", action="version", version=f"eigengate {__version__}")
     sub = p.add_subparsers(dest="command", metavar="COMMAND")
-    check = sub.add_parser("check", help="analyse model files and report verdicts",
-                           description="Analyse model files (or every model file below a "
-                                       "folder) and report each requirement's verdict.")
-    check.add_argument("paths", nargs="+", metavar="PATH", help="model file or folder")
-    check.add_argument("--root", metavar="DIR", default=None,
-                       help="repository root that referenced matrix files must stay inside "
-                            "(default: nearest folder with .git or pyproject.toml)")
-    check.add_argument("--config", metavar="FILE", default=None,
-                       help="configuration file (default: the nearest pyproject.toml with a "
-                            "[tool.eigengate] table, or eigengate.toml)")
+
+    check = sub.add_parser("check", help="check every model file of the repository (default)",
+                           description="Find the configured model files (or the ones below "
+                                       "PATH), analyse them, evaluate requirements and policy, "
+                                       "and report findings.")
+    check.add_argument("paths", nargs="*", metavar="PATH",
+                       help="model files or folders (default: the repository root)")
+    _config_arg(check)
+    check.add_argument("--format", "-f", default="text", choices=sorted(FORMATS),
+                       help="format written to standard output (default: text)")
+    check.add_argument("--output", "-o", action="append", default=[], metavar="FORMAT:FILE",
+                       help="also write a report to FILE, e.g. sarif:eigengate.sarif "
+                            "(repeatable)")
+    check.add_argument("--jobs", "-j", type=int, default=None, metavar="N",
+                       help="worker processes (default: the number of cores)")
+    check.add_argument("--no-cache", action="store_true",
+                       help="neither read nor write the result cache")
+    check.add_argument("--color", choices=("auto", "always", "never"), default="auto",
+                       help="colour in text output (default: auto, only on a terminal; "
+                            "NO_COLOR is respected)")
     check.add_argument("-q", "--quiet", action="store_true",
-                       help="print findings only, not the requirements that passed")
+                       help="text output: findings only, not the requirements that passed")
+
+    show = sub.add_parser("show", help="show one model: modes, equilibrium and every verdict")
+    show.add_argument("path", metavar="FILE", help="a model file")
+    show.add_argument("--label", default=None, help="only this operating point")
+    _config_arg(show)
+
+    sub.add_parser("rules", help="list the rules with their ids, keys and units")
+    explain = sub.add_parser("explain", help="explain one rule")
+    explain.add_argument("rule", metavar="RULE", help="a rule id (EG103) or name")
     return p
 
 
+def _config_arg(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--config", metavar="FILE", default=None,
+                   help="configuration file (default: the nearest pyproject.toml with a "
+                        "[tool.eigengate] table, or eigengate.toml)")
+
+
+def _normalise(argv: list[str]) -> list[str]:
+    """``eigengate [options] [PATH...]`` means ``eigengate check ...``."""
+    if not argv or (argv[0] not in COMMANDS and argv[0] not in ("-h", "--help", "--version")):
+        return ["check", *argv]
+    return argv
+
+
 def main(argv: Sequence[str] | None = None) -> int:
-    """Run the command line; return the exit code (0 clean, 1 findings, 2 usage error)."""
+    """Run the command line; return the exit status."""
     parser = _parser()
     try:
-        args = parser.parse_args(argv)
-    except SystemExit as exc:  # argparse exits on --help/--version (0) and usage errors (2)
+        args = parser.parse_args(_normalise(list(sys.argv[1:] if argv is None else argv)))
+    except SystemExit as exc:  # argparse: --help/--version (0) and usage errors (2)
         return int(exc.code or 0)
-    if args.command is None:
-        parser.print_help(sys.stderr)
+    try:
+        if args.command == "rules":
+            return _rules()
+        if args.command == "explain":
+            return _explain(args.rule)
+        if args.command == "show":
+            return _show(args)
+        return _check(args)
+    except UsageError as exc:
+        print(f"eigengate: error: {exc}", file=sys.stderr)
         return Exit.USAGE
-    from pathlib import Path
-
-    from .engine import check_paths
-    from .report_text import render_results
-
-    missing = [p for p in args.paths if not Path(p).exists()]
-    if missing:
-        print(f"eigengate: error: no such file or folder: {', '.join(missing)}", file=sys.stderr)
+    except KeyboardInterrupt:  # pragma: no cover - interactive
+        print("eigengate: interrupted", file=sys.stderr)
         return Exit.USAGE
+    except Exception as exc:  # an eigengate bug: one line, the traceback on request
+        if os.environ.get("EIGENGATE_DEBUG"):
+            raise
+        print(f"eigengate: internal error: {type(exc).__name__}: {exc} (set EIGENGATE_DEBUG=1 "
+              "for the traceback, and please report it)", file=sys.stderr)
+        return Exit.USAGE
+
+
+def _load_config(args, start: Path):
     from .config import ConfigError, load_config
 
     try:
-        config = load_config(Path(args.config) if args.config else None,
-                             start=Path(args.paths[0]))
+        return load_config(Path(args.config) if args.config else None, start=start)
     except ConfigError as exc:
-        print(f"eigengate: error: {exc}", file=sys.stderr)
-        return Exit.USAGE
-    results = check_paths(args.paths, root=args.root, config=config)
+        raise UsageError(str(exc)) from None
+
+
+def _outputs(specs: list[str]) -> list[tuple[str, Path]]:
+    out = []
+    for spec in specs:
+        fmt, sep, file = spec.partition(":")
+        if not sep or not file or fmt not in FORMATS:
+            raise UsageError(f"--output wants FORMAT:FILE with FORMAT one of "
+                             f"{', '.join(sorted(FORMATS))}, got {spec!r}")
+        out.append((fmt, Path(file)))
+    return out
+
+
+def render(fmt: str, results: list, *, color: bool = False, quiet: bool = False) -> str:
+    """Render ``results`` (FileResult objects) in ``fmt``."""
+    import importlib
+
+    from . import __version__
+
+    module, name, versioned = FORMATS[fmt]
+    func = getattr(importlib.import_module(f".{module}", __package__), name)
+    if fmt == "text":
+        return func(results, verbose=not quiet, color=color)
+    return func(results, tool_version=__version__) if versioned else func(results)
+
+
+def _write_atomic(path: Path, text: str) -> None:
+    import tempfile
+
+    path.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", dir=path.parent)
+    with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as fh:
+        fh.write(text)
+    os.replace(tmp, path)
+
+
+def _use_color(choice: str) -> bool:
+    if choice != "auto":
+        return choice == "always"
+    return sys.stdout.isatty() and not os.environ.get("NO_COLOR")
+
+
+def _check(args) -> int:
+    from .engine import FileResult
+    from .runner import scan, terminal_progress
+
+    outputs = _outputs(args.output)
+    missing = [p for p in args.paths if not Path(p).exists()]
+    if missing:
+        raise UsageError(f"no such file or folder: {', '.join(missing)}")
+    if args.jobs is not None and args.jobs < 1:
+        raise UsageError(f"--jobs must be at least 1, got {args.jobs}")
+    config = _load_config(args, Path(args.paths[0]) if args.paths else Path.cwd())
+    paths = args.paths or [config.root]
+    result = scan(paths, config, jobs=args.jobs, use_cache=not args.no_cache,
+                  progress=terminal_progress())
+    files = list(result.files)
+    if result.policy:
+        files.append(FileResult(source=config.source or "pyproject.toml",
+                                findings=result.policy))
+    if not files:
+        print("eigengate: no model files found (configure [tool.eigengate] include, or name "
+              "the files; a model file has a model_format key)", file=sys.stderr)
+    for fmt, path in outputs:
+        _write_atomic(path, render(fmt, files))
+    sys.stdout.write(render(args.format, files, color=_use_color(args.color), quiet=args.quiet))
+    return Exit.FINDINGS if result.failed else Exit.CLEAN
+
+
+def _show(args) -> int:
+    from .engine import check_file
+    from .report_text import render_model
+
+    path = Path(args.path)
+    if not path.is_file():
+        raise UsageError(f"no such model file: {args.path}")
+    config = _load_config(args, path)
+    fr = check_file(path, config=config)
+    if fr.error is not None:
+        print(fr.error.render())
+        return Exit.FINDINGS
+    results = [r for r in fr.results if args.label is None or r.model.label == args.label]
     if not results:
-        print("eigengate: no model files found (a model file is .yaml/.yml/.toml/.json with "
-              "a model_format key)", file=sys.stderr)
-        return Exit.CLEAN
-    sys.stdout.write(render_results(results, verbose=not args.quiet))
-    failed = any(f.severity == "error" for r in results for f in r.findings)
-    return Exit.FINDINGS if failed else Exit.CLEAN
+        labels = ", ".join(str(r.model.label) for r in fr.results)
+        raise UsageError(f"{fr.source} has no operating point {args.label!r} (labels: {labels})")
+    sys.stdout.write("\n".join(render_model(r) for r in results))
+    return Exit.CLEAN if all(r.passed for r in results) else Exit.FINDINGS
+
+
+def _rules() -> int:
+    from .rules import RULES
+
+    width = max(len(r.name) for r in RULES.values())
+    for r in sorted(RULES.values(), key=lambda r: r.id):
+        key = f"  [{r.key}]" if r.key else ""
+        print(f"{r.id}  {r.name.ljust(width)}{key}".rstrip())
+    return Exit.CLEAN
+
+
+def _explain(name: str) -> int:
+    from .rules import RULES, explain_rule
+
+    rule = RULES.get(name.upper()) or next((r for r in RULES.values() if r.name == name), None)
+    if rule is None:
+        import difflib
+
+        close = difflib.get_close_matches(name, [*RULES, *(r.name for r in RULES.values())], 1)
+        raise UsageError(f"no rule {name!r}" + (f" (did you mean {close[0]!r}?)" if close else
+                                                 "; `eigengate rules` lists them"))
+    print(explain_rule(rule))
+    return Exit.CLEAN
 
 
 def run() -> None:

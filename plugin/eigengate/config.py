@@ -18,6 +18,11 @@ verdict. Keys::
     paths = ["models/mast/**"]
     requirements = { min_damping = 0.2 }
     on_uncertain = "pass"
+    [[tool.eigengate.waivers]]         # accepted findings: rule, reason, optional expiry,
+    rule = "EG103"                     #   model name and operating-point label
+    paths = ["models/legacy/**"]
+    reason = "legacy airframe, replaced in the next release"
+    expires = 2027-06-30
 
 Requirement layers apply in order: repository defaults, each matching override, the model
 file's own ``requirements:``; each layer replaces rules of the same id and may switch one off
@@ -38,11 +43,12 @@ from .errors import EigengateError
 if TYPE_CHECKING:  # pragma: no cover
     from .model import Model
     from .requirements import Requirement
+    from .waivers import Waiver
 
 __all__ = ["Config", "ConfigError", "Override", "load_config", "find_config", "CONFIG_KEYS"]
 
 CONFIG_KEYS = ("include", "exclude", "on_uncertain", "select", "ignore", "requirements",
-               "severity", "overrides", "allow_python")
+               "severity", "overrides", "waivers", "allow_python")
 OVERRIDE_KEYS = ("paths", "requirements", "on_uncertain")
 SEVERITIES = ("error", "warning", "off")
 
@@ -86,7 +92,9 @@ class Config:
     requirements: Layer = ((), ())
     severity: Mapping[str, str] = field(default_factory=dict)
     overrides: tuple[Override, ...] = ()
+    waivers: tuple["Waiver", ...] = ()
     allow_python: bool = False
+    digest: str = ""  # hash of the configuration table, part of every cache key
 
     # ------------------------------------------------------------------ selection
     def is_model_path(self, rel: str) -> bool:
@@ -106,6 +114,11 @@ class Config:
 
     def severity_of(self, rule: str) -> str:
         return self.severity.get(rule, "error")
+
+    def waivers_for(self, rel: str) -> tuple["Waiver", ...]:
+        from ._glob import glob_match as match
+
+        return tuple(w for w in self.waivers if any(match(rel, p) for p in w.paths))
 
     # ------------------------------------------------------------------ requirements
     def layers_for(self, rel: str) -> list[Layer]:
@@ -276,4 +289,17 @@ def parse_config(table: Mapping[str, Any], *, root: Path, source: str = "pyproje
                 on_uncertain=None if "on_uncertain" not in item else
                 _policy(item["on_uncertain"], source, f"{where}on_uncertain")))
         kw["overrides"] = tuple(out)
+    if "waivers" in table:
+        from .errors import ModelError
+        from .waivers import parse_waivers
+
+        try:
+            kw["waivers"] = parse_waivers(table["waivers"], source, "waivers", in_config=True)
+        except ModelError as exc:
+            raise ConfigError(source, exc.field, exc.problem, exc.hint) from None
+    import hashlib
+    import json
+
+    kw["digest"] = hashlib.sha256(json.dumps(table, sort_keys=True, default=str)
+                                  .encode()).hexdigest()
     return Config(root=root, source=source, **kw)

@@ -11,10 +11,13 @@ from .findings import Finding, error_finding, findings_of
 from .model import Model
 
 if TYPE_CHECKING:  # pragma: no cover
+    import datetime
+
     from .config import Config
 
-__all__ = ["ModelResult", "FileResult", "check_model", "check_file", "check_paths",
-           "discover_model_files", "MODEL_SUFFIXES"]
+__all__ = ["ModelResult", "FileResult", "analyse_model", "apply_waivers", "check_model",
+           "analyse_file", "file_result", "check_file", "check_paths",
+           "discover_model_files", "policy_findings", "MODEL_SUFFIXES"]
 
 MODEL_SUFFIXES = (".yaml", ".yml", ".toml", ".json")
 
@@ -28,15 +31,22 @@ class ModelResult:
     equilibrium: "object"
     verdicts: tuple
     findings: tuple[Finding, ...]
+    waived: tuple[Finding, ...] = ()
+    used_waivers: tuple = ()
 
     @property
     def passed(self) -> bool:
-        return all(v.passed for v in self.verdicts)
+        """No finding of severity error (waived findings do not count)."""
+        return not any(f.severity == "error" for f in self.findings)
 
 
 @dataclass(frozen=True, eq=False)
 class FileResult:
-    """Everything learnt from one model file: a result per operating point, or an error."""
+    """Everything learnt from one model file: a result per operating point, or an error.
+
+    ``findings`` holds the findings of every operating point plus the file's own (invalid
+    file, expired or unused waivers of the file).
+    """
 
     source: str
     results: tuple[ModelResult, ...] = ()
@@ -45,12 +55,16 @@ class FileResult:
 
     @property
     def passed(self) -> bool:
-        return self.error is None and all(r.passed for r in self.results)
+        return not any(f.severity == "error" for f in self.findings)
+
+    @property
+    def used_waivers(self) -> tuple:
+        return tuple(w for r in self.results for w in r.used_waivers)
 
 
-def check_model(model: Model, config: "Config | None" = None) -> ModelResult:
+def analyse_model(model: Model, config: "Config | None" = None) -> ModelResult:
     """Analyse one model and evaluate its requirements (the repository layers of ``config``
-    below the model's own, when given)."""
+    below the model's own, when given); no waivers applied yet."""
     from .equilibrium import classify
     from .modes import analyse
     from .requirements import evaluate, split_known_modes
@@ -64,22 +78,71 @@ def check_model(model: Model, config: "Config | None" = None) -> ModelResult:
                        verdicts=verdicts, findings=tuple(findings_of(model, verdicts, config)))
 
 
-def check_file(path: str | Path, root: str | Path | None = None,
-               config: "Config | None" = None) -> FileResult:
-    """Load every operating point of a model file and check it; a bad file becomes one
-    invalid-model finding instead of an exception."""
-    from .loader import load_models
+def apply_waivers(result: ModelResult, config: "Config | None" = None,
+                  on: "datetime.date | None" = None) -> ModelResult:
+    """Set aside the findings that a live waiver of the model file or the policy accepts."""
+    from dataclasses import replace
+
+    from .waivers import split_waived, today
+
+    model = result.model
+    waivers = model.waivers + (config.waivers_for(model.source) if config else ())
+    if not waivers:
+        return result
+    kept, waived = split_waived(result.findings, waivers, on or today())
+    return replace(result, findings=tuple(kept), waived=tuple(f for f, _ in waived),
+                   used_waivers=tuple(w for _, w in waived))
+
+
+def check_model(model: Model, config: "Config | None" = None,
+                on: "datetime.date | None" = None) -> ModelResult:
+    """:func:`analyse_model` then :func:`apply_waivers`; ``on`` is the date waivers are
+    judged on (default: today)."""
+    return apply_waivers(analyse_model(model, config), config, on)
+
+
+def file_result(source: str, results: Sequence[ModelResult], error: ModelError | None,
+                config: "Config | None" = None, on: "datetime.date | None" = None
+                ) -> FileResult:
+    """Assemble a file's result from its analysed (pre-waiver) models: waivers applied, and
+    the file's expired or unused waivers reported."""
+    from .waivers import today, waiver_findings
+
+    if error is not None:
+        return FileResult(source=error.source, error=error, findings=(error_finding(error),))
+    on = on or today()
+    results = tuple(apply_waivers(r, config, on) for r in results)
+    first = results[0].model
+    own = waiver_findings(first.waivers, [w for r in results for w in r.used_waivers], on,
+                          model=first.name)
+    return FileResult(source=source, results=results,
+                      findings=tuple(f for r in results for f in r.findings) + tuple(own))
+
+
+def analyse_file(path: str | Path, root: str | Path | None = None,
+                 config: "Config | None" = None
+                 ) -> tuple[str, tuple[ModelResult, ...], ModelError | None, list[str]]:
+    """Load and analyse a model file without waivers: (source, results, error, referenced
+    matrix files). The cache stores exactly this."""
+    from .loader import load_models_with_refs
 
     if root is None and config is not None:
         root = config.root
     try:
-        models = load_models(path, root=root)
-        results = tuple(check_model(m, config) for m in models)
+        models, refs = load_models_with_refs(path, root=root)
+        return models[0].source, tuple(analyse_model(m, config) for m in models), None, refs
     except ModelError as exc:
-        return FileResult(source=exc.source, error=exc, findings=(error_finding(exc),))
-    source = models[0].source if models else str(path)
-    return FileResult(source=source, results=results,
-                      findings=tuple(f for r in results for f in r.findings))
+        return exc.source, (), exc, []
+
+
+def check_file(path: str | Path, root: str | Path | None = None,
+               config: "Config | None" = None, on: "datetime.date | None" = None
+               ) -> FileResult:
+    """Load every operating point of a model file and check it; a bad file becomes one
+    invalid-model finding instead of an exception. Expired and unused waivers written in the
+    file are findings of the file."""
+    source, results, error, _ = analyse_file(path, root, config)
+    return file_result(source, results, error, config, on)
 
 
 def _looks_like_model(path: Path) -> bool:
@@ -128,7 +191,17 @@ def discover_model_files(paths: Sequence[str | Path], config: "Config | None" = 
 
 
 def check_paths(paths: Iterable[str | Path], root: str | Path | None = None,
-                config: "Config | None" = None) -> list[FileResult]:
+                config: "Config | None" = None, on: "datetime.date | None" = None
+                ) -> list[FileResult]:
     """Check every model file under ``paths``; one bad file never stops the others."""
-    return [check_file(f, root=root, config=config)
+    return [check_file(f, root=root, config=config, on=on)
             for f in discover_model_files(list(paths), config)]
+
+
+def policy_findings(config: "Config", results: Sequence[FileResult],
+                    on: "datetime.date | None" = None) -> list[Finding]:
+    """Expired and unused waivers of the repository policy, judged over a whole run."""
+    from .waivers import today, waiver_findings
+
+    used = [w for fr in results for w in fr.used_waivers]
+    return waiver_findings(config.waivers, used, on or today())

@@ -133,6 +133,11 @@ class Spectrum:
         return max((abs(m.eigenvalue) for m in self.modes), default=0.0)
 
     @property
+    def n_eigenvalues(self) -> int:
+        """Number of finite eigenvalues, with multiplicity and conjugates."""
+        return sum(m.count for m in self.modes)
+
+    @property
     def min_damping(self) -> float:
         """Smallest damping ratio among oscillatory modes (1.0 when there is none)."""
         return min((m.damping_ratio for m in self.modes if m.oscillatory), default=1.0)

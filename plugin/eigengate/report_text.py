@@ -7,7 +7,7 @@ from typing import Iterable, Sequence
 
 from .findings import Finding, ModeRow
 
-__all__ = ["render_results", "mode_table", "format_eigenvalue"]
+__all__ = ["render_results", "model_lines", "finding_lines", "mode_table", "format_eigenvalue"]
 
 
 def format_eigenvalue(z: complex, pair: bool) -> str:
@@ -24,18 +24,25 @@ def _num(x: float, unit: str = "") -> str:
     return f"{text} {unit}".rstrip()
 
 
-def mode_table(rows: Sequence[ModeRow], discrete: bool = False, indent: str = "    ") -> list[str]:
-    """Rows of a fixed-width table: mode, eigenvalue, ζ, ωn, τ, participating states."""
+def mode_table(rows: Sequence[ModeRow], discrete: bool = False, indent: str = "    ",
+               detail: bool = False) -> list[str]:
+    """Rows of a fixed-width table: mode, eigenvalue, ζ, ωn, τ, participating states (and,
+    with ``detail``, the error bound and condition number)."""
     head = ["mode", "z" if discrete else "eigenvalue", "ζ", "ωn [rad/s]", "τ [s]",
             "participating states"]
+    if detail:
+        head[5:5] = ["± bound", "κ"]
     body = []
     for r in rows:
         ev = format_eigenvalue(r.eigenvalue, r.pair)
         if r.multiplicity > 1:
             ev += f" ×{r.multiplicity}" + (" (defective)" if r.defective else "")
         states = ", ".join(f"{n} {p:.2f}" for n, p in r.top_states)
-        body.append([f"#{r.index}", ev, f"{r.damping_ratio:.3g}", _num(r.natural_frequency),
-                     _num(r.time_constant), states])
+        row = [f"#{r.index}", ev, f"{r.damping_ratio:.3g}", _num(r.natural_frequency),
+               _num(r.time_constant), states]
+        if detail:
+            row[5:5] = [f"{r.uncertainty:.2g}", f"{r.condition:.3g}"]
+        body.append(row)
     widths = [max(len(h), *(len(b[i]) for b in body)) if body else len(h)
               for i, h in enumerate(head)]
     lines = [indent + "  ".join(h.ljust(w) for h, w in zip(head, widths)).rstrip()]
@@ -44,7 +51,9 @@ def mode_table(rows: Sequence[ModeRow], discrete: bool = False, indent: str = " 
     return lines
 
 
-def _finding_lines(f: Finding, discrete: bool) -> list[str]:
+def finding_lines(f: Finding, discrete: bool) -> list[str]:
+    """Lines of one finding: head (mark, rule, requirement, line), message, then the
+    uncertainty note, the hint and the mode table when there are any."""
     mark = "FAIL" if f.severity == "error" else "warn"
     where = f"line {f.line}" if f.line else ""
     head = f"  {mark}  {f.rule} {f.name}"
@@ -63,41 +72,55 @@ def _finding_lines(f: Finding, discrete: bool) -> list[str]:
     return out
 
 
-def render_results(results: Iterable["object"], *, verbose: bool = True) -> str:
-    """Render :class:`~eigengate.engine.FileResult` objects as text, with a one-line summary."""
+_finding_lines = finding_lines  # the former private name
+
+
+def model_lines(r: "object", *, verbose: bool = True) -> list[str]:
+    """The block of one :class:`~eigengate.engine.ModelResult`: a summary line (status,
+    eigenvalue count, spectral abscissa or radius, min ζ, type of the origin), the passing
+    requirements when ``verbose``, then each finding."""
+    sp, m = r.spectrum, r.model
+    status = "ok" if r.passed else "FAILED"
+    figure = (f"spectral radius {sp.spectral_radius:.6g}" if m.discrete else
+              f"spectral abscissa {sp.spectral_abscissa:.6g} 1/s")
+    extra = f", {sp.infinite} infinite" if sp.infinite else ""
+    count = sum(mode.count for mode in sp.modes)
+    lines = [f"  {m.title}: {status} — {count} eigenvalues in {len(sp.modes)} "
+             f"modes{extra}, {figure}, "
+             f"min ζ {sp.min_damping:.3g}; origin: {r.equilibrium.type}"]
+    if verbose:
+        for v in r.verdicts:
+            if v.passed and not v.uncertain:
+                margin = f" ({v.message})" if v.margin is None else \
+                    f" (margin {v.margin:.4g})"
+                lines.append(f"    pass  {v.rule} {v.name}  [{v.requirement}]{margin}")
+    for f in r.findings:
+        lines.extend(finding_lines(f, m.discrete))
+    return lines
+
+
+def render_results(results: Iterable["object"], *, verbose: bool = True,
+                   color: bool = False) -> str:
+    """Render :class:`~eigengate.engine.FileResult` objects as text, grouped by file, with a
+    one-line summary; ANSI colour only when ``color``."""
     lines: list[str] = []
     files = models = failing = 0
     errors = warnings = 0
     for fr in results:
         files += 1
         lines.append(fr.source)
-        if fr.error is not None:
-            failing += 1
+        if fr.error is not None or not fr.results:
+            failing += 1 if fr.error is not None else 0
             for f in fr.findings:
-                lines.extend(_finding_lines(f, False))
+                lines.extend(finding_lines(f, False))
                 errors += 1
             lines.append("")
             continue
         for r in fr.results:
             models += 1
-            sp, m = r.spectrum, r.model
-            status = "ok" if r.passed else "FAILED"
             failing += 0 if r.passed else 1
-            figure = (f"spectral radius {sp.spectral_radius:.6g}" if m.discrete else
-                      f"spectral abscissa {sp.spectral_abscissa:.6g} 1/s")
-            extra = f", {sp.infinite} infinite" if sp.infinite else ""
-            count = sum(mode.count for mode in sp.modes)
-            lines.append(f"  {m.title}: {status} — {count} eigenvalues in {len(sp.modes)} "
-                         f"modes{extra}, {figure}, "
-                         f"min ζ {sp.min_damping:.3g}; origin: {r.equilibrium.type}")
-            if verbose:
-                for v in r.verdicts:
-                    if v.passed and not v.uncertain:
-                        margin = f" ({v.message})" if v.margin is None else \
-                            f" (margin {v.margin:.4g})"
-                        lines.append(f"    pass  {v.rule} {v.name}  [{v.requirement}]{margin}")
+            lines.extend(model_lines(r, verbose=verbose))
             for f in r.findings:
-                lines.extend(_finding_lines(f, m.discrete))
                 if f.severity == "error":
                     errors += 1
                 else:
@@ -106,4 +129,30 @@ def render_results(results: Iterable["object"], *, verbose: bool = True) -> str:
     lines.append(f"{files} file{'s' if files != 1 else ''}, {models} model"
                  f"{'s' if models != 1 else ''} checked: {failing} failing, {errors} error"
                  f"{'s' if errors != 1 else ''}, {warnings} warning{'s' if warnings != 1 else ''}")
+    return "\n".join(lines) + "\n"
+
+
+def render_model(result: "object") -> str:
+    """Everything about one analysed model: every mode, the origin's type, every verdict."""
+    from .findings import ModeRow
+
+    m, sp = result.model, result.spectrum
+    kind = f"discrete, T = {m.sample_period:g} s" if m.discrete else "continuous"
+    lines = [f"{m.source} — {m.title}",
+             f"  {m.structure}, {kind}, {m.n_states} states"
+             + (f", {sp.infinite} infinite eigenvalues (descriptor)" if sp.infinite else ""),
+             f"  origin: {result.equilibrium.describe()}",
+             (f"  spectral radius {sp.spectral_radius:.6g}, " if m.discrete else "  ")
+             + f"spectral abscissa {sp.spectral_abscissa:.6g} 1/s, min ζ {sp.min_damping:.3g}",
+             "  modes (least stable first):"]
+    lines.extend(mode_table([ModeRow.of(x) for x in sp.modes], m.discrete, detail=True))
+    lines.append("  verdicts:")
+    for v in result.verdicts:
+        mark = "pass" if v.passed else "FAIL"
+        margin = "" if v.margin is None else f", margin {v.margin:.4g}"
+        note = " (numerically uncertain)" if v.uncertain else ""
+        lines.append(f"    {mark}  {v.rule} {v.name}  [{v.requirement}]{margin}{note}")
+        lines.append(f"          {v.message}")
+    for f in result.waived:
+        lines.append(f"    waived  {f.rule} {f.name}: {f.waived}")
     return "\n".join(lines) + "\n"

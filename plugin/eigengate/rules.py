@@ -87,3 +87,31 @@ def rule_by_key(key: str) -> Rule:
         if rule.key == key:
             return rule
     raise KeyError(key)
+
+
+_EXAMPLES = {
+    "EG101": "requirements:\n  stable: true        # or: stable: marginal",
+    "EG102": "requirements:\n  min_decay_rate: 0.5  # 1/s: every mode decays at least like e^(-0.5 t)",
+    "EG103": "requirements:\n  min_damping: 0.3",
+    "EG104": "requirements:\n  max_frequency: 120   # rad/s",
+    "EG105": "requirements:\n  pole_region: {min_decay_rate: 0.5, min_damping: 0.4, "
+             "max_frequency: 120}",
+    "EG106": "requirements:\n  equilibrium: stable-node",
+    "EG107": "requirements:\n  no_saddle: true",
+    "EG108": "requirements:\n  directions: {stable: 4, unstable: 0, center: 0}",
+    "EG109": "known_modes:\n  - {eigenvalue: 0, count: 2, reason: rigid-body translation}",
+    "EG002": "waivers:\n  - {rule: EG103, reason: 'retune in review', expires: 2027-03-31}",
+    "EG003": "waivers:\n  - {rule: EG103, reason: 'retune in review'}",
+    "EG001": "model_format: 1\nplant:\n  A: [[-1.0]]",
+}
+
+
+def explain_rule(rule: Rule) -> str:
+    """A rule's id, name, file key, unit, description and an example."""
+    lines = [f"{rule.id} {rule.name}", "", rule.summary, ""]
+    if rule.key:
+        lines.append(f"model-file key: {rule.key}" + (f" (unit: {rule.unit})" if rule.unit else ""))
+    lines += ["", "example:", *("  " + x for x in _EXAMPLES.get(rule.id, "").splitlines()), "",
+              "A failing rule is an error by default; [tool.eigengate.severity] can make it a "
+              "warning or switch it off, and a waiver (with a reason) can accept one finding."]
+    return "\n".join(lines)
