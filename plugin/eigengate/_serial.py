@@ -12,8 +12,22 @@ from __future__ import annotations
 import base64
 import dataclasses
 import datetime as _dt
+import functools
 from collections.abc import Sequence
 from typing import Any
+
+import numpy as np
+
+from . import requirements as _requirements
+from .engine import ModelResult
+from .equilibrium import Equilibrium
+from .errors import ModelError
+from .findings import Finding, ModeRow
+from .known_modes import KnownMode
+from .model import Model
+from .modes import Mode, Spectrum
+from .rules import Verdict
+from .waivers import Waiver
 
 __all__ = ["results_to_data", "results_from_data", "CachedSpectrum", "FORMAT"]
 
@@ -23,8 +37,6 @@ FORMAT = 1
 def _arr(a) -> dict | None:
     if a is None:
         return None
-    import numpy as np
-
     a = np.ascontiguousarray(a, dtype=np.float64)
     return {"shape": list(a.shape), "f64": base64.b64encode(a.tobytes()).decode("ascii")}
 
@@ -32,8 +44,6 @@ def _arr(a) -> dict | None:
 def _unarr(d):
     if d is None:
         return None
-    import numpy as np
-
     raw = base64.b64decode(d["f64"], validate=True)
     return np.frombuffer(raw, dtype=np.float64).reshape(d["shape"]).copy()
 
@@ -48,9 +58,9 @@ def _uc(v) -> complex:
 
 # ------------------------------------------------------------------ small records
 
+@functools.lru_cache(maxsize=None)
 def _req_classes() -> dict[str, type]:
-    from . import requirements as r
-
+    r = _requirements
     return {c.__name__: c for c in (r.Stability, r.MinDecayRate, r.MinDamping, r.MaxFrequency,
                                      r.PoleRegion, r.EquilibriumType, r.NoSaddle,
                                      r.DirectionCounts)}
@@ -70,18 +80,26 @@ def _record(obj) -> dict:
     return out
 
 
-def _unrecord(cls, d: dict):
-    kw = {}
-    for f in dataclasses.fields(cls):
-        v = d[f.name]
-        if isinstance(v, dict) and "complex" in v:
-            v = _uc(v["complex"])
-        elif isinstance(v, dict) and "date" in v:
-            v = _dt.date.fromisoformat(v["date"])
-        elif isinstance(v, list):
-            v = tuple(tuple(x) if isinstance(x, list) else x for x in v)
-        kw[f.name] = v
-    return cls(**kw)
+@functools.lru_cache(maxsize=None)
+def _fields(cls) -> tuple[str, ...]:
+    return tuple(f.name for f in dataclasses.fields(cls))
+
+
+def _value(v):
+    if type(v) is dict:
+        if "complex" in v:
+            return _uc(v["complex"])
+        if "date" in v:
+            return _dt.date.fromisoformat(v["date"])
+    elif type(v) is list:
+        return tuple(tuple(x) if type(x) is list else x for x in v)
+    return v
+
+
+def _unrecord(cls, d: dict, **given):
+    """Rebuild a dataclass from :func:`_record` data; ``given`` fields are taken as they are."""
+    kw = {name: _value(d[name]) for name in _fields(cls) if name not in given}
+    return cls(**kw, **given)
 
 
 # ------------------------------------------------------------------ modes, lazily
@@ -105,8 +123,6 @@ class _LazyModes(Sequence):
                 every = self._source._all()
                 self._built = tuple(every[i] for i in self._pick)
             else:
-                from .modes import Mode
-
                 part = _unarr(self._part)
                 self._built = tuple(
                     Mode(index=r[0], eigenvalue=_uc(r[1]), s=_uc(r[2]),
@@ -150,14 +166,10 @@ class CachedSpectrum:
         self.modes = _LazyModes(data["modes"], data["participation"], model.states)
 
     def eigenvalues(self) -> list[complex]:
-        from .modes import Spectrum
-
         return Spectrum.eigenvalues(self)  # same logic, reading self.modes
 
 
 def _spectrum_data(sp) -> dict:
-    import numpy as np
-
     modes = list(sp.modes)
     part = np.stack([m.participation for m in modes], axis=1) if modes else np.zeros((0, 0))
     return {
@@ -190,9 +202,6 @@ def _model_data(m) -> dict:
 
 
 def _model_from(d: dict):
-    from .known_modes import KnownMode
-    from .model import Model
-    from .waivers import Waiver
 
     classes = _req_classes()
     return Model(
@@ -213,12 +222,8 @@ def _finding_data(f) -> dict:
 
 
 def _finding_from(d: dict):
-    from .findings import Finding, ModeRow
 
-    d = dict(d)
-    rows = tuple(_unrecord(ModeRow, r) for r in d.pop("modes"))
-    d["modes"] = []
-    return dataclasses.replace(_unrecord(Finding, d), modes=rows)
+    return _unrecord(Finding, d, modes=tuple(_unrecord(ModeRow, r) for r in d["modes"]))
 
 
 def _verdict_data(v) -> dict:
@@ -235,19 +240,11 @@ def _result_data(r) -> dict:
 
 
 def _result_from(d: dict):
-    from .engine import ModelResult
-    from .equilibrium import Equilibrium
-    from .rules import Verdict
 
     model = _model_from(d["model"])
     spectrum = CachedSpectrum(model, d["spectrum"])
-    verdicts = []
-    for v in d["verdicts"]:
-        v = dict(v)
-        picks = v.pop("offending")
-        v["offending"] = []
-        verdicts.append(dataclasses.replace(_unrecord(Verdict, v),
-                                            offending=spectrum.modes.subset(picks)))
+    verdicts = [_unrecord(Verdict, v, offending=spectrum.modes.subset(v["offending"]))
+                for v in d["verdicts"]]
     return ModelResult(model=model, spectrum=spectrum,
                        equilibrium=_unrecord(Equilibrium, d["equilibrium"]),
                        verdicts=tuple(verdicts),
@@ -264,7 +261,6 @@ def results_to_data(source: str, results: Sequence, error) -> dict:
 
 def results_from_data(d: dict):
     """Inverse of :func:`results_to_data`: ``(source, results, error)``."""
-    from .errors import ModelError
 
     if "error" in d:
         src, fld, problem, line, hint = d["error"]

@@ -2,9 +2,10 @@
 
 An entry's key hashes the tool version, the cache format, the effective configuration, the
 model file's repository path and bytes. The entry records the hash of every matrix file the
-model referenced; a changed reference is a miss. Entries are JSON (never pickles), written
-atomically; an entry that cannot be read, parsed or checked is ignored and rebuilt, never
-trusted. The folder explains itself (README, .gitignore, CACHEDIR.TAG).
+model referenced; a changed reference is a miss. Entries are JSON (never pickles), kept in one
+pack file per configuration that is read once and written once per run, atomically; a pack or
+entry that cannot be read, parsed or checked is ignored and rebuilt, never trusted. The folder
+explains itself (README, .gitignore, CACHEDIR.TAG).
 """
 
 from __future__ import annotations
@@ -34,7 +35,15 @@ def _sha(data: bytes) -> str:
 
 
 class ResultCache:
-    """Read and write cache entries below ``root / CACHE_DIR``."""
+    """The cache of one configuration: one JSON pack of entries below ``root / CACHE_DIR``.
+
+    ``get`` serves entries from the pack read at the first lookup; ``put`` collects new ones;
+    ``save`` writes the pack once, atomically, keeping the entries used or made in this run
+    and, up to a limit, older ones (so scans of parts of a repository do not evict each
+    other). One pack per configuration digest, so two configurations never mix.
+    """
+
+    MAX_ENTRIES = 100_000
 
     def __init__(self, root: Path, config_digest: str, *, folder: Path | None = None) -> None:
         from . import __version__
@@ -43,14 +52,15 @@ class ResultCache:
         self.root = Path(root)
         self.folder = Path(folder) if folder is not None else self.root / CACHE_DIR
         self._salt = f"eigengate {__version__}\0cache {FORMAT}\0config {config_digest}\0"
+        self._pack = self.folder / f"v{FORMAT}" / f"{_sha(self._salt.encode())[:24]}.json"
+        self._old: dict[str, Any] | None = None
+        self._new: dict[str, Any] = {}
+        self._used: set[str] = set()
 
     def key(self, source: str, content: bytes) -> str:
         return _sha(self._salt.encode() + source.encode() + b"\0" + content)
 
-    def _entry(self, key: str) -> Path:
-        return self.folder / "v1" / key[:2] / f"{key}.json"
-
-    def _ref_hashes(self, refs: list[str]) -> dict[str, str] | None:
+    def _ref_hashes(self, refs) -> dict[str, str] | None:
         out = {}
         for rel in refs:
             try:
@@ -59,37 +69,59 @@ class ResultCache:
                 return None
         return out
 
+    def _entries(self) -> dict[str, Any]:
+        if self._old is None:
+            try:
+                pack = json.loads(self._pack.read_text(encoding="utf-8"))
+                entries = pack.get("entries") if pack.get("salt") == self._salt else None
+                self._old = entries if isinstance(entries, dict) else {}
+            except (OSError, ValueError, AttributeError):
+                self._old = {}  # missing or corrupt: start again, never trust it
+        return self._old
+
     def get(self, key: str) -> dict[str, Any] | None:
         """The stored data for ``key``, or None (missing, corrupt, or a reference changed)."""
+        entry = self._entries().get(key)
         try:
-            entry = json.loads(self._entry(key).read_text(encoding="utf-8"))
-            if entry.get("key") != key or not isinstance(entry.get("data"), dict):
-                return None
-            refs = entry.get("refs", {})
-            if not isinstance(refs, dict):
+            refs = entry["refs"]
+            if not isinstance(refs, dict) or not isinstance(entry["data"], dict):
                 return None
             if refs and self._ref_hashes(sorted(refs)) != refs:
                 return None
-            return entry["data"]
-        except (OSError, ValueError, TypeError, AttributeError):
+        except (KeyError, TypeError):
             return None
+        self._used.add(key)
+        return entry["data"]
 
     def put(self, key: str, data: dict[str, Any], refs: list[str]) -> None:
-        """Store ``data`` atomically; failures to write are ignored (the cache is optional)."""
+        """Remember ``data`` for ``key``; written by :meth:`save`."""
         hashes = self._ref_hashes(refs)
-        if hashes is None:
+        if hashes is not None:
+            self._new[key] = {"refs": hashes, "data": data}
+
+    def save(self) -> None:
+        """Write the pack atomically if anything new was made; failures are ignored (the
+        cache is optional, and a half-written pack is never visible)."""
+        if not self._new:
             return
-        text = json.dumps({"key": key, "refs": hashes, "data": data}, sort_keys=True)
+        old = self._entries()
+        keep = {k: old[k] for k in self._used if k in old}
+        for k, v in old.items():
+            if len(keep) + len(self._new) >= self.MAX_ENTRIES:
+                break
+            keep.setdefault(k, v)
+        keep.update(self._new)
+        text = json.dumps({"salt": self._salt, "entries": keep}, sort_keys=True)
         try:
             self._ensure_folder()
-            target = self._entry(key)
-            target.parent.mkdir(parents=True, exist_ok=True)
-            fd, tmp = tempfile.mkstemp(prefix=".tmp-", dir=target.parent)
+            self._pack.parent.mkdir(parents=True, exist_ok=True)
+            fd, tmp = tempfile.mkstemp(prefix=".tmp-", dir=self._pack.parent)
             with os.fdopen(fd, "w", encoding="utf-8") as fh:
                 fh.write(text)
-            os.replace(tmp, target)
+            os.replace(tmp, self._pack)
         except OSError:
             return
+        self._old, self._new = keep, {}
 
     def _ensure_folder(self) -> None:
         if (self.folder / "CACHEDIR.TAG").is_file():

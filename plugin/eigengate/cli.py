@@ -67,6 +67,9 @@ def _parser() -> argparse.ArgumentParser:
     check.add_argument("--color", choices=("auto", "always", "never"), default="auto",
                        help="colour in text output (default: auto, only on a terminal; "
                             "NO_COLOR is respected)")
+    check.add_argument("--only-model-files", action="store_true",
+                       help="skip named files that are not model files (for hooks that pass "
+                            "every changed file)")
     check.add_argument("-q", "--quiet", action="store_true",
                        help="text output: findings only, not the requirements that passed")
 
@@ -185,7 +188,7 @@ def _check(args) -> int:
     config = _load_config(args, Path(args.paths[0]) if args.paths else Path.cwd())
     paths = args.paths or [config.root]
     result = scan(paths, config, jobs=args.jobs, use_cache=not args.no_cache,
-                  progress=terminal_progress())
+                  progress=terminal_progress(), filter_named=args.only_model_files)
     files = list(result.files)
     if result.policy:
         files.append(FileResult(source=config.source or "pyproject.toml",

@@ -154,40 +154,49 @@ def _looks_like_model(path: Path) -> bool:
     return b"model_format" in head
 
 
-def discover_model_files(paths: Sequence[str | Path], config: "Config | None" = None
-                         ) -> list[Path]:
+def discover_model_files(paths: Sequence[str | Path], config: "Config | None" = None,
+                         *, filter_named: bool = False) -> list[Path]:
     """Expand folders into the model files below them, sorted; named files pass through.
 
     Below a folder, a file is a model file when its suffix is one of MODEL_SUFFIXES, no part
     of its path is hidden, the configuration (include/exclude globs, relative to its root)
     selects it, and, when no include globs are configured, its text has a ``model_format``
-    key (so other YAML and JSON files of the repository are left alone).
+    key (so other YAML and JSON files of the repository are left alone). ``filter_named``
+    applies the same test to named files (a pre-commit hook is handed every changed file).
     """
+    import os
+
+    root = os.path.realpath(config.root) if config is not None else None
     out: list[Path] = []
     for p in paths:
         p = Path(p)
         if not p.is_dir():
-            out.append(p)
+            if not filter_named or _selected(str(p), config, root):
+                out.append(p)
             continue
-        for f in sorted(p.rglob("*")):
-            rel = f.relative_to(p).parts
-            if any(part.startswith(".") for part in rel) or f.suffix not in MODEL_SUFFIXES:
-                continue
-            if f.name == "pyproject.toml" or not f.is_file():
-                continue
-            if config is not None:
-                try:
-                    rel_root = f.resolve().relative_to(config.root.resolve()).as_posix()
-                except ValueError:
-                    rel_root = f.as_posix()
-                if not config.is_model_path(rel_root):
-                    continue
-                if config.include:
-                    out.append(f)
-                    continue
-            if _looks_like_model(f):
-                out.append(f)
+        found = []
+        for folder, dirs, names in os.walk(p):
+            dirs[:] = sorted(d for d in dirs if not d.startswith("."))
+            found.extend(full for full in (os.path.join(folder, n) for n in names
+                                           if not n.startswith("."))
+                         if _selected(full, config, root))
+        out.extend(Path(f) for f in sorted(found))
     return out
+
+
+def _selected(full: str, config: "Config | None", root: str | None) -> bool:
+    import os
+
+    name = os.path.basename(full)
+    if name == "pyproject.toml" or os.path.splitext(name)[1] not in MODEL_SUFFIXES:
+        return False
+    if config is not None:
+        rel = os.path.relpath(os.path.realpath(full), root).replace(os.sep, "/")
+        if not config.is_model_path(rel):
+            return False
+        if config.include:
+            return True
+    return _looks_like_model(Path(full))
 
 
 def check_paths(paths: Iterable[str | Path], root: str | Path | None = None,

@@ -7,7 +7,15 @@ from typing import Iterable, Sequence
 
 from .findings import Finding, ModeRow
 
-__all__ = ["render_results", "model_lines", "finding_lines", "mode_table", "format_eigenvalue"]
+__all__ = ["render_results", "render_model", "model_lines", "finding_lines", "mode_table",
+           "format_eigenvalue"]
+
+_COLORS = {"FAIL": "\x1b[1;31m", "warn": "\x1b[33m", "ok": "\x1b[32m", "FAILED": "\x1b[1;31m",
+           "pass": "\x1b[32m"}
+
+
+def _paint(word: str, color: bool) -> str:
+    return f"{_COLORS[word]}{word}\x1b[0m" if color and word in _COLORS else word
 
 
 def format_eigenvalue(z: complex, pair: bool) -> str:
@@ -51,10 +59,10 @@ def mode_table(rows: Sequence[ModeRow], discrete: bool = False, indent: str = " 
     return lines
 
 
-def finding_lines(f: Finding, discrete: bool) -> list[str]:
+def finding_lines(f: Finding, discrete: bool, color: bool = False) -> list[str]:
     """Lines of one finding: head (mark, rule, requirement, line), message, then the
     uncertainty note, the hint and the mode table when there are any."""
-    mark = "FAIL" if f.severity == "error" else "warn"
+    mark = _paint("FAIL" if f.severity == "error" else "warn", color)
     where = f"line {f.line}" if f.line else ""
     head = f"  {mark}  {f.rule} {f.name}"
     if f.requirement and f.rule != "EG001":
@@ -75,17 +83,16 @@ def finding_lines(f: Finding, discrete: bool) -> list[str]:
 _finding_lines = finding_lines  # the former private name
 
 
-def model_lines(r: "object", *, verbose: bool = True) -> list[str]:
+def model_lines(r: "object", *, verbose: bool = True, color: bool = False) -> list[str]:
     """The block of one :class:`~eigengate.engine.ModelResult`: a summary line (status,
     eigenvalue count, spectral abscissa or radius, min ζ, type of the origin), the passing
-    requirements when ``verbose``, then each finding."""
+    requirements when ``verbose``, then each finding and each waived finding."""
     sp, m = r.spectrum, r.model
-    status = "ok" if r.passed else "FAILED"
+    status = _paint("ok" if r.passed else "FAILED", color)
     figure = (f"spectral radius {sp.spectral_radius:.6g}" if m.discrete else
               f"spectral abscissa {sp.spectral_abscissa:.6g} 1/s")
     extra = f", {sp.infinite} infinite" if sp.infinite else ""
-    count = sum(mode.count for mode in sp.modes)
-    lines = [f"  {m.title}: {status} — {count} eigenvalues in {len(sp.modes)} "
+    lines = [f"  {m.title}: {status} — {sp.n_eigenvalues} eigenvalues in {len(sp.modes)} "
              f"modes{extra}, {figure}, "
              f"min ζ {sp.min_damping:.3g}; origin: {r.equilibrium.type}"]
     if verbose:
@@ -93,9 +100,12 @@ def model_lines(r: "object", *, verbose: bool = True) -> list[str]:
             if v.passed and not v.uncertain:
                 margin = f" ({v.message})" if v.margin is None else \
                     f" (margin {v.margin:.4g})"
-                lines.append(f"    pass  {v.rule} {v.name}  [{v.requirement}]{margin}")
+                lines.append(f"    {_paint('pass', color)}  {v.rule} {v.name}  "
+                             f"[{v.requirement}]{margin}")
     for f in r.findings:
-        lines.extend(finding_lines(f, m.discrete))
+        lines.extend(finding_lines(f, m.discrete, color))
+    for f in getattr(r, "waived", ()):
+        lines.append(f"    waived  {f.rule} {f.name}  [{f.requirement}]: {f.waived}")
     return lines
 
 
@@ -109,22 +119,20 @@ def render_results(results: Iterable["object"], *, verbose: bool = True,
     for fr in results:
         files += 1
         lines.append(fr.source)
-        if fr.error is not None or not fr.results:
-            failing += 1 if fr.error is not None else 0
-            for f in fr.findings:
-                lines.extend(finding_lines(f, False))
-                errors += 1
-            lines.append("")
-            continue
+        failing += 1 if fr.error is not None else 0
+        shown: set[int] = set()
         for r in fr.results:
             models += 1
             failing += 0 if r.passed else 1
-            lines.extend(model_lines(r, verbose=verbose))
-            for f in r.findings:
-                if f.severity == "error":
-                    errors += 1
-                else:
-                    warnings += 1
+            lines.extend(model_lines(r, verbose=verbose, color=color))
+            shown.update(id(f) for f in r.findings)
+        for f in fr.findings:
+            if id(f) not in shown:  # the file's own: invalid file, expired or unused waivers
+                lines.extend(finding_lines(f, False, color))
+            if f.severity == "error":
+                errors += 1
+            else:
+                warnings += 1
         lines.append("")
     lines.append(f"{files} file{'s' if files != 1 else ''}, {models} model"
                  f"{'s' if models != 1 else ''} checked: {failing} failing, {errors} error"

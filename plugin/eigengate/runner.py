@@ -3,8 +3,8 @@ pool, apply waivers, and report the policy's own expired or unused waivers.
 
 The pool is the standard library's (``concurrent.futures``) on the ``forkserver`` start
 method where available (no fork of a process whose BLAS threads are running); workers analyse
-and write their cache entries themselves and return plain JSON-safe data, which is cheap to
-send back and rebuilds lazily.
+and return plain JSON-safe data, which is cheap to send back, rebuilds lazily, and is what the
+parent stores in the cache (written once, at the end of the scan).
 """
 
 from __future__ import annotations
@@ -55,51 +55,40 @@ def default_jobs() -> int:
 _WORKER: dict = {}
 
 
-def _init_worker(config: Config, use_cache: bool) -> None:
-    from .cache import ResultCache
-
+def _init_worker(config: Config) -> None:
     _WORKER["config"] = config
-    _WORKER["cache"] = ResultCache(config.root, config.digest) if use_cache else None
 
 
-def _analyse_to_data(path: str, key: str | None, config: Config, cache) -> dict:
+def _work(path: str) -> tuple[dict, list[str], bool]:
+    """Analyse one file in a worker: (JSON-safe data, referenced files, whether it loaded)."""
     from ._serial import results_to_data
 
-    source, results, error, refs = analyse_file(path, config.root, config)
-    data = results_to_data(source, results, error)
-    if cache is not None and key is not None and error is None:
-        cache.put(key, data, refs)
-    return data
-
-
-def _work(item: tuple[str, str | None]) -> dict:
-    path, key = item
-    return _analyse_to_data(path, key, _WORKER["config"], _WORKER["cache"])
+    source, results, error, refs = analyse_file(path, _WORKER["config"].root, _WORKER["config"])
+    return results_to_data(source, results, error), refs, error is None
 
 
 # ------------------------------------------------------------------ parent side
 
-def _source_of(path: Path, root: Path) -> str:
-    try:
-        return path.resolve().relative_to(root.resolve()).as_posix()
-    except ValueError:
-        return path.as_posix()
+def _source_of(path: Path, root: str) -> str:
+    rel = os.path.relpath(os.path.realpath(path), root)
+    return path.as_posix() if rel.startswith("..") else rel.replace(os.sep, "/")
 
 
 def scan(paths: Sequence[str | Path], config: Config, *, jobs: int | None = None,
          use_cache: bool = True, progress: Callable[[int, int], None] | None = None,
-         on=None) -> Scan:
+         on=None, filter_named: bool = False) -> Scan:
     """Check every model file below ``paths`` under ``config``."""
     from ._serial import results_from_data
     from .cache import ResultCache
     from .waivers import today
 
     on = on or today()
-    files = discover_model_files(list(paths), config)
+    files = discover_model_files(list(paths), config, filter_named=filter_named)
     cache = ResultCache(config.root, config.digest) if use_cache else None
     slots: list[tuple | None] = [None] * len(files)
     todo: list[tuple[int, str, str | None]] = []
     hits = 0
+    real_root = os.path.realpath(config.root)
     for i, f in enumerate(files):
         key = None
         if cache is not None:
@@ -108,7 +97,7 @@ def scan(paths: Sequence[str | Path], config: Config, *, jobs: int | None = None
             except OSError:
                 content = None
             if content is not None:
-                key = cache.key(_source_of(f, config.root), content)
+                key = cache.key(_source_of(f, real_root), content)
                 data = cache.get(key)
                 if data is not None:
                     try:
@@ -124,7 +113,9 @@ def scan(paths: Sequence[str | Path], config: Config, *, jobs: int | None = None
         progress(done, total)
     jobs = default_jobs() if jobs is None else max(1, jobs)
     if jobs > 1 and len(todo) >= POOL_THRESHOLD:
-        for i, data in zip((t[0] for t in todo), _pool_map(todo, config, use_cache, jobs)):
+        for (i, _, key), (data, refs, ok) in zip(todo, _pool_map(todo, config, jobs)):
+            if cache is not None and key is not None and ok:
+                cache.put(key, data, refs)
             slots[i] = results_from_data(data)
             done += 1
             if progress:
@@ -140,12 +131,14 @@ def scan(paths: Sequence[str | Path], config: Config, *, jobs: int | None = None
             done += 1
             if progress:
                 progress(done, total)
+    if cache is not None:
+        cache.save()
     out = tuple(file_result(s, r, e, config, on) for s, r, e in slots)  # type: ignore[misc]
     return Scan(files=out, policy=tuple(policy_findings(config, out, on)), cache_hits=hits,
                 analysed=len(todo))
 
 
-def _pool_map(todo, config: Config, use_cache: bool, jobs: int):
+def _pool_map(todo, config: Config, jobs: int):
     import multiprocessing as mp
     from concurrent.futures import ProcessPoolExecutor
 
@@ -157,8 +150,8 @@ def _pool_map(todo, config: Config, use_cache: bool, jobs: int):
                                     "numpy", "scipy.linalg", "yaml"])
     chunk = max(1, len(todo) // (jobs * 8))
     with ProcessPoolExecutor(max_workers=jobs, mp_context=ctx, initializer=_init_worker,
-                             initargs=(config, use_cache)) as pool:
-        yield from pool.map(_work, [(p, k) for _, p, k in todo], chunksize=chunk)
+                             initargs=(config,)) as pool:
+        yield from pool.map(_work, [p for _, p, _ in todo], chunksize=chunk)
 
 
 def terminal_progress(stream=None) -> Callable[[int, int], None] | None:

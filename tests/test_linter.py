@@ -1,0 +1,189 @@
+"""The linter end to end as a real subprocess on temporary repositories: policy, waivers,
+cache, process pool, commands."""
+
+import json
+import os
+import subprocess
+import sys
+import textwrap
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+
+def run_cli(*args, cwd, env=None):
+    full = {**os.environ, "PYTHONIOENCODING": "utf-8", "EIGENGATE_TODAY": "2026-12-01",
+            **(env or {})}
+    return subprocess.run([sys.executable, "-m", "eigengate", *args], capture_output=True,
+                          text=True, cwd=cwd, env=full, timeout=180)
+
+
+def write(path: Path, text: str) -> Path:
+    path.parent.mkdir(parents=True, exist_ok=True)
+    path.write_text(textwrap.dedent(text), encoding="utf-8")
+    return path
+
+
+# s^2 + 0.4 s + 4: zeta = 0.1, wn = 2 (second-order standard form, common in control textbooks)
+OSC = textwrap.dedent("""\
+    model_format: 1
+    name: {name}
+    plant:
+      states: [angle, rate]
+      A: [[0, 1], [-4, -0.4]]
+    """)
+
+
+@pytest.fixture
+def repo(tmp_path):
+    (tmp_path / ".git").mkdir()
+    write(tmp_path / "pyproject.toml", """\
+        [project]
+        name = "demo"
+
+        [tool.eigengate]
+        include = ["models/**/*.yaml"]
+        [tool.eigengate.requirements]
+        stable = true
+        min_damping = 0.3
+        [[tool.eigengate.overrides]]
+        paths = ["models/flex/**"]
+        requirements = { min_damping = 0.05 }
+        """)
+    write(tmp_path / "models" / "arm.yaml", OSC.format(name="arm"))
+    write(tmp_path / "models" / "flex" / "panel.yaml", OSC.format(name="panel"))
+    write(tmp_path / "ci" / "pipeline.yaml", "steps: [build, test]\n")
+    return tmp_path
+
+
+def test_policy_defaults_and_overrides_apply(repo):
+    out = run_cli("check", cwd=repo)
+    assert out.returncode == 1, out.stderr
+    assert "arm: FAILED" in out.stdout and "EG103 damping-ratio" in out.stdout
+    assert "panel: ok" in out.stdout  # the override lowers the threshold to 0.05
+    assert "pipeline.yaml" not in out.stdout  # not selected by include
+
+
+def test_waiver_in_model_file_accepts_the_finding_and_expiry_brings_it_back(repo):
+    write(repo / "models" / "arm.yaml", OSC.format(name="arm") + textwrap.dedent("""\
+        waivers:
+          - rule: EG103
+            reason: arm retune scheduled, tracked in review
+            expires: 2027-01-31
+        """))
+    out = run_cli("check", cwd=repo)
+    assert out.returncode == 0, out.stdout
+    assert "waived  EG103" in out.stdout and "arm retune scheduled" in out.stdout
+    late = run_cli("check", cwd=repo, env={"EIGENGATE_TODAY": "2027-02-01"})
+    assert late.returncode == 1
+    assert "EG002 expired-waiver" in late.stdout and "EG103 damping-ratio" in late.stdout
+
+
+def test_unused_and_invalid_waivers(repo):
+    write(repo / "models" / "flex" / "panel.yaml", OSC.format(name="panel") + textwrap.dedent("""\
+        waivers:
+          - {rule: EG101, reason: not needed any more}
+        """))
+    out = run_cli("check", cwd=repo)
+    assert "EG003 unused-waiver" in out.stdout
+    write(repo / "models" / "flex" / "panel.yaml", OSC.format(name="panel") + textwrap.dedent("""\
+        waivers:
+          - {rule: EG103}
+        """))
+    out = run_cli("check", cwd=repo)
+    assert "models/flex/panel.yaml" in out.stdout
+    assert "waivers[0].reason is required" in out.stdout
+
+
+def test_policy_waiver_and_its_unused_report(repo):
+    with open(repo / "pyproject.toml", "a", encoding="utf-8") as fh:
+        fh.write(textwrap.dedent("""\
+            [[tool.eigengate.waivers]]
+            rule = "EG103"
+            paths = ["models/arm.yaml"]
+            reason = "accepted for the demonstrator build"
+            [[tool.eigengate.waivers]]
+            rule = "EG104"
+            paths = ["models/**"]
+            reason = "stale"
+            """))
+    out = run_cli("check", cwd=repo)
+    assert out.returncode == 0, out.stdout
+    assert "accepted for the demonstrator build" in out.stdout
+    assert "EG003 unused-waiver" in out.stdout and "pyproject.toml" in out.stdout
+
+
+def test_bad_configuration_is_a_usage_error(repo):
+    text = (repo / "pyproject.toml").read_text(encoding="utf-8")
+    (repo / "pyproject.toml").write_text(text.replace("min_damping = 0.3", "min_damping = 3"),
+                                         encoding="utf-8")
+    out = run_cli("check", cwd=repo)
+    assert out.returncode == 2
+    assert "pyproject.toml: [tool.eigengate] requirements.min_damping" in out.stderr
+    assert "got 3" in out.stderr and "Traceback" not in out.stderr
+
+
+def test_cache_hit_and_invalidation_when_a_referenced_npz_changes(repo):
+    np.savez(repo / "models" / "plant.npz", A=np.array([[0.0, 1.0], [-4.0, -0.4]]))
+    write(repo / "models" / "ref.yaml", """\
+        model_format: 1
+        name: ref
+        plant:
+          A: {file: plant.npz, key: A}
+        """)
+    first = run_cli("check", cwd=repo)
+    cache = repo / ".eigengate-cache"
+    assert (cache / "CACHEDIR.TAG").read_text().startswith("Signature: 8a477f597d28d172789f06886806bc55")
+    assert (cache / ".gitignore").is_file() and (cache / "README").is_file()
+    again = run_cli("check", cwd=repo)
+    assert again.stdout == first.stdout
+    assert "ref: FAILED" in first.stdout
+    # retune the referenced matrix: zeta = 4/(2*2) = 1 (second-order standard form)
+    np.savez(repo / "models" / "plant.npz", A=np.array([[0.0, 1.0], [-4.0, -4.0]]))
+    changed = run_cli("check", cwd=repo)
+    assert "ref: ok" in changed.stdout
+
+
+def test_corrupt_cache_is_ignored_and_rebuilt(repo):
+    first = run_cli("check", cwd=repo).stdout
+    for pack in (repo / ".eigengate-cache").rglob("*.json"):
+        pack.write_text('{"salt": "x", "entries": {broken', encoding="utf-8")
+    assert run_cli("check", cwd=repo).stdout == first
+    for pack in (repo / ".eigengate-cache").rglob("*.json"):
+        data = json.loads(pack.read_text(encoding="utf-8"))
+        for entry in data["entries"].values():
+            entry["data"]["results"] = "nonsense"
+        pack.write_text(json.dumps(data), encoding="utf-8")
+    assert run_cli("check", cwd=repo).stdout == first
+    assert run_cli("check", "--no-cache", cwd=repo).stdout == first
+
+
+def test_jobs_two_gives_the_same_findings_as_jobs_one(repo):
+    rng = np.random.default_rng(5)
+    for i in range(24):  # enough files for the pool to be used
+        a = rng.normal(size=(5, 5)) - 1.5 * np.eye(5)
+        write(repo / "models" / "gen" / f"m{i:02d}.yaml",
+              f"model_format: 1\nname: gen{i:02d}\nplant:\n  A: {a.round(4).tolist()}\n")
+    one = run_cli("check", "--no-cache", "--jobs", "1", "--format", "json", cwd=repo)
+    two = run_cli("check", "--no-cache", "--jobs", "2", "--format", "json", cwd=repo)
+    assert one.returncode == two.returncode
+    assert one.stdout == two.stdout
+
+
+def test_only_model_files_skips_other_yaml(repo):
+    out = run_cli("check", "--only-model-files", "ci/pipeline.yaml", "models/arm.yaml", cwd=repo)
+    assert "pipeline" not in out.stdout and "arm: FAILED" in out.stdout
+
+
+def test_show_rules_and_explain(repo):
+    out = run_cli("show", "models/arm.yaml", cwd=repo)
+    assert out.returncode == 1
+    assert "origin: stable-focus" in out.stdout and "-0.2±1.98997j" in out.stdout
+    assert "FAIL  EG103 damping-ratio" in out.stdout
+    rules = run_cli("rules", cwd=repo)
+    assert rules.returncode == 0 and "EG105  pole-region" in rules.stdout
+    explain = run_cli("explain", "EG105", cwd=repo)
+    assert "pole_region" in explain.stdout and "min_damping" in explain.stdout
+    bad = run_cli("explain", "EG1O3", cwd=repo)
+    assert bad.returncode == 2 and "did you mean" in bad.stderr
