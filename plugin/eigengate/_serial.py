@@ -66,40 +66,71 @@ def _req_classes() -> dict[str, type]:
                                      r.DirectionCounts)}
 
 
-def _record(obj) -> dict:
-    out = {}
-    for f in dataclasses.fields(obj):
-        v = getattr(obj, f.name)
-        if isinstance(v, complex):
-            v = {"complex": _c(v)}
-        elif isinstance(v, _dt.date):
-            v = {"date": v.isoformat()}
-        elif isinstance(v, tuple):
-            v = list(v)
-        out[f.name] = v
-    return out
+#: Fields that need more than JSON's own types, per class: c complex, c? complex or None,
+#: d? date or None, t tuple, t2 tuple of tuples, skip (filled in by the caller).
+_SPECIAL = {
+    "ModeRow": {"eigenvalue": "c", "s": "c", "top_states": "t2"},
+    "KnownMode": {"eigenvalue": "c?", "states": "t"},
+    "Waiver": {"expires": "d?", "paths": "t"},
+    "Finding": {"modes": "skip"},
+    "Verdict": {"offending": "skip"},
+}
 
 
 @functools.lru_cache(maxsize=None)
-def _fields(cls) -> tuple[str, ...]:
-    return tuple(f.name for f in dataclasses.fields(cls))
+def _codec(cls) -> tuple[tuple[str, ...], tuple[str | None, ...], bool]:
+    names = tuple(f.name for f in dataclasses.fields(cls))
+    special = _SPECIAL.get(cls.__name__, {})
+    kinds = tuple(special.get(n) for n in names)
+    return names, kinds, not special
 
 
-def _value(v):
-    if type(v) is dict:
-        if "complex" in v:
-            return _uc(v["complex"])
-        if "date" in v:
-            return _dt.date.fromisoformat(v["date"])
-    elif type(v) is list:
-        return tuple(tuple(x) if type(x) is list else x for x in v)
-    return v
+def _record(obj) -> list:
+    """A dataclass as a list of its field values in field order (positional: compact and
+    fast to rebuild)."""
+    names, kinds, plain = _codec(type(obj))
+    if plain:
+        return [getattr(obj, n) for n in names]
+    out = []
+    for n, k in zip(names, kinds):
+        v = getattr(obj, n)
+        if k is None:
+            out.append(v)
+        elif k == "skip":
+            out.append(None)
+        elif k in ("c", "c?"):
+            out.append(None if v is None else [v.real, v.imag])
+        elif k == "d?":
+            out.append(None if v is None else v.isoformat())
+        elif k == "t":
+            out.append(list(v))
+        else:  # t2
+            out.append([list(x) for x in v])
+    return out
 
 
-def _unrecord(cls, d: dict, **given):
+def _unrecord(cls, values: list, **given):
     """Rebuild a dataclass from :func:`_record` data; ``given`` fields are taken as they are."""
-    kw = {name: _value(d[name]) for name in _fields(cls) if name not in given}
-    return cls(**kw, **given)
+    names, kinds, plain = _codec(cls)
+    if len(values) != len(names):
+        raise ValueError(f"{cls.__name__} record has {len(values)} fields, not {len(names)}")
+    if plain:
+        return cls(*values)
+    args = []
+    for n, k, v in zip(names, kinds, values):
+        if k is None:
+            args.append(v)
+        elif k == "skip":
+            args.append(given[n])
+        elif k in ("c", "c?"):
+            args.append(None if v is None else complex(float(v[0]), float(v[1])))
+        elif k == "d?":
+            args.append(None if v is None else _dt.date.fromisoformat(v))
+        elif k == "t":
+            args.append(tuple(v))
+        else:
+            args.append(tuple(tuple(x) for x in v))
+    return cls(*args)
 
 
 # ------------------------------------------------------------------ modes, lazily
@@ -216,20 +247,16 @@ def _model_from(d: dict):
 
 
 def _finding_data(f) -> dict:
-    d = _record(f)
-    d["modes"] = [_record(r) for r in f.modes]
-    return d
+    return {"f": _record(f), "modes": [_record(r) for r in f.modes]}
 
 
 def _finding_from(d: dict):
 
-    return _unrecord(Finding, d, modes=tuple(_unrecord(ModeRow, r) for r in d["modes"]))
+    return _unrecord(Finding, d["f"], modes=tuple(_unrecord(ModeRow, r) for r in d["modes"]))
 
 
 def _verdict_data(v) -> dict:
-    d = _record(v)
-    d["offending"] = [m.index - 1 for m in v.offending]
-    return d
+    return {"v": _record(v), "offending": [m.index - 1 for m in v.offending]}
 
 
 def _result_data(r) -> dict:
@@ -243,7 +270,7 @@ def _result_from(d: dict):
 
     model = _model_from(d["model"])
     spectrum = CachedSpectrum(model, d["spectrum"])
-    verdicts = [_unrecord(Verdict, v, offending=spectrum.modes.subset(v["offending"]))
+    verdicts = [_unrecord(Verdict, v["v"], offending=spectrum.modes.subset(v["offending"]))
                 for v in d["verdicts"]]
     return ModelResult(model=model, spectrum=spectrum,
                        equilibrium=_unrecord(Equilibrium, d["equilibrium"]),

@@ -111,7 +111,7 @@ class ResultCache:
                 break
             keep.setdefault(k, v)
         keep.update(self._new)
-        text = json.dumps({"salt": self._salt, "entries": keep}, sort_keys=True)
+        text = json.dumps({"salt": self._salt, "entries": keep}, separators=(",", ":"))
         try:
             self._ensure_folder()
             self._pack.parent.mkdir(parents=True, exist_ok=True)

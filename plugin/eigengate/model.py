@@ -23,6 +23,7 @@ __all__ = ["Model", "from_arrays", "from_control", "as_matrix", "MAX_STATES"]
 
 #: Largest number of states a model may have (dense eigen-decomposition stays in seconds).
 MAX_STATES = 4000
+_NUMBER_TYPES = frozenset((int, float))  # exact types: bool, a subclass of int, is refused
 
 
 @dataclass(frozen=True, eq=False)
@@ -126,7 +127,14 @@ def as_matrix(
     else:
         rows = _rows_of(value, bad, allow_vector)
         width = len(rows[0]) if rows else 0
-        for i, row in enumerate(rows):
+        # Fast path: one pass in C over the entry types; the loop below only runs to find
+        # and name the first bad entry.
+        if all(len(row) == width for row in rows) and \
+                {type(x) for row in rows for x in row} <= _NUMBER_TYPES:
+            rows_ok = True
+        else:
+            rows_ok = False
+        for i, row in enumerate(() if rows_ok else rows):
             if len(row) != width:
                 raise bad(f"must have rows of equal length, row 1 has {width} entries "
                           f"and row {i + 1} has {len(row)}")
