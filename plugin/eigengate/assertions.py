@@ -30,6 +30,7 @@ from __future__ import annotations
 import math
 import os
 import reprlib
+import sys
 from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Iterable, Mapping, Sequence
@@ -77,10 +78,15 @@ class NotAModelError(EigengateError, TypeError):
 class RequirementArgumentError(EigengateError, ValueError):
     """A requirement keyword (of a call, a chain step or a marker) has a bad key or value."""
 
-    def __init__(self, origin: str, key: str, value: Any, error: ModelError) -> None:
+    def __init__(self, origin: str, key: str, value: Any, error: ModelError | None = None, *,
+                 problem: str = "") -> None:
         self.origin, self.key, self.value = origin, key, value
-        text = f"{origin}: {key}={value!r}: {error.field or key} {error.problem}"
-        super().__init__(text + (f" ({error.hint})" if error.hint else ""))
+        if error is None:
+            text = f"{origin}: {problem}"
+        else:
+            text = f"{origin}: {key}={value!r}: {error.field or key} {error.problem}"
+            text += f" ({error.hint})" if error.hint else ""
+        super().__init__(text)
 
 
 def _short(value: Any) -> str:
@@ -153,7 +159,7 @@ def _describe(system: Sequence[Any], models: Sequence["Model"]) -> str:
         n = models[0].n_states if models else "?"
         return f"control.{type(first).__name__} ({n} states)"
     m = models[0]
-    return f"model {m.title}" + ("" if m.source.startswith("<") else f" ({m.source})")
+    return f"eigengate Model {m.title}" + ("" if m.source.startswith("<") else f" ({m.source})")
 
 
 class Checker:
@@ -177,8 +183,14 @@ class Checker:
         self.defaults = tuple(defaults)
         self.search = tuple(Path(p) for p in search) or (Path.cwd(),)
         self.config = config
-        self.records: list[dict[str, Any]] = []
+        self._records: dict[int, tuple["Model", dict[str, Any]]] = {}
         self._pending: list[Subject] = []
+
+    @property
+    def records(self) -> list[dict[str, Any]]:
+        """Figures of every model checked so far (one per model, failed if any check
+        failed), as :func:`result_record` gives them."""
+        return [rec for _, rec in self._records.values()]
 
     # ---- front doors
     def check(self, *system: Any, operating_point: str | None = None,
@@ -205,7 +217,7 @@ class Checker:
             raise TypeError(f"stability.of() got unexpected keyword {bad[0]!r}: requirements "
                             "go in the chain (.min_damping(0.3)) or in stability.check()")
         models, what = self._models(system, operating_point, build, "stability.of()")
-        subject = Subject(self, models, what, on_uncertain)
+        subject = Subject(self, models, what, on_uncertain, _caller())
         if self.defaults or any(m.requirements for m in models):
             self._pending.append(subject)
         return subject
@@ -220,6 +232,15 @@ class Checker:
     # ---- building models
     def _models(self, system: Sequence[Any], point: str | None, build: dict[str, Any],
                 where: str) -> tuple[list["Model"], str]:
+        __tracebackhide__ = True
+        try:
+            return self._build(system, point, build, where)
+        except ModelError as exc:  # raised afresh here: the engine's frames say nothing
+            raise ModelError(exc.source, exc.field, exc.problem, line=exc.line,
+                             hint=exc.hint) from None
+
+    def _build(self, system: Sequence[Any], point: str | None, build: dict[str, Any],
+               where: str) -> tuple[list["Model"], str]:
         __tracebackhide__ = True
         if not system:
             raise TypeError(f"{where} needs a model: {_ACCEPTED}")
@@ -264,6 +285,7 @@ class Checker:
         return models, _describe(system, models)
 
     def _load(self, path: str | os.PathLike[str], where: str) -> list["Model"]:
+        __tracebackhide__ = True
         from .loader import load_models
 
         given = Path(path)
@@ -314,7 +336,12 @@ class Checker:
             results.append(result)
             errors = [f for f in result.findings if f.severity == "error"]
             record = result_record(result, "fail" if errors else "pass")
-            self.records.append(record)
+            if model.source.startswith("<"):
+                record["model"] = what
+            seen = self._records.get(id(model))
+            if seen is not None and seen[1]["verdict"] == "fail" and not errors:
+                record = seen[1]  # a later passing step does not hide an earlier failure
+            self._records[id(model)] = (model, record)  # the model is kept: ids stay unique
             if errors:
                 failures.append((result, errors, origin, record))
         if failures:
@@ -342,8 +369,9 @@ class Subject:
     asserts at once and returns the subject; ``spectrum`` and ``results`` give the figures."""
 
     def __init__(self, checker: Checker, models: Sequence["Model"], what: str,
-                 on_uncertain: str | None) -> None:
+                 on_uncertain: str | None, where: str = "") -> None:
         self._checker = checker
+        self.where = where
         self.models = tuple(models)
         self.what = what
         self._on_uncertain = on_uncertain
@@ -438,9 +466,31 @@ class Subject:
             [(m.requirements, m.disabled)] + [(lay.requirements, lay.off) for lay in layers])}
         left = rules - self._stated
         self._stated |= rules
-        if left:
+        if not left:
+            return
+        try:
             self._checker._assert(self.models, self.what, layers, self._on_uncertain,
                                   use_file=True, context="stability.of()", only=left)
+        except StabilityAssertionError as exc:
+            where = f" at {self.where}" if self.where else ""
+            report = (f"stability.of(){where}: requirements the chain did not state, checked "
+                      f"when the test returned:\n{exc.report}")
+            raise StabilityAssertionError(report, exc.records) from None
+
+
+def _caller() -> str:
+    """``file:line`` of the first frame outside eigengate (where the user called us)."""
+    frame = sys._getframe(1)
+    while frame is not None and frame.f_globals.get("__name__", "").startswith("eigengate"):
+        frame = frame.f_back
+    if frame is None:
+        return ""
+    name = frame.f_code.co_filename
+    try:
+        name = os.path.relpath(name)
+    except ValueError:  # another drive on Windows
+        pass
+    return f"{Path(name).as_posix()}:{frame.f_lineno}"
 
 
 # ---------------------------------------------------------------------------- report

@@ -1,0 +1,372 @@
+"""pytest wiring of eigengate: options, ini keys, markers, the ``stability`` fixture, the
+model-file collector, the terminal summary and JUnit figures.
+
+Only wiring lives here; the assertions are :mod:`eigengate.assertions`, the items
+:mod:`eigengate.collector`, and both call the engine the command line calls. Loading this
+module imports neither numpy, scipy, python-control nor PyYAML: they load when a model is
+first built.
+"""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+from typing import TYPE_CHECKING, Any
+
+import pytest
+
+if TYPE_CHECKING:  # pragma: no cover
+    from .assertions import Checker, Layer
+    from .collector import Selection
+    from .config import Config
+
+#: Suffixes of model files; the collector is imported only for files that have one.
+MODEL_SUFFIXES = frozenset((".yaml", ".yml", ".toml", ".json"))
+
+REQUIREMENTS_MARK = "stability_requirements"
+EQUILIBRIUM_MARK = "expect_equilibrium"
+
+_MARKERS = (
+    f"{REQUIREMENTS_MARK}(**requirements): default stability requirements for every model "
+    "checked through the `stability` fixture in this test, class or module; the closest "
+    "marker wins key by key, the call itself wins over all. Keys as in a model file's "
+    "requirements: stable, min_decay_rate, min_damping, max_frequency, pole_region, "
+    f"equilibrium, no_saddle, directions. Example: @pytest.mark.{REQUIREMENTS_MARK}"
+    "(stable=True, min_damping=0.3)",
+    f"{EQUILIBRIUM_MARK}(kind): the origin of every model checked through the `stability` "
+    "fixture is of this type (saddle, stable-node, unstable-node, stable-focus, "
+    "unstable-focus, center, degenerate, non-hyperbolic). Example: "
+    f"@pytest.mark.{EQUILIBRIUM_MARK}('stable-node')",
+)
+
+
+class Settings:
+    """Validated per-run settings (kept in ``config.stash``).
+
+    The repository policy is read at configure time when a policy file exists (so a bad
+    value stops the run with a usage error); without one, the defaults are built on first
+    use, so a run that never meets a model pays nothing for them.
+    """
+
+    def __init__(self, policy_path: Path | None, start: Path, globs: tuple[str, ...],
+                 collect: bool) -> None:
+        self.start = start
+        self.globs = globs
+        self.collect = collect
+        self.policy_path = policy_path
+        self._policy: "Config | None" = None
+        self._selection: "Selection | None" = None
+        if policy_path is not None:
+            self._policy = _load_policy(policy_path, start)
+
+    @property
+    def policy(self) -> "Config":
+        if self._policy is None:
+            self._policy = _load_policy(None, self.start)
+        return self._policy
+
+    @property
+    def selection(self) -> "Selection":
+        if self._selection is None:
+            from .collector import Selection
+
+            self._selection = Selection(self.policy, self.globs)
+        return self._selection
+
+    @property
+    def may_collect(self) -> bool:
+        """Whether any model file can be selected (beyond files named on the command line)."""
+        return self.collect and (bool(self.globs) or (
+            self._policy is not None and bool(self._policy.include)))
+
+
+settings_key = pytest.StashKey[Settings]()
+checker_key = pytest.StashKey["Checker"]()
+layers_key = pytest.StashKey["tuple[Layer, ...]"]()
+
+
+# ---------------------------------------------------------------------------- options
+def pytest_addoption(parser: pytest.Parser) -> None:
+    group = parser.getgroup("eigengate", "eigengate: stability requirements of "
+                                         "control-system models")
+    group.addoption("--eigengate-config", dest="eigengate_config", metavar="FILE",
+                    default=None,
+                    help="repository policy file (a pyproject.toml with [tool.eigengate], or "
+                         "an eigengate.toml); default: the ini key eigengate_config, else the "
+                         "nearest one at or above the rootdir")
+    group.addoption("--eigengate-models", dest="eigengate_models", metavar="GLOB",
+                    action="append", default=[],
+                    help="collect only model files matching GLOB (repository-relative, ** "
+                         "for any folders; repeatable); narrows [tool.eigengate] include, or "
+                         "supplies it; replaces the ini key eigengate_models")
+    group.addoption("--eigengate-no-collect", dest="eigengate_no_collect",
+                    action="store_true", default=False,
+                    help="do not turn model files into test items (the stability fixture "
+                         "and the markers keep working)")
+    parser.addini("eigengate_config", type="string", default="",
+                  help="eigengate: repository policy file, relative to the ini file")
+    parser.addini("eigengate_models", type="linelist", default=[],
+                  help="eigengate: globs of the model files to collect (narrow or supply "
+                       "[tool.eigengate] include)")
+    parser.addini("eigengate_collect", type="bool", default=True,
+                  help="eigengate: turn selected model files into test items (default true)")
+
+
+def _ini(config: pytest.Config, name: str) -> Any:
+    try:
+        return config.getini(name)
+    except (ValueError, TypeError, pytest.UsageError) as exc:
+        raise pytest.UsageError(f"eigengate: ini option {name}: {exc}") from None
+
+
+def _globs(values: Any, where: str) -> tuple[str, ...]:
+    out = []
+    for value in values:
+        if not isinstance(value, str) or not value.strip():
+            raise pytest.UsageError(f"eigengate: {where} {value!r}: a glob must be a non-empty "
+                                    "string, e.g. models/**/*.yaml")
+        value = value.strip()
+        if value.startswith("/") or "\\" in value or (len(value) > 1 and value[1] == ":"):
+            raise pytest.UsageError(f"eigengate: {where} {value!r}: globs are relative to the "
+                                    "repository root and use '/', e.g. models/**/*.yaml")
+        out.append(value)
+    return tuple(out)
+
+
+def _load_policy(path: Path | None, start: Path) -> "Config":
+    from .config import ConfigError, load_config
+
+    try:
+        return load_config(path, start=start)
+    except ConfigError as exc:
+        raise pytest.UsageError(f"eigengate: {exc}") from None
+
+
+def _settings(config: pytest.Config) -> Settings:
+    from .config import find_config
+
+    collect = _ini(config, "eigengate_collect")
+    ini_models = _ini(config, "eigengate_models")
+    ini_path = _ini(config, "eigengate_config")
+    if not isinstance(ini_path, str):
+        raise pytest.UsageError(f"eigengate: ini option eigengate_config: expected a file "
+                                f"path, got {ini_path!r}")
+    cli_models = _globs(config.option.eigengate_models or (), "--eigengate-models")
+    globs = cli_models or _globs(ini_models, "ini option eigengate_models:")
+    path: Path | None = None
+    if config.option.eigengate_config:
+        given = config.option.eigengate_config
+        path = config.invocation_params.dir / given
+        where = f"--eigengate-config {given!r}"
+    elif ini_path.strip():
+        given = ini_path.strip()
+        path = (config.inipath.parent if config.inipath else config.rootpath) / given
+        where = f"ini option eigengate_config = {given!r}"
+    if path is not None and not path.is_file():
+        raise pytest.UsageError(f"eigengate: {where}: no such file (expected a pyproject.toml "
+                                "with [tool.eigengate] or an eigengate.toml)")
+    if path is None:
+        path = find_config(config.rootpath)
+    return Settings(path, config.rootpath, globs,
+                    collect=bool(collect) and not config.option.eigengate_no_collect)
+
+
+def pytest_configure(config: pytest.Config) -> None:
+    for line in _MARKERS:
+        config.addinivalue_line("markers", line)
+    config.stash[settings_key] = _settings(config)
+    config.pluginmanager.register(Reporter(config), "eigengate-reporter")
+
+
+def pytest_report_header(config: pytest.Config) -> str | None:
+    s = config.stash.get(settings_key, None)
+    if s is None or s.policy_path is None:
+        return None
+    files = ", ".join(s.globs or s.policy.include) or "none (no include globs)"
+    if not s.collect:
+        files = "not collected"
+    return f"eigengate: policy {s.policy.source or 'defaults'}; model files: {files}"
+
+
+# ---------------------------------------------------------------------------- collector
+def pytest_collect_file(file_path: Path, parent: pytest.Collector) -> pytest.Collector | None:
+    if file_path.suffix not in MODEL_SUFFIXES:
+        return None
+    s = parent.config.stash.get(settings_key, None)
+    if s is None or not s.collect:
+        return None
+    named = parent.session.isinitpath(file_path)
+    if not (named or (s.may_collect and s.selection.wants(file_path))):
+        return None
+    from .collector import ModelFile
+
+    return ModelFile.from_parent(parent, path=file_path, policy=s.policy)
+
+
+# ---------------------------------------------------------------------------- markers, fixture
+def _marker_layers(item: pytest.Item) -> "tuple[Layer, ...]":
+    """The item's requirement markers as layers, general first (module, class, function)."""
+    from .assertions import RequirementArgumentError, parse_layer
+
+    out = []
+    for node in item.listchain():
+        for mark in node.own_markers:
+            if mark.name not in (REQUIREMENTS_MARK, EQUILIBRIUM_MARK):
+                continue
+            kind = type(node).__name__.lower()
+            kind = {"function": "test"}.get(kind, kind)
+            where = f"@pytest.mark.{mark.name} on {kind} {node.name}"
+            if mark.name == REQUIREMENTS_MARK:
+                if mark.args:
+                    raise RequirementArgumentError(
+                        where, "", mark.args, problem="takes keyword arguments only "
+                        f"(stable=True, min_damping=0.3), got positional {mark.args!r}")
+                mapping = dict(mark.kwargs)
+            else:
+                if len(mark.args) != 1 or mark.kwargs:
+                    raise RequirementArgumentError(
+                        where, "", mark.args, problem="takes one equilibrium type, e.g. "
+                        f"@pytest.mark.{EQUILIBRIUM_MARK}('stable-node'), got args "
+                        f"{mark.args!r} kwargs {mark.kwargs!r}")
+                mapping = {"equilibrium": mark.args[0]}
+            out.append(parse_layer(mapping, where, f"@{mark.name} on {kind} {node.name}"))
+    return tuple(out)
+
+
+@pytest.hookimpl(tryfirst=True)
+def pytest_runtest_setup(item: pytest.Item) -> None:
+    if item.get_closest_marker(REQUIREMENTS_MARK) is None and \
+            item.get_closest_marker(EQUILIBRIUM_MARK) is None:
+        return
+    from .assertions import RequirementArgumentError
+
+    try:
+        item.stash[layers_key] = _marker_layers(item)
+        return
+    except RequirementArgumentError as exc:
+        message = str(exc)
+    pytest.fail(message, pytrace=False)  # outside the except: no "during handling" chain
+
+
+@pytest.fixture
+def stability(request: pytest.FixtureRequest) -> "Checker":
+    """Assert stability requirements on any model a test builds.
+
+    ``stability.check(A, stable=True, min_damping=0.3)`` or
+    ``stability.of(sys).is_stable().min_damping(0.3).equilibrium("stable-node")``; models are
+    numpy matrices (A, or A, B, C, D), python-control objects, eigengate Models or model file
+    paths (relative to the test file, then the rootdir). The test's
+    ``@pytest.mark.stability_requirements`` and ``@pytest.mark.expect_equilibrium`` markers
+    are defaults for every model checked here.
+    """
+    from .assertions import Checker
+
+    node = request.node
+    s = request.config.stash[settings_key]
+    layers = node.stash.get(layers_key, None)
+    if layers is None:
+        layers = _marker_layers(node)
+    checker = Checker(defaults=layers, search=(request.path.parent, request.config.rootpath),
+                      config=s.policy)
+    node.stash[checker_key] = checker
+    return checker
+
+
+@pytest.hookimpl(wrapper=True)
+def pytest_runtest_call(item: pytest.Item):
+    result = yield
+    checker = item.stash.get(checker_key, None)
+    if checker is not None:
+        from .assertions import StabilityAssertionError
+
+        try:
+            checker.finish()
+            return result
+        except StabilityAssertionError as exc:
+            message = str(exc)
+        # Raised after the test returned: the message says where, pluggy's frames would not.
+        pytest.fail(message, pytrace=False)
+    return result
+
+
+@pytest.hookimpl(wrapper=True)
+def pytest_runtest_makereport(item: pytest.Item, call: pytest.CallInfo):
+    report = yield
+    records = None
+    collector = sys.modules.get("eigengate.collector")  # not imported: no model items
+    collected = collector is not None and isinstance(
+        item, (collector.ModelItem, collector.InvalidModelItem))
+    if collected and isinstance(item, collector.ModelItem) and call.when == "call":
+        record = item.record()
+        records = [record] if record else None
+    elif collected and isinstance(item, collector.InvalidModelItem) and call.when == "setup":
+        records = [item.record()]
+    elif not collected and call.when == "call":
+        checker = item.stash.get(checker_key, None)
+        if checker is not None and checker.records:
+            records = list(checker.records)
+    if records:
+        # plain JSON-like data, so pytest-xdist carries it from the workers
+        report.eigengate = {"collected": collected, "records": records}
+    return report
+
+
+# ---------------------------------------------------------------------------- reporting
+class Reporter:
+    """Gathers the records carried by reports (on the controller under xdist): JUnit suite
+    properties and the terminal summary of failing models."""
+
+    def __init__(self, config: pytest.Config) -> None:
+        self.config = config
+        self.failing: list[tuple[str, dict[str, Any]]] = []
+
+    def _xml(self):
+        # The LogXML object pytest's own record_testsuite_property fixture writes to; hooks
+        # cannot request a fixture, so it is looked up under the same stash key.
+        junitxml = self.config.pluginmanager.getplugin("junitxml")
+        key = getattr(junitxml, "xml_key", None)
+        return None if key is None else self.config.stash.get(key, None)
+
+    def pytest_runtest_logreport(self, report: pytest.TestReport) -> None:
+        data = getattr(report, "eigengate", None)
+        if not data:
+            return
+        records = data["records"]
+        for r in records:
+            if r["verdict"] != "pass":
+                self.failing.append((report.nodeid, r))
+        xml = self._xml()
+        if xml is None:
+            return
+        for i, r in enumerate(records, 1):
+            key = report.nodeid if data["collected"] else f"{report.nodeid}:check{i}"
+            figures = {"verdict": r["verdict"], "spectral_abscissa": r["spectral_abscissa"],
+                       "min_damping": r["min_damping"]}
+            if not data["collected"]:
+                figures = {"model": r["model"], **figures}
+            if r["discrete"]:
+                figures["spectral_radius"] = r["spectral_radius"]
+            for name, value in figures.items():
+                if value is None:
+                    continue
+                text = f"{value:.6g}" if isinstance(value, float) else str(value)
+                xml.add_global_property(f"eigengate:{key}:{name}", text)
+
+    def pytest_terminal_summary(self, terminalreporter) -> None:
+        if not self.failing:
+            return
+        tr = terminalreporter
+        tr.write_sep("=", "eigengate: models failing their requirements")
+        for nodeid, r in sorted(self.failing, key=lambda t: t[0]):
+            where = r["source"] if not r["line"] else f"{r['source']}:{r['line']}"
+            what = r["model"] if r["source"].startswith("<") else f"{where}: {r['model']}"
+            tr.write_line(f"{what}  ({nodeid})")
+            for f in r["findings"]:
+                if f["severity"] != "error":
+                    continue
+                head = f"{f['rule']} {f['name']}"
+                if f["requirement"] and f["rule"] != "EG001":
+                    head += f" [{f['requirement']}]"
+                tr.write_line(f"  {head}: {f['message']}")
+                for line in f["table"]:
+                    tr.write_line(line)
