@@ -20,7 +20,7 @@ from typing import Any, Iterable
 from .errors import ModelError
 
 __all__ = ["MAX_MODEL_FILE_BYTES", "MAX_NESTING", "MAX_VALUES", "SUFFIXES", "read_document",
-           "parse_text", "suggest"]
+           "parse_bytes", "parse_text", "suggest"]
 
 #: Largest model file read, in bytes. Real models that big keep their matrices in .npz files.
 MAX_MODEL_FILE_BYTES = 8 * 1024 * 1024
@@ -79,7 +79,13 @@ def read_document(path: Path, source: str) -> tuple[dict[str, Any], dict[str, in
         raw = path.read_bytes()
     except OSError as exc:
         raise ModelError(source, "", f"cannot be read: {exc.strerror or exc}") from None
-    # Checked again on the bytes: the file may have grown between stat and read.
+    # parse_bytes checks the size again: the file may have grown between stat and read.
+    return parse_bytes(raw, suffix, source)
+
+
+def parse_bytes(raw: bytes, suffix: str, source: str) -> tuple[dict[str, Any], dict[str, int]]:
+    """Parse a model file's bytes (read from a file or from git history, say); the same
+    size, text and format checks as :func:`read_document`."""
     if len(raw) > MAX_MODEL_FILE_BYTES:
         raise ModelError(source, "", f"is {len(raw)} bytes, larger than the limit of "
                          f"{MAX_MODEL_FILE_BYTES} bytes")

@@ -6,12 +6,16 @@ relative to the model file's folder and must resolve, symlinks followed, inside 
 root: a model file in a pull request must not make CI read files elsewhere on the machine.
 Nothing is cached here; the caller gets the repository-relative path of every file read so a
 cache can hash their contents.
+
+A caller that reads files from somewhere other than the working tree (git history, say) passes
+``read``: a callable from a repository-relative POSIX path to the file's bytes. The path is then
+resolved lexically (``..`` may not climb above the root) and nothing touches the filesystem.
 """
 
 from __future__ import annotations
 
 from pathlib import Path
-from typing import TYPE_CHECKING, Any, Mapping
+from typing import TYPE_CHECKING, Any, Callable, Mapping
 
 from ._formats import suggest
 from .errors import ModelError
@@ -43,6 +47,7 @@ def load_reference(
     line: int | None,
     base_dir: Path | None,
     root: Path | None,
+    read: Callable[[str], bytes] | None = None,
 ) -> tuple["np.ndarray", str]:
     """Load the matrix a reference mapping points at.
 
@@ -57,6 +62,11 @@ def load_reference(
         Folder of the model file; paths are relative to it.
     root
         Repository root; the resolved file must lie inside it. Defaults to ``base_dir``.
+    read
+        When given, files are read through it instead of the filesystem: it takes the
+        repository-relative POSIX path and returns the bytes (``FileNotFoundError`` when there
+        is no such file, ``IsADirectoryError`` or ``OSError`` otherwise); ``base_dir`` is then
+        the model file's folder relative to the root (``root`` is not used).
 
     Returns
     -------
@@ -88,11 +98,13 @@ def load_reference(
     if base_dir is None:
         raise bad(f"refers to the file {name!r}, but this model was not read from a file",
                   "pass base_dir to resolve file references", ".file")
-    base_dir = Path(base_dir)
-    root = Path(root) if root is not None else base_dir
     if Path(name).is_absolute() or name.startswith(("/", "\\")) or Path(name).drive:
         raise bad(f"must be a path relative to the model file's folder, got the absolute "
                   f"path {name!r}", "absolute paths do not travel between machines", ".file")
+    if read is not None:
+        return _load_through(read, name, key, str(base_dir), bad)
+    base_dir = Path(base_dir)
+    root = Path(root) if root is not None else base_dir
     root_real = root.resolve()
     target = (base_dir / name).resolve()
     # resolve() follows symlinks, so a link pointing out of the repository is caught here,
@@ -116,6 +128,34 @@ def load_reference(
     return reader(target, rel, key, bad), rel
 
 
+def _load_through(read: Callable[[str], bytes], name: str, key: str | None, base_dir: str,
+                  bad: Any) -> tuple["np.ndarray", str]:
+    """Resolve ``name`` lexically against ``base_dir`` (repository-relative) and read it with
+    ``read``; the same confinement, type and size rules as for files on disk."""
+    import io
+    import posixpath
+
+    rel = posixpath.normpath(posixpath.join(base_dir.replace("\\", "/"), name.replace("\\", "/")))
+    if rel == ".." or rel.startswith("../") or rel.startswith("/"):
+        raise bad(f"points outside the repository: {name!r} resolves outside the "
+                  "repository root", "keep matrix files inside the repository", ".file")
+    suffix = posixpath.splitext(rel)[1].lower()
+    if suffix not in MATRIX_SUFFIXES:
+        raise bad(f"refers to {rel!r}, an unknown matrix file type {suffix or '(none)'!r}",
+                  "matrix files end in " + ", ".join(MATRIX_SUFFIXES), ".file")
+    try:
+        data = read(rel)
+    except FileNotFoundError:
+        raise bad(f"refers to {rel!r}, which does not exist", sub=".file") from None
+    except OSError as exc:
+        raise bad(f"refers to {rel!r}, which cannot be read ({exc})", sub=".file") from None
+    if len(data) > MAX_MATRIX_FILE_BYTES:
+        raise bad(f"refers to {rel!r}, {len(data)} bytes, larger than the limit of "
+                  f"{MAX_MATRIX_FILE_BYTES} bytes", sub=".file")
+    reader = {".npz": _read_npz, ".mat": _read_mat, ".csv": _read_csv}[suffix]
+    return reader(io.BytesIO(data), rel, key, bad), rel
+
+
 def _pick(names: list[str], key: str | None, rel: str, bad: Any) -> str:
     if key is None:
         if len(names) == 1:
@@ -131,7 +171,7 @@ def _pick(names: list[str], key: str | None, rel: str, bad: Any) -> str:
     return key
 
 
-def _read_npz(path: Path, rel: str, key: str | None, bad: Any) -> "np.ndarray":
+def _read_npz(path: "Path | Any", rel: str, key: str | None, bad: Any) -> "np.ndarray":
     import zipfile
 
     import numpy as np
@@ -155,7 +195,7 @@ def _read_npz(path: Path, rel: str, key: str | None, bad: Any) -> "np.ndarray":
                   sub=".file") from None
 
 
-def _read_mat(path: Path, rel: str, key: str | None, bad: Any) -> "np.ndarray":
+def _read_mat(path: "Path | Any", rel: str, key: str | None, bad: Any) -> "np.ndarray":
     import warnings
 
     import numpy as np
@@ -182,14 +222,15 @@ def _read_mat(path: Path, rel: str, key: str | None, bad: Any) -> "np.ndarray":
     return np.asarray(value)
 
 
-def _read_csv(path: Path, rel: str, key: str | None, bad: Any) -> "np.ndarray":
+def _read_csv(path: "Path | Any", rel: str, key: str | None, bad: Any) -> "np.ndarray":
     import numpy as np
 
     if key is not None:
         raise bad(f"is {key!r}, but a .csv file holds a single matrix",
                   "remove key from the reference", ".key")
     try:
-        text = path.read_bytes().decode("utf-8")
+        raw = path.getvalue() if hasattr(path, "getvalue") else path.read_bytes()
+        text = raw.decode("utf-8")
     except UnicodeDecodeError as exc:
         raise bad(f"refers to {rel!r}, which is not UTF-8 text (byte offset {exc.start})",
                   sub=".file") from None

@@ -115,6 +115,11 @@ _PARSERS: dict[str, Callable[..., Requirement | None]] = {
     "directions": _directions,
 }
 
+# Margin and equilibrium keys (EG301-EG305, EG401-EG404) are parsed where they are defined.
+from .loop_requirements import PARSERS as _LOOP_PARSERS  # noqa: E402
+
+_PARSERS.update(_LOOP_PARSERS)
+
 #: Keys accepted under ``requirements:`` in a model file.
 REQUIREMENT_KEYS = tuple(_PARSERS)
 

@@ -60,10 +60,15 @@ def _uc(v) -> complex:
 
 @functools.lru_cache(maxsize=None)
 def _req_classes() -> dict[str, type]:
+    from . import loop_requirements as lr
+
     r = _requirements
     return {c.__name__: c for c in (r.Stability, r.MinDecayRate, r.MinDamping, r.MaxFrequency,
                                      r.PoleRegion, r.EquilibriumType, r.NoSaddle,
-                                     r.DirectionCounts)}
+                                     r.DirectionCounts, lr.MinGainMargin, lr.MinPhaseMargin,
+                                     lr.MinDelayMargin, lr.MaxSensitivityPeak, lr.MinDiskMargin,
+                                     lr.NoSaddleInBox, lr.EquilibriumAt, lr.EquilibriumCount,
+                                     lr.EquilibriaStable)}
 
 
 #: Fields that need more than JSON's own types, per class: c complex, c? complex or None,
@@ -72,7 +77,7 @@ _SPECIAL = {
     "ModeRow": {"eigenvalue": "c", "s": "c", "top_states": "t2"},
     "KnownMode": {"eigenvalue": "c?", "states": "t"},
     "Waiver": {"expires": "d?", "paths": "t"},
-    "Finding": {"modes": "skip"},
+    "Finding": {"modes": "skip", "before": "t"},  # before: () for every cached finding
     "Verdict": {"offending": "skip"},
 }
 

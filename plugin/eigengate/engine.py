@@ -129,7 +129,8 @@ def analyse_file(path: str | Path, root: str | Path | None = None,
     if root is None and config is not None:
         root = config.root
     try:
-        models, refs = load_models_with_refs(path, root=root)
+        models, refs = load_models_with_refs(
+            path, root=root, allow_python=bool(getattr(config, "allow_python", False)))
         return models[0].source, tuple(analyse_model(m, config) for m in models), None, refs
     except ModelError as exc:
         return exc.source, (), exc, []

@@ -69,6 +69,9 @@ class Finding:
     modes: tuple[ModeRow, ...] = ()
     suggestion: str | None = None
     waived: str | None = None  # the waiver's reason, when a waiver accepts this finding
+    #: Regressions: the offending modes as the baseline has them, aligned with ``modes``
+    #: (a disappeared mode is in ``modes``, as the baseline has it, and ``before`` is empty).
+    before: tuple[ModeRow, ...] = ()
 
     @property
     def title(self) -> str:

@@ -11,21 +11,22 @@ import dataclasses
 import os
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, Mapping
+from typing import Any, Callable, Mapping
 
 from ._formats import read_document, suggest
 from .errors import ModelError
 from .model import Model, as_matrix, from_arrays
 
 __all__ = ["FORMAT_VERSIONS", "TOP_KEYS", "load_models", "load_models_with_refs",
-           "load_document", "find_root"]
+           "load_models_from_bytes", "load_document", "find_root"]
 
 #: Versions of ``model_format`` this loader reads.
 FORMAT_VERSIONS = (1,)
 TOP_KEYS = ("model_format", "name", "description", "domain", "sample_period", "plant",
             "feedback", "requirements", "known_modes", "on_uncertain", "operating_points",
-            "waivers")
-POINT_KEYS = ("label", "plant", "feedback", "requirements", "known_modes", "on_uncertain")
+            "waivers", "loop", "vector_field")
+POINT_KEYS = ("label", "plant", "feedback", "requirements", "known_modes", "on_uncertain",
+              "loop")
 SS_KEYS = ("A", "B", "C", "D", "E", "states", "inputs", "outputs")
 TF_KEYS = ("num", "den", "states", "inputs", "outputs")
 FEEDBACK_KEYS = ("state_gain", "output_gain", "controller", "inputs", "outputs")
@@ -48,8 +49,8 @@ def find_root(path: Path) -> Path:
     return start
 
 
-def load_models(path: str | os.PathLike[str], root: str | os.PathLike[str] | None = None
-                ) -> list[Model]:
+def load_models(path: str | os.PathLike[str], root: str | os.PathLike[str] | None = None,
+                *, allow_python: bool = False) -> list[Model]:
     """Load the model file at ``path``: one :class:`Model` per operating point, or one.
 
     Parameters
@@ -59,18 +60,21 @@ def load_models(path: str | os.PathLike[str], root: str | os.PathLike[str] | Non
     root
         Repository root; found from ``path`` with :func:`find_root` when None. Model sources
         are reported relative to it and referenced matrix files must lie inside it.
+    allow_python
+        Whether a ``vector_field`` block may import project code (``module:function``,
+        resolved relative to ``root``); refused with a :class:`ModelError` otherwise.
 
     Raises
     ------
     ModelError
         For any problem with the file, naming the file, field and line.
     """
-    return load_models_with_refs(path, root)[0]
+    return load_models_with_refs(path, root, allow_python=allow_python)[0]
 
 
 def load_models_with_refs(path: str | os.PathLike[str],
-                          root: str | os.PathLike[str] | None = None
-                          ) -> tuple[list[Model], list[str]]:
+                          root: str | os.PathLike[str] | None = None, *,
+                          allow_python: bool = False) -> tuple[list[Model], list[str]]:
     """Like :func:`load_models`, also returning the repository-relative paths (POSIX) of the
     matrix files the model references, sorted and without repeats, so a cache can hash them."""
     file = Path(path)
@@ -82,13 +86,39 @@ def load_models_with_refs(path: str | os.PathLike[str],
     data, lines = read_document(file, source)
     refs: list[str] = []
     models = _load(data, source=source, root=base, base_dir=file.parent, lines=lines, refs=refs,
-                   stem=file.stem)
+                   stem=file.stem, allow_python=allow_python)
+    return models, sorted(set(refs))
+
+
+def load_models_from_bytes(raw: bytes, source: str, read: Callable[[str], bytes], *,
+                           stem: str | None = None) -> tuple[list[Model], list[str]]:
+    """Load a model file given as bytes, reading its matrix files through ``read``.
+
+    For model files that are not in the working tree (a git revision, say). ``source`` is the
+    file's repository-relative POSIX path: its suffix picks the format, its folder is where
+    references are resolved (lexically, confined to the repository) and ``read(rel)`` returns
+    the bytes of the repository-relative file ``rel`` (``FileNotFoundError`` when missing).
+    ``stem`` replaces the file-name stem as the default model name (a renamed file keeps the
+    name its new path gives it). Returns the models and the referenced paths, as
+    :func:`load_models_with_refs` does.
+    """
+    import posixpath
+    from pathlib import PurePosixPath
+
+    from ._formats import parse_bytes
+
+    data, lines = parse_bytes(raw, posixpath.splitext(source)[1], source)
+    refs: list[str] = []
+    base_dir = PurePosixPath(posixpath.dirname(source) or ".")
+    models = _load(data, source=source, root=None, base_dir=base_dir, lines=lines, refs=refs,
+                   stem=stem or PurePosixPath(source).stem, read=read)  # type: ignore[arg-type]
     return models, sorted(set(refs))
 
 
 def load_document(data: Mapping[str, Any], *, source: str = "<document>",
                   root: Path | None = None, base_dir: Path | None = None,
-                  lines: Mapping[str, int] | None = None) -> list[Model]:
+                  lines: Mapping[str, int] | None = None,
+                  allow_python: bool = False) -> list[Model]:
     """Build models from an already parsed document (same rules as :func:`load_models`).
 
     Parameters
@@ -106,7 +136,8 @@ def load_document(data: Mapping[str, Any], *, source: str = "<document>",
     if not isinstance(data, Mapping):
         raise ModelError(source, "", f"must be a mapping of fields, got {type(data).__name__}")
     return _load(dict(data), source=source, root=root, base_dir=base_dir,
-                 lines=dict(lines or {}), refs=[], stem=Path(source).stem or "model")
+                 lines=dict(lines or {}), refs=[], stem=Path(source).stem or "model",
+                 allow_python=allow_python)
 
 
 @dataclass
@@ -122,6 +153,8 @@ class _Ctx:
     sample_period: float | None = None
     domain: str = "continuous"
     waivers: tuple = ()
+    read: Callable[[str], bytes] | None = None  # matrix files through this, not the filesystem
+    allow_python: bool = False  # may a vector_field block import project code
 
     def line(self, path: str) -> int | None:
         parts = path.split(".")
@@ -165,8 +198,10 @@ def _kind(value: Any) -> str:
 
 
 def _load(data: dict[str, Any], *, source: str, root: Path | None, base_dir: Path | None,
-          lines: dict[str, int], refs: list[str], stem: str) -> list[Model]:
-    ctx = _Ctx(source, root, base_dir, lines, refs)
+          lines: dict[str, int], refs: list[str], stem: str,
+          read: Callable[[str], bytes] | None = None,
+          allow_python: bool = False) -> list[Model]:
+    ctx = _Ctx(source, root, base_dir, lines, refs, read=read, allow_python=allow_python)
     if "model_format" not in data:
         raise ctx.err("model_format", "is missing",
                       f"start the file with 'model_format: {FORMAT_VERSIONS[-1]}'")
@@ -188,6 +223,10 @@ def _load(data: dict[str, Any], *, source: str, root: Path | None, base_dir: Pat
                       f"did you mean {close!r}?" if close else None)
     ctx.domain = domain
     ctx.sample_period = _sample_period(data, domain, ctx, "sample_period")
+    if "vector_field" in data:  # a nonlinear model: linearised by eigengate.nonlinear
+        from .nonlinear import load_vector_field
+
+        return load_vector_field(data, ctx, name, _requirements)
     if "plant" not in data and "operating_points" not in data:
         raise ctx.err("plant", "is missing", "describe the plant with A (state space) or "
                       "num and den (transfer function)")
@@ -286,7 +325,8 @@ def _matrix(value: Any, ctx: _Ctx, path: str) -> Any:
     if value is None or not is_reference(value):
         return value
     arr, rel = load_reference(value, source=ctx.source, field=ctx.prefix + path,
-                              line=ctx.line(path), base_dir=ctx.base_dir, root=ctx.root)
+                              line=ctx.line(path), base_dir=ctx.base_dir, root=ctx.root,
+                              read=ctx.read)
     ctx.refs.append(rel)
     return as_matrix(arr, ctx.source, ctx.prefix + path, line=ctx.line(path))
 
@@ -298,9 +338,10 @@ def _build(doc: Mapping[str, Any], ctx: _Ctx, name: str, label: str | None) -> M
     plant, structure = _system(plant_block, ctx, "plant", plant=True)
     matrices = (plant.A, plant.B, plant.C, plant.D)
     e, states = plant.E, list(plant.states)
+    parts: list[dict[str, Any]] = []  # plant and controller, for loop margins
     if "feedback" in doc:
         feedback = _mapping(doc["feedback"], ctx, "feedback")
-        kind, matrices, extra_states = _feedback(feedback, plant, ctx)
+        kind, matrices, extra_states = _feedback(feedback, plant, ctx, parts)
         structure = _STRUCTURE[kind]
         states += extra_states
         if e is not None and extra_states:
@@ -319,7 +360,31 @@ def _build(doc: Mapping[str, Any], ctx: _Ctx, name: str, label: str | None) -> M
                         known_modes=known_modes, on_uncertain=on_uncertain,
                         disabled=disabled, waivers=ctx.waivers, lines=ctx.prefixed_lines(),
                         prefix=ctx.prefix)
-    return dataclasses.replace(model, lines=dict(ctx.lines))
+    return dataclasses.replace(model, lines=dict(ctx.lines), loop_parts=_loop(doc, ctx, parts,
+                                                                              requirements))
+
+
+def _loop(doc: Mapping[str, Any], ctx: _Ctx, parts: list[dict[str, Any]],
+          requirements: tuple) -> Any:
+    """LoopParts of a closed loop (with the ``loop:`` block applied), or None without one."""
+    from .loop_requirements import LOOP_RULES, parse_loop_block
+
+    if not parts:
+        if "loop" in doc:
+            raise ctx.err("loop", "needs a closed loop, but the model has no feedback block",
+                          "add feedback (state_gain, output_gain or controller)")
+        needing = [r for r in requirements if r.rule in LOOP_RULES]
+        if needing:
+            key = needing[0].spec().split(":")[0]
+            raise ctx.err(f"requirements.{key}", "needs a closed loop to break, but the model "
+                          "has no feedback block", "add feedback, or remove the requirement")
+        return None
+    from .margins import LoopParts
+
+    kw = parts[0]
+    channels = {"plant_input": kw["inputs"], "plant_output": kw["outputs"]}
+    options = parse_loop_block(doc.get("loop", {}), ctx, channels, kw["kind"] == "state_gain")
+    return LoopParts(**kw, sample_period=ctx.sample_period, **options)
 
 
 def _system(block: dict[str, Any], ctx: _Ctx, path: str, *, plant: bool) -> tuple[Model, str]:
@@ -445,7 +510,8 @@ def _select(names: list[str] | None, available: tuple[str, ...], ctx: _Ctx, path
     return picked
 
 
-def _feedback(block: dict[str, Any], plant: Model, ctx: _Ctx) -> tuple[str, tuple, list[str]]:
+def _feedback(block: dict[str, Any], plant: Model, ctx: _Ctx,
+              parts: list[dict[str, Any]] | None = None) -> tuple[str, tuple, list[str]]:
     from . import _interconnect as ic
 
     _check_keys(block, FEEDBACK_KEYS, ctx, "feedback", "feedback")
@@ -468,6 +534,12 @@ def _feedback(block: dict[str, Any], plant: Model, ctx: _Ctx) -> tuple[str, tupl
                       "(C has no rows)" if not plant.outputs else "must not be empty")
     a, b, c, d = plant.A, plant.B, plant.C, plant.D
     n, m_sel, p_sel = a.shape[0], len(ins), len(outs)
+
+    def keep(cm, dm, names, ac, bc, cc, dc) -> None:  # plant and controller, for margins
+        if parts is not None:
+            parts.append(dict(kind=kind, A=a, B=b[:, ins], C=cm, D=dm[:, ins], E=plant.E,
+                              Ac=ac, Bc=bc, Cc=cc, Dc=dc,
+                              inputs=tuple(plant.inputs[i] for i in ins), outputs=tuple(names)))
     try:
         if kind in ("state_gain", "output_gain"):
             k = as_matrix(_matrix(block[kind], ctx, f"feedback.{kind}"), ctx.source,
@@ -477,8 +549,14 @@ def _feedback(block: dict[str, Any], plant: Model, ctx: _Ctx) -> tuple[str, tupl
                 why = "plant states" if kind == "state_gain" else "measured outputs"
                 raise ctx.err(f"feedback.{kind}", f"must be {m_sel}×{cols} (driven inputs × "
                               f"{why}), got {k.shape[0]}×{k.shape[1]}")
+            import numpy as np
+
             if kind == "state_gain":
+                keep(np.eye(n), np.zeros((n, b.shape[1])), plant.states, np.zeros((0, 0)),
+                     np.zeros((0, n)), np.zeros((m_sel, 0)), k)
                 return kind, ic.state_feedback(a, b, c, d, k, ins), []
+            keep(c[outs, :], d[outs, :], [plant.outputs[i] for i in outs], np.zeros((0, 0)),
+                 np.zeros((0, p_sel)), np.zeros((m_sel, 0)), k)
             return kind, ic.output_feedback(a, b, c, d, k, ins, outs), []
         ctrl_block = _mapping(block["controller"], ctx, "feedback.controller")
         ctrl, _ = _system(ctrl_block, ctx, "feedback.controller", plant=False)
@@ -498,6 +576,8 @@ def _feedback(block: dict[str, Any], plant: Model, ctx: _Ctx) -> tuple[str, tupl
             if s in plant.states:
                 raise ctx.err(f"{path}.states", f"names {s!r}, which is also a plant state",
                               "controller and plant states need different names")
+        keep(c[outs, :], d[outs, :], [plant.outputs[i] for i in outs], ctrl.A, ctrl.B, ctrl.C,
+             ctrl.D)
         return kind, ic.dynamic_feedback(a, b, c, d, ctrl.A, ctrl.B, ctrl.C, ctrl.D,
                                          ins, outs), extra
     except ic.InterconnectError as exc:

@@ -36,6 +36,7 @@ class Model:
     says how it was formed. ``requirements`` are the model's own; ``disabled`` lists rule ids
     the model switches off (``stable: false``) so a repository default does not apply to it;
     ``on_uncertain`` is None when the model leaves it to the repository policy.
+    ``loop_parts`` and ``nonlinear`` carry what margin and equilibrium requirements need.
     """
 
     name: str
@@ -57,6 +58,11 @@ class Model:
     disabled: tuple[str, ...] = ()
     waivers: tuple["Waiver", ...] = ()
     lines: Mapping[str, int] = field(default_factory=dict)
+    #: Plant and controller kept apart (:class:`eigengate.margins.LoopParts`) when the loader
+    #: closed the loop, so margins can break it; None otherwise.
+    loop_parts: Any = None
+    #: The vector field behind a linearised model (:class:`eigengate.nonlinear.FieldPoint`).
+    nonlinear: Any = None
 
     @property
     def discrete(self) -> bool:

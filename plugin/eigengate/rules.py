@@ -76,6 +76,60 @@ RULES: dict[str, Rule] = {r.id: r for r in (
     Rule("EG109", "known-modes", "known_modes", "",
          "Every declared known mode (integrator, rigid-body mode, conserved quantity) is present "
          "exactly as declared; known modes are left out of every other requirement."),
+    # Loop margins (eigengate.margins, eigengate.loop_requirements): need a feedback block.
+    Rule("EG301", "gain-margin", "min_gain_margin_db", "dB",
+         "The loop, broken at the plant input (or output), tolerates a gain increase and, where "
+         "the loop is only stable above some gain, a decrease of at least this many dB; "
+         "MIMO loops are checked one channel at a time, the others closed."),
+    Rule("EG302", "phase-margin", "min_phase_margin_deg", "deg",
+         "At every gain crossover |L(jω)| = 1 the phase is at least this far from -180°."),
+    Rule("EG303", "delay-margin", "min_delay_margin", "s",
+         "The loop tolerates a pure delay of at least this many seconds: the least PM_i/ω_i "
+         "over every gain crossover."),
+    Rule("EG304", "sensitivity-peak", "max_sensitivity_peak", "",
+         "The sensitivity peak Ms = max over ω of σ̄((I + L)⁻¹) is at most this value."),
+    Rule("EG305", "disk-margin", "min_disk_margin", "",
+         "The balanced disk margin α = 2 / max over ω of σ̄(S − T) (all channels at once) is "
+         "at least this value: gains in [(1−α/2)/(1+α/2), (1+α/2)/(1−α/2)] and phases within "
+         "±2·atan(α/2) are tolerated."),
+    # Equilibria of nonlinear models (eigengate.nonlinear): need a vector_field block.
+    Rule("EG401", "no-saddle-in-box", "no_saddle_in_box", "",
+         "No equilibrium found in the declared box is a saddle."),
+    Rule("EG402", "equilibrium-at", "equilibrium_at", "",
+         "Each listed point is an equilibrium (|f(x, u)| within the tolerance) of the listed "
+         "type."),
+    Rule("EG403", "equilibrium-count", "equilibrium_count", "",
+         "The declared box holds exactly this many distinct equilibria."),
+    Rule("EG404", "equilibria-stable", "equilibria_stable", "",
+         "Every equilibrium found in the box is asymptotically stable (hyperbolic, no unstable "
+         "direction)."),
+    # Regressions against the accepted baseline (eigengate.regressions); the key is the
+    # tolerance block that tunes them.
+    Rule("EG201", "crossed-into-instability", "allowed_drift", "1/s",
+         "A mode that was stable (or on the boundary) in the baseline is now unstable, or an "
+         "unstable mode appeared with no counterpart in the baseline."),
+    Rule("EG202", "decay-rate-regressed", "allowed_drift", "1/s",
+         "A mode decays more slowly than in the baseline (-Re s dropped by more than the "
+         "tolerance), or the slowest decay rate of the model did."),
+    Rule("EG203", "damping-regressed", "allowed_drift", "",
+         "An oscillatory mode is less damped than in the baseline (ζ dropped by more than the "
+         "tolerance), or the smallest damping ratio of the model did."),
+    Rule("EG204", "equilibrium-type-changed", "allowed_drift", "",
+         "The equilibrium type or its unstable/center direction counts changed for the worse "
+         "since the baseline (for example a saddle appeared)."),
+    Rule("EG205", "frequency-shifted", "allowed_drift", "rad/s",
+         "An oscillatory mode's natural frequency ωn moved by more than the tolerance."),
+    Rule("EG206", "mode-appeared", "allowed_drift", "",
+         "A mode has no counterpart in the baseline (the model order grew, or a mode moved "
+         "beyond the matching gate)."),
+    Rule("EG207", "mode-disappeared", "allowed_drift", "",
+         "A baseline mode has no counterpart in the model (the model order shrank, or a mode "
+         "moved beyond the matching gate)."),
+    Rule("EG208", "new-model", "", "",
+         "The model has no baseline entry yet: nothing to compare with until it is accepted."),
+    Rule("EG209", "stale-baseline-entry", "", "",
+         "A baseline entry names a model that no longer exists (file deleted or renamed, "
+         "operating point removed); accepting again removes it."),
 )}
 
 
@@ -103,6 +157,19 @@ _EXAMPLES = {
     "EG002": "waivers:\n  - {rule: EG103, reason: 'retune in review', expires: 2027-03-31}",
     "EG003": "waivers:\n  - {rule: EG103, reason: 'retune in review'}",
     "EG001": "model_format: 1\nplant:\n  A: [[-1.0]]",
+    "EG301": "loop: {at: plant_input}\nrequirements:\n  min_gain_margin_db: 6",
+    "EG302": "requirements:\n  min_phase_margin_deg: 45",
+    "EG303": "requirements:\n  min_delay_margin: 0.05   # s",
+    "EG304": "requirements:\n  max_sensitivity_peak: 2.0",
+    "EG305": "requirements:\n  min_disk_margin: 0.5",
+    "EG401": "requirements:\n  no_saddle_in_box: true",
+    "EG402": "requirements:\n  equilibrium_at: {x: [0.0, 0.0], type: stable-focus}",
+    "EG403": "requirements:\n  equilibrium_count: 3",
+    "EG404": "requirements:\n  equilibria_stable: true",
+    **{rid: "allowed_drift:      # [tool.eigengate.allowed_drift] or a model file's own\n"
+            "  decay_rate: {abs: 1.0e-6, rel: 0.05}\n  damping: {abs: 0.005, rel: 0.05}\n"
+            "  frequency: {rel: 0.05}"
+       for rid in ("EG201", "EG202", "EG203", "EG204", "EG205", "EG206", "EG207")},
 }
 
 
