@@ -234,6 +234,7 @@ def _model_data(m) -> dict:
         "requirements": [[type(r).__name__, _record(r)] for r in m.requirements],
         "known_modes": [_record(k) for k in m.known_modes],
         "waivers": [_record(w) for w in m.waivers],
+        "allowed_drift": m.allowed_drift,
     }
 
 
@@ -248,7 +249,8 @@ def _model_from(d: dict):
         on_uncertain=d["on_uncertain"], disabled=tuple(d["disabled"]), lines=d["lines"],
         requirements=tuple(_unrecord(classes[k], v) for k, v in d["requirements"]),
         known_modes=tuple(_unrecord(KnownMode, k) for k in d["known_modes"]),
-        waivers=tuple(_unrecord(Waiver, w) for w in d["waivers"]))
+        waivers=tuple(_unrecord(Waiver, w) for w in d["waivers"]),
+        allowed_drift=d["allowed_drift"])
 
 
 def _finding_data(f) -> dict:

@@ -16,7 +16,7 @@ from typing import Sequence
 
 __all__ = ["main", "run", "Exit", "FORMATS"]
 
-COMMANDS = ("check", "show", "rules", "explain")
+COMMANDS = ("check", "show", "rules", "explain", "baseline")
 #: Output formats: name → (module, function, takes tool_version).
 FORMATS = {
     "text": ("report_text", "render_results", False),
@@ -70,8 +70,29 @@ def _parser() -> argparse.ArgumentParser:
     check.add_argument("--only-model-files", action="store_true",
                        help="skip named files that are not model files (for hooks that pass "
                             "every changed file)")
+    check.add_argument("--against", metavar="REV", default=None,
+                       help="compare with the models as they were at git revision REV (for "
+                            "example the merge base of a pull request) instead of the stored "
+                            "baseline")
+    check.add_argument("--no-baseline", action="store_true",
+                       help="do not compare with any baseline")
     check.add_argument("-q", "--quiet", action="store_true",
                        help="text output: findings only, not the requirements that passed")
+
+    base = sub.add_parser("baseline", help="accept the current models as the baseline",
+                          description="Manage the baseline: the accepted modes every later "
+                                      "check compares with.")
+    base_sub = base.add_subparsers(dest="action", metavar="ACTION", required=True)
+    accept = base_sub.add_parser("accept", help="write the current models into the baseline",
+                                 description="Analyse the model files (all of them, or those "
+                                             "below PATH) and write their modes into the "
+                                             "baseline file, removing entries of models that "
+                                             "are gone.")
+    accept.add_argument("paths", nargs="*", metavar="PATH",
+                        help="model files or folders (default: the repository root)")
+    _config_arg(accept)
+    accept.add_argument("--jobs", "-j", type=int, default=None, metavar="N",
+                        help="worker processes (default: the number of cores)")
 
     show = sub.add_parser("show", help="show one model: modes, equilibrium and every verdict")
     show.add_argument("path", metavar="FILE", help="a model file")
@@ -111,6 +132,8 @@ def main(argv: Sequence[str] | None = None) -> int:
             return _explain(args.rule)
         if args.command == "show":
             return _show(args)
+        if args.command == "baseline":
+            return _accept(args)
         return _check(args)
     except UsageError as exc:
         print(f"eigengate: error: {exc}", file=sys.stderr)
@@ -190,6 +213,34 @@ def _check(args) -> int:
     result = scan(paths, config, jobs=args.jobs, use_cache=not args.no_cache,
                   progress=terminal_progress(), filter_named=args.only_model_files)
     files = list(result.files)
+    notes = []
+    failed = result.failed
+    if not args.no_baseline:
+        from .baseline_check import (accept_command, compare_files, reference_baseline,
+                                     with_regressions)
+
+        baseline = _reference(config, args.against)
+        if baseline is not None:
+            outcome = compare_files(files, config, baseline, complete=not args.paths)
+            files = with_regressions(files, outcome, config)
+            failed = failed or outcome.failed
+            notes += [f"improved: {i.title} ({i.source}): {i.message}"
+                      for i in outcome.improvements]
+            if outcome.new_keys or outcome.failed or outcome.stale_keys:
+                what = []
+                if outcome.new_keys:
+                    what.append(f"{len(outcome.new_keys)} model(s) without a baseline entry")
+                if outcome.stale_keys:
+                    what.append(f"{len(outcome.stale_keys)} stale entr(ies)")
+                if outcome.failed:
+                    what.append("regressions")
+                if args.against is None:
+                    notes.append(f"baseline {config.baseline}: {', '.join(what)}; after review, "
+                                 f"accept the current models with: "
+                                 f"{accept_command(args.paths, args.config)}")
+        elif args.against is None and files:
+            notes.append(f"no baseline yet ({config.baseline}); to accept the current models "
+                         f"as the baseline: {accept_command(args.paths, args.config)}")
     if result.policy:
         files.append(FileResult(source=config.source or "pyproject.toml",
                                 findings=result.policy))
@@ -199,7 +250,43 @@ def _check(args) -> int:
     for fmt, path in outputs:
         _write_atomic(path, render(fmt, files))
     sys.stdout.write(render(args.format, files, color=_use_color(args.color), quiet=args.quiet))
-    return Exit.FINDINGS if result.failed else Exit.CLEAN
+    for note in notes:
+        print(note, file=sys.stdout if args.format == "text" else sys.stderr)
+    return Exit.FINDINGS if failed else Exit.CLEAN
+
+
+def _reference(config, against: str | None):
+    from .baseline import BaselineError
+    from .baseline_check import reference_baseline
+    from .gitrev import GitError
+
+    try:
+        return reference_baseline(config, against)
+    except (BaselineError, GitError) as exc:
+        raise UsageError(str(exc)) from None
+
+
+def _accept(args) -> int:
+    from .baseline import BaselineError
+    from .baseline_check import accept
+    from .runner import scan
+
+    missing = [p for p in args.paths if not Path(p).exists()]
+    if missing:
+        raise UsageError(f"no such file or folder: {', '.join(missing)}")
+    config = _load_config(args, Path(args.paths[0]) if args.paths else Path.cwd())
+    result = scan(args.paths or [config.root], config, jobs=args.jobs)
+    broken = [fr for fr in result.files if fr.error is not None]
+    try:
+        summary = accept(result.files, config, complete=not args.paths)
+    except BaselineError as exc:
+        raise UsageError(str(exc)) from None
+    for fr in broken:
+        print(f"not accepted (invalid model file): {fr.error.render()}", file=sys.stderr)
+    print(f"baseline {config.baseline}: {len(summary.added)} added, {len(summary.changed)} "
+          f"changed, {len(summary.removed)} removed, {len(summary.unchanged)} unchanged"
+          + ("" if summary.written else " (file unchanged)"))
+    return Exit.FINDINGS if broken else Exit.CLEAN
 
 
 def _show(args) -> int:

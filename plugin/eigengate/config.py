@@ -18,6 +18,9 @@ verdict. Keys::
     paths = ["models/mast/**"]
     requirements = { min_damping = 0.2 }
     on_uncertain = "pass"
+    baseline = ".eigengate/baseline.json"   # the accepted modes (eigengate baseline accept)
+    [tool.eigengate.allowed_drift]     # regression tolerances (also per override, per model)
+    damping = { abs = 0.01, rel = 0.05 }
     [[tool.eigengate.waivers]]         # accepted findings: rule, reason, optional expiry,
     rule = "EG103"                     #   model name and operating-point label
     paths = ["models/legacy/**"]
@@ -48,8 +51,8 @@ if TYPE_CHECKING:  # pragma: no cover
 __all__ = ["Config", "ConfigError", "Override", "load_config", "find_config", "CONFIG_KEYS"]
 
 CONFIG_KEYS = ("include", "exclude", "on_uncertain", "select", "ignore", "requirements",
-               "severity", "overrides", "waivers", "allow_python")
-OVERRIDE_KEYS = ("paths", "requirements", "on_uncertain")
+               "severity", "overrides", "waivers", "allow_python", "baseline", "allowed_drift")
+OVERRIDE_KEYS = ("paths", "requirements", "on_uncertain", "allowed_drift")
 SEVERITIES = ("error", "warning", "off")
 
 
@@ -73,6 +76,7 @@ class Override:
     paths: tuple[str, ...]
     requirements: Layer = ((), ())
     on_uncertain: str | None = None
+    allowed_drift: Mapping[str, Any] | None = None
 
     def applies(self, rel: str) -> bool:
         return any(glob_match(rel, p) for p in self.paths)
@@ -94,6 +98,8 @@ class Config:
     overrides: tuple[Override, ...] = ()
     waivers: tuple["Waiver", ...] = ()
     allow_python: bool = False
+    baseline: str = ".eigengate/baseline.json"  # repository-relative path of the baseline
+    allowed_drift: Mapping[str, Any] | None = None
     digest: str = ""  # hash of the configuration table, part of every cache key
 
     # ------------------------------------------------------------------ selection
@@ -114,6 +120,27 @@ class Config:
 
     def severity_of(self, rule: str) -> str:
         return self.severity.get(rule, "error")
+
+    @property
+    def baseline_path(self) -> Path:
+        return self.root / self.baseline
+
+    def tolerances_for(self, result: Any):
+        """Regression tolerances of a model: defaults, the policy's ``allowed_drift``, each
+        matching override's, then the model file's own."""
+        from .regressions import parse_tolerances
+
+        model = result.model
+        tol = None
+        layers = [(self.source or "pyproject.toml", "allowed_drift.", self.allowed_drift)]
+        layers += [(self.source or "pyproject.toml", f"overrides[{i}].allowed_drift.",
+                    o.allowed_drift) for i, o in enumerate(self.overrides)
+                   if o.allowed_drift is not None and o.applies(model.source)]
+        layers.append((model.source, "allowed_drift.", model.allowed_drift))
+        for source, prefix, value in layers:
+            if value is not None:
+                tol = parse_tolerances(value, source, prefix, base=tol)
+        return tol
 
     def waivers_for(self, rel: str) -> tuple["Waiver", ...]:
         from ._glob import glob_match as match
@@ -229,6 +256,16 @@ def _layer(value: Any, source: str, key: str) -> Layer:
         raise ConfigError(source, exc.field, exc.problem, exc.hint) from None
 
 
+def _drift(value: Any, source: str, key: str) -> None:
+    from .errors import ModelError
+    from .regressions import parse_tolerances
+
+    try:
+        parse_tolerances(value, source, f"{key}.")
+    except ModelError as exc:
+        raise ConfigError(source, exc.field, exc.problem, exc.hint) from None
+
+
 def parse_config(table: Mapping[str, Any], *, root: Path, source: str = "pyproject.toml") -> Config:
     """Validate a ``[tool.eigengate]`` table (already parsed)."""
     from .rules import RULES
@@ -283,12 +320,25 @@ def parse_config(table: Mapping[str, Any], *, root: Path, source: str = "pyproje
             if "paths" not in item:
                 raise ConfigError(source, f"{where}paths", "is required (globs of the model "
                                   "files this override applies to)")
+            if "allowed_drift" in item:
+                _drift(item["allowed_drift"], source, f"{where}allowed_drift")
             out.append(Override(
+                allowed_drift=item.get("allowed_drift"),
                 paths=_strings(item["paths"], source, f"{where}paths"),
                 requirements=_layer(item.get("requirements", {}), source, f"{where}requirements"),
                 on_uncertain=None if "on_uncertain" not in item else
                 _policy(item["on_uncertain"], source, f"{where}on_uncertain")))
         kw["overrides"] = tuple(out)
+    if "baseline" in table:
+        value = table["baseline"]
+        if not isinstance(value, str) or not value or value.startswith("/") or ".." in \
+                Path(value).parts:
+            raise ConfigError(source, "baseline", f"must be a path inside the repository, got "
+                              f"{value!r}", "for example \".eigengate/baseline.json\"")
+        kw["baseline"] = value
+    if "allowed_drift" in table:
+        _drift(table["allowed_drift"], source, "allowed_drift")
+        kw["allowed_drift"] = table["allowed_drift"]
     if "waivers" in table:
         from .errors import ModelError
         from .waivers import parse_waivers

@@ -24,9 +24,9 @@ __all__ = ["FORMAT_VERSIONS", "TOP_KEYS", "load_models", "load_models_with_refs"
 FORMAT_VERSIONS = (1,)
 TOP_KEYS = ("model_format", "name", "description", "domain", "sample_period", "plant",
             "feedback", "requirements", "known_modes", "on_uncertain", "operating_points",
-            "waivers", "loop", "vector_field")
+            "waivers", "loop", "vector_field", "allowed_drift")
 POINT_KEYS = ("label", "plant", "feedback", "requirements", "known_modes", "on_uncertain",
-              "loop")
+              "loop", "allowed_drift")
 SS_KEYS = ("A", "B", "C", "D", "E", "states", "inputs", "outputs")
 TF_KEYS = ("num", "den", "states", "inputs", "outputs")
 FEEDBACK_KEYS = ("state_gain", "output_gain", "controller", "inputs", "outputs")
@@ -360,8 +360,14 @@ def _build(doc: Mapping[str, Any], ctx: _Ctx, name: str, label: str | None) -> M
                         known_modes=known_modes, on_uncertain=on_uncertain,
                         disabled=disabled, waivers=ctx.waivers, lines=ctx.prefixed_lines(),
                         prefix=ctx.prefix)
+    drift = doc.get("allowed_drift")
+    if drift is not None:  # validated here; layered over the policy at comparison time
+        from .regressions import parse_tolerances
+
+        parse_tolerances(drift, ctx.source, ctx.prefix + "allowed_drift.", ctx.prefixed_lines())
     return dataclasses.replace(model, lines=dict(ctx.lines), loop_parts=_loop(doc, ctx, parts,
-                                                                              requirements))
+                                                                              requirements),
+                               allowed_drift=drift)
 
 
 def _loop(doc: Mapping[str, Any], ctx: _Ctx, parts: list[dict[str, Any]],

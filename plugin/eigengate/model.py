@@ -58,6 +58,7 @@ class Model:
     disabled: tuple[str, ...] = ()
     waivers: tuple["Waiver", ...] = ()
     lines: Mapping[str, int] = field(default_factory=dict)
+    allowed_drift: Mapping[str, Any] | None = None  # regression tolerances of the model file
     #: Plant and controller kept apart (:class:`eigengate.margins.LoopParts`) when the loader
     #: closed the loop, so margins can break it; None otherwise.
     loop_parts: Any = None

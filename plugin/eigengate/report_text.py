@@ -92,8 +92,9 @@ def model_lines(r: "object", *, verbose: bool = True, color: bool = False) -> li
     figure = (f"spectral radius {sp.spectral_radius:.6g}" if m.discrete else
               f"spectral abscissa {sp.spectral_abscissa:.6g} 1/s")
     extra = f", {sp.infinite} infinite" if sp.infinite else ""
-    lines = [f"  {m.title}: {status} — {sp.n_eigenvalues} eigenvalues in {len(sp.modes)} "
-             f"modes{extra}, {figure}, "
+    nm = len(sp.modes)
+    lines = [f"  {m.title}: {status} — {sp.n_eigenvalues} eigenvalues in {nm} "
+             f"mode{'' if nm == 1 else 's'}{extra}, {figure}, "
              f"min ζ {sp.min_damping:.3g}; origin: {r.equilibrium.type}"]
     if verbose:
         for v in r.verdicts:
