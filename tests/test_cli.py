@@ -57,7 +57,7 @@ def test_failing_requirement_names_mode_and_states(repo):
     assert "-0.2±1.98997j" in text  # -ζωn ± jωn√(1-ζ²) with ζ = 0.1, ωn = 2
     assert "angle" in text and "rate" in text
     assert "fine: ok" in text
-    assert text.rstrip().endswith("2 files, 2 models checked: 1 failing, 1 error, 0 warnings")
+    assert "\n2 files, 2 models checked: 1 failing, 1 error, 0 warnings\n" in text
 
 
 def test_clean_repository_exits_zero(repo):
