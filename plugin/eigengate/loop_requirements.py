@@ -43,6 +43,12 @@ def _w(x: float | None) -> str:
     return "none" if x is None else ("∞" if math.isinf(x) else f"{x:.4g} rad/s")
 
 
+def _na(req: Requirement, threshold: Any, why: str):
+    """A passing 'not applicable' verdict."""
+    return req._verdict(passed=True, uncertain=False, measured="n/a", threshold=threshold,
+                        margin=None, offending=(), message=why)
+
+
 class _LoopRequirement(Requirement):
     """Common path: no loop → n/a; unstable closed loop → fail; else ``_measure``."""
 
@@ -50,10 +56,8 @@ class _LoopRequirement(Requirement):
         model = spectrum.model
         parts = getattr(model, "loop_parts", None)
         if parts is None:
-            return self._verdict(passed=True, uncertain=False, measured="n/a",
-                                 threshold=self._threshold(), margin=None, offending=(),
-                                 message="no feedback loop to break: the model has no "
-                                 "feedback block")
+            return _na(self, self._threshold(), "no feedback loop to break: the model has no "
+                       "feedback block")
         bad = [m for m in spectrum.modes if side(m) >= 0]
         if bad:
             n_out = sum(m.count for m in bad if side(m) > 0)
@@ -67,18 +71,9 @@ class _LoopRequirement(Requirement):
                                  threshold=self._threshold(), margin=None,
                                  offending=tuple(bad), message=text + "; margins are not "
                                  "defined", suggestion="stabilise the loop first")
-        lm = parts.margins()
-        if lm.unstable:  # pragma: no cover - same eigenvalues as the spectrum
-            return self._verdict(passed=False, uncertain=False, measured="unstable",
-                                 threshold=self._threshold(), margin=None, offending=(),
-                                 message=f"the closed loop is unstable ({lm.unstable} pole(s))")
-        return self._measure(lm, on_uncertain)
+        return self._measure(parts.margins(), on_uncertain)
 
-    def _threshold(self) -> float:  # pragma: no cover - overridden
-        raise NotImplementedError
-
-    def _measure(self, lm, on_uncertain):  # pragma: no cover - overridden
-        raise NotImplementedError
+    # subclasses define _threshold() and _measure(loop_margins, on_uncertain)
 
     def _compare(self, value: float, at_least: bool, what: str, detail: str):
         threshold = self._threshold()
@@ -212,12 +207,11 @@ class _SetRequirement(Requirement):
     def check(self, modes, spectrum, on_uncertain):
         info = getattr(spectrum.model, "nonlinear", None)
         if info is None or not info.carrier:
-            why = ("the model has no vector field" if info is None else
-                   f"checked once per parameter set, on {info.carrier_label!r}")
-            return self._verdict(passed=True, uncertain=False, measured="n/a",
-                                 threshold=self._threshold(), margin=None, offending=(),
-                                 message=why)
+            return _na(self, self._threshold(), "the model has no vector field" if info is None
+                       else f"checked once per parameter set, on {info.carrier_label!r}")
         search = info.search()
+        if search is None:
+            return _na(self, self._threshold(), "no box declared (vector_field.equilibria)")
         if not search.equilibria and self.rule != "EG403":
             return self._verdict(passed=on_uncertain == "pass", uncertain=True,
                                  measured="none found", threshold=self._threshold(),
@@ -227,11 +221,7 @@ class _SetRequirement(Requirement):
                                  suggestion="widen the box or add starts")
         return self._judge(search, on_uncertain)
 
-    def _threshold(self) -> Any:  # pragma: no cover
-        raise NotImplementedError
-
-    def _judge(self, search, on_uncertain):  # pragma: no cover
-        raise NotImplementedError
+    # subclasses define _threshold() and _judge(search, on_uncertain)
 
 
 @dataclass(frozen=True)
@@ -321,13 +311,15 @@ class EquilibriumAt(Requirement):
     def check(self, modes, spectrum, on_uncertain):
         info = getattr(spectrum.model, "nonlinear", None)
         if info is None or not info.carrier:
-            return self._verdict(passed=True, uncertain=False, measured="n/a",
-                                 threshold=self.spec(), margin=None, offending=(),
-                                 message="the model has no vector field" if info is None else
-                                 f"checked once per parameter set, on {info.carrier_label!r}")
+            return _na(self, self.spec(), "the model has no vector field" if info is None else
+                       f"checked once per parameter set, on {info.carrier_label!r}")
         wrong, unsure, found = [], False, []
         for x, expected in self.points:
-            pt = info.point(x)
+            try:
+                pt = info.point(x)
+            except ModelError as exc:  # f fails at the point: a failing verdict, not a crash
+                wrong.append(f"x={list(x)}: {exc.problem}")
+                continue
             found.append(pt.describe())
             if pt.residual > self.tolerance:
                 wrong.append(f"x={list(x)} is no equilibrium: |f(x, u)| = {pt.residual:.3g} > "

@@ -236,17 +236,13 @@ class LoopMargins:
     disk_margin_frequency: float = math.nan
 
     def channel(self, name: str) -> ChannelMargins:
-        for c in self.channels:
-            if c.channel == name:
-                return c
-        raise KeyError(name)
+        return next(c for c in self.channels if c.channel == name)
 
 
 def disk_gain_range(alpha: float) -> tuple[float, float]:
     """Gains guaranteed by a balanced disk margin α: ``(1−α/2)/(1+α/2)`` to ``(1+α/2)/(1−α/2)``."""
-    if alpha >= 2.0:
-        return 0.0, math.inf
-    return (1 - alpha / 2) / (1 + alpha / 2), (1 + alpha / 2) / (1 - alpha / 2)
+    a = alpha / 2
+    return (0.0, math.inf) if alpha >= 2.0 else ((1 - a) / (1 + a), (1 + a) / (1 - a))
 
 
 def disk_phase(alpha: float) -> float:

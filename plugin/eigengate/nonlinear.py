@@ -1,14 +1,12 @@
-"""Nonlinear models: a vector field ``x' = f(x, u)`` written in Python, linearised at operating
-points, and its equilibria in a box.
+"""Nonlinear models: a Python vector field ``x' = f(x, u)``, its linearisations and equilibria.
 
-The file names the function as ``module:function`` (resolved relative to the repository root,
-imported only when the caller allows it) with parameters from the file. Linearisation uses a
-complex-step Jacobian when the function accepts complex input and agrees with central
-differences (detected by trying), else central differences with step
-``h_j = eps^(1/3)·max(1, |x_j|)``, or a Jacobian function the file names. Each linearisation is
-an ordinary :class:`~eigengate.model.Model`, so every requirement applies to it. Equilibria are
-found by multi-start root finding (``scipy.optimize.root``, hybr then lm) from the box centre
-and a deterministic Halton sequence, deduplicated, and classified from their linearisation.
+The function is named as ``module:function`` (relative to the repository root, imported only
+when the caller allows it), with parameters from the file. Jacobians: complex step when the
+function accepts complex input and agrees with central differences (detected by trying), else
+central differences with ``h_j = eps^(1/3)·max(1, |x_j|)``, or a Jacobian function. Each
+linearisation is an ordinary :class:`~eigengate.model.Model`. Equilibria: multi-start
+``scipy.optimize.root`` (hybr, then lm) from the box centre and a Halton sequence, deduplicated
+and classified from their linearisation.
 """
 
 from __future__ import annotations
@@ -94,41 +92,34 @@ def _user_jacobian(vf: VectorField, x: np.ndarray, u: np.ndarray
         raise bad._fail(f"raised {type(exc).__name__}: {exc}", x, u) from None
     a, b = (out if isinstance(out, tuple) and len(out) == 2 else (out, None))
     a = np.asarray(a, dtype=float)
-    if a.shape != (n, n) or not np.all(np.isfinite(a)):
-        raise bad._fail(f"returned A of shape {a.shape} (finite {n}×{n} expected)", x, u)
-    if b is not None:
-        b = np.asarray(b, dtype=float).reshape(n, -1) if m else np.zeros((n, 0))
-        if b.shape != (n, m) or not np.all(np.isfinite(b)):
-            raise bad._fail(f"returned B of shape {b.shape} (finite {n}×{m} expected)", x, u)
+    b = None if b is None else np.asarray(b, dtype=float).reshape(n, -1) if m else np.zeros((n, 0))
+    for what, arr, shape in (("A", a, (n, n)), ("B", b, (n, m))):
+        if arr is not None and (arr.shape != shape or not np.all(np.isfinite(arr))):
+            raise bad._fail(f"returned {what} of shape {arr.shape} (finite {shape} expected)", x, u)
     return a, b
 
 
-def _central(vf: VectorField, x: np.ndarray, u: np.ndarray, wrt: str) -> np.ndarray:
-    v = x if wrt == "x" else u
-    cols = []
+def _columns(vf: VectorField, x: np.ndarray, u: np.ndarray, wrt: str, how: str
+             ) -> np.ndarray | None:
+    """∂f/∂x or ∂f/∂u by complex step (None when f refuses complex input) or by central
+    differences with ``h_j = eps^(1/3)·max(1, |v_j|)``."""
+    v, cols = (x if wrt == "x" else u), []
     for j in range(v.size):
-        h = _EPS ** (1 / 3) * max(1.0, abs(v[j]))
-        e = np.zeros(v.size)
-        e[j] = h
-        plus = vf(x + e, u) if wrt == "x" else vf(x, u + e)
-        minus = vf(x - e, u) if wrt == "x" else vf(x, u - e)
-        cols.append((plus - minus) / (2 * h))
-    return np.column_stack(cols) if cols else np.zeros((len(vf.states), 0))
-
-
-def _complex_step(vf: VectorField, x: np.ndarray, u: np.ndarray, wrt: str) -> np.ndarray | None:
-    v = x if wrt == "x" else u
-    cols = []
-    for j in range(v.size):
-        h = 1e-30 * max(1.0, abs(v[j]))
-        e = np.zeros(v.size, dtype=complex)
-        e[j] = 1j * h
-        try:
-            out = vf(x + e, u + 0j, complex_ok=True) if wrt == "x" else \
-                vf(x + 0j, u + e, complex_ok=True)
-        except ModelError:
-            return None  # does not take complex input: central differences instead
-        cols.append(out.imag / h)
+        e = np.zeros(v.size, dtype=complex if how == "complex" else float)
+        if how == "complex":
+            h = 1e-30 * max(1.0, abs(v[j]))
+            e[j] = 1j * h
+            try:
+                out = vf(x + e, u + 0j, complex_ok=True) if wrt == "x" else \
+                    vf(x + 0j, u + e, complex_ok=True)
+            except ModelError:
+                return None
+            cols.append(out.imag / h)
+        else:
+            e[j] = h = _EPS ** (1 / 3) * max(1.0, abs(v[j]))
+            plus, minus = ((vf(x + e, u), vf(x - e, u)) if wrt == "x" else
+                           (vf(x, u + e), vf(x, u - e)))
+            cols.append((plus - minus) / (2 * h))
     return np.column_stack(cols) if cols else np.zeros((len(vf.states), 0))
 
 
@@ -141,16 +132,15 @@ def jacobians(vf: VectorField, x: Sequence[float], u: Sequence[float] | None = N
     f0 = vf(x, u)  # a clear error first if f fails at the point itself
     if vf.jacobian is not None:
         a, b = _user_jacobian(vf, x, u)
-        return a, (_central(vf, x, u, "u") if b is None else b), "jacobian function"
-    ca, cb = _complex_step(vf, x, u, "x"), _complex_step(vf, x, u, "u")
-    da, db = _central(vf, x, u, "x"), _central(vf, x, u, "u")
-    if ca is not None and cb is not None:
-        # A function that accepts complex numbers but is not analytic in them (abs, real parts,
-        # branches on values) gives a wrong complex step; central differences catch that.
-        scale = 1.0 + np.abs(ca) + np.abs(f0).max()
-        if np.all(np.abs(ca - da) <= 1e-4 * scale) and np.all(np.abs(cb - db) <= 1e-4 * (
-                1.0 + np.abs(cb) + np.abs(f0).max())):
-            return ca, cb, "complex step"
+        return a, (_columns(vf, x, u, "u", "central") if b is None else b), "jacobian function"
+    ca, cb = _columns(vf, x, u, "x", "complex"), _columns(vf, x, u, "u", "complex")
+    da, db = _columns(vf, x, u, "x", "central"), _columns(vf, x, u, "u", "central")
+    # A function that accepts complex numbers but is not analytic in them (abs, real parts,
+    # branches on values) gives a wrong complex step; central differences catch that.
+    if ca is not None and cb is not None and all(
+            np.all(np.abs(c - d) <= 1e-4 * (1.0 + np.abs(c) + np.abs(f0).max()))
+            for c, d in ((ca, da), (cb, db))):
+        return ca, cb, "complex step"
     return da, db, "central differences"
 
 
@@ -193,9 +183,9 @@ class EquilibriumSearch:
             (": " if i == 0 else "; ") + e.describe() for i, e in enumerate(self.equilibria))
 
     def describe(self) -> str:
-        text = (f"{self.starts} starts, {self.converged} converged in the box, {self.outside} "
-                f"left it, {self.failed} did not converge")
-        return text + (f" (first error: {self.errors[0]})" if self.errors else "")
+        return (f"{self.starts} starts, {self.converged} converged in the box, {self.outside} "
+                f"left it, {self.failed} did not converge"
+                + (f" (first error: {self.errors[0]})" if self.errors else ""))
 
 
 def _classify(vf: VectorField, x: np.ndarray, u: np.ndarray) -> FoundEquilibrium:
@@ -221,28 +211,26 @@ def find_equilibria(vf: VectorField, lower: Sequence[float], upper: Sequence[flo
     from scipy.stats import qmc
 
     lo, hi = np.asarray(lower, dtype=float), np.asarray(upper, dtype=float)
-    u = np.zeros(len(vf.inputs)) if u is None else np.asarray(u, dtype=float)
-    width = hi - lo
+    u, width = np.zeros(len(vf.inputs)) if u is None else np.asarray(u, dtype=float), hi - lo
     tol = tolerance if tolerance is not None else 1e-6 * max(1.0, float(width.max()))
-    unit = qmc.Halton(d=lo.size, scramble=False).random(starts)[1:] if starts > 1 else \
-        np.zeros((0, lo.size))
+    unit = qmc.Halton(d=lo.size, scramble=False).random(max(starts, 1))[1:]  # [0] is a corner
     x0s = [lo + width / 2] + [lo + width * p for p in unit]
     jac = None if vf.jacobian is None else (lambda x: _user_jacobian(vf, x, u)[0])
     found: list[FoundEquilibrium] = []
-    converged = failed = outside = 0
     errors: list[str] = []
+    converged = failed = outside = 0
     for x0 in x0s:
         x = None
         try:
             for method in ("hybr", "lm"):
                 sol = root(lambda x: vf(x, u), x0, jac=jac, method=method)
-                a = jacobians(vf, sol.x, u)[0] if np.all(np.isfinite(sol.x)) else None
-                if a is not None:
-                    res = float(np.max(np.abs(vf(sol.x, u))))
-                    scale = max(1.0, float(np.abs(a).max()) * max(1.0, float(np.abs(sol.x).max())))
-                    if res <= 1e-8 * scale:
-                        x = sol.x
-                        break
+                if not np.all(np.isfinite(sol.x)):
+                    continue
+                norm_a = float(np.abs(jacobians(vf, sol.x, u)[0]).max())
+                if np.max(np.abs(vf(sol.x, u))) <= 1e-8 * max(1.0, norm_a * max(
+                        1.0, float(np.abs(sol.x).max()))):
+                    x = sol.x
+                    break
         except ModelError as exc:
             errors.append(exc.problem)
         if x is None:
@@ -254,8 +242,7 @@ def find_equilibria(vf: VectorField, lower: Sequence[float], upper: Sequence[flo
             if not any(np.max(np.abs(np.array(e.x) - x)) <= tol for e in found):
                 found.append(_classify(vf, x, u))
     found.sort(key=lambda e: tuple(round(v, 9) for v in e.x))
-    return EquilibriumSearch(tuple(found), len(x0s), converged, failed, outside,
-                             tuple(errors[:3]))
+    return EquilibriumSearch(tuple(found), len(x0s), converged, failed, outside, tuple(errors[:3]))
 
 
 @dataclass(frozen=True, eq=False)
@@ -274,31 +261,28 @@ class FieldPoint:
     box: tuple[tuple[float, ...], tuple[float, ...], tuple[float, ...], int, float | None] | None
     shared: dict = dataclasses.field(default_factory=dict, repr=False)
 
-    def search(self) -> EquilibriumSearch:
-        if "search" not in self.shared:
-            if self.box is None:
-                raise ModelError(self.field.source, "vector_field.equilibria", "is missing: "
-                                 "set-level equilibrium requirements need a box to search")
+    def search(self) -> EquilibriumSearch | None:
+        """The search of the box (None without one), run once per parameter set."""
+        if "search" not in self.shared and self.box is not None:
             lo, hi, u, starts, tol = self.box
             self.shared["search"] = find_equilibria(self.field, lo, hi, u, starts=starts,
                                                     tolerance=tol)
-        return self.shared["search"]
+        return self.shared.get("search")
 
     def point(self, x: Sequence[float]) -> FoundEquilibrium:
         """Residual and type of the linearisation at ``x`` (with the box's input)."""
-        u = np.asarray(self.box[2] if self.box else self.u, dtype=float)
-        return _classify(self.field, np.asarray(x, dtype=float), u)
+        u = self.box[2] if self.box else self.u
+        return _classify(self.field, np.asarray(x, dtype=float), np.asarray(u, dtype=float))
 
 
 @contextlib.contextmanager
 def _on_path(root: Path) -> Iterator[None]:
-    entry = str(root)
-    sys.path.insert(0, entry)
+    sys.path.insert(0, str(root))
     try:
         yield
-    finally:
+    finally:  # remove exactly the entry added, wherever the import moved it
         with contextlib.suppress(ValueError):
-            sys.path.remove(entry)
+            sys.path.remove(str(root))
 
 
 def import_function(ref: str, root: Path, source: str, fld: str, line: int | None = None
@@ -311,7 +295,7 @@ def import_function(ref: str, root: Path, source: str, fld: str, line: int | Non
     root = Path(root).resolve()
     for name in [n for n in sys.modules if n == mod_name or mod_name.startswith(n + ".")]:
         file = getattr(sys.modules[name], "__file__", None)  # a same-named module of another
-        if file and root not in Path(file).resolve().parents:  # repository must not be reused
+        if file and root not in Path(file).resolve().parents:  # repository is not reused
             del sys.modules[name]
     importlib.invalidate_caches()
     try:
@@ -331,29 +315,27 @@ def import_function(ref: str, root: Path, source: str, fld: str, line: int | Non
 
 def _numbers(value: Any, ctx: Any, path: str, size: int | None) -> tuple[float, ...]:
     ok = isinstance(value, list) and all(isinstance(v, (int, float)) and not isinstance(v, bool)
-                                         and math.isfinite(v) for v in value) and (value != [] or size == 0)
-    if not ok or (size is not None and len(value) != size):
-        want = f"{size} finite numbers" if size is not None else "finite numbers"
-        raise ctx.err(path, f"must be a list of {want}, got {value!r:.60}")
+                                         and math.isfinite(v) for v in value)
+    if not ok or len(value) != (len(value) or 1 if size is None else size):
+        raise ctx.err(path, f"must be a list of {size or 'some'} finite numbers, got "
+                      f"{value!r:.60}")
     return tuple(float(v) for v in value)
 
 
 def load_vector_field(data: Mapping[str, Any], ctx: Any, name: str,
                       parse_requirements: Callable[..., tuple]) -> list[Model]:
     """Models of a model file with a ``vector_field`` block (called by the loader)."""
-    from .loader import _check_keys, _mapping, suggest
+    from .loader import _check_keys, _mapping
     from .loop_requirements import LOOP_RULES, POINT_RULES, SET_RULES
     from .requirements import apply_layers
 
-    for key in ("plant", "feedback", "operating_points", "loop", "sample_period"):
-        if key in data:
-            raise ctx.err(key, "cannot be combined with vector_field", "a vector field file "
-                          "gives its operating points under vector_field.at")
+    for key in [k for k in ("plant", "feedback", "operating_points", "loop") if k in data]:
+        raise ctx.err(key, "cannot be combined with vector_field", "a vector field file "
+                      "gives its operating points under vector_field.at")
     if ctx.domain != "continuous":
         raise ctx.err("domain", "must be continuous for a vector field (x' = f(x, u))")
     if "waivers" in data:
         from .waivers import parse_waivers
-
         ctx.waivers = parse_waivers(data["waivers"], ctx.source, "waivers", ctx.lines)
     block = _mapping(data["vector_field"], ctx, "vector_field")
     _check_keys(block, VECTOR_FIELD_KEYS, ctx, "vector_field", "vector_field")
@@ -374,8 +356,8 @@ def load_vector_field(data: Mapping[str, Any], ctx: Any, name: str,
                 ctx.refs.append(file.relative_to(root.resolve()).as_posix())
     states, inputs = block.get("states"), block.get("inputs", [])
     for key, names in (("states", states), ("inputs", inputs)):
-        if not isinstance(names, list) or not all(isinstance(v, str) for v in names) or (
-                key == "states" and not names):
+        if not isinstance(names, list) or not all(isinstance(v, str) for v in names) or not (
+                names or key == "inputs"):
             raise ctx.err(f"vector_field.{key}", f"must be a list of names, got {names!r:.60}")
     params = dict(_mapping(block.get("parameters", {}), ctx, "vector_field.parameters"))
     for k, v in params.items():
@@ -386,18 +368,13 @@ def load_vector_field(data: Mapping[str, Any], ctx: Any, name: str,
     base = VectorField(fns["function"], tuple(states), tuple(inputs), params,
                        fns.get("jacobian"), block["function"], ctx.source,
                        ctx.prefix + "vector_field.function")
-    box = None
+    box = None  # (lower, upper, u, starts, tolerance)
     if "equilibria" in block:
         eq = _mapping(block["equilibria"], ctx, "vector_field.equilibria")
         _check_keys(eq, EQUILIBRIA_KEYS, ctx, "vector_field.equilibria", "equilibria")
         where = "vector_field.equilibria.box"
         sides = _mapping(eq.get("box"), ctx, where)
-        for k in sides:
-            if k not in states:
-                close = suggest(str(k), states)
-                raise ctx.err(f"{where}.{k}", "names no state", f"did you mean {close!r}?"
-                              if close else "states: " + ", ".join(states))
-        lo, hi = [], []
+        _check_keys(sides, tuple(states), ctx, where, "the box (a [low, high] per state)")
         for s in states:
             if s not in sides:
                 raise ctx.err(where, f"gives no range for state {s!r}",
@@ -405,16 +382,14 @@ def load_vector_field(data: Mapping[str, Any], ctx: Any, name: str,
             a, b = _numbers(sides[s], ctx, f"{where}.{s}", 2)
             if not a < b:
                 raise ctx.err(f"{where}.{s}", f"must have low < high, got {[a, b]}")
-            lo.append(a)
-            hi.append(b)
+        lo, hi = zip(*(_numbers(sides[s], ctx, where, 2) for s in states))
         starts = eq.get("starts", 64)
         if isinstance(starts, bool) or not isinstance(starts, int) or not 1 <= starts <= 100000:
             raise ctx.err("vector_field.equilibria.starts", f"must be an integer from 1 to "
                           f"100000, got {starts!r}")
-        u_eq = _numbers(eq.get("u", [0.0] * m), ctx, "vector_field.equilibria.u", m)
-        tol = _numbers([eq["tolerance"]], ctx, "vector_field.equilibria.tolerance", 1)[0] \
-            if "tolerance" in eq else None
-        box = (tuple(lo), tuple(hi), u_eq, starts, tol)
+        tol = _numbers([eq.get("tolerance", 1.0)], ctx, "vector_field.equilibria.tolerance", 1)
+        box = (lo, hi, _numbers(eq.get("u", [0.0] * m), ctx, "vector_field.equilibria.u", m),
+               starts, tol[0] if "tolerance" in eq else None)
     top, top_off, known = parse_requirements(data, ctx, states)
     if any(r.rule in LOOP_RULES for r in top):
         raise ctx.err("requirements", "asks for loop margins, but a vector field has no loop")
@@ -432,25 +407,20 @@ def load_vector_field(data: Mapping[str, Any], ctx: Any, name: str,
         seen: set[str] = set()
         for i, p in enumerate(points):
             path = f"vector_field.at[{i}]"
-            p = _mapping(p, ctx, path)
-            _check_keys(p, AT_KEYS, ctx, path, "an operating point")
+            _check_keys(_mapping(p, ctx, path), AT_KEYS, ctx, path, "an operating point")
             label = p.get("label")
             if not isinstance(label, str) or not label.strip() or label in seen:
                 raise ctx.err(f"{path}.label", f"must be a unique non-empty string, got {label!r}")
             seen.add(label)
-            x = _numbers(p.get("x"), ctx, f"{path}.x", n)
-            u = _numbers(p.get("u", [0.0] * m), ctx, f"{path}.u", m)
-            own: tuple = ((), ())
-            if "requirements" in p:
-                pctx = dataclasses.replace(ctx, prefix=ctx.prefix + f"{path} (label {label!r}).")
-                own = parse_requirements({"requirements": p["requirements"]}, pctx, states)[:2]
-            at.append((label, x, u, *own))
-    combos = list(itertools.product(*grids.values())) or [()]
-    models: list[Model] = []
-    for combo in combos:
+            pctx = dataclasses.replace(ctx, prefix=ctx.prefix + f"{path} (label {label!r}).")
+            own = parse_requirements({"requirements": p.get("requirements", {})}, pctx, states)
+            at.append((label, _numbers(p.get("x"), ctx, f"{path}.x", n),
+                       _numbers(p.get("u", [0.0] * m), ctx, f"{path}.u", m), *own[:2]))
+    models: list[Model] = []  # product() of no grids is one empty combination: no sweep
+    for combo in itertools.product(*grids.values()):
         tag = ", ".join(f"{k}={v:g}" for k, v in zip(grids, combo))
         vf = dataclasses.replace(base, parameters={**params, **dict(zip(grids, combo))})
-        shared: dict = {}
+        shared: dict = {}  # the search, once per parameter set
         rows = list(at)
         if points is None:  # the equilibria found are the operating points
             search = FieldPoint(vf, (), (), True, None, box, shared).search()
@@ -463,18 +433,17 @@ def load_vector_field(data: Mapping[str, Any], ctx: Any, name: str,
                 centre = tuple((a + b) / 2 for a, b in zip(box[0], box[1]))
                 rows = [("box centre", centre, box[2], (), ())]
         for j, (label, x, u, own, own_off) in enumerate(rows):
-            full = ", ".join(t for t in (tag, label) if t) or None
-            carrier_label = ", ".join(t for t in (tag, rows[0][0]) if t)
+            full, carrier = (", ".join(t for t in (tag, lb) if t) for lb in (label, rows[0][0]))
             reqs = apply_layers([(top, top_off), (own, own_off)])
             if j:  # set-level requirements are judged once per parameter set
                 reqs = tuple(r for r in reqs if r.rule not in SET_RULES + POINT_RULES)
             elif points is None and label == "box centre":
                 reqs = tuple(r for r in reqs if r.rule in SET_RULES + POINT_RULES)
-            model = linearise(vf, x, u, name=name, label=full, source=ctx.source,
+            model = linearise(vf, x, u, name=name, label=full or None, source=ctx.source,
                               requirements=reqs, known_modes=known,
                               disabled=tuple(sorted(set(top_off) | set(own_off))),
                               on_uncertain=data.get("on_uncertain"), waivers=ctx.waivers,
                               lines=ctx.prefixed_lines())
-            info = FieldPoint(vf, tuple(x), tuple(u), j == 0, carrier_label, box, shared)
+            info = FieldPoint(vf, tuple(x), tuple(u), j == 0, carrier, box, shared)
             models.append(dataclasses.replace(model, lines=dict(ctx.lines), nonlinear=info))
     return models
