@@ -195,8 +195,9 @@ def _clip(poly: Polygon, a: float, b: float, c: float) -> Polygon:
 def region_pieces(region: AllowedRegion, box: tuple[float, float, float, float]) -> list[Polygon]:
     """The allowed region inside ``box = (x0, x1, y0, y1)`` of the s-plane, as convex polygons.
 
-    The damping sector ``|arg(-s)| ≤ acos ζ`` is convex only for ζ ≥ 0, but its upper and lower
-    halves are convex for every ζ in [-1, 1], so the region is (at most) two convex pieces.
+    The damping sector ``|arg(-s)| ≤ acos ζ`` is convex only for ζ ≥ 0, but its upper and
+    lower halves are convex for every ζ in [-1, 1], so the region is (at most) two convex
+    pieces.
     """
     x0, x1, y0, y1 = box
     base = [(x0, y0), (x1, y0), (x1, y1), (x0, y1)]
@@ -214,7 +215,8 @@ def region_pieces(region: AllowedRegion, box: tuple[float, float, float, float])
     pieces = []
     for sign in (1.0, -1.0):  # upper half, then its mirror image
         piece = _clip(base, 0.0, -sign, 0.0)  # sign·y ≥ 0
-        # Left of the ray at angle θ from the negative real axis: sin θ·x + cos θ·(sign·y) ≤ 0.
+        # On the side of the ray at angle θ from the negative real axis that holds that axis:
+        # sin θ·x + cos θ·(sign·y) ≤ 0.
         piece = _clip(piece, math.sin(theta), sign * math.cos(theta), 0.0)
         if len(piece) >= 3:
             pieces.append(piece)
@@ -388,7 +390,7 @@ def _view(points: Sequence[complex], region: AllowedRegion | None, discrete: boo
             ys.append(region.omega)
     x0, x1 = min(xs), max(xs)
     ymax = max(ys)
-    pad = 0.12 * max(x1 - x0, 2 * ymax, 1e-300)
+    pad = 0.12 * max(x1 - x0, 2 * ymax, span)
     x0, x1 = x0 - pad, x1 + pad
     y1 = ymax + pad
     return _fit_aspect(x0, x1, -y1, y1, ratio)
@@ -485,7 +487,8 @@ def pole_map_figure(result: "ModelResult", *, baseline_poles: Sequence[complex] 
     # Current poles: one marker per eigenvalue, coloured by the findings naming its mode.
     colors = {"error": _ERROR, "warning": _WARNING}
     face = [colors.get(marks.get(i, ""), _INK) for _, i, _ in pts]
-    h = ax.scatter([p.real for p, _, _ in pts], [p.imag for p, _, _ in pts], s=34,
+    size = 34.0 if len(pts) <= 40 else max(9.0, 34.0 * math.sqrt(40 / len(pts)))
+    h = ax.scatter([p.real for p, _, _ in pts], [p.imag for p, _, _ in pts], s=size,
                    marker="D", c=face, edgecolors="white", linewidths=0.5, zorder=5)
     h.set_gid(POLE_GID)
     from matplotlib.lines import Line2D

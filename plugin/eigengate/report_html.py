@@ -285,7 +285,7 @@ def _figures(e: _Entry, mpl: Any, baseline: Sequence[complex] | None, dpi: int) 
     alt = (f"Pole map of {m.title}: {n} poles" + (f", {hits} in failing or warning checks"
                                                    if hits else ""))
     caption = (f"{n} poles, one marker each (×k: a k-fold eigenvalue); red: named by a failed "
-               f"check. {_region_caption(m)}")
+               f"check, amber: by a warning. {_region_caption(m)}")
     if r.spectrum.infinite:
         caption += f" {r.spectrum.infinite} infinite eigenvalues (descriptor) are not drawn."
     if baseline:
@@ -305,8 +305,9 @@ def _figures(e: _Entry, mpl: Any, baseline: Sequence[complex] | None, dpi: int) 
     return out
 
 
-def _mode_rows_table(rows: Sequence[Any], discrete: bool, hits: Mapping[int, str] = {},
-                     limit: int | None = None) -> list[str]:
+def _mode_rows_table(rows: Sequence[Any], discrete: bool,
+                     hits: Mapping[int, str] | None = None, limit: int | None = None
+                     ) -> list[str]:
     """The fields of report_text.mode_table (detail form) as an HTML table."""
     head = ["mode", "z" if discrete else "eigenvalue"] + (["s equivalent"] if discrete else [])
     head += ["ζ", "ωn [rad/s]", "τ [s]", "± bound", "κ", "participating states"]
@@ -322,7 +323,7 @@ def _mode_rows_table(rows: Sequence[Any], discrete: bool, hits: Mapping[int, str
         cells += [_num(row.damping_ratio, 3), _num(row.natural_frequency),
                   _num(row.time_constant), _num(row.uncertainty, 2), _num(row.condition, 3)]
         tds = "".join(f'<td class="num">{_e(c)}</td>' for c in cells) + f"<td>{_e(states)}</td>"
-        cls = ' class="eg-hit"' if row.index in hits else ""
+        cls = ' class="eg-hit"' if hits and row.index in hits else ""
         out.append(f"<tr{cls}>{tds}</tr>")
     out.append("</tbody></table>")
     if limit is not None and len(rows) > limit:
@@ -458,7 +459,8 @@ def _section(e: _Entry, figures: list[str] | None, max_images: int | None) -> li
         f"spectral abscissa {_num(sp.spectral_abscissa, 6, '1/s')}"
     n_modes = len(sp.modes)
     facts = (f"{m.structure}, {kind}, {m.n_states} states, {sp.n_eigenvalues} eigenvalues in "
-             f"{n_modes} mode{'' if n_modes == 1 else 's'}" + (f", {sp.infinite} infinite" if sp.infinite else "")
+             f"{n_modes} mode{'' if n_modes == 1 else 's'}"
+             + (f", {sp.infinite} infinite" if sp.infinite else "")
              + f"; {figure}; origin: {r.equilibrium.describe()}")
     out.append(f'<p class="eg-facts">{_e(facts)}</p>')
     if figures is not None:
