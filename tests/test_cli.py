@@ -102,8 +102,13 @@ def test_output_is_deterministic(repo):
 
 
 def test_example_repo_shows_the_deliberate_regression():
-    out = run_cli("check", str(EXAMPLE))
-    assert out.returncode == 1
-    assert "mast-sway-damper: FAILED" in out.stdout
-    assert "sway_rate" in out.stdout and "sway_angle" in out.stdout
-    assert out.stdout.count("FAIL ") == 1
+    out = run_cli("check", "--no-cache", str(EXAMPLE))
+    assert out.returncode == 1, out.stderr
+    text = out.stdout
+    assert "mast-sway-damper: FAILED" in text
+    assert text.count(": FAILED") == 1  # exactly one model fails
+    assert "sway_rate" in text and "sway_angle" in text
+    for rule in ("EG103 damping-ratio", "EG202 decay-rate-regressed", "EG203 damping-regressed"):
+        assert rule in text
+    assert "EG001" not in text
+    assert "1 failing, 3 errors" in text

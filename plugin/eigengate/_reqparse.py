@@ -138,7 +138,8 @@ def parse_requirement_layer(raw: Any, source: str, prefix: str = "requirements."
         line = lines.get(fld, lines.get(base))
         if key not in _PARSERS:
             raise _unknown(str(key), _PARSERS, source, fld, line)
-        req = _PARSERS[key](value, source, fld, line)
+        # false switches any requirement off (and a repository default of the same rule)
+        req = None if value is False else _PARSERS[key](value, source, fld, line)
         if req is None:
             off.append(rule_by_key(key).id)
         else:

@@ -25,6 +25,7 @@ FORMATS = {
     "junit": ("report_junit", "render_junit", False),
     "markdown": ("report_markdown", "render_markdown", False),
     "annotations": ("report_annotations", "render_annotations", False),
+    "html": ("report_html", "render_html", True),
 }
 
 
@@ -60,6 +61,9 @@ def _parser() -> argparse.ArgumentParser:
     check.add_argument("--output", "-o", action="append", default=[], metavar="FORMAT:FILE",
                        help="also write a report to FILE, e.g. sarif:eigengate.sarif "
                             "(repeatable)")
+    check.add_argument("--pole-maps", metavar="DIR", default=None,
+                       help="write PNG and SVG pole maps of every model with findings into DIR "
+                            "(needs the report extra: pip install \"eigengate[report]\")")
     check.add_argument("--jobs", "-j", type=int, default=None, metavar="N",
                        help="worker processes (default: the number of cores)")
     check.add_argument("--no-cache", action="store_true",
@@ -169,7 +173,8 @@ def _outputs(specs: list[str]) -> list[tuple[str, Path]]:
     return out
 
 
-def render(fmt: str, results: list, *, color: bool = False, quiet: bool = False) -> str:
+def render(fmt: str, results: list, *, color: bool = False, quiet: bool = False,
+           baseline_poles=None) -> str:
     """Render ``results`` (FileResult objects) in ``fmt``."""
     import importlib
 
@@ -179,7 +184,48 @@ def render(fmt: str, results: list, *, color: bool = False, quiet: bool = False)
     func = getattr(importlib.import_module(f".{module}", __package__), name)
     if fmt == "text":
         return func(results, verbose=not quiet, color=color)
+    if fmt == "html":
+        from .runner import terminal_progress
+
+        return func(results, tool_version=__version__, baseline_poles=baseline_poles,
+                    progress=terminal_progress())
     return func(results, tool_version=__version__) if versioned else func(results)
+
+
+def _baseline_poles(baseline) -> dict:
+    """Poles of every baseline entry in its model's own plane, conjugates and multiplicity
+    included, for drawing the modes that moved."""
+    out = {}
+    for entry in baseline.entries():
+        poles = []
+        for m in entry.modes:
+            for _ in range(m.multiplicity):
+                poles.append(m.eigenvalue)
+                if m.pair:
+                    poles.append(m.eigenvalue.conjugate())
+        out[entry.key] = poles
+    return out
+
+
+def _write_pole_maps(folder: Path, files: list, baseline_poles) -> int:
+    """PNG and SVG pole maps of every model with findings, named after file and model."""
+    import re
+
+    from .plots import pole_map_png, pole_map_svg
+
+    folder.mkdir(parents=True, exist_ok=True)
+    count = 0
+    for fr in files:
+        for r in fr.results:
+            if not r.findings:
+                continue
+            key = (r.model.source, r.model.title)
+            stem = re.sub(r"[^A-Za-z0-9._-]+", "-", f"{r.model.source}--{r.model.title}").strip("-")
+            poles = (baseline_poles or {}).get(key)
+            (folder / f"{stem}.png").write_bytes(pole_map_png(r, baseline_poles=poles))
+            _write_atomic(folder / f"{stem}.svg", pole_map_svg(r, baseline_poles=poles))
+            count += 1
+    return count
 
 
 def _write_atomic(path: Path, text: str) -> None:
@@ -189,6 +235,9 @@ def _write_atomic(path: Path, text: str) -> None:
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", dir=path.parent)
     with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as fh:
         fh.write(text)
+    umask = os.umask(0)
+    os.umask(umask)
+    os.chmod(tmp, 0o666 & ~umask)  # a report is an ordinary file, not mkstemp's private one
     os.replace(tmp, path)
 
 
@@ -215,12 +264,14 @@ def _check(args) -> int:
     files = list(result.files)
     notes = []
     failed = result.failed
+    poles = None
     if not args.no_baseline:
         from .baseline_check import (accept_command, compare_files, reference_baseline,
                                      with_regressions)
 
         baseline = _reference(config, args.against)
         if baseline is not None:
+            poles = _baseline_poles(baseline)
             outcome = compare_files(files, config, baseline, complete=not args.paths)
             files = with_regressions(files, outcome, config)
             failed = failed or outcome.failed
@@ -247,9 +298,18 @@ def _check(args) -> int:
     if not files:
         print("eigengate: no model files found (configure [tool.eigengate] include, or name "
               "the files; a model file has a model_format key)", file=sys.stderr)
-    for fmt, path in outputs:
-        _write_atomic(path, render(fmt, files))
-    sys.stdout.write(render(args.format, files, color=_use_color(args.color), quiet=args.quiet))
+    from .plots import ReportDependencyError
+
+    try:
+        for fmt, path in outputs:
+            _write_atomic(path, render(fmt, files, baseline_poles=poles))
+        if args.pole_maps:
+            _write_pole_maps(Path(args.pole_maps), files, poles)
+        text = render(args.format, files, color=_use_color(args.color), quiet=args.quiet,
+                      baseline_poles=poles)
+    except ReportDependencyError as exc:
+        raise UsageError(str(exc)) from None
+    sys.stdout.write(text)
     for note in notes:
         print(note, file=sys.stdout if args.format == "text" else sys.stderr)
     return Exit.FINDINGS if failed else Exit.CLEAN

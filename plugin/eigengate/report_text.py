@@ -119,13 +119,17 @@ def render_results(results: Iterable["object"], *, verbose: bool = True,
     errors = warnings = 0
     for fr in results:
         files += 1
-        lines.append(fr.source)
         failing += 1 if fr.error is not None else 0
+        quiet_file = not verbose and not fr.findings and not any(
+            getattr(r, "waived", ()) for r in fr.results)
+        if not quiet_file:
+            lines.append(fr.source)
         shown: set[int] = set()
         for r in fr.results:
             models += 1
             failing += 0 if r.passed else 1
-            lines.extend(model_lines(r, verbose=verbose, color=color))
+            if verbose or r.findings or getattr(r, "waived", ()):
+                lines.extend(model_lines(r, verbose=verbose, color=color))
             shown.update(id(f) for f in r.findings)
         for f in fr.findings:
             if id(f) not in shown:  # the file's own: invalid file, expired or unused waivers
@@ -134,7 +138,8 @@ def render_results(results: Iterable["object"], *, verbose: bool = True,
                 errors += 1
             else:
                 warnings += 1
-        lines.append("")
+        if not quiet_file:
+            lines.append("")
     lines.append(f"{files} file{'s' if files != 1 else ''}, {models} model"
                  f"{'s' if models != 1 else ''} checked: {failing} failing, {errors} error"
                  f"{'s' if errors != 1 else ''}, {warnings} warning{'s' if warnings != 1 else ''}")
