@@ -18,6 +18,8 @@ import time
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Iterable, Iterator
 
+from ._formats import DuplicateKey, unique_pairs
+
 from .errors import EigengateError
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -160,19 +162,6 @@ def scan_lines(text: str) -> tuple[dict[tuple, int], tuple[tuple, int] | None]:
     return lines, dup
 
 
-class _Dup(Exception):
-    pass
-
-
-def _pairs(items: list[tuple[str, Any]]) -> dict[str, Any]:
-    out: dict[str, Any] = {}
-    for k, v in items:
-        if k in out:
-            raise _Dup(k)
-        out[k] = v
-    return out
-
-
 def _no_constant(name: str) -> Any:
     raise ValueError(f"the bare constant {name} is not JSON; the baseline writes "
                      "\"inf\", \"-inf\" and \"nan\" as strings")
@@ -250,8 +239,8 @@ def parse(text: str, path: str) -> tuple[list["Entry"], dict[tuple[str, str], in
     if "\n<<<<<<< " in "\n" + text:
         hint = "it holds merge-conflict markers: resolve by accepting again on the merged branch"
     try:
-        data = json.loads(text, object_pairs_hook=_pairs, parse_constant=_no_constant)
-    except _Dup as exc:
+        data = json.loads(text, object_pairs_hook=unique_pairs, parse_constant=_no_constant)
+    except DuplicateKey as exc:
         where, line = scan_lines(text)[1] or ((str(exc),), None)
         raise BaselineError(path, f"has the key {where[-1]!r} twice in one object", line=line,
                             hint=hint) from None

@@ -263,19 +263,11 @@ class _YamlWalk:
 # --------------------------------------------------------------------------- JSON
 
 def _parse_json(text: str, source: str) -> tuple[Any, dict[str, int]]:
-    def pairs(items: list[tuple[str, Any]]) -> dict[str, Any]:
-        out: dict[str, Any] = {}
-        for k, v in items:
-            if k in out:
-                raise _DuplicateKey(k)
-            out[k] = v
-        return out
-
     def no_constant(name: str) -> float:
         raise _BadConstant(name)
 
     try:
-        data = json.loads(text, object_pairs_hook=pairs, parse_constant=no_constant)
+        data = json.loads(text, object_pairs_hook=unique_pairs, parse_constant=no_constant)
     except json.JSONDecodeError as exc:
         raise ModelError(source, "", f"is not valid JSON: {exc.msg} at line {exc.lineno}, "
                          f"column {exc.colno}", line=exc.lineno) from None
@@ -284,7 +276,7 @@ def _parse_json(text: str, source: str) -> tuple[Any, dict[str, int]]:
                          hint="model files hold finite numbers") from None
     except RecursionError:
         raise ModelError(source, "", "nests lists or mappings too deeply") from None
-    except _DuplicateKey as exc:
+    except DuplicateKey as exc:
         lines, dup = _json_scan(text)
         path, first, second = dup or (exc.args[0], None, None)
         raise ModelError(source, path, "is given twice" + (
@@ -293,7 +285,17 @@ def _parse_json(text: str, source: str) -> tuple[Any, dict[str, int]]:
     return data, _json_scan(text)[0]
 
 
-class _DuplicateKey(Exception):
+def unique_pairs(items: list[tuple[str, Any]]) -> dict[str, Any]:
+    """``json.loads`` object hook that refuses a key given twice (json keeps the last)."""
+    out: dict[str, Any] = {}
+    for k, v in items:
+        if k in out:
+            raise DuplicateKey(k)
+        out[k] = v
+    return out
+
+
+class DuplicateKey(Exception):
     pass
 
 

@@ -34,6 +34,7 @@ from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any, Iterable, Iterator, Mapping
 
+from .modes import ModeFigures
 from ._baseline_io import DIGITS, FORMAT_VERSION, BaselineError, fmt_float
 
 __all__ = ["DEFAULT_PATH", "FORMAT_VERSION", "DIGITS", "Baseline", "BaselineError",
@@ -57,7 +58,7 @@ def _r(x: float, digits: int = DIGITS) -> float:
 
 
 @dataclass(frozen=True)
-class BaselineMode:
+class BaselineMode(ModeFigures):
     """One accepted mode; the attribute names match :class:`~eigengate.modes.Mode`."""
 
     eigenvalue: complex
@@ -71,18 +72,6 @@ class BaselineMode:
     uncertainty: float
     condition: float
     states: tuple[tuple[str, float], ...]
-
-    @property
-    def decay_rate(self) -> float:
-        return -self.s.real
-
-    @property
-    def oscillatory(self) -> bool:
-        return self.s.imag != 0.0
-
-    @property
-    def count(self) -> int:
-        return self.multiplicity * (2 if self.pair else 1)
 
     def row(self, index: int) -> Any:
         """This mode as a :class:`~eigengate.findings.ModeRow` (``index`` is 1-based)."""

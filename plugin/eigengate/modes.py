@@ -31,7 +31,7 @@ from .model import Model
 if TYPE_CHECKING:  # pragma: no cover
     import numpy as np
 
-__all__ = ["Mode", "Spectrum", "analyse"]
+__all__ = ["Mode", "ModeFigures", "Spectrum", "analyse"]
 
 #: Safety factor on the backward-error scale n·eps·‖A‖ of the eigenvalue error bounds.
 BOUND_FACTOR = 4.0
@@ -43,8 +43,31 @@ CLUSTER_FACTOR = 4.0
 SVD_RANK_LIMIT = 400
 
 
+class ModeFigures:
+    """Figures derived from ``s``, ``multiplicity`` and ``pair``, shared by every record of a
+    mode (the analysed :class:`Mode`, a baseline's stored mode)."""
+
+    s: complex
+    multiplicity: int
+    pair: bool
+
+    @property
+    def decay_rate(self) -> float:
+        """``-Re(s)`` in 1/s: positive for a decaying mode."""
+        return -self.s.real
+
+    @property
+    def oscillatory(self) -> bool:
+        return self.s.imag != 0.0
+
+    @property
+    def count(self) -> int:
+        """Number of eigenvalues this mode stands for (a pair counts twice)."""
+        return self.multiplicity * (2 if self.pair else 1)
+
+
 @dataclass(frozen=True, eq=False)
-class Mode:
+class Mode(ModeFigures):
     """One mode: a real eigenvalue or a complex-conjugate pair, with its multiplicity.
 
     ``eigenvalue`` is in the model's own plane (s for continuous, z for discrete models;
@@ -70,22 +93,8 @@ class Mode:
     states: tuple[str, ...]
 
     @property
-    def decay_rate(self) -> float:
-        """``-Re(s)`` in 1/s: positive for a decaying mode."""
-        return -self.s.real
-
-    @property
-    def oscillatory(self) -> bool:
-        return self.s.imag != 0.0
-
-    @property
     def defective(self) -> bool:
         return self.geometric_multiplicity < self.multiplicity
-
-    @property
-    def count(self) -> int:
-        """Number of eigenvalues this mode stands for (a pair counts twice)."""
-        return self.multiplicity * (2 if self.pair else 1)
 
     @property
     def damped_frequency(self) -> float:
