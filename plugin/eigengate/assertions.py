@@ -302,7 +302,7 @@ class Checker:
                 root = self.config.root
             except ValueError:
                 root = None
-        models = load_models(found, root=root)
+        models = load_models(found, root=root, allow_python=True)
         if self.config is not None and root is not None:
             models = [self.config.effective(m) for m in models]
         return models

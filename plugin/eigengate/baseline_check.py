@@ -12,11 +12,11 @@ from typing import TYPE_CHECKING, Sequence
 if TYPE_CHECKING:  # pragma: no cover
     from .baseline import Baseline, MergeSummary
     from .config import Config
-    from .engine import FileResult
-    from .regressions import Outcome
+    from .engine import FileResult, ModelResult
+    from .regressions import Comparison, Outcome
 
-__all__ = ["reference_baseline", "compare_files", "with_regressions", "accept",
-           "accept_command"]
+__all__ = ["reference_baseline", "compare_files", "compare_result", "with_regressions",
+           "accept", "accept_command", "stale_entries"]
 
 
 def reference_baseline(config: "Config", against: str | None = None) -> "Baseline | None":
@@ -44,6 +44,39 @@ def compare_files(files: Sequence["FileResult"], config: "Config", baseline: "Ba
                           severities=dict(config.severity))
     kept = tuple(f for f in outcome.findings if config.rule_enabled(f.rule))
     return replace(outcome, findings=kept)
+
+
+def compare_result(result: "ModelResult", config: "Config", baseline: "Baseline"
+                   ) -> tuple["ModelResult", "Comparison"]:
+    """One analysed model against its entry in ``baseline``, as :func:`compare_files` judges
+    it (the pytest items compare one model at a time): the result with the regression
+    findings added, and the comparison; findings of rules the policy switches off are
+    dropped."""
+    from .regressions import compare
+
+    entry = baseline.entry(result.model.source, result.model.title)
+    comparison = compare(result, entry, config.tolerances_for(result),
+                         severities=dict(config.severity))
+    kept = tuple(f for f in comparison.regressions if config.rule_enabled(f.rule))
+    comparison = replace(comparison, regressions=kept)
+    return (replace(result, findings=result.findings + kept) if kept else result), comparison
+
+
+def stale_entries(baseline: "Baseline", models: dict[str, set[str]], root: Path
+                  ) -> list[tuple[tuple[str, str], str]]:
+    """Entries of ``baseline`` whose model no longer exists, with the reason: entries of a
+    file in ``models`` (source -> the titles it defines now) that it no longer defines, and
+    entries of a model file that is gone from ``root``. Files absent from ``models`` that
+    still exist (not checked, or failed to load) keep their entries."""
+    out = []
+    for key in baseline.keys():
+        source, title = key
+        if source in models:
+            if title not in models[source]:
+                out.append((key, "its model file no longer defines it"))
+        elif not (root / source).exists():
+            out.append((key, "its model file is gone"))
+    return out
 
 
 def with_regressions(files: Sequence["FileResult"], outcome: "Outcome", config: "Config"

@@ -1,8 +1,10 @@
 """pytest wiring of eigengate: options, ini keys, markers, the ``stability`` fixture, the
-model-file collector, the terminal summary and JUnit figures.
+model-file collector, the baseline comparison and accept step, the terminal summary and
+JUnit figures.
 
-Only wiring lives here; the assertions are :mod:`eigengate.assertions`, the items
-:mod:`eigengate.collector`, and both call the engine the command line calls. Loading this
+Only wiring lives here; the assertions are :mod:`eigengate.assertions`, the items and the
+baseline bookkeeping :mod:`eigengate.collector`, and both call the engine the command line
+calls (:mod:`eigengate.engine`, :mod:`eigengate.baseline_check`). Loading this
 module imports neither numpy, scipy, python-control nor PyYAML: they load when a model is
 first built.
 """
@@ -17,7 +19,7 @@ import pytest
 
 if TYPE_CHECKING:  # pragma: no cover
     from .assertions import Checker, Layer
-    from .collector import Selection
+    from .collector import BaselineRun, BaselineTally, Selection
     from .config import Config
 
 #: Suffixes of model files; the collector is imported only for files that have one.
@@ -49,13 +51,15 @@ class Settings:
     """
 
     def __init__(self, policy_path: Path | None, start: Path, globs: tuple[str, ...],
-                 collect: bool) -> None:
+                 collect: bool, accept: bool = False) -> None:
         self.start = start
         self.globs = globs
         self.collect = collect
+        self.accept = accept
         self.policy_path = policy_path
         self._policy: "Config | None" = None
         self._selection: "Selection | None" = None
+        self._baseline: "BaselineRun | None" = None
         if policy_path is not None:
             self._policy = _load_policy(policy_path, start)
 
@@ -72,6 +76,19 @@ class Settings:
 
             self._selection = Selection(self.policy, self.globs)
         return self._selection
+
+    @property
+    def baseline(self) -> "BaselineRun":
+        """This process's baseline state, made when a model file is first collected."""
+        if self._baseline is None:
+            from .collector import BaselineRun
+
+            self._baseline = BaselineRun(lambda: self.policy, accept=self.accept)
+        return self._baseline
+
+    @property
+    def baseline_used(self) -> bool:
+        return self._baseline is not None
 
     @property
     def may_collect(self) -> bool:
@@ -103,6 +120,12 @@ def pytest_addoption(parser: pytest.Parser) -> None:
                     action="store_true", default=False,
                     help="do not turn model files into test items (the stability fixture "
                          "and the markers keep working)")
+    group.addoption("--eigengate-accept", dest="eigengate_accept", action="store_true",
+                    default=False,
+                    help="accept the collected models: write their modes into the baseline "
+                         "([tool.eigengate] baseline, default .eigengate/baseline.json) "
+                         "instead of comparing with it; stale entries are reported, not "
+                         "removed (eigengate baseline accept removes them)")
     parser.addini("eigengate_config", type="string", default="",
                   help="eigengate: repository policy file, relative to the ini file")
     parser.addini("eigengate_models", type="linelist", default=[],
@@ -167,25 +190,73 @@ def _settings(config: pytest.Config) -> Settings:
                                 "with [tool.eigengate] or an eigengate.toml)")
     if path is None:
         path = find_config(config.rootpath)
-    return Settings(path, config.rootpath, globs,
-                    collect=bool(collect) and not config.option.eigengate_no_collect)
+    collect = bool(collect) and not config.option.eigengate_no_collect
+    accept = bool(config.option.eigengate_accept)
+    if accept and not collect:
+        why = "--eigengate-no-collect" if config.option.eigengate_no_collect else \
+            "ini option eigengate_collect = false"
+        raise pytest.UsageError(f"eigengate: --eigengate-accept accepts the collected model "
+                                f"files, but {why} turns collection off; drop one of them")
+    return Settings(path, config.rootpath, globs, collect=collect, accept=accept)
+
+
+def _baseline_or_usage_error(config: pytest.Config, s: Settings) -> None:
+    """Read the baseline now (it is kept), so a broken one stops the run as a usage error."""
+    from .baseline import BaselineError
+
+    try:
+        s.baseline.baseline()
+    except BaselineError as exc:
+        message = f"eigengate: {_baseline_error(exc, config)}"
+    else:
+        return
+    raise pytest.UsageError(message)  # outside the except: no "during handling" chain
+
+
+def _baseline_error(exc: Any, config: pytest.Config) -> str:
+    """A BaselineError's text with the file relative to the invocation folder."""
+    from .collector import shown_path
+
+    where = shown_path(Path(exc.path), config.invocation_params.dir)
+    where += "" if exc.line is None else f":{exc.line}"
+    return f"{where}: {exc.problem}" + (f" ({exc.hint})" if exc.hint else "")
+
+
+def _may_collect_models(config: pytest.Config, s: Settings) -> bool:
+    """Whether this run may collect model files: a policy file, model globs, or a model file
+    named on the command line (the cases where reading the policy costs nothing extra)."""
+    if not s.collect:
+        return False
+    if s.policy_path is not None or s.globs:
+        return True
+    return any(Path(str(arg).split("::", 1)[0]).suffix in MODEL_SUFFIXES
+               for arg in config.args)
 
 
 def pytest_configure(config: pytest.Config) -> None:
     for line in _MARKERS:
         config.addinivalue_line("markers", line)
-    config.stash[settings_key] = _settings(config)
+    s = config.stash[settings_key] = _settings(config)
+    # A broken baseline stops the run here, on the xdist controller before any worker starts
+    # (a worker's usage error would read as a crash); otherwise at first use.
+    if _may_collect_models(config, s) and s.policy.baseline_path.is_file():
+        _baseline_or_usage_error(config, s)
     config.pluginmanager.register(Reporter(config), "eigengate-reporter")
 
 
 def pytest_report_header(config: pytest.Config) -> str | None:
     s = config.stash.get(settings_key, None)
-    if s is None or s.policy_path is None:
+    if s is None or (s.policy_path is None and not s.accept):
         return None
-    files = ", ".join(s.globs or s.policy.include) or "none (no include globs)"
-    if not s.collect:
-        files = "not collected"
-    return f"eigengate: policy {s.policy.source or 'defaults'}; model files: {files}"
+    lines = []
+    if s.policy_path is not None:
+        files = ", ".join(s.globs or s.policy.include) or "none (no include globs)"
+        if not s.collect:
+            files = "not collected"
+        lines.append(f"eigengate: policy {s.policy.source or 'defaults'}; model files: {files}")
+    if s.accept:
+        lines.append(f"eigengate: accepting the collected models into {s.policy.baseline}")
+    return "\n".join(lines)
 
 
 # ---------------------------------------------------------------------------- collector
@@ -200,7 +271,36 @@ def pytest_collect_file(file_path: Path, parent: pytest.Collector) -> pytest.Col
         return None
     from .collector import ModelFile
 
-    return ModelFile.from_parent(parent, path=file_path, policy=s.policy)
+    return ModelFile.from_parent(parent, path=file_path, policy=s.policy, baseline=s.baseline)
+
+
+def pytest_collection_finish(session: pytest.Session) -> None:
+    s = session.config.stash.get(settings_key, None)
+    # A model file was collected: first use. Not on an xdist worker, where a usage error
+    # reads as a crash: there each model item fails with the baseline's error instead.
+    if s is not None and s.baseline_used and not hasattr(session.config, "workerinput"):
+        _baseline_or_usage_error(session.config, s)
+
+
+def pytest_sessionfinish(session: pytest.Session) -> None:
+    """Accepting: this process writes the entries of the models it checked, once (under
+    xdist each worker writes its own, under the file's lock)."""
+    config = session.config
+    s = config.stash.get(settings_key, None)
+    if s is None or not s.accept or not s.baseline_used:
+        return
+    from .baseline import BaselineError
+
+    written, error = None, None
+    try:
+        written = s.baseline.write()
+    except BaselineError as exc:
+        error = _baseline_error(exc, config)
+    workeroutput = getattr(config, "workeroutput", None)  # set on pytest-xdist workers
+    if workeroutput is not None:
+        workeroutput["eigengate_baseline"] = {"written": written, "error": error}
+        return
+    config.pluginmanager.get_plugin("eigengate-reporter").tally.add_write(written, error)
 
 
 # ---------------------------------------------------------------------------- markers, fixture
@@ -319,6 +419,15 @@ class Reporter:
     def __init__(self, config: pytest.Config) -> None:
         self.config = config
         self.failing: list[tuple[str, dict[str, Any]]] = []
+        self._tally: "BaselineTally | None" = None
+
+    @property
+    def tally(self) -> "BaselineTally":
+        if self._tally is None:
+            from .collector import BaselineTally
+
+            self._tally = BaselineTally()
+        return self._tally
 
     def _xml(self):
         # The LogXML object pytest's own record_testsuite_property fixture writes to; hooks
@@ -335,6 +444,8 @@ class Reporter:
         for r in records:
             if r["verdict"] != "pass":
                 self.failing.append((report.nodeid, r))
+            if "baseline" in r:
+                self.tally.add(report.nodeid, r)
         xml = self._xml()
         if xml is None:
             return
@@ -352,7 +463,47 @@ class Reporter:
                 text = f"{value:.6g}" if isinstance(value, float) else str(value)
                 xml.add_global_property(f"eigengate:{key}:{name}", text)
 
+    @pytest.hookimpl(optionalhook=True)
+    def pytest_testnodedown(self, node, error) -> None:
+        """pytest-xdist: a worker is done; what its accept step wrote comes with it."""
+        data = getattr(node, "workeroutput", {}).get("eigengate_baseline")
+        if data:
+            self.tally.add_write(data["written"], data["error"])
+
+    @pytest.hookimpl(trylast=True)  # after this process's own accept step wrote
+    def pytest_sessionfinish(self, session: pytest.Session) -> None:
+        if self._tally is not None and self._tally.write_errors:
+            session.exitstatus = pytest.ExitCode.USAGE_ERROR  # the accept step failed
+
     def pytest_terminal_summary(self, terminalreporter) -> None:
+        self._failing_summary(terminalreporter)
+        if self._tally:
+            lines = self._baseline_lines()
+            if lines:
+                terminalreporter.write_sep("=", "eigengate: baseline")
+                for line in lines:
+                    terminalreporter.write_line(line)
+
+    def _baseline_lines(self) -> list[str]:
+        from .baseline import BaselineError
+
+        config, option = self.config, self.config.option
+        s = config.stash[settings_key]
+        try:
+            baseline = s.baseline.baseline()
+        except BaselineError as exc:
+            return [f"baseline not read: {_baseline_error(exc, config)}"]
+        # the paths and eigengate options as given, for the commands the summary prints
+        paths = list(config.args) if config.args_source == pytest.Config.ArgsSource.ARGS \
+            else []
+        options = [f"--eigengate-models={g}" for g in option.eigengate_models or ()]
+        if option.eigengate_config:
+            options.insert(0, f"--eigengate-config={option.eigengate_config}")
+        return self.tally.lines(baseline, s.policy, paths=paths, options=options,
+                                config_flag=option.eigengate_config,
+                                here=config.invocation_params.dir)
+
+    def _failing_summary(self, terminalreporter) -> None:
         if not self.failing:
             return
         tr = terminalreporter
