@@ -318,3 +318,20 @@ def test_schema_refuses_what_the_loader_refuses():
     unknown = {"model_format": 1, "plant": {"A": [[1]]}, "plnat": {}}
     for doc in (both, no_dt, unknown):
         assert not v.is_valid(doc)
+
+
+@pytest.mark.parametrize("row", [
+    "[1.5, -2, 0, +3, 1e3, 2.5E-2, .5, 5., -0.0]",
+    "[012, 0x1F, 0o17, 1_000, 1:30, 0b101]",       # YAML 1.1 int forms
+    "[.inf, -.inf, 1_000.5, 6.8523015e+5, 190:20:30.15]",  # YAML 1.1 float forms
+    "[&a 1.0, *a, 2]",
+])
+def test_fast_number_path_reads_yaml_like_pyyaml(row):
+    # PyYAML's SafeLoader as the reference library for YAML 1.1 number semantics (our loader
+    # adds only exponent-only floats such as 1e3, written here with a dot elsewhere).
+    import yaml
+
+    ours, _ = parse_text(f"m: [{row}]\n", ".yaml", "m.yaml")
+    ref = yaml.safe_load(f"m: [{row}]\n".replace("1e3", "1.0e+3"))
+    assert ours == ref
+    assert [type(x) for x in ours["m"][0]] == [type(x) for x in ref["m"][0]]
