@@ -9,6 +9,8 @@ parent stores in the cache (written once, at the end of the scan).
 
 from __future__ import annotations
 
+import contextlib
+import gc
 import os
 import sys
 from dataclasses import dataclass
@@ -78,11 +80,31 @@ def scan(paths: Sequence[str | Path], config: Config, *, jobs: int | None = None
          use_cache: bool = True, progress: Callable[[int, int], None] | None = None,
          on=None, filter_named: bool = False) -> Scan:
     """Check every model file below ``paths`` under ``config``."""
-    from ._serial import results_from_data
-    from .cache import ResultCache
     from .waivers import today
 
-    on = on or today()
+    with _gc_paused():
+        return _scan(paths, config, jobs=jobs, use_cache=use_cache, progress=progress,
+                     on=on or today(), filter_named=filter_named)
+
+
+@contextlib.contextmanager
+def _gc_paused():
+    """Pause the cyclic garbage collector while a scan builds many small objects that form
+    no cycles: with a large cache pack decoded, its collections otherwise cost more than the
+    work itself (measured: 2× on 2,000 files)."""
+    was = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if was:
+            gc.enable()
+
+
+def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named) -> Scan:
+    from ._serial import results_from_data, results_to_data
+    from .cache import ResultCache
+
     files = discover_model_files(list(paths), config, filter_named=filter_named)
     cache = ResultCache(config.root, config.digest) if use_cache else None
     slots: list[tuple | None] = [None] * len(files)
@@ -112,25 +134,31 @@ def scan(paths: Sequence[str | Path], config: Config, *, jobs: int | None = None
     if progress:
         progress(done, total)
     jobs = default_jobs() if jobs is None else max(1, jobs)
-    if jobs > 1 and len(todo) >= POOL_THRESHOLD:
-        for (i, _, key), (data, refs, ok) in zip(todo, _pool_map(todo, config, jobs)):
+    def local(item: tuple[int, str, str | None]) -> None:
+        i, path, key = item
+        source, results, error, refs = analyse_file(path, config.root, config)
+        if cache is not None and key is not None and error is None:
+            cache.put(key, results_to_data(source, results, error), refs)
+        slots[i] = (source, results, error)
+
+    def remote(items, outcome) -> None:
+        for (i, _, key), (data, refs, ok) in zip(items, outcome):
             if cache is not None and key is not None and ok:
                 cache.put(key, data, refs)
             slots[i] = results_from_data(data)
-            done += 1
-            if progress:
-                progress(done, total)
-    else:
-        for i, path, key in todo:
-            source, results, error, refs = analyse_file(path, config.root, config)
-            if cache is not None and key is not None and error is None:
-                from ._serial import results_to_data
 
-                cache.put(key, results_to_data(source, results, error), refs)
-            slots[i] = (source, results, error)
-            done += 1
-            if progress:
-                progress(done, total)
+    def step(n: int) -> None:
+        nonlocal done
+        done += n
+        if progress:
+            progress(done, total)
+
+    if jobs > 1 and len(todo) >= POOL_THRESHOLD:
+        _pool_run(todo, config, jobs, local, remote, step)
+    else:
+        for item in todo:
+            local(item)
+            step(1)
     if cache is not None:
         cache.save()
     out = tuple(file_result(s, r, e, config, on) for s, r, e in slots)  # type: ignore[misc]
@@ -138,9 +166,20 @@ def scan(paths: Sequence[str | Path], config: Config, *, jobs: int | None = None
                 analysed=len(todo))
 
 
-def _pool_map(todo, config: Config, jobs: int):
+def _chunk_work(paths: list[str]) -> list[tuple[dict, list[str], bool]]:
+    return [_work(p) for p in paths]
+
+
+def _pool_run(todo, config: Config, jobs: int, local, remote, step) -> None:
+    """Analyse ``todo`` with ``jobs`` worker processes, the parent taking part too.
+
+    Chunks go to the workers from the front of the list; until the first of them comes back,
+    the parent analyses chunks from the back itself, so the time the workers need to start
+    (their imports) is not lost. After that the parent only collects, so it never competes
+    with the workers for the cores.
+    """
     import multiprocessing as mp
-    from concurrent.futures import ProcessPoolExecutor
+    from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
 
     methods = mp.get_all_start_methods()
     ctx = mp.get_context("forkserver" if "forkserver" in methods else "spawn")
@@ -148,10 +187,32 @@ def _pool_map(todo, config: Config, jobs: int):
         # Import the heavy modules once in the server; every worker forks from it ready.
         ctx.set_forkserver_preload(["eigengate.engine", "eigengate.modes", "eigengate.loader",
                                     "numpy", "scipy.linalg", "yaml"])
-    chunk = max(1, len(todo) // (jobs * 8))
+    size = max(1, min(32, len(todo) // (jobs * 8)))
+    chunks = [todo[k:k + size] for k in range(0, len(todo), size)]
+    front, back = 0, len(chunks)
     with ProcessPoolExecutor(max_workers=jobs, mp_context=ctx, initializer=_init_worker,
                              initargs=(config,)) as pool:
-        yield from pool.map(_work, [p for _, p, _ in todo], chunksize=chunk)
+        running: dict = {}
+        warm = False  # once a worker has delivered, the parent only collects
+        while front < back or running:
+            while front < back and len(running) < 2 * jobs:
+                items = chunks[front]
+                running[pool.submit(_chunk_work, [p for _, p, _ in items])] = items
+                front += 1
+            finished, _ = wait(list(running), timeout=0, return_when=FIRST_COMPLETED)
+            warm = warm or bool(finished)
+            if not finished and not warm and front < back:
+                back -= 1  # the workers are still starting: take a chunk ourselves
+                for item in chunks[back]:
+                    local(item)
+                step(len(chunks[back]))
+                continue
+            if not finished:
+                finished, _ = wait(list(running), return_when=FIRST_COMPLETED)
+            for future in finished:
+                items = running.pop(future)
+                remote(items, future.result())
+                step(len(items))
 
 
 def terminal_progress(stream=None) -> Callable[[int, int], None] | None:
