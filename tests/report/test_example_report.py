@@ -1,0 +1,53 @@
+"""The reviewer's report of the example repository, made by the real command line."""
+
+import os
+import shutil
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from test_html import Doc, decode_png  # the same HTML reader as the report tests
+
+EXAMPLE = Path(__file__).resolve().parents[2] / "example_repo"
+
+
+def test_example_repository_report(tmp_path):
+    pytest.importorskip("matplotlib")
+    repo = tmp_path / "example_repo"
+    shutil.copytree(EXAMPLE, repo, ignore=shutil.ignore_patterns(".eigengate-cache",
+                                                                "__pycache__"))
+    env = {**os.environ, "PYTHONIOENCODING": "utf-8"}
+    out = subprocess.run([sys.executable, "-m", "eigengate", "check", "-q", "--no-cache",
+                          "-o", "html:report.html", "--pole-maps", "maps"], cwd=repo,
+                         capture_output=True, text=True, env=env, timeout=600)
+    assert out.returncode == 1, out.stderr  # the deliberate regression
+    doc = Doc((repo / "report.html").read_text(encoding="utf-8"))
+    # 18 models: lift axis, 6 drive-speed points, heading, mast, heater, humidity, vent,
+    # inverter current loop and dc link, cart, panel array, and the boom at two points.
+    assert len(doc.rows) == 18 and len(doc.sections) == 18
+    failing = [row for row in doc.rows if "mast-sway-damper" in row[2]]
+    assert len(failing) == 1
+    sizes = [decode_png(img["src"]) for img in doc.images]
+    assert sizes and all(200 <= w <= 1200 and 150 <= h <= 1000 for w, h in sizes)
+    assert "engineering aid for model regression checks" in doc.all_text
+    maps = sorted(p.name for p in (repo / "maps").iterdir())
+    assert maps == ["models-mast-sway.yaml--mast-sway-damper.png",
+                    "models-mast-sway.yaml--mast-sway-damper.svg"]
+    svg = (repo / "maps" / maps[1]).read_text(encoding="utf-8")
+    assert svg.count("eg-pole-move") >= 2  # the sway pair moved away from its baseline poles
+
+
+def test_color_only_when_asked_or_on_a_terminal(tmp_path):
+    repo = tmp_path / "example_repo"
+    shutil.copytree(EXAMPLE, repo, ignore=shutil.ignore_patterns(".eigengate-cache",
+                                                                "__pycache__"))
+    env = {**os.environ, "PYTHONIOENCODING": "utf-8"}
+    plain = subprocess.run([sys.executable, "-m", "eigengate", "check", "-q"], cwd=repo,
+                           capture_output=True, text=True, env=env, timeout=300)
+    assert "\x1b[" not in plain.stdout  # not a terminal
+    colored = subprocess.run([sys.executable, "-m", "eigengate", "check", "-q", "--color",
+                              "always"], cwd=repo, capture_output=True, text=True, env=env,
+                             timeout=300)
+    assert "\x1b[1;31mFAIL\x1b[0m" in colored.stdout
