@@ -15,10 +15,10 @@ import math
 from numbers import Integral
 from typing import Any, Iterable, Iterator
 
-from .findings import Finding, ModeRow
+from .findings import UNCERTAIN_NOTE, Finding, ModeRow
 from .report_text import format_eigenvalue
 
-__all__ = ["json_number", "json_value", "json_complex", "mode_data", "finding_data",
+__all__ = ["UNCERTAIN_NOTE", "json_number", "json_value", "json_complex", "mode_data", "finding_data",
            "text_number", "mode_cells", "mode_summary", "finding_summary", "own_findings",
            "model_findings", "all_findings", "status_of", "tally", "plural", "CAUTION"]
 

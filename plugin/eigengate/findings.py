@@ -18,6 +18,9 @@ if TYPE_CHECKING:  # pragma: no cover
 
 __all__ = ["Finding", "ModeRow", "findings_of", "error_finding", "INVALID_RULE"]
 
+#: The note every report gives a finding whose value is within its error bound of the threshold.
+UNCERTAIN_NOTE = "numerically uncertain: a value lies within its error bound of the threshold"
+
 #: Rule of a model source that could not be loaded or analysed.
 INVALID_RULE = ("EG001", "invalid-model")
 

@@ -18,6 +18,7 @@ import re
 from html import escape
 from typing import TYPE_CHECKING, Any, Callable, Iterable, Mapping, Sequence
 
+from ._render import UNCERTAIN_NOTE
 from .plots import ReportDependencyError
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -343,8 +344,7 @@ def _finding(f: "Finding", discrete: bool) -> list[str]:
         head += f' <span class="eg-note">line {f.line}</span>'
     out = [f'<div class="eg-finding {sev}"><p>{head}</p><p>{_e(f.message)}</p>']
     if f.uncertain:
-        out.append('<p class="eg-hint">Numerically uncertain: a value lies within its error '
-                   "bound of the threshold.</p>")
+        out.append(f'<p class="eg-hint">{UNCERTAIN_NOTE.capitalize()}.</p>')
     if f.suggestion:
         out.append(f'<p class="eg-hint">Hint: {_e(f.suggestion)}</p>')
     if f.before:

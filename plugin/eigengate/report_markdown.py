@@ -11,7 +11,7 @@ from __future__ import annotations
 import re
 from typing import Any, Iterable, Sequence
 
-from ._render import (CAUTION, mode_cells, own_findings, plural, status_of, tally,
+from ._render import (CAUTION, mode_cells, own_findings, plural, status_of, tally, UNCERTAIN_NOTE,
                       text_number)
 
 __all__ = ["render_markdown", "escape"]
@@ -69,8 +69,7 @@ def _finding_block(f: Any, discrete: bool) -> list[str]:
                                   escape(f.requirement) if f.rule != "EG001" else "") if x)
     lines = [f"- **{f.rule} {f.name}** ({where}): {escape(f.message)}"]
     if f.uncertain:
-        lines.append("  - numerically uncertain: a value lies within its error bound of the "
-                     "threshold")
+        lines.append(f"  - {UNCERTAIN_NOTE}")
     if f.suggestion:
         lines.append(f"  - hint: {escape(f.suggestion)}")
     reason = getattr(f, "waived", None)

@@ -5,7 +5,7 @@ from __future__ import annotations
 import math
 from typing import Iterable, Sequence
 
-from .findings import Finding, ModeRow
+from .findings import UNCERTAIN_NOTE, Finding, ModeRow
 
 __all__ = ["render_results", "render_model", "model_lines", "finding_lines", "mode_table",
            "format_eigenvalue"]
@@ -71,8 +71,7 @@ def finding_lines(f: Finding, discrete: bool, color: bool = False) -> list[str]:
         head += f"  ({where})"
     out = [head, f"        {f.message}"]
     if f.uncertain:
-        out.append("        note: numerically uncertain: a value lies within its error bound "
-                   "of the threshold")
+        out.append(f"        note: {UNCERTAIN_NOTE}")
     if f.suggestion:
         out.append(f"        hint: {f.suggestion}")
     if f.modes:
