@@ -13,6 +13,7 @@ import base64
 import dataclasses
 import datetime as _dt
 import functools
+import json
 from collections.abc import Sequence
 from typing import Any
 
@@ -31,7 +32,7 @@ from .waivers import Waiver
 
 __all__ = ["results_to_data", "results_from_data", "CachedSpectrum", "FORMAT"]
 
-FORMAT = 1
+FORMAT = 2
 
 
 def _arr(a) -> dict | None:
@@ -147,9 +148,10 @@ _MODE_SCALARS = ("multiplicity", "geometric_multiplicity", "pair", "natural_freq
 class _LazyModes(Sequence):
     """A tuple-like view of modes built on first use from their stored rows."""
 
-    def __init__(self, rows: list, participation, states: tuple[str, ...],
+    def __init__(self, rows: str, participation, states: tuple[str, ...], count: int,
                  pick: list[int] | None = None, source: "_LazyModes | None" = None) -> None:
-        self._rows, self._part, self._states = rows, participation, states
+        self._text, self._part, self._states = rows, participation, states
+        self._count = count
         self._pick, self._source = pick, source
         self._built: tuple | None = None
 
@@ -164,14 +166,15 @@ class _LazyModes(Sequence):
                     Mode(index=r[0], eigenvalue=_uc(r[1]), s=_uc(r[2]),
                          participation=part[:, k], states=self._states,
                          **dict(zip(_MODE_SCALARS, r[3:])))
-                    for k, r in enumerate(self._rows))
+                    for k, r in enumerate(json.loads(self._text)))
         return self._built
 
     def subset(self, indices: list[int]) -> "_LazyModes":
-        return _LazyModes(self._rows, self._part, self._states, pick=list(indices), source=self)
+        return _LazyModes(self._text, self._part, self._states, self._count, pick=list(indices),
+                          source=self)
 
     def __len__(self) -> int:
-        return len(self._pick) if self._pick is not None else len(self._rows)
+        return len(self._pick) if self._pick is not None else self._count
 
     def __getitem__(self, i):
         return self._all()[i]
@@ -199,7 +202,8 @@ class CachedSpectrum:
         self.spectral_radius = data["radius"]
         self.min_damping = data["min_damping"]
         self.n_eigenvalues = data["n_eigenvalues"]
-        self.modes = _LazyModes(data["modes"], data["participation"], model.states)
+        self.modes = _LazyModes(data["modes"], data["participation"], model.states,
+                                data["n_modes"])
 
     def eigenvalues(self) -> list[complex]:
         return Spectrum.eigenvalues(self)  # same logic, reading self.modes
@@ -212,8 +216,12 @@ def _spectrum_data(sp) -> dict:
         "infinite": sp.infinite, "norm": sp.norm, "balanced": sp.balanced,
         "abscissa": sp.spectral_abscissa, "radius": sp.spectral_radius,
         "min_damping": sp.min_damping, "n_eigenvalues": sp.n_eigenvalues,
-        "modes": [[m.index, _c(m.eigenvalue), _c(m.s)] + [getattr(m, k) for k in _MODE_SCALARS]
-                  for m in modes],
+        # The mode rows are a JSON text inside the entry: decoding the cache then costs one
+        # string per model, and the rows are parsed only when something reads the modes.
+        "n_modes": len(modes),
+        "modes": json.dumps([[m.index, _c(m.eigenvalue), _c(m.s)]
+                             + [getattr(m, k) for k in _MODE_SCALARS] for m in modes],
+                            separators=(",", ":")),
         "participation": _arr(part),
     }
 

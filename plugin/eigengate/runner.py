@@ -72,7 +72,9 @@ def _work(path: str) -> tuple[dict, list[str], bool]:
 # ------------------------------------------------------------------ parent side
 
 def _source_of(path: Path, root: str) -> str:
-    rel = os.path.relpath(os.path.realpath(path), root)
+    # abspath, not realpath: the cache key only needs to be stable, and resolving every
+    # path component costs a system call each (the loader does its own confinement checks)
+    rel = os.path.relpath(os.path.abspath(path), root)
     return path.as_posix() if rel.startswith("..") else rel.replace(os.sep, "/")
 
 
@@ -110,7 +112,7 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named)
     slots: list[tuple | None] = [None] * len(files)
     todo: list[tuple[int, str, str | None]] = []
     hits = 0
-    real_root = os.path.realpath(config.root)
+    real_root = os.path.abspath(config.root)
     for i, f in enumerate(files):
         key = None
         if cache is not None:
