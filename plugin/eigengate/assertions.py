@@ -27,7 +27,6 @@ each step at once; the defaults it does not restate are asserted by :meth:`Check
 
 from __future__ import annotations
 
-import math
 import os
 import reprlib
 import sys
@@ -35,12 +34,12 @@ from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Iterable, Mapping, Sequence
 
+from ._assert_report import failure_report, requirement_origins, result_record
 from .errors import EigengateError, ModelError
 
 if TYPE_CHECKING:  # pragma: no cover
     from .config import Config
     from .engine import ModelResult
-    from .findings import Finding
     from .model import Model
 
 __all__ = ["StabilityAssertionError", "NotAModelError", "RequirementArgumentError", "Layer",
@@ -329,7 +328,7 @@ class Checker:
             if not reqs:
                 continue
             checked += len(reqs)
-            origin = _origins(model, reqs, layers, use_file)
+            origin = requirement_origins(model, reqs, layers, use_file)
             effective = replace(model, requirements=reqs, disabled=(),
                                 on_uncertain=on_uncertain or model.on_uncertain)
             result = check_model(effective)
@@ -345,23 +344,9 @@ class Checker:
             if errors:
                 failures.append((result, errors, origin, record))
         if failures:
-            raise StabilityAssertionError(_report(what, failures, checked),
+            raise StabilityAssertionError(failure_report(what, failures, checked),
                                           [rec for *_, rec in failures])
         return tuple(results)
-
-
-def _origins(model: "Model", reqs: Sequence[Any], layers: Sequence[Layer],
-             use_file: bool) -> dict[str, str]:
-    where: dict[str, str] = {}
-    if use_file:
-        for r in model.requirements:
-            where[r.rule] = "model file" if not model.source.startswith("<") else "model"
-    for lay in layers:
-        for rule in lay.off:
-            where.pop(rule, None)
-        for r in lay.requirements:
-            where[r.rule] = lay.origin
-    return {r.rule: where.get(r.rule, "") for r in reqs}
 
 
 class Subject:
@@ -491,66 +476,6 @@ def _caller() -> str:
     except ValueError:  # another drive on Windows
         pass
     return f"{Path(name).as_posix()}:{frame.f_lineno}"
-
-
-# ---------------------------------------------------------------------------- report
-def _value(x: Any, unit: str = "") -> str:
-    if isinstance(x, float):
-        text = ("-" if x < 0 else "") + "∞" if math.isinf(x) else f"{x:.6g}"
-        return f"{text} {unit}".rstrip()
-    return str(x)
-
-
-def _measured_line(f: "Finding") -> str | None:
-    parts = []
-    if f.measured is not None:
-        parts.append(f"measured {_value(f.measured, f.unit)}")
-    if f.threshold is not None:
-        parts.append(f"threshold {_value(f.threshold, f.unit)}")
-    if f.margin is not None:
-        parts.append(f"margin {_value(f.margin)}")
-    return "        " + ", ".join(parts) if parts else None
-
-
-def _report(what: str, failures: Sequence[tuple], checked: int) -> str:
-    from .report_text import finding_lines, model_lines
-
-    failed = sum(len(errors) for _, errors, *_ in failures)
-    noun = "requirement" if checked == 1 else "requirements"
-    lines = [f"{failed} of {checked} stability {noun} not met by {what}"]
-    for result, errors, origin, _ in failures:
-        lines.append(model_lines(result, verbose=False)[0])
-        for f in errors:
-            block = finding_lines(f, result.model.discrete)
-            extra = _measured_line(f)
-            lines.extend(block[:2] + ([extra] if extra else []) + block[2:])
-        stated = ", ".join(f"{v.requirement} ({origin.get(v.rule) or 'given'})"
-                           for v in result.verdicts if v.rule in origin)
-        lines.append(f"  checked: {stated}")
-    return "\n".join(lines)
-
-
-def _figure(x: float) -> float | str:
-    return x if math.isfinite(x) else ("inf" if x > 0 else "-inf")
-
-
-def result_record(result: "ModelResult", verdict: str) -> dict[str, Any]:
-    """One model's key figures and findings as plain, JSON-serialisable data (what pytest
-    reports carry between xdist workers, the terminal summary and JUnit properties read)."""
-    from .report_text import mode_table
-
-    m, sp = result.model, result.spectrum
-    findings = []
-    for f in result.findings:
-        findings.append({"severity": f.severity, "rule": f.rule, "name": f.name,
-                         "requirement": f.requirement, "message": f.message, "line": f.line,
-                         "table": mode_table(f.modes, m.discrete, indent="      ")
-                         if f.modes else []})
-    return {"model": m.title, "source": m.source, "discrete": m.discrete,
-            "line": next((f.line for f in result.findings if f.line), None),
-            "spectral_abscissa": _figure(sp.spectral_abscissa),
-            "spectral_radius": _figure(sp.spectral_radius),
-            "min_damping": _figure(sp.min_damping), "verdict": verdict, "findings": findings}
 
 
 def check(*system: Any, **kwargs: Any) -> tuple["ModelResult", ...]:

@@ -1,28 +1,19 @@
-"""Figures of the reviewer's report: the pole map of the complex plane and the phase portrait.
-
-Each figure draws what the engine already decided: the poles of a
-:class:`~eigengate.engine.ModelResult`, coloured by the findings that name them, over the region
-its requirements allow. Nothing here judges a model; the little arithmetic there is (the
-region's outline, a 2×2 null vector for an eigenvector line, the field ``A x`` on a grid) only
-places ink.
-
-matplotlib is an optional dependency (``pip install "eigengate[report]"``). It is imported
-inside the functions that draw, never when eigengate is imported; without it they raise
-:class:`ReportDependencyError`. Output is deterministic: fixed style (matplotlib's defaults plus
-ours, whatever the user's matplotlibrc says), no dates or software tags in the files, a fixed
-SVG id salt, and PNGs re-encoded with a fixed palette.
-"""
+"""The pole map of the report: poles over the allowed region of the s- or z-plane."""
 
 from __future__ import annotations
 
 import cmath
-import contextlib
-import io
 import math
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any, Iterator, Sequence
+from typing import TYPE_CHECKING, Any, Sequence
 
-from .errors import EigengateError
+# Re-exported: eigengate.plots is where the report's figure API has always been imported from.
+from ._figures import (_BASELINE, _ERROR, _GRID, _INK, _MUTED, _RC,  # noqa: F401
+                       _REGION_EDGE, _REGION_FILL, _STABLE_DIR, _UNSTABLE_DIR, _WARNING, FIGSIZE,
+                       HTML_DPI, PNG_COLORS, ReportDependencyError, _new_figure, _png_bytes,
+                       _require, _style, _svg_text)
+from .portrait import (_null_vector, can_draw_phase_portrait, phase_portrait_figure,  # noqa: F401
+                       phase_portrait_png)
 
 if TYPE_CHECKING:  # pragma: no cover
     from .engine import ModelResult
@@ -32,95 +23,12 @@ __all__ = ["ReportDependencyError", "AllowedRegion", "allowed_region", "pole_map
            "nearest_pairs", "marked_modes", "region_pieces", "can_draw_phase_portrait",
            "POLE_GID", "BASELINE_GID", "ARROW_GID", "UNIT_CIRCLE_GID", "REGION_GID", "FIGSIZE"]
 
-#: Size of every figure, inches (at 90 dpi: 405×324 px).
-FIGSIZE = (4.5, 3.6)
-#: Default resolution of the figures embedded in the HTML report.
-HTML_DPI = 90
-#: Colours a PNG keeps; the figures use a dozen flat colours plus antialiasing ramps.
-PNG_COLORS = 96
-
 # Stable SVG ids: tests and PR-comment tooling can find the artists by them.
 POLE_GID = "eg-poles"
 BASELINE_GID = "eg-baseline-poles"
 ARROW_GID = "eg-pole-move"
 UNIT_CIRCLE_GID = "eg-unit-circle"
 REGION_GID = "eg-allowed-region"
-
-# Our palette: ink, region, and one colour per finding severity.
-_INK = "#1f3347"
-_MUTED = "#7d8a96"
-_GRID = "#e4e8ec"
-_REGION_FILL = "#dcefe6"
-_REGION_EDGE = "#3f7f68"
-_ERROR = "#c0392b"
-_WARNING = "#d68910"
-_BASELINE = "#8e99a4"
-_STABLE_DIR = "#2e7d5b"
-_UNSTABLE_DIR = "#c0392b"
-
-_RC = {
-    "font.family": "DejaVu Sans",  # shipped with matplotlib: the same glyphs everywhere
-    "font.size": 8.0,
-    "axes.titlesize": 8.5,
-    "axes.labelsize": 8.0,
-    "axes.linewidth": 0.6,
-    "axes.edgecolor": "#5b6670",
-    "axes.labelcolor": _INK,
-    "xtick.labelsize": 7.0,
-    "ytick.labelsize": 7.0,
-    "xtick.color": "#5b6670",
-    "ytick.color": "#5b6670",
-    "xtick.major.width": 0.6,
-    "ytick.major.width": 0.6,
-    "legend.fontsize": 7.0,
-    "svg.hashsalt": "eigengate",
-    "svg.fonttype": "none",  # text stays text: small files, searchable labels
-    "path.simplify": True,
-}
-
-
-class ReportDependencyError(EigengateError, ImportError):
-    """The graphical report needs matplotlib, which is not installed."""
-
-    def __init__(self, what: str = "the graphical report") -> None:
-        self.what = what
-        super().__init__(f"{what} needs matplotlib, which is not installed; install it with "
-                         f'pip install "eigengate[report]"')
-
-
-def _require(what: str = "the graphical report") -> Any:
-    """Import matplotlib (and select the Agg backend when nothing else chose one yet)."""
-    import sys
-
-    try:
-        import matplotlib
-    except ImportError:
-        raise ReportDependencyError(what) from None
-    if "matplotlib.pyplot" not in sys.modules:
-        # Every figure is drawn on an explicit Agg canvas anyway; selecting Agg here only keeps
-        # a later pyplot import from probing for a display. A session that already runs pyplot
-        # keeps its backend: switching it would close the user's windows.
-        matplotlib.use("Agg")
-    return matplotlib
-
-
-@contextlib.contextmanager
-def _style() -> Iterator[Any]:
-    """matplotlib's default style plus ours, for the duration of one figure."""
-    mpl = _require()
-    with mpl.rc_context():
-        mpl.rcdefaults()
-        mpl.rcParams.update(_RC)
-        yield mpl
-
-
-def _new_figure(mpl: Any) -> Any:
-    from matplotlib.backends.backend_agg import FigureCanvasAgg
-    from matplotlib.figure import Figure
-
-    fig = Figure(figsize=FIGSIZE, facecolor="white")
-    FigureCanvasAgg(fig)
-    return fig
 
 
 # -- the allowed region ----------------------------------------------------------------------
@@ -514,138 +422,7 @@ def pole_map_figure(result: "ModelResult", *, baseline_poles: Sequence[complex] 
     return fig
 
 
-# -- phase portrait --------------------------------------------------------------------------
-
-def _null_vector(a: Sequence[Sequence[float]], lam: complex) -> tuple[complex, complex] | None:
-    """A unit vector with (A - λI) v = 0 for a 2×2 A and one of its eigenvalues λ (from the
-    engine): a row of A - λI gives it directly. None when A = λI (every direction is one)."""
-    (p, q), (r, s) = a
-    rows = [(q, lam - p), (lam - s, r)]
-    v = max(rows, key=lambda t: abs(t[0]) + abs(t[1]))
-    norm = math.hypot(abs(v[0]), abs(v[1]))
-    if norm <= 1e-12 * (abs(p) + abs(q) + abs(r) + abs(s) + abs(lam) + 1e-300):
-        return None
-    return (complex(v[0]) / norm, complex(v[1]) / norm)
-
-
-def can_draw_phase_portrait(model: Any) -> bool:
-    """Two states and no descriptor matrix: the models a phase portrait is drawn for."""
-    return model.n_states == 2 and not model.descriptor
-
-
-def phase_portrait_figure(result: "ModelResult", *, mpl: Any = None) -> Any:
-    """Draw the phase portrait of a two-state model on a new Figure and return it.
-
-    Continuous models: streamlines of ``x' = A x``; discrete models: orbits of
-    ``x[k+1] = A x[k]``. The box is scaled to the eigenvectors (the portrait of a linear system
-    is the same at every scale, only the shape of the box matters), and the eigenvector
-    directions of real eigenvalues are drawn as lines.
-    """
-    import numpy as np
-
-    mpl = mpl or _require("the phase portrait")
-    model = result.model
-    if not can_draw_phase_portrait(model):
-        raise ValueError(f"{model.source}: {model.title}: a phase portrait needs a two-state "
-                         f"model without a descriptor matrix, got {model.n_states} states"
-                         + (" (descriptor)" if model.descriptor else ""))
-    A = np.asarray(model.A, dtype=float)
-    a = A.tolist()
-    dirs = []  # (vector, eigenvalue, mode)
-    hx = hy = 0.0
-    for m in result.spectrum.modes:
-        v = _null_vector(a, complex(m.eigenvalue))
-        if v is None:
-            continue
-        hx = max(hx, abs(v[0].real), abs(v[0].imag))
-        hy = max(hy, abs(v[1].real), abs(v[1].imag))
-        if not m.pair:
-            dirs.append(((v[0].real, v[1].real), m))
-    if hx == 0.0 and hy == 0.0:
-        hx = hy = 1.0
-    big = max(hx, hy)
-    hx, hy = max(hx, 0.15 * big), max(hy, 0.15 * big)
-    hx, hy = 1.15 * hx, 1.15 * hy
-
-    fig = _new_figure(mpl)
-    ax = fig.add_axes((0.14, 0.2, 0.82, 0.7))
-    ax.set_xlim(-hx, hx)
-    ax.set_ylim(-hy, hy)
-    names = model.states or ("x1", "x2")
-    ax.set_xlabel(names[0])
-    ax.set_ylabel(names[1])
-    ax.axhline(0.0, color=_GRID, linewidth=0.6, zorder=0)
-    ax.axvline(0.0, color=_GRID, linewidth=0.6, zorder=0)
-    if model.discrete:
-        kind = f"orbits of x[k+1] = A x[k], T = {model.sample_period:g} s"
-        for k in range(12):
-            phi = 2 * math.pi * (k + 0.5) / 12
-            x = np.array([0.92 * hx * math.cos(phi), 0.92 * hy * math.sin(phi)])
-            orbit = [x]
-            for _ in range(60):
-                x = A @ x
-                if not np.all(np.isfinite(x)) or abs(x[0]) > 3 * hx or abs(x[1]) > 3 * hy \
-                        or (abs(x[0]) < 1e-3 * hx and abs(x[1]) < 1e-3 * hy):
-                    orbit.append(x)
-                    break
-                orbit.append(x)
-            xs = np.array(orbit)
-            ax.plot(xs[:, 0], xs[:, 1], color=_MUTED, linewidth=0.6, marker="o",
-                    markersize=1.8, zorder=2)
-    else:
-        kind = "streamlines of x' = A x"
-        if np.any(A != 0.0):
-            # density and grid trade evenness for time: streamplot is the slowest step of a
-            # report (a fifth of a second here)
-            gx, gy = np.meshgrid(np.linspace(-hx, hx, 25), np.linspace(-hy, hy, 25))
-            with np.errstate(all="ignore"):
-                ax.streamplot(gx, gy, A[0, 0] * gx + A[0, 1] * gy,
-                              A[1, 0] * gx + A[1, 1] * gy, density=0.8, color=_MUTED,
-                              linewidth=0.6, arrowsize=0.7, zorder=2)
-    from matplotlib.lines import Line2D
-
-    handles = []
-    for (vx, vy), m in dirs:
-        stable = m.s.real < 0
-        color = _STABLE_DIR if stable else _UNSTABLE_DIR
-        t = 3.0 * max(hx / max(abs(vx), 1e-300), hy / max(abs(vy), 1e-300))
-        t = min(t, 1e6 * max(hx, hy))
-        ax.plot([-t * vx, t * vx], [-t * vy, t * vy], color=color, linewidth=1.3, zorder=3)
-        word = "stable" if stable else ("unstable" if m.s.real > 0 else "boundary")
-        handles.append(Line2D([], [], color=color, linewidth=1.3,
-                              label=f"λ = {m.eigenvalue.real:.4g} ({word} direction)"))
-    ax.set_xlim(-hx, hx)
-    ax.set_ylim(-hy, hy)
-    ax.plot([0.0], [0.0], marker="o", markersize=4, color=_INK, zorder=4, linestyle="none")
-    ax.set_title(f"{model.title} — phase portrait, {kind}", color=_INK, loc="left")
-    if handles:
-        fig.legend(handles=handles, loc="lower center", ncol=min(2, len(handles)),
-                   frameon=False, bbox_to_anchor=(0.5, 0.0))
-    return fig
-
-
-# -- encoders --------------------------------------------------------------------------------
-
-def _png_bytes(fig: Any, dpi: int) -> bytes:
-    """The figure as a palette PNG: a fifth of the RGBA size, the same bytes every run."""
-    from PIL import Image  # a matplotlib dependency
-
-    fig.set_dpi(dpi)
-    fig.canvas.draw()
-    w, h = fig.canvas.get_width_height()
-    img = Image.frombuffer("RGBA", (w, h), bytes(fig.canvas.buffer_rgba()), "raw", "RGBA", 0, 1)
-    img = img.convert("RGB").quantize(colors=PNG_COLORS, method=0, dither=0)  # median cut
-    out = io.BytesIO()
-    img.save(out, format="PNG", optimize=True)
-    return out.getvalue()
-
-
-def _svg_text(fig: Any) -> str:
-    out = io.StringIO()
-    fig.savefig(out, format="svg", metadata={"Date": None, "Creator": None, "Format": None,
-                                             "Type": None})
-    return out.getvalue()
-
+# -- the files -------------------------------------------------------------------------------
 
 def pole_map_png(result: "ModelResult", *, baseline_poles: Sequence[complex] | None = None,
                  dpi: int = 100) -> bytes:
@@ -677,10 +454,3 @@ def pole_map_svg(result: "ModelResult", *, baseline_poles: Sequence[complex] | N
     model has id :data:`UNIT_CIRCLE_GID`."""
     with _style() as mpl:
         return _svg_text(pole_map_figure(result, baseline_poles=baseline_poles, mpl=mpl))
-
-
-def phase_portrait_png(result: "ModelResult", *, dpi: int = 100) -> bytes:
-    """The phase portrait of a two-state model as PNG bytes (``ValueError`` for other
-    models)."""
-    with _style() as mpl:
-        return _png_bytes(phase_portrait_figure(result, mpl=mpl), dpi)
