@@ -100,7 +100,11 @@ def _gc_paused():
         yield
     finally:
         if was:
+            # The objects made meanwhile would all be scanned by the first collection after
+            # enabling; freezing and unfreezing moves them to the oldest generation instead.
+            gc.freeze()
             gc.enable()
+            gc.unfreeze()
 
 
 def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named) -> Scan:
