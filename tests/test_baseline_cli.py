@@ -1,44 +1,20 @@
 """The baseline workflow from the command line, on real temporary git repositories."""
 
 import json
-import os
 import subprocess
-import sys
-import textwrap
-from pathlib import Path
 
 import pytest
+from support import lift_axis, run_cli
 
 GIT = ["git", "-c", "user.name=Test Bench", "-c", "user.email=bench@example.invalid",
        "-c", "commit.gpgsign=false"]
-
-
-def run_cli(*args, cwd):
-    env = {**os.environ, "PYTHONIOENCODING": "utf-8"}
-    return subprocess.run([sys.executable, "-m", "eigengate", *args], capture_output=True,
-                          text=True, cwd=cwd, env=env, timeout=180)
 
 
 def git(*args, cwd):
     subprocess.run([*GIT, *args], cwd=cwd, check=True, capture_output=True)
 
 
-def lift(gain_rate: float) -> str:
-    # Closed loop s^2 + (0.8 + 2.5 k2) s + 2.5 k1 with k1 = 3.2: k2 = 2.08 gives s^2 + 6s + 8,
-    # poles -2 and -4 (a stable node); k2 = 1.2 gives s^2 + 3.8s + 8, a focus with
-    # zeta = 3.8 / (2 sqrt 8) = 0.672 (second-order standard form, common in control textbooks).
-    return textwrap.dedent(f"""\
-        model_format: 1
-        name: lift
-        plant:
-          states: [pos, vel]
-          A: [[0, 1], [0, -0.8]]
-          B: [[0], [2.5]]
-        feedback:
-          state_gain: [[3.2, {gain_rate}]]
-        requirements:
-          stable: true
-        """)
+lift = lift_axis  # see support.lift_axis for the closed-loop poles
 
 
 @pytest.fixture

@@ -1,43 +1,17 @@
 """The command line as a real subprocess: verdicts, findings with offending modes, exit codes."""
 
-import os
-import subprocess
-import sys
-import textwrap
 from pathlib import Path
 
 import pytest
+from support import oscillator, run_cli, write
 
 EXAMPLE = Path(__file__).resolve().parents[1] / "example_repo"
-
-
-def run_cli(*args, cwd=None):
-    env = dict(os.environ, PYTHONIOENCODING="utf-8")
-    return subprocess.run([sys.executable, "-m", "eigengate", *args], capture_output=True,
-                          text=True, cwd=cwd, env=env, timeout=120)
-
-
-def write(path: Path, text: str) -> Path:
-    path.parent.mkdir(parents=True, exist_ok=True)
-    path.write_text(textwrap.dedent(text), encoding="utf-8")
-    return path
 
 
 @pytest.fixture
 def repo(tmp_path):
     (tmp_path / ".git").mkdir()
-    # A lightly damped oscillator: s^2 + 0.4 s + 4 -> zeta = 0.4 / (2*2) = 0.1
-    # (second-order standard form, common in control textbooks).
-    write(tmp_path / "models" / "osc.yaml", """\
-        model_format: 1
-        name: osc
-        plant:
-          states: [angle, rate]
-          A: [[0, 1], [-4, -0.4]]
-        requirements:
-          stable: true
-          min_damping: 0.3
-        """)
+    write(tmp_path / "models" / "osc.yaml", oscillator())  # ζ = 0.1 < 0.3: EG103
     write(tmp_path / "models" / "fine.yaml", """\
         model_format: 1
         name: fine

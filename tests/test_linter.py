@@ -2,37 +2,11 @@
 cache, process pool, commands."""
 
 import json
-import os
-import subprocess
-import sys
 import textwrap
-from pathlib import Path
 
 import numpy as np
 import pytest
-
-
-def run_cli(*args, cwd, env=None):
-    full = {**os.environ, "PYTHONIOENCODING": "utf-8", "EIGENGATE_TODAY": "2026-12-01",
-            **(env or {})}
-    return subprocess.run([sys.executable, "-m", "eigengate", *args], capture_output=True,
-                          text=True, cwd=cwd, env=full, timeout=180)
-
-
-def write(path: Path, text: str) -> Path:
-    path.parent.mkdir(parents=True, exist_ok=True)
-    path.write_text(textwrap.dedent(text), encoding="utf-8")
-    return path
-
-
-# s^2 + 0.4 s + 4: zeta = 0.1, wn = 2 (second-order standard form, common in control textbooks)
-OSC = textwrap.dedent("""\
-    model_format: 1
-    name: {name}
-    plant:
-      states: [angle, rate]
-      A: [[0, 1], [-4, -0.4]]
-    """)
+from support import oscillator, run_cli, write
 
 
 @pytest.fixture
@@ -51,8 +25,8 @@ def repo(tmp_path):
         paths = ["models/flex/**"]
         requirements = { min_damping = 0.05 }
         """)
-    write(tmp_path / "models" / "arm.yaml", OSC.format(name="arm"))
-    write(tmp_path / "models" / "flex" / "panel.yaml", OSC.format(name="panel"))
+    write(tmp_path / "models" / "arm.yaml", oscillator("arm", None))
+    write(tmp_path / "models" / "flex" / "panel.yaml", oscillator("panel", None))
     write(tmp_path / "ci" / "pipeline.yaml", "steps: [build, test]\n")
     return tmp_path
 
@@ -66,7 +40,7 @@ def test_policy_defaults_and_overrides_apply(repo):
 
 
 def test_waiver_in_model_file_accepts_the_finding_and_expiry_brings_it_back(repo):
-    write(repo / "models" / "arm.yaml", OSC.format(name="arm") + textwrap.dedent("""\
+    write(repo / "models" / "arm.yaml", oscillator("arm", None) + textwrap.dedent("""\
         waivers:
           - rule: EG103
             reason: arm retune scheduled, tracked in review
@@ -81,13 +55,13 @@ def test_waiver_in_model_file_accepts_the_finding_and_expiry_brings_it_back(repo
 
 
 def test_unused_and_invalid_waivers(repo):
-    write(repo / "models" / "flex" / "panel.yaml", OSC.format(name="panel") + textwrap.dedent("""\
+    write(repo / "models" / "flex" / "panel.yaml", oscillator("panel", None) + textwrap.dedent("""\
         waivers:
           - {rule: EG101, reason: not needed any more}
         """))
     out = run_cli("check", cwd=repo)
     assert "EG003 unused-waiver" in out.stdout
-    write(repo / "models" / "flex" / "panel.yaml", OSC.format(name="panel") + textwrap.dedent("""\
+    write(repo / "models" / "flex" / "panel.yaml", oscillator("panel", None) + textwrap.dedent("""\
         waivers:
           - {rule: EG103}
         """))

@@ -7,6 +7,7 @@ import subprocess
 import sys
 
 import pytest
+from support import lift_axis
 
 from eigengate.baseline import Baseline
 
@@ -14,24 +15,7 @@ POLICY = 'include = ["models/**/*.yaml"]\n'
 BASELINE = ".eigengate/baseline.json"
 
 
-def lift(gain_rate: float) -> str:
-    # Closed loop of the invented lift axis (Tallowmere Works): A - BK has the characteristic
-    # polynomial s² + (0.8 + 2.5 k2) s + 2.5 k1 with k1 = 3.2. k2 = 2.08 gives s² + 6s + 8,
-    # poles -2 and -4 (a stable node); k2 = 1.2 gives s² + 3.8s + 8, the pair
-    # -1.9 ± 2.09523j with ωn = √8 = 2.828 and ζ = 3.8 / (2√8) = 0.672 (second-order
-    # standard form, common in control textbooks).
-    return f"""\
-model_format: 1
-name: lift
-plant:
-  states: [pos, vel]
-  A: [[0, 1], [0, -0.8]]
-  B: [[0], [2.5]]
-feedback:
-  state_gain: [[3.2, {gain_rate}]]
-requirements:
-  stable: true
-"""
+lift = lift_axis  # see support.lift_axis for the closed-loop poles
 
 
 def first_order(name: str, poles: dict[str, float]) -> str:

@@ -9,18 +9,10 @@ import textwrap
 from pathlib import Path
 
 import pytest
+from support import oscillator
 
 MODELS = {
-    "osc.yaml": """\
-        model_format: 1
-        name: osc
-        plant:
-          states: [angle, rate]
-          A: [[0, 1], [-4, -0.4]]
-        requirements:
-          stable: true
-          min_damping: 0.3
-        """,
+    "osc.yaml": oscillator(),  # ζ = 0.1 < 0.3: EG103 (see support.oscillator)
     "sampled.yaml": """\
         model_format: 1
         name: sampled

@@ -10,22 +10,14 @@ from __future__ import annotations
 from pathlib import Path
 
 import pytest
+from support import oscillator
 
 from eigengate.config import parse_config
 from eigengate.engine import check_file
 
 FILES = {
     # EG103: ζ = 0.1 < 0.3 (see the module docstring).
-    "models/osc.yaml": """\
-model_format: 1
-name: osc
-plant:
-  states: [angle, rate]
-  A: [[0, 1], [-4, -0.4]]
-requirements:
-  stable: true
-  min_damping: 0.3
-""",
+    "models/osc.yaml": oscillator(),
     # EG001: A is not square.
     "models/broken.yaml": """\
 model_format: 1
