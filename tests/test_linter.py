@@ -119,18 +119,65 @@ def test_cache_hit_and_invalidation_when_a_referenced_npz_changes(repo):
     assert "ref: ok" in changed.stdout
 
 
-def test_corrupt_cache_is_ignored_and_rebuilt(repo):
+def _packs(repo):
+    packs = sorted((repo / ".eigengate-cache").rglob("*.pack"))
+    assert packs, "the check wrote no cache pack"
+    return packs
+
+
+def _rewrite_heads(repo, change):
+    """Rewrite every pack with ``change`` applied to each entry's data and a correct
+    checksum, so only the reader's own checks of the entries stand between it and them."""
+    from eigengate.cache import read_pack, write_pack
+
+    for pack in _packs(repo):
+        read = read_pack(pack.read_bytes())
+        blobs = {}
+        for key, entry in read.head["entries"].items():
+            change(entry["data"])
+            blobs[key] = read.items(*entry["blobs"])
+        pack.write_bytes(write_pack(read.head, blobs))
+
+
+@pytest.mark.parametrize("damage", ["garbage", "truncated", "flipped byte", "empty",
+                                    "nonsense results", "bad blob spans", "wrong shapes"])
+def test_corrupt_cache_is_ignored_and_rebuilt(repo, damage):
+    from eigengate.cache import read_pack
+
     first = run_cli("check", cwd=repo).stdout
-    for pack in (repo / ".eigengate-cache").rglob("*.json"):
-        pack.write_text('{"salt": "x", "entries": {broken', encoding="utf-8")
-    assert run_cli("check", cwd=repo).stdout == first
-    for pack in (repo / ".eigengate-cache").rglob("*.json"):
-        data = json.loads(pack.read_text(encoding="utf-8"))
-        for entry in data["entries"].values():
-            entry["data"]["results"] = "nonsense"
-        pack.write_text(json.dumps(data), encoding="utf-8")
-    assert run_cli("check", cwd=repo).stdout == first
+    for pack in _packs(repo):
+        raw = pack.read_bytes()
+        if damage == "garbage":
+            pack.write_bytes(b'{"salt": "x", "entries": {broken')
+        elif damage == "truncated":
+            pack.write_bytes(raw[:len(raw) // 2])
+        elif damage == "flipped byte":  # in the body: only the checksum can tell
+            pack.write_bytes(raw[:-9] + bytes([raw[-9] ^ 0x10]) + raw[-8:])
+        elif damage == "empty":
+            pack.write_bytes(b"")
+    if damage == "nonsense results":
+        _rewrite_heads(repo, lambda d: d.__setitem__("results", "nonsense"))
+    elif damage == "bad blob spans":
+        _rewrite_heads(repo, lambda d: d["results"][0]["model"].__setitem__("A", 10**6))
+    elif damage == "wrong shapes":
+        _rewrite_heads(repo, lambda d: d["results"][0]["spectrum"].__setitem__("modes", "x"))
+    again = run_cli("check", cwd=repo)
+    assert again.stdout == first and "Traceback" not in again.stderr
+    for pack in _packs(repo):  # rebuilt: a whole pack again
+        assert read_pack(pack.read_bytes()).head["entries"]
     assert run_cli("check", "--no-cache", cwd=repo).stdout == first
+    # and what was rebuilt is served whole: every entry a hit, its matrices readable
+    from eigengate.config import load_config
+    from eigengate.runner import scan
+
+    config = load_config(start=repo)
+    served, fresh = scan([repo], config, jobs=1), scan([repo], config, jobs=1, use_cache=False)
+    assert served.cache_hits == len(served.files) == 2 and served.analysed == 0
+    for a, b in zip(served.files, fresh.files):
+        for ra, rb in zip(a.results, b.results):
+            assert np.array_equal(ra.model.A, rb.model.A)
+            assert [m.participation.tolist() for m in ra.spectrum.modes] == \
+                [m.participation.tolist() for m in rb.spectrum.modes]
 
 
 def test_jobs_two_gives_the_same_findings_as_jobs_one(repo):
@@ -162,3 +209,30 @@ def test_show_rules_and_explain(repo):
     assert "pole_region" in explain.stdout and "min_damping" in explain.stdout
     bad = run_cli("explain", "EG1O3", cwd=repo)
     assert bad.returncode == 2 and "did you mean" in bad.stderr
+
+
+def test_every_report_from_the_cache_has_the_same_bytes_as_from_a_fresh_analysis(tmp_path):
+    # The example repository has every kind of model (descriptor, discrete, closed loops
+    # with margins, operating points, a vector field) and a baseline; the HTML report reads
+    # the matrices and the modes (pole maps, phase portraits), which the cache serves lazily.
+    import shutil
+    from pathlib import Path
+
+    example = Path(__file__).resolve().parents[1] / "example_repo"
+    repo = tmp_path / "repo"
+    shutil.copytree(example, repo, ignore=shutil.ignore_patterns(".eigengate-cache",
+                                                                "__pycache__"))
+    formats = ["json", "sarif", "junit", "markdown", "annotations", "html"]
+
+    def reports(tag, *extra):
+        args = [a for f in formats for a in ("--output", f"{f}:{tmp_path / tag}.{f}")]
+        out = run_cli("check", *extra, *args, cwd=repo)
+        assert out.returncode == 1 and "Traceback" not in out.stderr, out.stderr
+        return [out.stdout] + [(tmp_path / f"{tag}.{f}").read_bytes() for f in formats]
+
+    fresh = reports("fresh", "--no-cache")
+    cold = reports("cold")  # analyses and writes the cache
+    warm = reports("warm")  # every result from the cache
+    assert list((repo / ".eigengate-cache").rglob("*.pack"))
+    for name, a, b, c in zip(["text"] + formats, fresh, cold, warm):
+        assert a == b == c, f"{name} report differs when served from the cache"

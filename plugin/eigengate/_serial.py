@@ -1,15 +1,16 @@
-"""Exact, JSON-safe round trip of check results, for the result cache.
+"""Exact round trip of check results, for the result cache and the process pool.
 
-Floats are written with ``repr`` precision (json does this), matrices as base64 of their
-float64 bytes, so a result read back renders to the same bytes as the one computed. Modes are
-rebuilt lazily: a warm re-check that only prints a summary never builds a Mode object.
-Nothing here executes code from the data: unknown kinds are errors, which the cache treats as
-a corrupt entry.
+A file's results become JSON-safe *data* plus a list of *blobs*: the large items (matrices,
+participation factors, mode rows, the line table) kept out of the JSON, so that reading a
+cache pack decodes only what a report reads. Matrices are float64 bytes, so a result read
+back renders to the same bytes as the one computed. Blobs are read lazily: a warm re-check
+that only prints a summary never touches a matrix or builds a Mode object. Nothing here
+executes code from the data: unknown kinds are errors, which the cache treats as a corrupt
+entry.
 """
 
 from __future__ import annotations
 
-import base64
 import dataclasses
 import datetime as _dt
 import functools
@@ -30,31 +31,45 @@ from .modes import Mode, Spectrum
 from .rules import Verdict
 from .waivers import Waiver
 
-__all__ = ["results_to_data", "results_from_data", "CachedSpectrum", "FORMAT"]
+__all__ = ["results_to_data", "results_from_data", "CachedSpectrum", "Blobs", "FORMAT"]
 
-FORMAT = 2
-
-
-def _arr(a) -> dict | None:
-    if a is None:
-        return None
-    a = np.ascontiguousarray(a, dtype=np.float64)
-    return {"shape": list(a.shape), "f64": base64.b64encode(a.tobytes()).decode("ascii")}
+FORMAT = 3
 
 
-def _unarr(d):
-    if d is None:
-        return None
-    raw = base64.b64decode(d["f64"], validate=True)
-    return np.frombuffer(raw, dtype=np.float64).reshape(d["shape"]).copy()
+class Blobs:
+    """The large items of one file's encoded results, by index: float64 matrices, and JSON
+    texts of other values. Encoding appends to ``items``; decoding reads them back by index
+    (``shape`` is None for a text). The cache's reader (:class:`eigengate.cache.PackBlobs`)
+    serves the same three methods from the bytes of a pack."""
 
+    def __init__(self, items: list | None = None) -> None:
+        self.items: list = [] if items is None else items
 
-def _c(z: complex) -> list[float]:
-    return [z.real, z.imag]
+    def put_array(self, a) -> int | None:
+        if a is None:
+            return None
+        self.items.append(np.ascontiguousarray(a, dtype=np.float64))
+        return len(self.items) - 1
 
+    def put_json(self, value) -> int:
+        self.items.append(json.dumps(value, separators=(",", ":")))
+        return len(self.items) - 1
 
-def _uc(v) -> complex:
-    return complex(float(v[0]), float(v[1]))
+    def shape(self, i: int) -> tuple[int, int] | None:
+        a = self.items[i]
+        return None if isinstance(a, str) else a.shape
+
+    def array(self, i: int):
+        a = self.items[i]
+        if not isinstance(a, np.ndarray):
+            raise ValueError(f"blob {i} is not an array")
+        return a
+
+    def json(self, i: int):
+        text = self.items[i]
+        if not isinstance(text, str):
+            raise ValueError(f"blob {i} is not a text")
+        return json.loads(text)
 
 
 # ------------------------------------------------------------------ small records
@@ -83,18 +98,39 @@ _SPECIAL = {
 }
 
 
+def _complex_or_none(v) -> complex | None:
+    return None if v is None else complex(float(v[0]), float(v[1]))
+
+
+def _date_or_none(v):
+    return None if v is None else _dt.date.fromisoformat(v)
+
+
+def _tuple2(v) -> tuple:
+    return tuple(tuple(x) for x in v)
+
+
+_SKIP = object()
+#: How each special kind is read back.
+_DECODE = {"c": _complex_or_none, "c?": _complex_or_none, "d?": _date_or_none, "t": tuple,
+           "t2": _tuple2, "skip": _SKIP}
+
+
 @functools.lru_cache(maxsize=None)
-def _codec(cls) -> tuple[tuple[str, ...], tuple[str | None, ...], bool]:
+def _codec(cls) -> tuple[tuple[str, ...], tuple[str | None, ...], bool, tuple]:
+    """Field names, their special kinds, whether there are none, and the decoders of the
+    special fields as ``(position, decoder)``."""
     names = tuple(f.name for f in dataclasses.fields(cls))
     special = _SPECIAL.get(cls.__name__, {})
     kinds = tuple(special.get(n) for n in names)
-    return names, kinds, not special
+    decoders = tuple((i, _DECODE[k]) for i, k in enumerate(kinds) if k is not None)
+    return names, kinds, not special, decoders
 
 
 def _record(obj) -> list:
     """A dataclass as a list of its field values in field order (positional: compact and
     fast to rebuild)."""
-    names, kinds, plain = _codec(type(obj))
+    names, kinds, plain, _ = _codec(type(obj))
     if plain:
         return [getattr(obj, n) for n in names]
     out = []
@@ -116,41 +152,45 @@ def _record(obj) -> list:
 
 
 def _unrecord(cls, values: list, **given):
-    """Rebuild a dataclass from :func:`_record` data; ``given`` fields are taken as they are."""
-    names, kinds, plain = _codec(cls)
+    """Rebuild a dataclass from :func:`_record` data; ``given`` fields are taken as they are.
+
+    The instance is filled in directly rather than through the frozen ``__init__`` (which sets
+    each field with ``object.__setattr__``): the values were the fields of such an instance
+    when they were written, and none of these classes has a ``__post_init__``."""
+    names, _, plain, decoders = _codec(cls)
     if len(values) != len(names):
         raise ValueError(f"{cls.__name__} record has {len(values)} fields, not {len(names)}")
-    if plain:
-        return cls(*values)
-    args = []
-    for n, k, v in zip(names, kinds, values):
-        if k is None:
-            args.append(v)
-        elif k == "skip":
-            args.append(given[n])
-        elif k in ("c", "c?"):
-            args.append(None if v is None else complex(float(v[0]), float(v[1])))
-        elif k == "d?":
-            args.append(None if v is None else _dt.date.fromisoformat(v))
-        elif k == "t":
-            args.append(tuple(v))
-        else:
-            args.append(tuple(tuple(x) for x in v))
-    return cls(*args)
+    if not plain:
+        values = list(values)
+        for i, decode in decoders:
+            values[i] = given[names[i]] if decode is _SKIP else decode(values[i])
+    obj = object.__new__(cls)
+    obj.__dict__.update(zip(names, values))
+    return obj
 
 
 # ------------------------------------------------------------------ modes, lazily
 
 _MODE_SCALARS = ("multiplicity", "geometric_multiplicity", "pair", "natural_frequency",
                  "damping_ratio", "time_constant", "uncertainty", "condition")
+#: A mode as a row of float64 (exact for every field): index, eigenvalue and s as real and
+#: imaginary parts, then the scalars above.
+_MODE_COLUMNS = 5 + len(_MODE_SCALARS)
+
+
+def _mode_table(modes) -> "np.ndarray":
+    rows = [[m.index, m.eigenvalue.real, m.eigenvalue.imag, m.s.real, m.s.imag]
+            + [getattr(m, k) for k in _MODE_SCALARS] for m in modes]
+    return np.array(rows, dtype=np.float64).reshape(len(rows), _MODE_COLUMNS)
 
 
 class _LazyModes(Sequence):
     """A tuple-like view of modes built on first use from their stored rows."""
 
-    def __init__(self, rows: str, participation, states: tuple[str, ...], count: int,
-                 pick: list[int] | None = None, source: "_LazyModes | None" = None) -> None:
-        self._text, self._part, self._states = rows, participation, states
+    def __init__(self, blobs, rows: int, participation: int, states: tuple[str, ...],
+                 count: int, pick: list[int] | None = None,
+                 source: "_LazyModes | None" = None) -> None:
+        self._blobs, self._rows, self._part, self._states = blobs, rows, participation, states
         self._count = count
         self._pick, self._source = pick, source
         self._built: tuple | None = None
@@ -161,17 +201,22 @@ class _LazyModes(Sequence):
                 every = self._source._all()
                 self._built = tuple(every[i] for i in self._pick)
             else:
-                part = _unarr(self._part)
+                part = self._blobs.array(self._part)
+                rows = self._blobs.array(self._rows)
+                if rows.shape[1:] != (_MODE_COLUMNS,) or part.shape[1:] != rows.shape[:1]:
+                    raise ValueError("mode table and participation factors do not fit")
                 self._built = tuple(
-                    Mode(index=r[0], eigenvalue=_uc(r[1]), s=_uc(r[2]),
-                         participation=part[:, k], states=self._states,
-                         **dict(zip(_MODE_SCALARS, r[3:])))
-                    for k, r in enumerate(json.loads(self._text)))
+                    Mode(index=int(r[0]), eigenvalue=complex(r[1], r[2]), s=complex(r[3], r[4]),
+                         multiplicity=int(r[5]), geometric_multiplicity=int(r[6]),
+                         pair=bool(r[7]), natural_frequency=r[8], damping_ratio=r[9],
+                         time_constant=r[10], uncertainty=r[11], condition=r[12],
+                         participation=part[:, k], states=self._states)
+                    for k, r in enumerate(rows.tolist()))
         return self._built
 
     def subset(self, indices: list[int]) -> "_LazyModes":
-        return _LazyModes(self._text, self._part, self._states, self._count, pick=list(indices),
-                          source=self)
+        return _LazyModes(self._blobs, self._rows, self._part, self._states, self._count,
+                          pick=list(indices), source=self)
 
     def __len__(self) -> int:
         return len(self._pick) if self._pick is not None else self._count
@@ -193,7 +238,7 @@ class CachedSpectrum:
     """Stands in for :class:`~eigengate.modes.Spectrum` when a result comes from the cache:
     the summary figures are stored, the modes are built only when something reads them."""
 
-    def __init__(self, model, data: dict) -> None:
+    def __init__(self, model, data: dict, blobs) -> None:
         self.model = model
         self.infinite = data["infinite"]
         self.norm = data["norm"]
@@ -202,109 +247,268 @@ class CachedSpectrum:
         self.spectral_radius = data["radius"]
         self.min_damping = data["min_damping"]
         self.n_eigenvalues = data["n_eigenvalues"]
-        self.modes = _LazyModes(data["modes"], data["participation"], model.states,
-                                data["n_modes"])
+        count = data["n_modes"]
+        rows, part = data["modes"], data["participation"]
+        # The blobs are read when the modes are: check now that they fit, so a damaged
+        # entry is analysed again instead of failing later.
+        if blobs.shape(rows) != (count, _MODE_COLUMNS) or \
+                blobs.shape(part) not in ((len(model.states), count), (0, 0)):
+            raise ValueError("mode table or participation factors do not fit the model")
+        self.modes = _LazyModes(blobs, rows, part, model.states, count)
 
     def eigenvalues(self) -> list[complex]:
         return Spectrum.eigenvalues(self)  # same logic, reading self.modes
 
 
-def _spectrum_data(sp) -> dict:
+def _spectrum_data(sp, blobs: Blobs) -> dict:
     modes = list(sp.modes)
     part = np.stack([m.participation for m in modes], axis=1) if modes else np.zeros((0, 0))
     return {
         "infinite": sp.infinite, "norm": sp.norm, "balanced": sp.balanced,
         "abscissa": sp.spectral_abscissa, "radius": sp.spectral_radius,
         "min_damping": sp.min_damping, "n_eigenvalues": sp.n_eigenvalues,
-        # The mode rows are a JSON text inside the entry: decoding the cache then costs one
-        # string per model, and the rows are parsed only when something reads the modes.
         "n_modes": len(modes),
-        "modes": json.dumps([[m.index, _c(m.eigenvalue), _c(m.s)]
-                             + [getattr(m, k) for k in _MODE_SCALARS] for m in modes],
-                            separators=(",", ":")),
-        "participation": _arr(part),
+        "modes": blobs.put_array(_mode_table(modes)),
+        "participation": blobs.put_array(part),
     }
 
 
 # ------------------------------------------------------------------ model and results
 
-def _model_data(m) -> dict:
+_MATRICES = ("A", "B", "C", "D", "E")
+
+
+def _blob_field(name: str, kind: str):
+    def read(self):
+        blobs, index = self.__dict__["_blob_refs"][name]
+        return blobs.array(index) if kind == "array" else blobs.json(index)
+
+    read.__name__ = name
+    return functools.cached_property(read)
+
+
+class CachedModel(Model):
+    """A :class:`~eigengate.model.Model` rebuilt from the cache: its matrices and its line
+    table are read from the blobs when first used (then kept), the other fields at once.
+    Reports that print verdicts and findings never read them."""
+
+    A = _blob_field("A", "array")
+    B = _blob_field("B", "array")
+    C = _blob_field("C", "array")
+    D = _blob_field("D", "array")
+    E = _blob_field("E", "array")
+    lines = _blob_field("lines", "json")
+
+
+def _model_data(m, blobs: Blobs) -> dict:
     classes = _req_classes()
     for r in m.requirements:
         if type(r).__name__ not in classes:  # pragma: no cover - a new class not listed
             raise TypeError(f"cannot cache requirement {type(r).__name__}")
-    return {
+    out = {k: blobs.put_array(getattr(m, k)) for k in _MATRICES}
+    out.update({
         "name": m.name, "label": m.label, "source": m.source, "structure": m.structure,
-        "A": _arr(m.A), "B": _arr(m.B), "C": _arr(m.C), "D": _arr(m.D), "E": _arr(m.E),
         "sample_period": m.sample_period, "states": list(m.states), "inputs": list(m.inputs),
         "outputs": list(m.outputs), "on_uncertain": m.on_uncertain,
-        "disabled": list(m.disabled), "lines": dict(m.lines),
+        "disabled": list(m.disabled), "lines": blobs.put_json(dict(m.lines)),
         "requirements": [[type(r).__name__, _record(r)] for r in m.requirements],
         "known_modes": [_record(k) for k in m.known_modes],
         "waivers": [_record(w) for w in m.waivers],
         "allowed_drift": m.allowed_drift,
+        "nonlinear": _field_data(m.nonlinear),
+    })
+    return out
+
+
+# A linearised model's vector field is code and is not stored; what the reports read of it
+# (the operating point, the box, and the equilibria found in it) is.
+
+def _field_data(info) -> dict | None:
+    if info is None:
+        return None
+    search = info.shared.get("search")
+    return {
+        "x": list(info.x), "u": list(info.u), "carrier": info.carrier,
+        "carrier_label": info.carrier_label,
+        "box": None if info.box is None else [list(info.box[0]), list(info.box[1]),
+                                              list(info.box[2]), info.box[3], info.box[4]],
+        "search": None if search is None else {
+            "equilibria": [[list(e.x), e.residual, _record(e.equilibrium),
+                            [[z.real, z.imag] for z in e.eigenvalues]]
+                           for e in search.equilibria],
+            "counts": [search.starts, search.converged, search.failed, search.outside],
+            "errors": list(search.errors)},
     }
 
 
-def _model_from(d: dict):
+def _field_from(d: dict | None):
+    if d is None:
+        return None
+    from .nonlinear import EquilibriumSearch, FoundEquilibrium
 
+    shared = {}
+    if d["search"] is not None:
+        found = tuple(FoundEquilibrium(tuple(x), residual, _unrecord(Equilibrium, eq),
+                                       tuple(complex(float(a), float(b)) for a, b in ev))
+                      for x, residual, eq, ev in d["search"]["equilibria"])
+        starts, converged, failed, outside = d["search"]["counts"]
+        shared["search"] = EquilibriumSearch(found, starts, converged, failed, outside,
+                                             tuple(d["search"]["errors"]))
+    box = d["box"]
+    return _cached_field_class()(
+        field=None, x=tuple(d["x"]), u=tuple(d["u"]), carrier=d["carrier"],
+        carrier_label=d["carrier_label"],
+        box=None if box is None else (tuple(box[0]), tuple(box[1]), tuple(box[2]), box[3],
+                                      box[4]),
+        shared=shared)
+
+
+@functools.lru_cache(maxsize=None)
+def _cached_field_class():
+    from .nonlinear import FieldPoint  # imported when a cached model has a vector field
+
+    class CachedFieldPoint(FieldPoint):
+        """A :class:`~eigengate.nonlinear.FieldPoint` from the cache: no vector field, only
+        the search it had run (a cached result is never analysed again)."""
+
+        def search(self):
+            return self.shared.get("search")
+
+    return CachedFieldPoint
+
+
+def _model_from(d: dict, blobs) -> CachedModel:
     classes = _req_classes()
-    return Model(
-        name=d["name"], label=d["label"], source=d["source"], structure=d["structure"],
-        A=_unarr(d["A"]), B=_unarr(d["B"]), C=_unarr(d["C"]), D=_unarr(d["D"]),
-        E=_unarr(d["E"]), sample_period=d["sample_period"], states=tuple(d["states"]),
-        inputs=tuple(d["inputs"]), outputs=tuple(d["outputs"]),
-        on_uncertain=d["on_uncertain"], disabled=tuple(d["disabled"]), lines=d["lines"],
+    m = object.__new__(CachedModel)
+    fields = m.__dict__
+    refs = {}
+    for k in (*_MATRICES, "lines"):
+        index = d[k]
+        if index is None and k != "A":
+            fields[k] = None
+            continue
+        shape = blobs.shape(index)  # read later: check now that it is there, of its kind
+        if (shape is None) != (k == "lines"):
+            raise ValueError(f"model field {k} is not a blob of its kind")
+        refs[k] = (blobs, index)
+    n = len(d["states"])
+    if blobs.shape(d["A"]) != (n, n):
+        raise ValueError("model matrix A does not fit its states")
+    fields.update(
+        _blob_refs=refs, name=d["name"], label=d["label"], source=d["source"],
+        structure=d["structure"], sample_period=d["sample_period"],
+        states=tuple(d["states"]), inputs=tuple(d["inputs"]), outputs=tuple(d["outputs"]),
+        on_uncertain=d["on_uncertain"], disabled=tuple(d["disabled"]),
         requirements=tuple(_unrecord(classes[k], v) for k, v in d["requirements"]),
         known_modes=tuple(_unrecord(KnownMode, k) for k in d["known_modes"]),
         waivers=tuple(_unrecord(Waiver, w) for w in d["waivers"]),
-        allowed_drift=d["allowed_drift"])
+        allowed_drift=d["allowed_drift"], loop_parts=None,
+        nonlinear=_field_from(d["nonlinear"]))
+    return m
 
 
-def _finding_data(f) -> dict:
-    return {"f": _record(f), "modes": [_record(r) for r in f.modes]}
+#: A finding's mode row as float64: index, eigenvalue and s (real, imaginary), pair,
+#: multiplicity, defective, ζ, ωn, τ, bound, κ, then up to _TOP participating states as
+#: (position in the model's states, factor) after their count.
+_TOP = 3
+_ROW_COLUMNS = 14 + 2 * _TOP
 
 
-def _finding_from(d: dict):
+def _row_values(r: ModeRow, position: dict[str, int]) -> list[float] | None:
+    if len(r.top_states) > _TOP or any(n not in position for n, _ in r.top_states):
+        return None
+    out = [r.index, r.eigenvalue.real, r.eigenvalue.imag, r.s.real, r.s.imag, r.pair,
+           r.multiplicity, r.defective, r.damping_ratio, r.natural_frequency, r.time_constant,
+           r.uncertainty, r.condition, len(r.top_states)]
+    for n, p in r.top_states:
+        out += [position[n], p]
+    return out + [0.0] * (_ROW_COLUMNS - len(out))
 
-    return _unrecord(Finding, d["f"], modes=tuple(_unrecord(ModeRow, r) for r in d["modes"]))
+
+def _findings_data(findings, states: tuple[str, ...], blobs: Blobs) -> tuple[list, int | None]:
+    """The findings' records, their mode rows in one float64 table (a finding refers to its
+    ``[first, count]``), or as records where a row does not fit the table."""
+    position = {n: i for i, n in enumerate(states)}
+    table: list[list[float]] = []
+    out = []
+    for f in findings:
+        rows = [_row_values(r, position) for r in f.modes]
+        if any(r is None for r in rows):
+            out.append({"f": _record(f), "modes": [_record(r) for r in f.modes]})
+        else:
+            out.append({"f": _record(f), "rows": [len(table), len(rows)]})
+            table.extend(rows)  # type: ignore[arg-type]
+    if not table:
+        return out, None
+    return out, blobs.put_array(np.array(table, dtype=np.float64))
+
+
+def _row_of(r: list, states: tuple[str, ...]) -> ModeRow:
+    row = object.__new__(ModeRow)
+    row.__dict__.update(
+        index=int(r[0]), eigenvalue=complex(r[1], r[2]), s=complex(r[3], r[4]), pair=bool(r[5]),
+        multiplicity=int(r[6]), defective=bool(r[7]), damping_ratio=r[8],
+        natural_frequency=r[9], time_constant=r[10], uncertainty=r[11], condition=r[12],
+        top_states=tuple((states[int(r[14 + 2 * j])], r[15 + 2 * j]) for j in range(int(r[13]))))
+    return row
+
+
+def _findings_from(items: list, table: int | None, states: tuple[str, ...], blobs) -> tuple:
+    rows: list = []
+    if table is not None:
+        arr = blobs.array(table)
+        if arr.shape[1:] != (_ROW_COLUMNS,):
+            raise ValueError("finding mode rows have the wrong width")
+        rows = arr.tolist()
+    out = []
+    for d in items:
+        if "rows" in d:
+            first, count = d["rows"]
+            if not 0 <= first <= first + count <= len(rows):
+                raise ValueError("finding mode rows outside their table")
+            modes = tuple(_row_of(r, states) for r in rows[first:first + count])
+        else:
+            modes = tuple(_unrecord(ModeRow, r) for r in d["modes"])
+        out.append(_unrecord(Finding, d["f"], modes=modes))
+    return tuple(out)
 
 
 def _verdict_data(v) -> dict:
     return {"v": _record(v), "offending": [m.index - 1 for m in v.offending]}
 
 
-def _result_data(r) -> dict:
-    return {"model": _model_data(r.model), "spectrum": _spectrum_data(r.spectrum),
+def _result_data(r, blobs: Blobs) -> dict:
+    findings, rows = _findings_data(r.findings, r.model.states, blobs)
+    return {"model": _model_data(r.model, blobs), "spectrum": _spectrum_data(r.spectrum, blobs),
             "equilibrium": _record(r.equilibrium),
             "verdicts": [_verdict_data(v) for v in r.verdicts],
-            "findings": [_finding_data(f) for f in r.findings]}
+            "findings": findings, "rows": rows}
 
 
-def _result_from(d: dict):
-
-    model = _model_from(d["model"])
-    spectrum = CachedSpectrum(model, d["spectrum"])
+def _result_from(d: dict, blobs):
+    model = _model_from(d["model"], blobs)
+    spectrum = CachedSpectrum(model, d["spectrum"], blobs)
     verdicts = [_unrecord(Verdict, v["v"], offending=spectrum.modes.subset(v["offending"]))
                 for v in d["verdicts"]]
     return ModelResult(model=model, spectrum=spectrum,
                        equilibrium=_unrecord(Equilibrium, d["equilibrium"]),
                        verdicts=tuple(verdicts),
-                       findings=tuple(_finding_from(f) for f in d["findings"]))
+                       findings=_findings_from(d["findings"], d["rows"], model.states, blobs))
 
 
-def results_to_data(source: str, results: Sequence, error) -> dict:
-    """Data of one file's pre-waiver check: its model results, or its load error."""
+def results_to_data(source: str, results: Sequence, error) -> tuple[dict, Blobs]:
+    """Data and blobs of one file's pre-waiver check: its model results, or its load error."""
+    blobs = Blobs()
     if error is not None:
         return {"source": source, "error": [error.source, error.field, error.problem,
-                                             error.line, error.hint]}
-    return {"source": source, "results": [_result_data(r) for r in results]}
+                                             error.line, error.hint]}, blobs
+    return {"source": source, "results": [_result_data(r, blobs) for r in results]}, blobs
 
 
-def results_from_data(d: dict):
-    """Inverse of :func:`results_to_data`: ``(source, results, error)``."""
-
+def results_from_data(d: dict, blobs):
+    """Inverse of :func:`results_to_data`: ``(source, results, error)``. ``blobs`` is a
+    :class:`Blobs` or anything with its ``array`` and ``json`` methods."""
     if "error" in d:
         src, fld, problem, line, hint = d["error"]
         return d["source"], (), ModelError(src, fld, problem, line=line, hint=hint)
-    return d["source"], tuple(_result_from(r) for r in d["results"]), None
+    return d["source"], tuple(_result_from(r, blobs) for r in d["results"]), None

@@ -17,7 +17,8 @@ if TYPE_CHECKING:  # pragma: no cover
 
 __all__ = ["ModelResult", "FileResult", "analyse_model", "apply_waivers", "check_model",
            "analyse_file", "file_result", "check_file", "check_paths",
-           "discover_model_files", "policy_findings", "MODEL_SUFFIXES"]
+           "discover_model_files", "find_model_files", "FoundFile", "policy_findings",
+           "MODEL_SUFFIXES"]
 
 MODEL_SUFFIXES = (".yaml", ".yml", ".toml", ".json")
 
@@ -146,13 +147,37 @@ def check_file(path: str | Path, root: str | Path | None = None,
     return file_result(source, results, error, config, on)
 
 
-def _looks_like_model(path: Path) -> bool:
+#: Bytes of a file read to tell whether it is a model file; a model file read whole while
+#: discovering it is kept (for the cache key) up to this many bytes.
+_SNIFF_BYTES = 65536
+_KEEP_BYTES = 1 << 18
+
+
+@dataclass(frozen=True, eq=False)
+class FoundFile:
+    """A discovered model file: its path, its path relative to the configuration's root
+    after resolving links (what include and exclude globs match, and a stable identity for
+    the cache), and its bytes when discovery read them whole (None otherwise)."""
+
+    path: Path
+    rel: str
+    content: bytes | None = None
+
+
+def _sniff(path: str) -> tuple[bool, bytes | None]:
+    """Whether a file looks like a model file (has a ``model_format`` key near its start),
+    and its bytes when it does and is small enough to keep."""
     try:
         with open(path, "rb") as fh:
-            head = fh.read(65536)
+            head = fh.read(_SNIFF_BYTES)
+            if b"model_format" not in head:
+                return False, None
+            if len(head) < _SNIFF_BYTES:
+                return True, head
+            rest = fh.read(_KEEP_BYTES)
+            return True, (head + rest if len(rest) < _KEEP_BYTES else None)
     except OSError:
-        return True  # let the loader report why it cannot be read
-    return b"model_format" in head
+        return True, None  # let the loader report why it cannot be read
 
 
 def discover_model_files(paths: Sequence[str | Path], config: "Config | None" = None,
@@ -165,39 +190,75 @@ def discover_model_files(paths: Sequence[str | Path], config: "Config | None" = 
     key (so other YAML and JSON files of the repository are left alone). ``filter_named``
     applies the same test to named files (a pre-commit hook is handed every changed file).
     """
+    return [f.path for f in find_model_files(paths, config, filter_named=filter_named)]
+
+
+def find_model_files(paths: Sequence[str | Path], config: "Config | None" = None,
+                     *, filter_named: bool = False) -> list[FoundFile]:
+    """:func:`discover_model_files`, with each file's resolved relative path and, when the
+    selection read it whole, its bytes."""
     import os
 
-    root = os.path.realpath(config.root) if config is not None else None
-    out: list[Path] = []
+    root = os.path.realpath(config.root) if config is not None else os.path.realpath(".")
+    out: list[FoundFile] = []
     for p in paths:
         p = Path(p)
         if not p.is_dir():
-            if not filter_named or _selected(str(p), config, root):
-                out.append(p)
+            rel = _rel(os.path.realpath(p), root)
+            keep, content = _select(os.fspath(p), rel, config) if filter_named else (True, None)
+            if keep:
+                out.append(FoundFile(p, rel, content))
             continue
-        found = []
-        for folder, dirs, names in os.walk(p):
-            dirs[:] = sorted(d for d in dirs if not d.startswith("."))
-            found.extend(full for full in (os.path.join(folder, n) for n in names
-                                           if not n.startswith("."))
-                         if _selected(full, config, root))
-        out.extend(Path(f) for f in sorted(found))
+        found: list[tuple[str, str, bytes | None]] = []
+        stack = [os.fspath(p)]
+        while stack:  # like os.walk: hidden entries skipped, linked folders not followed
+            folder = stack.pop()
+            real_folder = _rel(os.path.realpath(folder), root)
+            try:
+                entries = list(os.scandir(folder))
+            except OSError:
+                continue
+            for e in entries:
+                if e.name.startswith("."):
+                    continue
+                try:
+                    if e.is_dir(follow_symlinks=False):
+                        stack.append(e.path)
+                        continue
+                    if e.is_symlink():
+                        if os.path.isdir(e.path):
+                            continue
+                        rel = _rel(os.path.realpath(e.path), root)
+                    else:
+                        rel = e.name if real_folder == "." else f"{real_folder}/{e.name}"
+                except OSError:
+                    continue
+                keep, content = _select(e.path, rel, config)
+                if keep:
+                    found.append((e.path, rel, content))
+        found.sort(key=lambda t: t[0])
+        out.extend(FoundFile(Path(f), rel, content) for f, rel, content in found)
     return out
 
 
-def _selected(full: str, config: "Config | None", root: str | None) -> bool:
+def _rel(real: str, root: str) -> str:
+    import os
+
+    return os.path.relpath(real, root).replace(os.sep, "/")
+
+
+def _select(full: str, rel: str, config: "Config | None") -> tuple[bool, bytes | None]:
     import os
 
     name = os.path.basename(full)
     if name == "pyproject.toml" or os.path.splitext(name)[1] not in MODEL_SUFFIXES:
-        return False
+        return False, None
     if config is not None:
-        rel = os.path.relpath(os.path.realpath(full), root).replace(os.sep, "/")
         if not config.is_model_path(rel):
-            return False
+            return False, None
         if config.include:
-            return True
-    return _looks_like_model(Path(full))
+            return True, None
+    return _sniff(full)
 
 
 def check_paths(paths: Iterable[str | Path], root: str | Path | None = None,

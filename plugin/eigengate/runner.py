@@ -3,8 +3,9 @@ pool, apply waivers, and report the policy's own expired or unused waivers.
 
 The pool is the standard library's (``concurrent.futures``) on the ``forkserver`` start
 method where available (no fork of a process whose BLAS threads are running); workers analyse
-and return plain JSON-safe data, which is cheap to send back, rebuilds lazily, and is what the
-parent stores in the cache (written once, at the end of the scan).
+and return plain JSON-safe data and its blobs (float64 arrays, JSON texts), which are cheap to
+send back, rebuild lazily, and are what the parent stores in the cache (written once, at the
+end of the scan).
 """
 
 from __future__ import annotations
@@ -18,7 +19,7 @@ from pathlib import Path
 from typing import Callable, Sequence
 
 from .config import Config
-from .engine import FileResult, analyse_file, discover_model_files, file_result, policy_findings
+from .engine import FileResult, analyse_file, file_result, find_model_files, policy_findings
 from .findings import Finding
 
 __all__ = ["Scan", "scan", "default_jobs"]
@@ -61,22 +62,17 @@ def _init_worker(config: Config) -> None:
     _WORKER["config"] = config
 
 
-def _work(path: str) -> tuple[dict, list[str], bool]:
-    """Analyse one file in a worker: (JSON-safe data, referenced files, whether it loaded)."""
+def _work(path: str) -> tuple[dict, list, list[str], bool]:
+    """Analyse one file in a worker: (JSON-safe data, its blob items, referenced files,
+    whether it loaded)."""
     from ._serial import results_to_data
 
     source, results, error, refs = analyse_file(path, _WORKER["config"].root, _WORKER["config"])
-    return results_to_data(source, results, error), refs, error is None
+    data, blobs = results_to_data(source, results, error)
+    return data, blobs.items, refs, error is None
 
 
 # ------------------------------------------------------------------ parent side
-
-def _source_of(path: Path, root: str) -> str:
-    # abspath, not realpath: the cache key only needs to be stable, and resolving every
-    # path component costs a system call each (the loader does its own confinement checks)
-    rel = os.path.relpath(os.path.abspath(path), root)
-    return path.as_posix() if rel.startswith("..") else rel.replace(os.sep, "/")
-
 
 def scan(paths: Sequence[str | Path], config: Config, *, jobs: int | None = None,
          use_cache: bool = True, progress: Callable[[int, int], None] | None = None,
@@ -108,35 +104,37 @@ def _gc_paused():
 
 
 def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named) -> Scan:
-    from ._serial import results_from_data, results_to_data
+    from ._serial import Blobs, results_from_data, results_to_data
     from .cache import ResultCache
 
-    files = discover_model_files(list(paths), config, filter_named=filter_named)
+    files = find_model_files(list(paths), config, filter_named=filter_named)
     cache = ResultCache(config.root, config.digest) if use_cache else None
     slots: list[tuple | None] = [None] * len(files)
     todo: list[tuple[int, str, str | None]] = []
     hits = 0
-    real_root = os.path.abspath(config.root)
     for i, f in enumerate(files):
+        files[i] = None  # type: ignore[call-overload]  # its bytes are not kept past here
         key = None
         if cache is not None:
-            try:
-                content = f.read_bytes()
-            except OSError:
-                content = None
+            content = f.content
+            if content is None:
+                try:
+                    content = f.path.read_bytes()
+                except OSError:
+                    content = None
             if content is not None:
-                key = cache.key(_source_of(f, real_root), content)
-                data = cache.get(key)
-                if data is not None:
+                key = cache.key(f.rel, content)
+                hit = cache.get(key)
+                if hit is not None:
                     try:
-                        slots[i] = results_from_data(data)
+                        slots[i] = results_from_data(*hit)
                         hits += 1
                         continue
                     except (KeyError, TypeError, ValueError, IndexError):
                         pass  # a corrupt entry: analyse again and overwrite it
-        todo.append((i, str(f), key))
+        todo.append((i, str(f.path), key))
     done = hits
-    total = len(files)
+    total = len(slots)
     if progress:
         progress(done, total)
     jobs = default_jobs() if jobs is None else max(1, jobs)
@@ -144,14 +142,15 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named)
         i, path, key = item
         source, results, error, refs = analyse_file(path, config.root, config)
         if cache is not None and key is not None and error is None:
-            cache.put(key, results_to_data(source, results, error), refs)
+            data, blobs = results_to_data(source, results, error)
+            cache.put(key, data, blobs.items, refs)
         slots[i] = (source, results, error)
 
     def remote(items, outcome) -> None:
-        for (i, _, key), (data, refs, ok) in zip(items, outcome):
+        for (i, _, key), (data, blobs, refs, ok) in zip(items, outcome):
             if cache is not None and key is not None and ok:
-                cache.put(key, data, refs)
-            slots[i] = results_from_data(data)
+                cache.put(key, data, blobs, refs)
+            slots[i] = results_from_data(data, Blobs(blobs))
 
     def step(n: int) -> None:
         nonlocal done
@@ -172,7 +171,7 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named)
                 analysed=len(todo))
 
 
-def _chunk_work(paths: list[str]) -> list[tuple[dict, list[str], bool]]:
+def _chunk_work(paths: list[str]) -> list[tuple[dict, list, list[str], bool]]:
     return [_work(p) for p in paths]
 
 

@@ -296,6 +296,7 @@ def test_finding_before_survives_the_cache_round_trip():
     m = from_arrays(osc(0.1, 2.0), np.zeros((2, 1)), np.zeros((1, 2)), np.zeros((1, 1)),
                     requirements=(MinDamping(0.5),))
     r = analyse_model(m)
-    _, (back,), _ = results_from_data(json.loads(json.dumps(results_to_data("m", [r], None))))
+    data, blobs = results_to_data("m", [r], None)
+    _, (back,), _ = results_from_data(json.loads(json.dumps(data)), blobs)
     assert back.findings == r.findings and back.findings[0].before == ()
     hash(back.findings[0])
