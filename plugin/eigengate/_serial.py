@@ -39,7 +39,7 @@ FORMAT = 3
 class Blobs:
     """The large items of one file's encoded results, by index: float64 matrices, and JSON
     texts of other values. Encoding appends to ``items``; decoding reads them back by index
-    (``shape`` is None for a text). The cache's reader (:class:`eigengate.cache.PackBlobs`)
+    (``shapes`` has None for a text). The cache's reader (:class:`eigengate.cache.PackBlobs`)
     serves the same three methods from the bytes of a pack."""
 
     def __init__(self, items: list | None = None) -> None:
@@ -55,9 +55,8 @@ class Blobs:
         self.items.append(json.dumps(value, separators=(",", ":")))
         return len(self.items) - 1
 
-    def shape(self, i: int) -> tuple[int, int] | None:
-        a = self.items[i]
-        return None if isinstance(a, str) else a.shape
+    def shapes(self) -> list[tuple[int, int] | None]:
+        return [None if isinstance(a, str) else a.shape for a in self.items]
 
     def array(self, i: int):
         a = self.items[i]
@@ -238,7 +237,7 @@ class CachedSpectrum:
     """Stands in for :class:`~eigengate.modes.Spectrum` when a result comes from the cache:
     the summary figures are stored, the modes are built only when something reads them."""
 
-    def __init__(self, model, data: dict, blobs) -> None:
+    def __init__(self, model, data: dict, blobs, shapes: list) -> None:
         self.model = model
         self.infinite = data["infinite"]
         self.norm = data["norm"]
@@ -251,8 +250,8 @@ class CachedSpectrum:
         rows, part = data["modes"], data["participation"]
         # The blobs are read when the modes are: check now that they fit, so a damaged
         # entry is analysed again instead of failing later.
-        if blobs.shape(rows) != (count, _MODE_COLUMNS) or \
-                blobs.shape(part) not in ((len(model.states), count), (0, 0)):
+        if _shape(shapes, rows) != (count, _MODE_COLUMNS) or \
+                _shape(shapes, part) not in ((len(model.states), count), (0, 0)):
             raise ValueError("mode table or participation factors do not fit the model")
         self.modes = _LazyModes(blobs, rows, part, model.states, count)
 
@@ -287,10 +286,31 @@ def _blob_field(name: str, kind: str):
     return functools.cached_property(read)
 
 
+def _requirements_of(records: list) -> tuple:
+    classes = _req_classes()
+    return tuple(_unrecord(classes[k], v) for k, v in records)
+
+
+def _known_modes_of(records: list) -> tuple:
+    return tuple(_unrecord(KnownMode, k) for k in records)
+
+
+def _record_field(name: str, decode):
+    def read(self):
+        return decode(self.__dict__["_records"][name])
+
+    read.__name__ = name
+    return functools.cached_property(read)
+
+
 class CachedModel(Model):
     """A :class:`~eigengate.model.Model` rebuilt from the cache: its matrices and its line
-    table are read from the blobs when first used (then kept), the other fields at once.
-    Reports that print verdicts and findings never read them."""
+    table are read from the blobs when first used (then kept), its requirements and known
+    modes built from their records when first used, the other fields at once. Reports,
+    which print verdicts and findings, read none of them."""
+
+    requirements = _record_field("requirements", _requirements_of)
+    known_modes = _record_field("known_modes", _known_modes_of)
 
     A = _blob_field("A", "array")
     B = _blob_field("B", "array")
@@ -377,8 +397,17 @@ def _cached_field_class():
     return CachedFieldPoint
 
 
-def _model_from(d: dict, blobs) -> CachedModel:
+def _shape(shapes: list, index) -> tuple[int, int] | None:
+    if type(index) is not int or not 0 <= index < len(shapes):
+        raise ValueError(f"{index!r} is not a blob of the entry")
+    return shapes[index]
+
+
+def _model_from(d: dict, blobs, shapes: list) -> CachedModel:
     classes = _req_classes()
+    if not all(type(r) is list and len(r) == 2 and r[0] in classes for r in d["requirements"]) \
+            or type(d["known_modes"]) is not list:
+        raise ValueError("model requirements are not records of known classes")
     m = object.__new__(CachedModel)
     fields = m.__dict__
     refs = {}
@@ -387,20 +416,19 @@ def _model_from(d: dict, blobs) -> CachedModel:
         if index is None and k != "A":
             fields[k] = None
             continue
-        shape = blobs.shape(index)  # read later: check now that it is there, of its kind
-        if (shape is None) != (k == "lines"):
+        # read later: check now that it is there, and of its kind
+        if (_shape(shapes, index) is None) != (k == "lines"):
             raise ValueError(f"model field {k} is not a blob of its kind")
         refs[k] = (blobs, index)
     n = len(d["states"])
-    if blobs.shape(d["A"]) != (n, n):
+    if shapes[d["A"]] != (n, n):
         raise ValueError("model matrix A does not fit its states")
     fields.update(
         _blob_refs=refs, name=d["name"], label=d["label"], source=d["source"],
         structure=d["structure"], sample_period=d["sample_period"],
         states=tuple(d["states"]), inputs=tuple(d["inputs"]), outputs=tuple(d["outputs"]),
         on_uncertain=d["on_uncertain"], disabled=tuple(d["disabled"]),
-        requirements=tuple(_unrecord(classes[k], v) for k, v in d["requirements"]),
-        known_modes=tuple(_unrecord(KnownMode, k) for k in d["known_modes"]),
+        _records={"requirements": d["requirements"], "known_modes": d["known_modes"]},
         waivers=tuple(_unrecord(Waiver, w) for w in d["waivers"]),
         allowed_drift=d["allowed_drift"], loop_parts=None,
         nonlinear=_field_from(d["nonlinear"]))
@@ -444,12 +472,13 @@ def _findings_data(findings, states: tuple[str, ...], blobs: Blobs) -> tuple[lis
 
 
 def _row_of(r: list, states: tuple[str, ...]) -> ModeRow:
+    i, er, ei, sr, si, pair, mult, defective, zeta, wn, tau, bound, kappa, k, *top = r
     row = object.__new__(ModeRow)
     row.__dict__.update(
-        index=int(r[0]), eigenvalue=complex(r[1], r[2]), s=complex(r[3], r[4]), pair=bool(r[5]),
-        multiplicity=int(r[6]), defective=bool(r[7]), damping_ratio=r[8],
-        natural_frequency=r[9], time_constant=r[10], uncertainty=r[11], condition=r[12],
-        top_states=tuple((states[int(r[14 + 2 * j])], r[15 + 2 * j]) for j in range(int(r[13]))))
+        index=int(i), eigenvalue=complex(er, ei), s=complex(sr, si), pair=bool(pair),
+        multiplicity=int(mult), defective=bool(defective), damping_ratio=zeta,
+        natural_frequency=wn, time_constant=tau, uncertainty=bound, condition=kappa,
+        top_states=tuple([(states[int(top[j])], top[j + 1]) for j in range(0, 2 * int(k), 2)]))
     return row
 
 
@@ -485,9 +514,9 @@ def _result_data(r, blobs: Blobs) -> dict:
             "findings": findings, "rows": rows}
 
 
-def _result_from(d: dict, blobs):
-    model = _model_from(d["model"], blobs)
-    spectrum = CachedSpectrum(model, d["spectrum"], blobs)
+def _result_from(d: dict, blobs, shapes: list):
+    model = _model_from(d["model"], blobs, shapes)
+    spectrum = CachedSpectrum(model, d["spectrum"], blobs, shapes)
     verdicts = [_unrecord(Verdict, v["v"], offending=spectrum.modes.subset(v["offending"]))
                 for v in d["verdicts"]]
     return ModelResult(model=model, spectrum=spectrum,
@@ -511,4 +540,5 @@ def results_from_data(d: dict, blobs):
     if "error" in d:
         src, fld, problem, line, hint = d["error"]
         return d["source"], (), ModelError(src, fld, problem, line=line, hint=hint)
-    return d["source"], tuple(_result_from(r, blobs) for r in d["results"]), None
+    shapes = blobs.shapes()
+    return d["source"], tuple([_result_from(r, blobs, shapes) for r in d["results"]]), None

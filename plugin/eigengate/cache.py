@@ -4,6 +4,12 @@ An entry's key hashes the tool version, the cache format, the effective configur
 model file's repository path and bytes. The entry records the hash of every matrix file the
 model referenced; a changed reference is a miss.
 
+So that an unchanged repository is not read and hashed again on every check, the pack also
+records the status (size, modification and change times, inode) of each model and matrix
+file with its key or hash, as a version-control index does: a file whose status is the same
+is taken to have the same bytes. A status is recorded only when the file had not changed for
+two seconds before the check began, so a change within one timestamp tick cannot go unseen.
+
 Entries live in one pack file per configuration, read once and written once per run,
 atomically. A pack is a short header, a JSON *head* (the entries' data: what reports read)
 and a *body* of raw bytes (the entries' blobs: float64 matrices and the JSON texts of mode
@@ -20,6 +26,7 @@ import json
 import os
 import struct
 import tempfile
+import time
 import zlib
 from pathlib import Path
 from typing import Any
@@ -41,6 +48,15 @@ def _sha(data: bytes) -> str:
     return hashlib.sha256(data).hexdigest()
 
 
+#: A file changed this soon before a check began could change again within the same
+#: timestamp tick without its status showing it: its status is not recorded.
+_RACY_NS = 2_000_000_000
+
+
+def _signature(st: os.stat_result) -> list[int]:
+    return [st.st_size, st.st_mtime_ns, st.st_ctime_ns, st.st_ino]
+
+
 #: First bytes of a pack; then the sizes of head, index and body and a CRC-32 of all three
 #: (little-endian, 8+8+8+4 bytes).
 _MAGIC = b"eigengate result pack\n"
@@ -55,6 +71,7 @@ class Pack:
     def __init__(self, head: dict, index, body: memoryview) -> None:
         self.head, self._body = head, body
         self._index = index.tolist()  # one conversion; each blob read is then list lookups
+        self._shapes = [None if c < 0 else (r, c) for _, _, r, c in self._index]
 
     def blobs(self, first: Any, count: Any) -> "PackBlobs":
         """The blobs of one entry; ValueError when its span is not within the index."""
@@ -72,8 +89,8 @@ class Pack:
 
 
 class PackBlobs:
-    """The blobs of one cache entry, served from the body of its pack (the two reading
-    methods of :class:`eigengate._serial.Blobs`, plus ``shape``)."""
+    """The blobs of one cache entry, served from the body of its pack (the reading methods
+    of :class:`eigengate._serial.Blobs`)."""
 
     __slots__ = ("_pack", "_first", "_count")
 
@@ -85,10 +102,9 @@ class PackBlobs:
             raise ValueError(f"blob {i!r} is not one of the entry's {self._count}")
         return self._pack._index[self._first + i]
 
-    def shape(self, i: Any) -> tuple[int, int] | None:
-        """``(rows, columns)`` of an array blob, None for a text; ValueError for no blob."""
-        _, _, rows, cols = self._row(i)
-        return None if cols < 0 else (rows, cols)
+    def shapes(self) -> list[tuple[int, int] | None]:
+        """``(rows, columns)`` of each array blob, None for each text."""
+        return self._pack._shapes[self._first:self._first + self._count]
 
     def array(self, i: Any):
         import numpy as np
@@ -194,8 +210,12 @@ class ResultCache:
         self._pack = self.folder / f"v{FORMAT}" / f"{_sha(self._salt_bytes)[:24]}.pack"
         self._old: dict[str, Any] | None = None
         self._read: Pack | None = None
+        self._tables: dict[str, dict] = {"files": {}, "refs": {}}
         self._new: dict[str, tuple[dict, list]] = {}
         self._used: dict[str, None] = {}  # ordered: the pack keeps the scan's order
+        self._started = time.time_ns()
+        #: Status records to add: "files" (model file → key), "refs" (matrix file → hash).
+        self._noted: dict[str, dict[str, list]] = {"files": {}, "refs": {}}
 
     @property
     def pack_path(self) -> Path:
@@ -208,10 +228,39 @@ class ResultCache:
         out = {}
         for rel in refs:
             try:
-                out[rel] = _sha((self.root / rel).read_bytes())
+                path = self.root / rel
+                st = os.stat(path)
+                digest = self._recorded("refs", rel, st)
+                if digest is None:
+                    digest = _sha(path.read_bytes())
+                    self._note("refs", rel, st, digest)
+                out[rel] = digest
             except OSError:
                 return None
         return out
+
+    def _recorded(self, table: str, rel: str, st: os.stat_result) -> str | None:
+        self._entries()
+        row = self._noted[table].get(rel) or self._tables[table].get(rel)
+        if type(row) is list and len(row) == 5 and row[:4] == _signature(st) \
+                and type(row[4]) is str:
+            return row[4]
+        return None
+
+    def _note(self, table: str, rel: str, st: os.stat_result | None, value: str) -> None:
+        if st is not None and max(st.st_mtime_ns, st.st_ctime_ns) < self._started - _RACY_NS:
+            row = _signature(st) + [value]
+            self._entries()
+            if self._tables[table].get(rel) != row:  # only what is new makes a save
+                self._noted[table][rel] = row
+
+    def known_key(self, rel: str, st: os.stat_result) -> str | None:
+        """The key of model file ``rel`` when its status is the one recorded with it."""
+        return self._recorded("files", rel, st)
+
+    def note_key(self, rel: str, st: os.stat_result | None, key: str) -> None:
+        """Record the status of model file ``rel`` (taken before it was read) with its key."""
+        self._note("files", rel, st, key)
 
     def _entries(self) -> dict[str, Any]:
         if self._old is None:
@@ -221,6 +270,9 @@ class ResultCache:
                 entries = head.get("entries") if head.get("salt") == self._salt else None
                 if isinstance(entries, dict):
                     self._old, self._read = entries, pack
+                    for table in self._tables:
+                        rows = head.get(table)
+                        self._tables[table] = rows if isinstance(rows, dict) else {}
                 else:
                     self._old = {}
             except (OSError, ValueError):
@@ -261,7 +313,7 @@ class ResultCache:
     def save(self) -> None:
         """Write the pack atomically if anything new was made; failures are ignored (the
         cache is optional, and a half-written pack is never visible)."""
-        if not self._new:
+        if not self._new and not any(self._noted.values()):
             return
         old = self._entries()
         order = [k for k in self._used if k in old]
@@ -277,7 +329,13 @@ class ResultCache:
         for k, (entry, items) in self._new.items():
             entries[k] = dict(entry)
             blobs[k] = [_item_bytes(x) for x in items]
-        raw = write_pack({"salt": self._salt, "entries": entries}, blobs)
+        head: dict[str, Any] = {"salt": self._salt, "entries": entries}
+        refs = {h for e in entries.values() for h in (e.get("refs") or {}).values()}
+        for table, wanted in (("files", entries), ("refs", refs)):
+            rows = {**self._tables[table], **self._noted[table]}
+            head[table] = {rel: row for rel, row in rows.items()
+                           if type(row) is list and len(row) == 5 and row[4] in wanted}
+        raw = write_pack(head, blobs)
         try:
             self._ensure_folder()
             self._pack.parent.mkdir(parents=True, exist_ok=True)
@@ -288,6 +346,7 @@ class ResultCache:
         except OSError:
             return
         self._old, self._new = None, {}
+        self._noted = {"files": {}, "refs": {}}
 
     def _ensure_folder(self) -> None:
         if (self.folder / "CACHEDIR.TAG").is_file():

@@ -143,6 +143,8 @@ class Config:
         return tol
 
     def waivers_for(self, rel: str) -> tuple["Waiver", ...]:
+        if not self.waivers:
+            return ()
         from ._glob import glob_match as match
 
         return tuple(w for w in self.waivers if any(match(rel, p) for p in w.paths))

@@ -45,18 +45,16 @@ def mode_table(rows: Sequence[ModeRow], discrete: bool = False, indent: str = " 
         ev = format_eigenvalue(r.eigenvalue, r.pair)
         if r.multiplicity > 1:
             ev += f" ×{r.multiplicity}" + (" (defective)" if r.defective else "")
-        states = ", ".join(f"{n} {p:.2f}" for n, p in r.top_states)
+        states = ", ".join([f"{n} {p:.2f}" for n, p in r.top_states])
         row = [f"#{r.index}", ev, f"{r.damping_ratio:.3g}", _num(r.natural_frequency),
                _num(r.time_constant), states]
         if detail:
             row[5:5] = [f"{r.uncertainty:.2g}", f"{r.condition:.3g}"]
         body.append(row)
-    widths = [max(len(h), *(len(b[i]) for b in body)) if body else len(h)
-              for i, h in enumerate(head)]
-    lines = [indent + "  ".join(h.ljust(w) for h, w in zip(head, widths)).rstrip()]
-    for b in body:
-        lines.append(indent + "  ".join(c.ljust(w) for c, w in zip(b, widths)).rstrip())
-    return lines
+    # one format for every line: each column padded to its widest cell
+    line = indent + "  ".join(f"{{:<{max(map(len, column))}}}"
+                              for column in zip(head, *body))
+    return [line.format(*cells).rstrip() for cells in (head, *body)]
 
 
 def finding_lines(f: Finding, discrete: bool, color: bool = False) -> list[str]:

@@ -19,7 +19,8 @@ from pathlib import Path
 from typing import Callable, Sequence
 
 from .config import Config
-from .engine import FileResult, analyse_file, file_result, find_model_files, policy_findings
+from .discovery import find_model_files
+from .engine import FileResult, analyse_file, file_result, policy_findings
 from .findings import Finding
 
 __all__ = ["Scan", "scan", "default_jobs"]
@@ -107,8 +108,17 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named)
     from ._serial import Blobs, results_from_data, results_to_data
     from .cache import ResultCache
 
-    files = find_model_files(list(paths), config, filter_named=filter_named)
     cache = ResultCache(config.root, config.digest) if use_cache else None
+    known: dict[str, str] = {}  # files the cache knows unchanged: their keys
+
+    def knows(rel: str, st: os.stat_result) -> bool:
+        key = cache.known_key(rel, st)  # type: ignore[union-attr]
+        if key is not None:
+            known[rel] = key
+        return key is not None
+
+    files = find_model_files(list(paths), config, filter_named=filter_named,
+                             known=knows if cache is not None else None)
     slots: list[tuple | None] = [None] * len(files)
     todo: list[tuple[int, str, str | None]] = []
     hits = 0
@@ -116,14 +126,19 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named)
         files[i] = None  # type: ignore[call-overload]  # its bytes are not kept past here
         key = None
         if cache is not None:
-            content = f.content
-            if content is None:
-                try:
-                    content = f.path.read_bytes()
-                except OSError:
-                    content = None
-            if content is not None:
-                key = cache.key(f.rel, content)
+            key = known.get(f.rel)
+            if key is None:
+                content = f.content
+                if content is None:
+                    try:
+                        with open(f.path, "rb") as fh:
+                            content = fh.read()
+                    except OSError:
+                        content = None
+                if content is not None:
+                    key = cache.key(f.rel, content)
+                    cache.note_key(f.rel, f.stat, key)
+            if key is not None:
                 hit = cache.get(key)
                 if hit is not None:
                     try:
@@ -132,7 +147,7 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named)
                         continue
                     except (KeyError, TypeError, ValueError, IndexError):
                         pass  # a corrupt entry: analyse again and overwrite it
-        todo.append((i, str(f.path), key))
+        todo.append((i, f.path, key))
     done = hits
     total = len(slots)
     if progress:

@@ -1,0 +1,69 @@
+"""The result cache's record of file status: an unchanged repository is not read again, and
+no change slips through it."""
+
+import os
+
+import pytest
+from support import oscillator, write
+
+import eigengate.cache as cache_mod
+from eigengate.cache import read_pack
+from eigengate.config import load_config
+from eigengate.runner import scan
+
+
+@pytest.fixture
+def repo(tmp_path):
+    (tmp_path / ".git").mkdir()
+    write(tmp_path / "pyproject.toml", "[tool.eigengate.requirements]\nmin_damping = 0.3\n")
+    for name in ("arm", "mast", "wrist"):
+        write(tmp_path / "models" / f"{name}.yaml", oscillator(name, None))
+    return tmp_path
+
+
+def _recorded(repo):
+    (pack,) = (repo / ".eigengate-cache").rglob("*.pack")
+    return read_pack(pack.read_bytes()).head["files"]
+
+
+def test_unchanged_files_are_neither_read_nor_hashed_again(repo, monkeypatch):
+    monkeypatch.setattr(cache_mod, "_RACY_NS", 0)  # the files were written just now
+    config = load_config(start=repo)
+    first = scan([repo], config, jobs=1)
+    assert first.analysed == 3 and sorted(_recorded(repo)) == [
+        "models/arm.yaml", "models/mast.yaml", "models/wrist.yaml"]
+
+    def no_read(*args, **kwargs):
+        raise AssertionError(f"read a file the cache knows unchanged: {args[0]}")
+
+    monkeypatch.setattr("eigengate.discovery._sniff", no_read)
+    monkeypatch.setattr("eigengate.runner.open", no_read, raising=False)
+    again = scan([repo], config, jobs=1)
+    assert again.cache_hits == 3 and again.analysed == 0
+    assert [f.findings for f in again.files] == [f.findings for f in first.files]
+
+
+def test_a_file_rewritten_with_its_old_size_and_times_is_read_again(repo, monkeypatch):
+    monkeypatch.setattr(cache_mod, "_RACY_NS", 0)
+    config = load_config(start=repo)
+    scan([repo], config, jobs=1)
+    path = repo / "models" / "mast.yaml"
+    old, st = path.read_text(), path.stat()
+    # a damping term -0.4 -> -4.0: the same number of bytes; zeta = 4/(2*2) = 1 for
+    # x'' + 4 x' + 4 x (second-order standard form)
+    new = old.replace("-0.4", "-4.0")
+    assert new != old and len(new) == len(old)
+    path.write_text(new)
+    os.utime(path, ns=(st.st_atime_ns, st.st_mtime_ns))  # the change time still moves
+    again = scan([repo], config, jobs=1)
+    assert again.analysed == 1 and again.cache_hits == 2
+    mast = next(f for f in again.files if f.source.endswith("mast.yaml"))
+    assert mast.passed and mast.results[0].spectrum.min_damping == pytest.approx(1.0, abs=1e-6)
+
+
+def test_a_file_changed_just_before_the_check_is_read_but_its_status_not_recorded(repo):
+    config = load_config(start=repo)  # the files changed less than two seconds ago
+    first = scan([repo], config, jobs=1)
+    assert first.analysed == 3 and _recorded(repo) == {}
+    again = scan([repo], config, jobs=1)  # served from the cache by their bytes
+    assert again.cache_hits == 3 and again.analysed == 0
