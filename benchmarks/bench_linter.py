@@ -7,7 +7,10 @@
 * ``--jobs 2`` against ``--jobs 1`` (no cache): target ≥ 1.6× faster on 2 cores;
 * peak memory (resident set of this process and of the pool's workers): target < 300 MB.
 
-Each timing is the best of ``--repeat`` interleaved runs. Run:
+All five run back to back in each of ``--repeat`` rounds; each figure is the median of the
+per-round ratios, with their range (see bench_engine.ratio). The check is the one the
+command line runs (scan, then the text report), in this process, so the figures leave out
+the interpreter's start-up, which is measured apart. Run:
 ``python benchmarks/bench_linter.py [--files 2000]``.
 """
 
@@ -18,36 +21,32 @@ import resource
 import shutil
 import sys
 import tempfile
-import time
 from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 
-from bench_engine import generate, hand_loop  # noqa: E402
+from bench_engine import generate, hand_loop, ratio, rounds  # noqa: E402
 
 
-def timed(func):
-    t0 = time.perf_counter()
-    value = func()
-    return time.perf_counter() - t0, value
-
-
-def _peak_rss_mb(cmd: list[str]) -> float:
-    """Peak resident set size of a command, from its own rusage (MB)."""
+def _peak_rss_mb(cmd: list[str]) -> tuple[float, float]:
+    """Peak resident set size of a command, from its own rusage (MB), and its wall time (s)
+    from start to exit, interpreter start-up included."""
     import subprocess
 
-    code = ("import resource, subprocess, sys; subprocess.run(sys.argv[1:], "
-            "stdout=subprocess.DEVNULL); "
-            "print(resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss)")
+    code = ("import resource, subprocess, sys, time; t = time.perf_counter(); "
+            "subprocess.run(sys.argv[1:], stdout=subprocess.DEVNULL); "
+            "print(time.perf_counter() - t, "
+            "resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss)")
     out = subprocess.run([sys.executable, "-c", code, *cmd], capture_output=True, text=True,
                          check=True)
-    return int(out.stdout.strip()) / 1024
+    wall, rss = out.stdout.split()
+    return int(rss) / 1024, float(wall)
 
 
 def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--files", type=int, default=2000)
-    ap.add_argument("--repeat", type=int, default=3)
+    ap.add_argument("--repeat", type=int, default=5, help="rounds")
     args = ap.parse_args(argv)
 
     from eigengate.cli import render
@@ -71,19 +70,17 @@ def main(argv=None) -> int:
 
         hand_loop(paths[:20])
         check(1, False)
-        best = {"hand": 1e9, "cold": 1e9, "warm": 1e9, "j1": 1e9, "j2": 1e9}
-        for _ in range(args.repeat):
-            t, _ = timed(lambda: hand_loop(paths))
-            best["hand"] = min(best["hand"], t)
-            t, r_cold = timed(cold)
-            best["cold"] = min(best["cold"], t)
-            t, r_warm = timed(lambda: check(1, True))
-            best["warm"] = min(best["warm"], t)
-            assert r_warm.cache_hits == args.files, r_warm.cache_hits
-            t, r1 = timed(lambda: check(1, False))
-            best["j1"] = min(best["j1"], t)
-            t, r2 = timed(lambda: check(2, False))
-            best["j2"] = min(best["j2"], t)
+        hits: list[int] = []
+
+        def warm():
+            result = check(1, True)
+            hits.append(result.cache_hits)
+            return result
+
+        (t_hand, t_cold, t_warm, t_j1, t_j2), (_, _, _, r1, r2) = rounds(
+            args.repeat, lambda: hand_loop(paths), cold, warm, lambda: check(1, False),
+            lambda: check(2, False))
+        assert hits == [args.files] * args.repeat, hits
         same = [f.findings for f in r1.files] == [f.findings for f in r2.files]
         # Peak memory of the real command line, in a fresh process (cold, then warm).
         peaks = []
@@ -92,18 +89,20 @@ def main(argv=None) -> int:
                 shutil.rmtree(work / ".eigengate-cache", ignore_errors=True)
             peaks.append(_peak_rss_mb([sys.executable, "-m", "eigengate", "check", "-q",
                                        *extra, str(work)]))
-        peak_self, peak_warm, peak_kids = peaks
+        (peak_self, wall_cold), (peak_warm, wall_warm), (peak_kids, _) = peaks
         n = args.files
         print(f"{n} model files, 4-30 states")
-        print(f"cold check {best['cold']:.3f} s vs hand loop {best['hand']:.3f} s: "
-              f"ratio {best['cold'] / best['hand']:.2f}x (target <= 1.5x)")
-        print(f"warm re-check {best['warm']:.3f} s: {best['cold'] / best['warm']:.1f}x faster "
-              f"than cold (target >= 20x)")
-        print(f"--jobs 2 {best['j2']:.3f} s vs --jobs 1 {best['j1']:.3f} s: "
-              f"{best['j1'] / best['j2']:.2f}x faster (target >= 1.6x); same findings: {same}")
+        print(f"cold check {min(t_cold):.3f} s vs hand loop {min(t_hand):.3f} s (best): "
+              f"ratio {ratio(t_cold, t_hand)} (target <= 1.5x)")
+        print(f"warm re-check {min(t_warm):.3f} s (best): {ratio(t_cold, t_warm)} faster than "
+              f"cold (target >= 20x)")
+        print(f"--jobs 2 {min(t_j2):.3f} s vs --jobs 1 {min(t_j1):.3f} s (best): "
+              f"{ratio(t_j1, t_j2)} faster (target >= 1.6x); same findings: {same}")
         print(f"peak memory of `eigengate check` on {n} files: {peak_self:.0f} MB cold, "
               f"{peak_warm:.0f} MB warm, {peak_kids:.0f} MB in the main process with --jobs 2 "
               f"(target < 300 MB)")
+        print(f"end to end, a fresh `eigengate check -q --jobs 1` (interpreter start-up "
+              f"included, one run each): cold {wall_cold:.2f} s, warm {wall_warm:.2f} s")
     finally:
         shutil.rmtree(work, ignore_errors=True)
     return 0

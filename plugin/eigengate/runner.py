@@ -48,6 +48,8 @@ class Scan:
 
 
 def default_jobs() -> int:
+    """The number of cores this process may use: the default number of analysing
+    processes (this one and its workers)."""
     try:
         return max(1, len(os.sched_getaffinity(0)))
     except AttributeError:  # pragma: no cover - not on Linux
@@ -61,6 +63,10 @@ _WORKER: dict = {}
 
 def _init_worker(config: Config) -> None:
     _WORKER["config"] = config
+    # As in the parent's scan (see _gc_paused), the cyclic collector stays off while the
+    # worker analyses; what it imported is moved out of the collector's sight for good.
+    gc.freeze()
+    gc.disable()
 
 
 def _work(path: str) -> tuple[dict, list, list[str], bool]:
@@ -191,12 +197,12 @@ def _chunk_work(paths: list[str]) -> list[tuple[dict, list, list[str], bool]]:
 
 
 def _pool_run(todo, config: Config, jobs: int, local, remote, step) -> None:
-    """Analyse ``todo`` with ``jobs`` worker processes, the parent taking part too.
+    """Analyse ``todo`` in ``jobs`` processes: ``jobs - 1`` workers and this one.
 
-    Chunks go to the workers from the front of the list; until the first of them comes back,
-    the parent analyses chunks from the back itself, so the time the workers need to start
-    (their imports) is not lost. After that the parent only collects, so it never competes
-    with the workers for the cores.
+    Workers take chunks from the front of the list, this process from the back, between
+    collecting what the workers send; so it analyses while the workers start (their
+    imports), and there are never more busy processes than jobs. Chunks get smaller as the
+    two ends meet, so everyone finishes at about the same time.
     """
     import multiprocessing as mp
     from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
@@ -207,32 +213,34 @@ def _pool_run(todo, config: Config, jobs: int, local, remote, step) -> None:
         # Import the heavy modules once in the server; every worker forks from it ready.
         ctx.set_forkserver_preload(["eigengate.engine", "eigengate.modes", "eigengate.loader",
                                     "numpy", "scipy.linalg", "yaml"])
-    size = max(1, min(32, len(todo) // (jobs * 8)))
-    chunks = [todo[k:k + size] for k in range(0, len(todo), size)]
-    front, back = 0, len(chunks)
-    with ProcessPoolExecutor(max_workers=jobs, mp_context=ctx, initializer=_init_worker,
+    workers = jobs - 1
+    front, back = 0, len(todo)
+
+    def take() -> int:  # a quarter of each process's share of what is left, 4 to 32 files
+        return min(back - front, max(4, min(32, (back - front) // (4 * jobs))))
+
+    with ProcessPoolExecutor(max_workers=workers, mp_context=ctx, initializer=_init_worker,
                              initargs=(config,)) as pool:
         running: dict = {}
-        warm = False  # once a worker has delivered, the parent only collects
         while front < back or running:
-            while front < back and len(running) < 2 * jobs:
-                items = chunks[front]
+            while front < back and len(running) < 3 * workers:
+                n = take()
+                items = todo[front:front + n]
+                front += n
                 running[pool.submit(_chunk_work, [p for _, p, _ in items])] = items
-                front += 1
-            finished, _ = wait(list(running), timeout=0, return_when=FIRST_COMPLETED)
-            warm = warm or bool(finished)
-            if not finished and not warm and front < back:
-                back -= 1  # the workers are still starting: take a chunk ourselves
-                for item in chunks[back]:
-                    local(item)
-                step(len(chunks[back]))
-                continue
-            if not finished:
-                finished, _ = wait(list(running), return_when=FIRST_COMPLETED)
+            finished = [f for f in running if f.done()]
             for future in finished:
                 items = running.pop(future)
                 remote(items, future.result())
                 step(len(items))
+            if front < back:  # a few files at a time, to be back soon to keep the workers fed
+                n = min(4, back - front)
+                back -= n
+                for item in todo[back:back + n]:
+                    local(item)
+                step(n)
+            elif running and not finished:
+                wait(list(running), return_when=FIRST_COMPLETED)
 
 
 def terminal_progress(stream=None) -> Callable[[int, int], None] | None:
