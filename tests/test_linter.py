@@ -1,7 +1,6 @@
 """The linter end to end as a real subprocess on temporary repositories: policy, waivers,
 cache, process pool, commands."""
 
-import json
 import textwrap
 
 import numpy as np

@@ -11,21 +11,18 @@ entry.
 
 from __future__ import annotations
 
-import dataclasses
-import datetime as _dt
 import functools
 import json
 from collections.abc import Sequence
-from typing import Any
 
 import numpy as np
 
-from . import requirements as _requirements
 from .engine import ModelResult
 from .equilibrium import Equilibrium
 from .errors import ModelError
 from .findings import Finding, ModeRow
 from .known_modes import KnownMode
+from ._records import record, requirement_classes, unrecord
 from .model import Model
 from .modes import Mode, Spectrum
 from .rules import Verdict
@@ -69,103 +66,6 @@ class Blobs:
         if not isinstance(text, str):
             raise ValueError(f"blob {i} is not a text")
         return json.loads(text)
-
-
-# ------------------------------------------------------------------ small records
-
-@functools.lru_cache(maxsize=None)
-def _req_classes() -> dict[str, type]:
-    from . import loop_requirements as lr
-
-    r = _requirements
-    return {c.__name__: c for c in (r.Stability, r.MinDecayRate, r.MinDamping, r.MaxFrequency,
-                                     r.PoleRegion, r.EquilibriumType, r.NoSaddle,
-                                     r.DirectionCounts, lr.MinGainMargin, lr.MinPhaseMargin,
-                                     lr.MinDelayMargin, lr.MaxSensitivityPeak, lr.MinDiskMargin,
-                                     lr.NoSaddleInBox, lr.EquilibriumAt, lr.EquilibriumCount,
-                                     lr.EquilibriaStable)}
-
-
-#: Fields that need more than JSON's own types, per class: c complex, c? complex or None,
-#: d? date or None, t tuple, t2 tuple of tuples, skip (filled in by the caller).
-_SPECIAL = {
-    "ModeRow": {"eigenvalue": "c", "s": "c", "top_states": "t2"},
-    "KnownMode": {"eigenvalue": "c?", "states": "t"},
-    "Waiver": {"expires": "d?", "paths": "t"},
-    "Finding": {"modes": "skip", "before": "t"},  # before: () for every cached finding
-    "Verdict": {"offending": "skip"},
-}
-
-
-def _complex_or_none(v) -> complex | None:
-    return None if v is None else complex(float(v[0]), float(v[1]))
-
-
-def _date_or_none(v):
-    return None if v is None else _dt.date.fromisoformat(v)
-
-
-def _tuple2(v) -> tuple:
-    return tuple(tuple(x) for x in v)
-
-
-_SKIP = object()
-#: How each special kind is read back.
-_DECODE = {"c": _complex_or_none, "c?": _complex_or_none, "d?": _date_or_none, "t": tuple,
-           "t2": _tuple2, "skip": _SKIP}
-
-
-@functools.lru_cache(maxsize=None)
-def _codec(cls) -> tuple[tuple[str, ...], tuple[str | None, ...], bool, tuple]:
-    """Field names, their special kinds, whether there are none, and the decoders of the
-    special fields as ``(position, decoder)``."""
-    names = tuple(f.name for f in dataclasses.fields(cls))
-    special = _SPECIAL.get(cls.__name__, {})
-    kinds = tuple(special.get(n) for n in names)
-    decoders = tuple((i, _DECODE[k]) for i, k in enumerate(kinds) if k is not None)
-    return names, kinds, not special, decoders
-
-
-def _record(obj) -> list:
-    """A dataclass as a list of its field values in field order (positional: compact and
-    fast to rebuild)."""
-    names, kinds, plain, _ = _codec(type(obj))
-    if plain:
-        return [getattr(obj, n) for n in names]
-    out = []
-    for n, k in zip(names, kinds):
-        v = getattr(obj, n)
-        if k is None:
-            out.append(v)
-        elif k == "skip":
-            out.append(None)
-        elif k in ("c", "c?"):
-            out.append(None if v is None else [v.real, v.imag])
-        elif k == "d?":
-            out.append(None if v is None else v.isoformat())
-        elif k == "t":
-            out.append(list(v))
-        else:  # t2
-            out.append([list(x) for x in v])
-    return out
-
-
-def _unrecord(cls, values: list, **given):
-    """Rebuild a dataclass from :func:`_record` data; ``given`` fields are taken as they are.
-
-    The instance is filled in directly rather than through the frozen ``__init__`` (which sets
-    each field with ``object.__setattr__``): the values were the fields of such an instance
-    when they were written, and none of these classes has a ``__post_init__``."""
-    names, _, plain, decoders = _codec(cls)
-    if len(values) != len(names):
-        raise ValueError(f"{cls.__name__} record has {len(values)} fields, not {len(names)}")
-    if not plain:
-        values = list(values)
-        for i, decode in decoders:
-            values[i] = given[names[i]] if decode is _SKIP else decode(values[i])
-    obj = object.__new__(cls)
-    obj.__dict__.update(zip(names, values))
-    return obj
 
 
 # ------------------------------------------------------------------ modes, lazily
@@ -287,12 +187,12 @@ def _blob_field(name: str, kind: str):
 
 
 def _requirements_of(records: list) -> tuple:
-    classes = _req_classes()
-    return tuple(_unrecord(classes[k], v) for k, v in records)
+    classes = requirement_classes()
+    return tuple(unrecord(classes[k], v) for k, v in records)
 
 
 def _known_modes_of(records: list) -> tuple:
-    return tuple(_unrecord(KnownMode, k) for k in records)
+    return tuple(unrecord(KnownMode, k) for k in records)
 
 
 def _record_field(name: str, decode):
@@ -321,7 +221,7 @@ class CachedModel(Model):
 
 
 def _model_data(m, blobs: Blobs) -> dict:
-    classes = _req_classes()
+    classes = requirement_classes()
     for r in m.requirements:
         if type(r).__name__ not in classes:  # pragma: no cover - a new class not listed
             raise TypeError(f"cannot cache requirement {type(r).__name__}")
@@ -331,9 +231,9 @@ def _model_data(m, blobs: Blobs) -> dict:
         "sample_period": m.sample_period, "states": list(m.states), "inputs": list(m.inputs),
         "outputs": list(m.outputs), "on_uncertain": m.on_uncertain,
         "disabled": list(m.disabled), "lines": blobs.put_json(dict(m.lines)),
-        "requirements": [[type(r).__name__, _record(r)] for r in m.requirements],
-        "known_modes": [_record(k) for k in m.known_modes],
-        "waivers": [_record(w) for w in m.waivers],
+        "requirements": [[type(r).__name__, record(r)] for r in m.requirements],
+        "known_modes": [record(k) for k in m.known_modes],
+        "waivers": [record(w) for w in m.waivers],
         "allowed_drift": m.allowed_drift,
         "nonlinear": _field_data(m.nonlinear),
     })
@@ -353,7 +253,7 @@ def _field_data(info) -> dict | None:
         "box": None if info.box is None else [list(info.box[0]), list(info.box[1]),
                                               list(info.box[2]), info.box[3], info.box[4]],
         "search": None if search is None else {
-            "equilibria": [[list(e.x), e.residual, _record(e.equilibrium),
+            "equilibria": [[list(e.x), e.residual, record(e.equilibrium),
                             [[z.real, z.imag] for z in e.eigenvalues]]
                            for e in search.equilibria],
             "counts": [search.starts, search.converged, search.failed, search.outside],
@@ -368,7 +268,7 @@ def _field_from(d: dict | None):
 
     shared = {}
     if d["search"] is not None:
-        found = tuple(FoundEquilibrium(tuple(x), residual, _unrecord(Equilibrium, eq),
+        found = tuple(FoundEquilibrium(tuple(x), residual, unrecord(Equilibrium, eq),
                                        tuple(complex(float(a), float(b)) for a, b in ev))
                       for x, residual, eq, ev in d["search"]["equilibria"])
         starts, converged, failed, outside = d["search"]["counts"]
@@ -404,7 +304,7 @@ def _shape(shapes: list, index) -> tuple[int, int] | None:
 
 
 def _model_from(d: dict, blobs, shapes: list) -> CachedModel:
-    classes = _req_classes()
+    classes = requirement_classes()
     if not all(type(r) is list and len(r) == 2 and r[0] in classes for r in d["requirements"]) \
             or type(d["known_modes"]) is not list:
         raise ValueError("model requirements are not records of known classes")
@@ -429,7 +329,7 @@ def _model_from(d: dict, blobs, shapes: list) -> CachedModel:
         states=tuple(d["states"]), inputs=tuple(d["inputs"]), outputs=tuple(d["outputs"]),
         on_uncertain=d["on_uncertain"], disabled=tuple(d["disabled"]),
         _records={"requirements": d["requirements"], "known_modes": d["known_modes"]},
-        waivers=tuple(_unrecord(Waiver, w) for w in d["waivers"]),
+        waivers=tuple(unrecord(Waiver, w) for w in d["waivers"]),
         allowed_drift=d["allowed_drift"], loop_parts=None,
         nonlinear=_field_from(d["nonlinear"]))
     return m
@@ -462,9 +362,9 @@ def _findings_data(findings, states: tuple[str, ...], blobs: Blobs) -> tuple[lis
     for f in findings:
         rows = [_row_values(r, position) for r in f.modes]
         if any(r is None for r in rows):
-            out.append({"f": _record(f), "modes": [_record(r) for r in f.modes]})
+            out.append({"f": record(f), "modes": [record(r) for r in f.modes]})
         else:
-            out.append({"f": _record(f), "rows": [len(table), len(rows)]})
+            out.append({"f": record(f), "rows": [len(table), len(rows)]})
             table.extend(rows)  # type: ignore[arg-type]
     if not table:
         return out, None
@@ -497,19 +397,19 @@ def _findings_from(items: list, table: int | None, states: tuple[str, ...], blob
                 raise ValueError("finding mode rows outside their table")
             modes = tuple(_row_of(r, states) for r in rows[first:first + count])
         else:
-            modes = tuple(_unrecord(ModeRow, r) for r in d["modes"])
-        out.append(_unrecord(Finding, d["f"], modes=modes))
+            modes = tuple(unrecord(ModeRow, r) for r in d["modes"])
+        out.append(unrecord(Finding, d["f"], modes=modes))
     return tuple(out)
 
 
 def _verdict_data(v) -> dict:
-    return {"v": _record(v), "offending": [m.index - 1 for m in v.offending]}
+    return {"v": record(v), "offending": [m.index - 1 for m in v.offending]}
 
 
 def _result_data(r, blobs: Blobs) -> dict:
     findings, rows = _findings_data(r.findings, r.model.states, blobs)
     return {"model": _model_data(r.model, blobs), "spectrum": _spectrum_data(r.spectrum, blobs),
-            "equilibrium": _record(r.equilibrium),
+            "equilibrium": record(r.equilibrium),
             "verdicts": [_verdict_data(v) for v in r.verdicts],
             "findings": findings, "rows": rows}
 
@@ -517,10 +417,10 @@ def _result_data(r, blobs: Blobs) -> dict:
 def _result_from(d: dict, blobs, shapes: list):
     model = _model_from(d["model"], blobs, shapes)
     spectrum = CachedSpectrum(model, d["spectrum"], blobs, shapes)
-    verdicts = [_unrecord(Verdict, v["v"], offending=spectrum.modes.subset(v["offending"]))
+    verdicts = [unrecord(Verdict, v["v"], offending=spectrum.modes.subset(v["offending"]))
                 for v in d["verdicts"]]
     return ModelResult(model=model, spectrum=spectrum,
-                       equilibrium=_unrecord(Equilibrium, d["equilibrium"]),
+                       equilibrium=unrecord(Equilibrium, d["equilibrium"]),
                        verdicts=tuple(verdicts),
                        findings=_findings_from(d["findings"], d["rows"], model.states, blobs))
 

@@ -266,8 +266,7 @@ def _check(args) -> int:
     failed = result.failed
     poles = None
     if not args.no_baseline:
-        from .baseline_check import (accept_command, compare_files, reference_baseline,
-                                     with_regressions)
+        from .baseline_check import accept_command, compare_files, with_regressions
 
         baseline = _reference(config, args.against)
         if baseline is not None:

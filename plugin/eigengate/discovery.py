@@ -10,9 +10,8 @@ folder, and a file read to tell whether it is a model file is kept for the cache
 from __future__ import annotations
 
 import os
-from dataclasses import dataclass
 from pathlib import Path
-from typing import TYPE_CHECKING, Callable, Sequence
+from typing import TYPE_CHECKING, Callable, NamedTuple, Sequence
 
 from .engine import MODEL_SUFFIXES
 
@@ -27,8 +26,7 @@ _SNIFF_BYTES = 65536
 _KEEP_BYTES = 1 << 18
 
 
-@dataclass(frozen=True, eq=False)
-class FoundFile:
+class FoundFile(NamedTuple):
     """A discovered model file: its path (as found), its path relative to the configuration's
     root after resolving links (what include and exclude globs match, and a stable identity
     for the cache), its bytes when discovery read them whole, and its status (``os.stat``,
@@ -76,7 +74,7 @@ def find_model_files(paths: Sequence[str | Path], config: "Config | None" = None
             full = os.fspath(p)
             rel = _rel(os.path.realpath(full), root)
             if filter_named:
-                found = _select(full, rel, config, known, None)
+                found = _select(full, os.path.basename(full), rel, config, known, None)
                 if found is not None:
                     out.append(found)
             else:
@@ -109,7 +107,7 @@ def find_model_files(paths: Sequence[str | Path], config: "Config | None" = None
                         rel = e.name if real_folder == "." else f"{real_folder}/{e.name}"
                 except OSError:
                     continue
-                found = _select(e.path, rel, config, known, e)
+                found = _select(e.path, e.name, rel, config, known, e)
                 if found is not None:
                     below.append(found)
         below.sort(key=lambda f: f.path)
@@ -128,9 +126,10 @@ def _stat(path: str, entry: os.DirEntry | None = None) -> os.stat_result | None:
         return None
 
 
-def _select(full: str, rel: str, config: "Config | None", known, entry) -> FoundFile | None:
-    name = os.path.basename(full)
-    if name == "pyproject.toml" or os.path.splitext(name)[1] not in MODEL_SUFFIXES:
+def _select(full: str, name: str, rel: str, config: "Config | None", known, entry
+            ) -> FoundFile | None:
+    if name == "pyproject.toml" or name[name.rfind("."):] not in MODEL_SUFFIXES \
+            or "." not in name[1:]:
         return None
     if config is not None and not config.is_model_path(rel):
         return None

@@ -188,15 +188,13 @@ def _decompose(model: Model):
         norm_a = np.linalg.norm(A, 1)
         balanced = False
         work = A
-        scale = None
         if n > 1 and norm_a > 0:
-            bal, (sc, _perm) = la.matrix_balance(A, permute=False, separate=True)
+            bal, _ = la.matrix_balance(A, permute=False, separate=True)
             if np.linalg.norm(bal, 1) < 0.9 * norm_a:
-                work, scale, balanced = bal, sc, True
+                work, balanced = bal, True
         lam, vl, vr = la.eig(work, left=True, right=True, check_finite=False)
         # Participation factors are invariant under diagonal scaling, and the error bounds
         # belong to the matrix LAPACK actually saw, so everything stays in balanced coordinates.
-        del scale
         return lam, vr, vl, vl, float(np.linalg.norm(work, "fro")), 0, balanced
     norm_a = float(np.linalg.norm(A, "fro"))
     norm_e = float(np.linalg.norm(E, "fro"))
