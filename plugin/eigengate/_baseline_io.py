@@ -16,7 +16,7 @@ import re
 import tempfile
 import time
 from pathlib import Path
-from typing import TYPE_CHECKING, Any, Iterable, Iterator
+from typing import TYPE_CHECKING, Any, Iterable, Iterator, Mapping
 
 from ._formats import DuplicateKey, unique_pairs
 
@@ -172,6 +172,7 @@ class _Reader:
 
     def __init__(self, text: str, path: str) -> None:
         self.text, self.path = text, path
+        self.data: Any = None
         self._lines: dict[tuple, int] | None = None
 
     def line(self, where: tuple) -> int | None:
@@ -207,6 +208,11 @@ class _Reader:
         return v
 
     def num(self, v: Any, where: tuple, *, integer: bool = False) -> Any:
+        kind = type(v)  # the common cases first: a large baseline holds many numbers
+        if kind is float and not integer:
+            return v
+        if kind is int:
+            return v if integer else float(v)
         if isinstance(v, str) and v in ("inf", "-inf", "nan") and not integer:
             return float(v)
         if isinstance(v, bool) or not isinstance(v, int if integer else (int, float)):
@@ -230,8 +236,9 @@ def _kind(v: Any) -> str:
             int: "a number", float: "a number", type(None): "null"}.get(type(v), "a value")
 
 
-def parse(text: str, path: str) -> tuple[list["Entry"], dict[tuple[str, str], int]]:
-    """Entries of a baseline file and the line of each; raises :class:`BaselineError`."""
+def parse(text: str, path: str) -> tuple[list["Entry"], Mapping[tuple[str, str], int]]:
+    """Entries of a baseline file and the line of each (found when asked for); raises
+    :class:`BaselineError`."""
     from .baseline import BaselineMode, Entry
     from .equilibrium import EQUILIBRIUM_TYPES
 
@@ -265,7 +272,8 @@ def parse(text: str, path: str) -> tuple[list["Entry"], dict[tuple[str, str], in
     models = data["models"]
     if not isinstance(models, dict):
         raise r.fail(("models",), f"must be an object of model files, got {_kind(models)}")
-    entries, lines = [], {}
+    r.data = data
+    entries = []
     for source, titles in models.items():
         w = ("models", source)
         if not isinstance(titles, dict) or not titles:
@@ -315,8 +323,29 @@ def parse(text: str, path: str) -> tuple[list["Entry"], dict[tuple[str, str], in
                                      + ", ".join(EQUILIBRIUM_TYPES) + ")"),
                 **{k: r.num(fig[k], wf + (k,), integer=True) for k in FIGURES[4:]},
                 written_by=e["written_by"]))
-            lines[(source, title)] = r.line(we) or 1
-    return entries, lines
+    return entries, _EntryLines(r)
+
+
+class _EntryLines(Mapping):
+    """The line of each entry, found when first asked for: finding every line of a large
+    baseline costs more than reading it."""
+
+    def __init__(self, reader: _Reader) -> None:
+        self._reader = reader
+
+    def __getitem__(self, key: tuple[str, str]) -> int:
+        source, title = key
+        models = self._reader.data["models"]
+        if source not in models or title not in models[source]:
+            raise KeyError(key)
+        return self._reader.line(("models", source, title)) or 1
+
+    def __iter__(self):
+        models = self._reader.data["models"]
+        return iter([(s, t) for s, titles in models.items() for t in titles])
+
+    def __len__(self) -> int:
+        return sum(len(titles) for titles in self._reader.data["models"].values())
 
 
 # ------------------------------------------------------------------ folder and lock

@@ -199,7 +199,7 @@ class Baseline:
                  lines: Mapping[Key, int] | None = None) -> None:
         self._entries: dict[Key, Entry] = {e.key: e for e in entries}
         self.path = path
-        self._lines = dict(lines or {})
+        self._lines: Mapping[Key, int] = lines if lines is not None else {}
 
     @classmethod
     def load(cls, path: str | os.PathLike[str]) -> "Baseline":

@@ -65,7 +65,8 @@ def _parser() -> argparse.ArgumentParser:
                        help="write PNG and SVG pole maps of every model with findings into DIR "
                             "(needs the report extra: pip install \"eigengate[report]\")")
     check.add_argument("--jobs", "-j", type=int, default=None, metavar="N",
-                       help="worker processes (default: the number of cores)")
+                       help="processes that analyse at once, this one included "
+                            "(default: the number of cores)")
     check.add_argument("--no-cache", action="store_true",
                        help="neither read nor write the result cache")
     check.add_argument("--color", choices=("auto", "always", "never"), default="auto",
@@ -96,7 +97,8 @@ def _parser() -> argparse.ArgumentParser:
                         help="model files or folders (default: the repository root)")
     _config_arg(accept)
     accept.add_argument("--jobs", "-j", type=int, default=None, metavar="N",
-                        help="worker processes (default: the number of cores)")
+                        help="processes that analyse at once, this one included "
+                             "(default: the number of cores)")
 
     show = sub.add_parser("show", help="show one model: modes, equilibrium and every verdict")
     show.add_argument("path", metavar="FILE", help="a model file")

@@ -74,6 +74,22 @@ def scaled_distance(s1: complex, s2: complex, floor: float) -> float:
     return abs(s1 - s2) / max(abs(s1), abs(s2), floor)
 
 
+def _distances(before, after, floor: float):
+    """:func:`scaled_distance` of every pair, as a matrix (before × after), to the last bit:
+    magnitudes through ``hypot``, as Python's ``abs`` of a complex number takes them (numpy's
+    complex ``abs`` can differ in the last bit, which decides exact ties)."""
+    import numpy as np
+
+    def size(z):
+        return np.hypot(z.real, z.imag)
+
+    b, a = before[:, None], after[None, :]
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        dist = size(b - a) / np.maximum(np.maximum(size(b), size(a)), floor)
+    dist = np.where(np.isfinite(size(b)) & np.isfinite(size(a)), dist, np.inf)
+    return np.where(b == a, 0.0, dist)
+
+
 def _units(modes: Sequence[Any]) -> list[tuple[int, complex]]:
     out: list[tuple[int, complex]] = []
     for i, m in enumerate(modes):
@@ -113,7 +129,7 @@ def match_modes(before: Sequence[Any], after: Sequence[Any], *, gate: float = DE
     gone: dict[int, int] = {}
     new: dict[int, int] = {}
     if n and m:
-        dist = np.array([[scaled_distance(sb, sa, floor) for _, sa in au] for _, sb in bu])
+        dist = _distances(np.array([s for _, s in bu]), np.array([s for _, s in au]), floor)
         # Augmented square problem: column m+i leaves before-unit i unmatched, row n+j leaves
         # after-unit j unmatched (gate/2 each), and the dummy-dummy block costs nothing.
         cost = np.full((n + m, m + n), np.inf)

@@ -244,10 +244,17 @@ class _Judge:
                    for f in self.findings)
 
 
+def _rows(mt: "Match") -> dict[str, tuple[ModeRow, ...]]:
+    """A matched mode as a finding shows it, after and before (built only when reported)."""
+    return dict(after=(ModeRow.of(mt.after),), before=(mt.before.row(mt.before_index + 1),))
+
+
 def _figure(j: _Judge, mt: "Match", rule: str, what: str, b: float, a: float, tol: Tolerance,
             unit: str) -> None:
     verdict = tol.judge(b, a)
-    rows = dict(after=(ModeRow.of(mt.after),), before=(mt.before.row(mt.before_index + 1),))
+    if verdict not in ("worse", "better"):
+        return
+    rows = _rows(mt)
     text = f"mode {_ev(mt.before)} → {_ev(mt.after)}: {what} {_change(b, a, tol, unit)}"
     if verdict == "worse":
         margin = tol.allowed(b) - abs(a - b)
@@ -310,14 +317,14 @@ def compare(result: Any, entry: "Entry | None", tolerances: Tolerances | None = 
                       after=(ModeRow.of(a),))
             continue
         sb, sa = _side(b), _side(a)
-        rows = dict(after=(ModeRow.of(a),), before=(b.row(mt.before_index + 1),))
         if sb <= 0 and sa > 0:
             j.add("EG201", f"mode {_ev(b)} → {_ev(a)} crossed into instability: decay rate "
                   + _change(b.decay_rate, a.decay_rate, tol.decay_rate, "1/s"),
-                  measured=a.decay_rate, threshold=b.decay_rate, margin=a.decay_rate, **rows)
+                  measured=a.decay_rate, threshold=b.decay_rate, margin=a.decay_rate,
+                  **_rows(mt))
             continue
         if sb > 0 and sa < 0:
-            j.improve("stability", f"mode {_ev(b)} → {_ev(a)} is stable now", **rows)
+            j.improve("stability", f"mode {_ev(b)} → {_ev(a)} is stable now", **_rows(mt))
         _figure(j, mt, "EG202", "decay rate", b.decay_rate, a.decay_rate, tol.decay_rate,
                 "1/s")
         if b.oscillatory or a.oscillatory:

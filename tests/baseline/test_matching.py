@@ -208,3 +208,24 @@ def test_assignment_is_optimal_against_brute_force(before, after, gate):
     assert sum(m.count for m in got if m.after is not None) == len(after)
     assert total(before, after, got, gate) == pytest.approx(brute_force(before, after, gate),
                                                             abs=1e-9)
+
+
+_finite = st.floats(-1e6, 1e6, allow_nan=False)
+_eigenvalue = st.one_of(st.builds(complex, _finite, _finite), st.sampled_from(
+    [0j, complex(-2.0, 0.0), complex(math.inf, 0.0), complex(-math.inf, 0.0)]))
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.lists(_eigenvalue, min_size=1, max_size=8), st.lists(_eigenvalue, min_size=1,
+                                                              max_size=8),
+       st.floats(1e-300, 10.0))
+def test_the_distance_matrix_is_the_scalar_distance_to_the_last_bit(before, after, floor):
+    # Exact ties decide assignments, so the matrix used for matching must agree bit for bit
+    # with scaled_distance (Python's abs of a complex number is hypot of its parts).
+    from eigengate.matching import _distances
+
+    matrix = _distances(np.array(before), np.array(after), floor)
+    for i, b in enumerate(before):
+        for j, a in enumerate(after):
+            assert matrix[i, j] == scaled_distance(b, a, floor) or (
+                math.isnan(matrix[i, j]) and math.isnan(scaled_distance(b, a, floor)))
