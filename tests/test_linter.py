@@ -264,3 +264,25 @@ def test_every_report_from_the_cache_has_the_same_bytes_as_from_a_fresh_analysis
             _assert_same_model(ra.model, rb.model)
             for ma, mb in zip(ra.spectrum.modes, rb.spectrum.modes, strict=True):
                 assert ma.describe() == mb.describe() and ma.top_states() == mb.top_states()
+
+
+def test_a_text_report_from_the_cache_reads_no_matrix_and_builds_no_mode(tmp_path):
+    # What keeps a warm re-check fast: the text report reads only the head of each entry.
+    import shutil
+    from pathlib import Path
+
+    from eigengate.cli import render
+    from eigengate.config import load_config
+    from eigengate.runner import scan
+
+    repo = tmp_path / "repo"
+    shutil.copytree(Path(__file__).resolve().parents[1] / "example_repo", repo,
+                    ignore=shutil.ignore_patterns(".eigengate-cache", "__pycache__"))
+    config = load_config(start=repo)
+    scan([repo], config, jobs=1)
+    warm = scan([repo], config, jobs=1)
+    assert warm.analysed == 0
+    render("text", list(warm.files))
+    results = [r for f in warm.files for r in f.results]
+    assert results and not any("A" in r.model.__dict__ or r.spectrum.modes._built is not None
+                               for r in results)
