@@ -172,7 +172,6 @@ class _Reader:
 
     def __init__(self, text: str, path: str) -> None:
         self.text, self.path = text, path
-        self.data: Any = None
         self._lines: dict[tuple, int] | None = None
 
     def line(self, where: tuple) -> int | None:
@@ -272,7 +271,6 @@ def parse(text: str, path: str) -> tuple[list["Entry"], Mapping[tuple[str, str],
     models = data["models"]
     if not isinstance(models, dict):
         raise r.fail(("models",), f"must be an object of model files, got {_kind(models)}")
-    r.data = data
     entries = []
     for source, titles in models.items():
         w = ("models", source)
@@ -323,29 +321,26 @@ def parse(text: str, path: str) -> tuple[list["Entry"], Mapping[tuple[str, str],
                                      + ", ".join(EQUILIBRIUM_TYPES) + ")"),
                 **{k: r.num(fig[k], wf + (k,), integer=True) for k in FIGURES[4:]},
                 written_by=e["written_by"]))
-    return entries, _EntryLines(r)
+    return entries, _EntryLines(r, [e.key for e in entries])
 
 
 class _EntryLines(Mapping):
     """The line of each entry, found when first asked for: finding every line of a large
     baseline costs more than reading it."""
 
-    def __init__(self, reader: _Reader) -> None:
-        self._reader = reader
+    def __init__(self, reader: _Reader, keys: list[tuple[str, str]]) -> None:
+        self._reader, self._keys = reader, dict.fromkeys(keys)
 
     def __getitem__(self, key: tuple[str, str]) -> int:
-        source, title = key
-        models = self._reader.data["models"]
-        if source not in models or title not in models[source]:
+        if key not in self._keys:
             raise KeyError(key)
-        return self._reader.line(("models", source, title)) or 1
+        return self._reader.line(("models", *key)) or 1
 
     def __iter__(self):
-        models = self._reader.data["models"]
-        return iter([(s, t) for s, titles in models.items() for t in titles])
+        return iter(self._keys)
 
     def __len__(self) -> int:
-        return sum(len(titles) for titles in self._reader.data["models"].values())
+        return len(self._keys)
 
 
 # ------------------------------------------------------------------ folder and lock

@@ -100,10 +100,8 @@ class _LazyModes(Sequence):
                 every = self._source._all()
                 self._built = tuple(every[i] for i in self._pick)
             else:
-                part = self._blobs.array(self._part)
+                part = self._blobs.array(self._part)  # shapes checked by CachedSpectrum
                 rows = self._blobs.array(self._rows)
-                if rows.shape[1:] != (_MODE_COLUMNS,) or part.shape[1:] != rows.shape[:1]:
-                    raise ValueError("mode table and participation factors do not fit")
                 self._built = tuple(
                     Mode(index=int(r[0]), eigenvalue=complex(r[1], r[2]), s=complex(r[3], r[4]),
                          multiplicity=int(r[5]), geometric_multiplicity=int(r[6]),
@@ -177,13 +175,14 @@ def _spectrum_data(sp, blobs: Blobs) -> dict:
 _MATRICES = ("A", "B", "C", "D", "E")
 
 
-def _blob_field(name: str, kind: str):
-    def read(self):
-        blobs, index = self.__dict__["_blob_refs"][name]
-        return blobs.array(index) if kind == "array" else blobs.json(index)
+def _array(ref: tuple) -> "np.ndarray":
+    blobs, index = ref
+    return blobs.array(index)
 
-    read.__name__ = name
-    return functools.cached_property(read)
+
+def _text(ref: tuple):
+    blobs, index = ref
+    return blobs.json(index)
 
 
 def _requirements_of(records: list) -> tuple:
@@ -195,9 +194,10 @@ def _known_modes_of(records: list) -> tuple:
     return tuple(unrecord(KnownMode, k) for k in records)
 
 
-def _record_field(name: str, decode):
+def _lazy(name: str, load):
+    """A field built on first use by ``load`` from what ``_stored`` keeps for it, then kept."""
     def read(self):
-        return decode(self.__dict__["_records"][name])
+        return load(self.__dict__["_stored"][name])
 
     read.__name__ = name
     return functools.cached_property(read)
@@ -209,15 +209,14 @@ class CachedModel(Model):
     modes built from their records when first used, the other fields at once. Reports,
     which print verdicts and findings, read none of them."""
 
-    requirements = _record_field("requirements", _requirements_of)
-    known_modes = _record_field("known_modes", _known_modes_of)
-
-    A = _blob_field("A", "array")
-    B = _blob_field("B", "array")
-    C = _blob_field("C", "array")
-    D = _blob_field("D", "array")
-    E = _blob_field("E", "array")
-    lines = _blob_field("lines", "json")
+    A = _lazy("A", _array)
+    B = _lazy("B", _array)
+    C = _lazy("C", _array)
+    D = _lazy("D", _array)
+    E = _lazy("E", _array)
+    lines = _lazy("lines", _text)
+    requirements = _lazy("requirements", _requirements_of)
+    known_modes = _lazy("known_modes", _known_modes_of)
 
 
 def _model_data(m, blobs: Blobs) -> dict:
@@ -310,7 +309,7 @@ def _model_from(d: dict, blobs, shapes: list) -> CachedModel:
         raise ValueError("model requirements are not records of known classes")
     m = object.__new__(CachedModel)
     fields = m.__dict__
-    refs = {}
+    stored = {"requirements": d["requirements"], "known_modes": d["known_modes"]}
     for k in (*_MATRICES, "lines"):
         index = d[k]
         if index is None and k != "A":
@@ -319,16 +318,15 @@ def _model_from(d: dict, blobs, shapes: list) -> CachedModel:
         # read later: check now that it is there, and of its kind
         if (_shape(shapes, index) is None) != (k == "lines"):
             raise ValueError(f"model field {k} is not a blob of its kind")
-        refs[k] = (blobs, index)
+        stored[k] = (blobs, index)
     n = len(d["states"])
     if shapes[d["A"]] != (n, n):
         raise ValueError("model matrix A does not fit its states")
     fields.update(
-        _blob_refs=refs, name=d["name"], label=d["label"], source=d["source"],
+        _stored=stored, name=d["name"], label=d["label"], source=d["source"],
         structure=d["structure"], sample_period=d["sample_period"],
         states=tuple(d["states"]), inputs=tuple(d["inputs"]), outputs=tuple(d["outputs"]),
         on_uncertain=d["on_uncertain"], disabled=tuple(d["disabled"]),
-        _records={"requirements": d["requirements"], "known_modes": d["known_modes"]},
         waivers=tuple(unrecord(Waiver, w) for w in d["waivers"]),
         allowed_drift=d["allowed_drift"], loop_parts=None,
         nonlinear=_field_from(d["nonlinear"]))
@@ -436,7 +434,7 @@ def results_to_data(source: str, results: Sequence, error) -> tuple[dict, Blobs]
 
 def results_from_data(d: dict, blobs):
     """Inverse of :func:`results_to_data`: ``(source, results, error)``. ``blobs`` is a
-    :class:`Blobs` or anything with its ``array`` and ``json`` methods."""
+    :class:`Blobs` or anything with its ``shapes``, ``array`` and ``json`` methods."""
     if "error" in d:
         src, fld, problem, line, hint = d["error"]
         return d["source"], (), ModelError(src, fld, problem, line=line, hint=hint)

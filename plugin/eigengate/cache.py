@@ -11,10 +11,11 @@ is taken to have the same bytes. A status is recorded only when the file had not
 two seconds before the check began, so a change within one timestamp tick cannot go unseen.
 
 Entries live in one pack file per configuration, read once and written once per run,
-atomically. A pack is a short header, a JSON *head* (the entries' data: what reports read)
-and a *body* of raw bytes (the entries' blobs: float64 matrices and the JSON texts of mode
-rows and line tables), read only when something uses them. Never pickles, never code. The
-header holds the sizes and a CRC-32 of head and body: a pack that fails it, or an entry that
+atomically. A pack is a short header, a JSON *head* (the entries' data: what reports read),
+an index of the entries' blobs, and a *body* of raw bytes holding the blobs (float64
+matrices, participation factors and mode tables, JSON texts of line tables), read only when
+something uses them. Never pickles, never code. The header holds the sizes and a CRC-32 of
+all three: a pack that fails it or whose index does not fit its body, or an entry that
 cannot be parsed or checked, is ignored and rebuilt, never trusted. The folder explains
 itself (README, .gitignore, CACHEDIR.TAG).
 """
@@ -80,8 +81,10 @@ class Pack:
             raise ValueError("entry blobs lie outside the pack index")
         return PackBlobs(self, first, count)
 
-    def items(self, first: int, count: int) -> list[tuple[bytes, list | None]]:
-        """An entry's blobs as ``(bytes, shape or None)``, as :func:`write_pack` takes them."""
+    def items(self, first: Any, count: Any) -> list[tuple[bytes, list | None]]:
+        """An entry's blobs as ``(bytes, shape or None)``, as :func:`write_pack` takes them;
+        ValueError when its span is not within the index."""
+        self.blobs(first, count)
         out = []
         for off, size, rows, cols in self._index[first:first + count]:
             out.append((bytes(self._body[off:off + size]), None if cols < 0 else [rows, cols]))
@@ -217,10 +220,6 @@ class ResultCache:
         #: Status records to add: "files" (model file → key), "refs" (matrix file → hash).
         self._noted: dict[str, dict[str, list]] = {"files": {}, "refs": {}}
 
-    @property
-    def pack_path(self) -> Path:
-        return self._pack
-
     def key(self, source: str, content: bytes) -> str:
         return _sha(self._salt_bytes + source.encode() + b"\0" + content)
 
@@ -304,9 +303,7 @@ class ResultCache:
 
     def _old_blobs(self, entry: dict) -> list[tuple[bytes, Any]] | None:
         try:
-            first, count = entry["blobs"]
-            self._read.blobs(first, count)  # type: ignore[union-attr]  # checks the span
-            return self._read.items(first, count)  # type: ignore[union-attr]
+            return self._read.items(*entry["blobs"])  # type: ignore[union-attr]
         except (KeyError, TypeError, ValueError, AttributeError):
             return None
 

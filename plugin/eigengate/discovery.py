@@ -62,7 +62,7 @@ def find_model_files(paths: Sequence[str | Path], config: "Config | None" = None
     through, or are tested too with ``filter_named``: a pre-commit hook is handed every
     changed file).
 
-    With ``known``, every candidate's status is taken, and a file for which
+    With ``known``, every candidate's status is taken (before any read), and a file for which
     ``known(rel, stat)`` is true is taken as a model file without reading it (the result
     cache knows it, unchanged since it last read it).
     """
@@ -78,10 +78,7 @@ def find_model_files(paths: Sequence[str | Path], config: "Config | None" = None
                 if found is not None:
                     out.append(found)
             else:
-                st = _stat(full) if known is not None else None
-                if st is not None:
-                    known(rel, st)  # the caller learns what it knows; named files are kept
-                out.append(FoundFile(full, rel, stat=st))
+                out.append(FoundFile(full, rel, stat=_stat(full) if known is not None else None))
             continue
         below: list[FoundFile] = []
         stack = [os.fspath(p)]
@@ -128,8 +125,7 @@ def _stat(path: str, entry: os.DirEntry | None = None) -> os.stat_result | None:
 
 def _select(full: str, name: str, rel: str, config: "Config | None", known, entry
             ) -> FoundFile | None:
-    if name == "pyproject.toml" or name[name.rfind("."):] not in MODEL_SUFFIXES \
-            or "." not in name[1:]:
+    if name == "pyproject.toml" or os.path.splitext(name)[1] not in MODEL_SUFFIXES:
         return None
     if config is not None and not config.is_model_path(rel):
         return None

@@ -84,9 +84,10 @@ def _distances(before, after, floor: float):
         return np.hypot(z.real, z.imag)
 
     b, a = before[:, None], after[None, :]
+    size_b, size_a = size(b), size(a)
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-        dist = size(b - a) / np.maximum(np.maximum(size(b), size(a)), floor)
-    dist = np.where(np.isfinite(size(b)) & np.isfinite(size(a)), dist, np.inf)
+        dist = size(b - a) / np.maximum(np.maximum(size_b, size_a), floor)
+    dist = np.where(np.isfinite(size_b) & np.isfinite(size_a), dist, np.inf)
     return np.where(b == a, 0.0, dist)
 
 

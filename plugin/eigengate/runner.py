@@ -115,16 +115,9 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named)
     from .cache import ResultCache
 
     cache = ResultCache(config.root, config.digest) if use_cache else None
-    known: dict[str, str] = {}  # files the cache knows unchanged: their keys
-
-    def knows(rel: str, st: os.stat_result) -> bool:
-        key = cache.known_key(rel, st)  # type: ignore[union-attr]
-        if key is not None:
-            known[rel] = key
-        return key is not None
-
-    files = find_model_files(list(paths), config, filter_named=filter_named,
-                             known=knows if cache is not None else None)
+    files = find_model_files(
+        list(paths), config, filter_named=filter_named,
+        known=None if cache is None else lambda rel, st: cache.known_key(rel, st) is not None)
     slots: list[tuple | None] = [None] * len(files)
     todo: list[tuple[int, str, str | None]] = []
     hits = 0
@@ -132,7 +125,7 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named)
         files[i] = None  # type: ignore[call-overload]  # its bytes are not kept past here
         key = None
         if cache is not None:
-            key = known.get(f.rel)
+            key = None if f.stat is None else cache.known_key(f.rel, f.stat)
             if key is None:
                 content = f.content
                 if content is None:
