@@ -267,8 +267,15 @@ def analyse(model: Model) -> Spectrum:
         else:
             vals = lam[members]
             centre = complex(vals.mean())
-            err = max(float(np.max(np.abs(vals - centre))), float(base))
             geometric = _geometric(model, centre, vr[:, members], len(members), norm)
+            # The cluster stands for each member: its bound covers the spread and every
+            # member's own bound, and, when defective, the Hölder-type sensitivity of the
+            # largest Jordan block the multiplicities allow (rotated or triangular alike).
+            err = max(float(np.max(np.abs(vals - centre))), float(delta[members].max()))
+            if geometric < len(members):
+                block = min(len(members) - geometric + 1, MAX_BLOCK)
+                err = max(err, _hoelder(base, norm, block)
+                          * (1.0 if model.E is None else 1.0 + abs(centre)))
             kap, weights = float(kappa[members].max()), part[:, members].mean(axis=1)
         if abs(centre.imag) <= err:
             centre = complex(centre.real, 0.0)
@@ -294,11 +301,8 @@ def _cap_defective(lam: "np.ndarray", delta: "np.ndarray", base: float, norm: fl
     """
     import numpy as np
 
-    scale = max(norm, np.finfo(float).tiny)
-    c = base / scale  # c·n·eps
-
     def h(m: int) -> float:
-        return scale * c ** (1.0 / m)
+        return _hoelder(base, norm, m)
 
     for i in np.nonzero(delta > h(2))[0]:
         d = np.abs(lam - lam[i])
@@ -307,6 +311,13 @@ def _cap_defective(lam: "np.ndarray", delta: "np.ndarray", base: float, norm: fl
             if np.count_nonzero(d <= 2.0 * h(m)) >= m:
                 block = m
         delta[i] = min(delta[i], h(block))
+
+
+def _hoelder(base: float, norm: float, m: int) -> float:
+    """Hölder-type error scale ``‖A‖·(c·n·eps)^(1/m)`` of an eigenvalue of a Jordan block of
+    size m (Golub & Van Loan, ch. 7), with ``base = c·n·eps·‖A‖``."""
+    scale = max(norm, 2.2250738585072014e-308)
+    return scale * (base / scale) ** (1.0 / m)
 
 
 def _clusters(lam: "np.ndarray", delta: "np.ndarray") -> list[list[int]]:
@@ -379,7 +390,7 @@ def _mode_fields(model: Model, centre: complex, err: float, multiplicity: int, g
             s = complex(math.log(r) / T, math.atan2(centre.imag, centre.real) / T)
             if centre.imag == 0.0 and centre.real < 0:
                 s = complex(s.real, math.pi / T)
-            err_s = err / (r * T)
+            err_s = err / r / T  # not err/(r·T): r·T may underflow
     wn = abs(s)
     if math.isinf(s.real):
         zeta, tau = 1.0, 0.0

@@ -108,16 +108,18 @@ class Stability(Requirement):
         discrete = spectrum.model.discrete
         unstable = [m for m in modes if side(m) > 0]
         boundary = [m for m in modes if side(m) == 0]
-        defective = [m for m in boundary if m.defective]
-        simple = [m for m in boundary if not m.defective]
+        # A boundary mode computed exactly on the boundary (Re s == 0.0) is taken as exact; one
+        # within its bound but off it may lie on either side, so it decides nothing for sure.
         inexact = [m for m in boundary if m.s.real != 0.0]
+        exact = [m for m in boundary if m.s.real == 0.0]
+        defective = [m for m in exact if m.defective]
+        simple = [m for m in exact if not m.defective]
         margin = min((m.decay_rate for m in modes), default=math.inf)
         abscissa = -margin
-        bad = list(unstable) + list(defective) + ([] if self.allow_marginal else simple)
+        certain = unstable + defective + ([] if self.allow_marginal else simple)
         uncertain = bool(inexact)
-        failing_for_sure = bool(unstable) or (bool(boundary) and not inexact and
-                                              (bool(defective) or not self.allow_marginal))
-        passed = not failing_for_sure and (not bad or on_uncertain == "pass")
+        passed = not certain and (not inexact or on_uncertain == "pass")
+        bad = certain + inexact
         where = "|z| < 1" if discrete else "Re(s) < 0"
         measured = spectrum.spectral_radius if discrete else abscissa
         parts = []
@@ -133,10 +135,15 @@ class Stability(Requirement):
             parts.append(f"simple eigenvalue on the stability boundary ({simple[0].describe()}): "
                          f"{state}")
         if inexact:
-            parts.append("an eigenvalue lies within its numerical uncertainty of the boundary "
-                         f"(±{_fmt(max(m.uncertainty for m in inexact))} 1/s); verdict "
-                         f"{'passed' if passed else 'failed'} by the on_uncertain={on_uncertain} "
-                         "policy")
+            could = ("slightly unstable" if self.allow_marginal else "slightly stable") \
+                if not any(m.defective for m in inexact) else "on either side"
+            decided = (f"verdict {'passed' if passed else 'failed'} by the "
+                       f"on_uncertain={on_uncertain} policy") if not certain else \
+                "the verdict fails for the reasons above"
+            parts.append(f"{sum(m.count for m in inexact)} eigenvalue(s) within their numerical "
+                         f"uncertainty of the boundary (±{_fmt(max(m.uncertainty for m in inexact))}"
+                         f" 1/s), worst {inexact[0].describe()}: could be {could}, not decided; "
+                         + decided)
         if not parts:
             parts.append(f"all {sum(m.count for m in modes)} eigenvalues satisfy {where}; "
                          f"slowest decay rate {_fmt(margin)} 1/s")
