@@ -300,7 +300,11 @@ def test_rigid_body_mode_declared_known_is_excluded():
     assert all(v.passed for v in verdicts), [v.message for v in verdicts]
     result = eg.check_model(model)
     assert result.passed
-    assert result.equilibrium.stable == 2 and result.equilibrium.center == 0
+    # the origin's type still sees every eigenvalue (the declared double zero is part of the
+    # dynamics: a line of equilibria, degenerate) and says which were declared
+    eq = result.equilibrium
+    assert eq.stable == 2 and eq.center == 2 and eq.type == "degenerate"
+    assert "2 of the eigenvalues are declared known modes" in eq.detail
 
 
 def test_known_mode_that_is_not_there_fails():

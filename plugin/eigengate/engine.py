@@ -65,16 +65,15 @@ class FileResult:
 def analyse_model(model: Model, config: "Config | None" = None) -> ModelResult:
     """Analyse one model and evaluate its requirements (the repository layers of ``config``
     below the model's own, when given); no waivers applied yet."""
-    from .equilibrium import classify
     from .modes import analyse
-    from .requirements import evaluate, split_known_modes
+    from .requirements import evaluate, origin, split_known_modes
 
     if config is not None:
         model = config.effective(model)
     spectrum = analyse(model)
     verdicts = evaluate(spectrum)
     remaining, _ = split_known_modes(spectrum, model.known_modes)
-    return ModelResult(model=model, spectrum=spectrum, equilibrium=classify(remaining),
+    return ModelResult(model=model, spectrum=spectrum, equilibrium=origin(remaining, spectrum),
                        verdicts=verdicts, findings=tuple(findings_of(model, verdicts, config)))
 
 

@@ -44,7 +44,8 @@ class Equilibrium:
         if self.detail:
             text += f": {self.detail}"
         if self.uncertain:
-            text += " [an eigenvalue lies within its numerical uncertainty of the boundary]"
+            text += " [type not decided: it depends on eigenvalues within their numerical " \
+                    "uncertainty]"
         return text
 
 
@@ -63,16 +64,27 @@ def on_boundary_inexact(mode: Mode) -> bool:
     return side(mode) == 0 and mode.s.real != 0.0
 
 
-def classify(modes: Iterable[Mode]) -> Equilibrium:
-    """Classify the origin from ``modes`` (normally every mode of a spectrum)."""
+def classify(modes: Iterable[Mode], *, declared: int = 0) -> Equilibrium:
+    """Classify the origin from ``modes`` (every mode of a spectrum: declared known modes
+    included, since they are part of the dynamics; ``declared`` counts their eigenvalues for
+    the description).
+
+    The type is *uncertain* when it depends on an eigenvalue within its error bound of the
+    boundary (Re s = 0 but not computed exactly there), or on a cluster (a mode of
+    multiplicity > 1: eigenvalues within their bounds of each other or of the real axis),
+    whose members might be distinct, or a complex pair, in the exact matrix.
+    """
     modes = list(modes)
     stable = sum(m.count for m in modes if side(m) < 0)
     unstable = sum(m.count for m in modes if side(m) > 0)
     center = sum(m.count for m in modes if side(m) == 0)
     n = stable + unstable + center
-    uncertain = any(on_boundary_inexact(m) for m in modes)
+    reasons = []
+    if any(on_boundary_inexact(m) for m in modes):
+        reasons.append("an eigenvalue lies within its numerical uncertainty of the boundary")
     zero = [m for m in modes if side(m) == 0 and abs(m.s) <= m.uncertainty]
     repeated = [m for m in modes if m.multiplicity > 1]
+    real_repeated = [m for m in repeated if not m.pair]
     detail = ""
     if stable and unstable:
         kind = "saddle"
@@ -97,5 +109,17 @@ def classify(modes: Iterable[Mode]) -> Equilibrium:
             kind = f"{sign}-focus"
         else:
             kind = f"{sign}-node"
+        # A repeated eigenvalue splits under any perturbation into distinct real eigenvalues
+        # (a node) or a complex pair (a focus): the degenerate or node label is not decided.
+        if kind == "degenerate" or (kind.endswith("-node") and real_repeated):
+            reasons.append("eigenvalues within their numerical uncertainty of each other "
+                           f"({real_repeated[0].eigenvalue.real:.6g} ×"
+                           f"{real_repeated[0].multiplicity}) could be distinct or a complex "
+                           "pair")
+    if declared:
+        detail += ("; " if detail else "") + (f"{declared} of the eigenvalues are declared "
+                                              "known modes, counted here")
+    if reasons:
+        detail += ("; " if detail else "") + "; ".join(reasons)
     return Equilibrium(type=kind, stable=stable, unstable=unstable, center=center,
-                       uncertain=uncertain, detail=detail)
+                       uncertain=bool(reasons), detail=detail)
