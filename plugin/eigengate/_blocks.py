@@ -176,8 +176,12 @@ def _tf_entries(block: Mapping[str, Any], ctx: _Ctx, path: str
                 ) -> tuple[list[list[Any]], list[list[Any]]]:
     """Coefficient rows of num and den: [[row]] for SISO, nested for a matrix."""
     def coeffs(value: Any, where: str) -> Any:
-        return as_matrix(value, ctx.source, ctx.prefix + where, line=ctx.line(where),
-                         allow_vector=True).ravel()
+        c = as_matrix(value, ctx.source, ctx.prefix + where, line=ctx.line(where),
+                      allow_vector=True).ravel()
+        if not c.size:
+            raise ctx.err(where, "has no coefficients; expected a list of at least one "
+                          "coefficient, highest power first (write [0] for a zero entry)")
+        return c
 
     def siso(value: Any) -> bool:
         return not isinstance(value, list) or all(not isinstance(v, list) for v in value)

@@ -37,6 +37,10 @@ def _poly(coeffs: Sequence[float] | np.ndarray) -> np.ndarray:
 
 def _proper(num: np.ndarray, den: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Strip leading zeros, check properness, make ``den`` monic; return (num, den)."""
+    for what, given in (("numerator", num), ("denominator", den)):
+        if np.size(given) == 0:  # [] is no polynomial at all; a zero one is written [0]
+            raise InterconnectError(f"has a {what} with no coefficients (write [0] for a "
+                                    "zero entry)")
     n = _poly(num)
     d = _poly(den)
     if d.size == 0:

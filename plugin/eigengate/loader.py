@@ -15,7 +15,7 @@ from typing import Any, Callable, Mapping
 
 from ._formats import read_document, suggest
 from .errors import ModelError
-from .model import Model
+from .model import Model, sample_period_problem
 
 __all__ = ["FORMAT_VERSIONS", "TOP_KEYS", "load_models", "load_models_with_refs",
            "load_models_from_bytes", "load_document", "find_root"]
@@ -291,8 +291,6 @@ def _merge(base: Any, over: Any) -> Any:
 
 
 def _sample_period(block: Mapping[str, Any], domain: str, ctx: _Ctx, path: str) -> float | None:
-    import math
-
     value = block.get("sample_period")
     if domain == "continuous":
         if value is not None:
@@ -302,9 +300,9 @@ def _sample_period(block: Mapping[str, Any], domain: str, ctx: _Ctx, path: str) 
     if value is None:
         raise ctx.err(path, "is missing; a discrete model needs its sample period in seconds",
                       "add e.g. sample_period: 0.01")
-    if isinstance(value, bool) or not isinstance(value, (int, float)) \
-            or not math.isfinite(value) or value <= 0:
-        raise ctx.err(path, f"must be a positive number of seconds, got {value!r}")
+    problem = sample_period_problem(value)
+    if problem:
+        raise ctx.err(path, problem)
     return float(value)
 
 

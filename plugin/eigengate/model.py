@@ -19,10 +19,21 @@ if TYPE_CHECKING:  # pragma: no cover
     from .requirements import Requirement
     from .waivers import Waiver
 
-__all__ = ["Model", "from_arrays", "from_control", "as_matrix", "MAX_STATES"]
+__all__ = ["Model", "from_arrays", "from_control", "as_matrix", "MAX_STATES",
+           "sample_period_problem"]
 
 #: Largest number of states a model may have (dense eigen-decomposition stays in seconds).
 MAX_STATES = 4000
+#: Largest magnitude of a matrix entry: norms, products and the s-plane mapping stay finite
+#: in double precision (squares stay below 1e300).
+MAX_MAGNITUDE = 1e150
+#: Smallest nonzero scale (largest entry) of A or E: below it LAPACK works in or near the
+#: subnormal range, where eigenvalues lose every digit.
+MIN_SCALE = 1e-150
+#: Sample periods in seconds (femtoseconds to about 30 million years): ln|z|/T neither
+#: overflows nor underflows to an exact zero for any |z| that double precision holds.
+MIN_SAMPLE_PERIOD = 1e-15
+MAX_SAMPLE_PERIOD = 1e15
 _NUMBER_TYPES = frozenset((int, float))  # exact types: bool, a subclass of int, is refused
 
 
@@ -157,7 +168,39 @@ def as_matrix(
         if not finite.all():
             i, j = np.argwhere(~finite)[0]
             raise bad(f"must hold finite numbers, entry ({i + 1},{j + 1}) is {arr[i, j]}")
+        big = np.abs(arr) > MAX_MAGNITUDE
+        if big.any():
+            i, j = np.argwhere(big)[0]
+            raise bad(f"must hold numbers of magnitude at most {MAX_MAGNITUDE:g}, entry "
+                      f"({i + 1},{j + 1}) is {arr[i, j]:g}",
+                      "rescale the units: beyond that the eigenvalue computation overflows "
+                      "double precision")
     return arr
+
+
+def _check_scale(arr: "np.ndarray", bad) -> None:
+    """Refuse a nonzero matrix whose largest entry is below MIN_SCALE."""
+    import numpy as np
+
+    top = float(np.abs(arr).max()) if arr.size else 0.0
+    if 0.0 < top < MIN_SCALE:
+        i, j = np.unravel_index(int(np.argmax(np.abs(arr))), arr.shape)
+        raise bad(f"is too small to analyse: its largest entry ({i + 1},{j + 1}) is {top:g}, "
+                  f"below {MIN_SCALE:g}", "rescale the units (or write 0 for a zero matrix)")
+
+
+def sample_period_problem(value: Any) -> str | None:
+    """Why ``value`` is not a usable sample period, or None when it is."""
+    import math
+
+    if isinstance(value, bool) or not isinstance(value, (int, float)) \
+            or not math.isfinite(value) or value <= 0:
+        return f"must be a positive number of seconds, got {value!r}"
+    if not MIN_SAMPLE_PERIOD <= value <= MAX_SAMPLE_PERIOD:
+        return (f"is {value!r} s, outside the range the s-plane mapping ln(z)/T computes in "
+                f"double precision: expected between {MIN_SAMPLE_PERIOD:g} and "
+                f"{MAX_SAMPLE_PERIOD:g} s")
+    return None
 
 
 def _rows_of(value: Any, bad, allow_vector: bool) -> list[list[Any]]:
@@ -238,6 +281,8 @@ def from_arrays(
         return as_matrix(value, source, fld(key), line=lines.get(fld(key)))
 
     a = mat(A, "A")
+    _check_scale(a, lambda p, h=None: ModelError(source, fld("A"), p, line=lines.get(fld("A")),
+                                                 hint=h))
     n = a.shape[0]
     if a.size == 0:
         raise ModelError(source, fld("A"), "must not be empty, got a 0×0 matrix",
@@ -274,14 +319,14 @@ def from_arrays(
         if e.shape != (n, n):
             raise ModelError(source, fld("E"), f"must be {n}×{n} like A, got "
                              f"{e.shape[0]}×{e.shape[1]}", line=lines.get(fld("E")))
+        _check_scale(e, lambda p, h=None: ModelError(source, fld("E"), p,
+                                                     line=lines.get(fld("E")), hint=h))
         if np.array_equal(e, np.eye(n)):
             e = None  # an identity E is an ordinary state-space model
     if sample_period is not None:
-        if isinstance(sample_period, bool) or not isinstance(sample_period, (int, float)) \
-                or not np.isfinite(sample_period) or sample_period <= 0:
-            raise ModelError(source, "sample_period",
-                             f"must be a positive number of seconds, got {sample_period!r}",
-                             line=lines.get("sample_period"))
+        problem = sample_period_problem(sample_period)
+        if problem:
+            raise ModelError(source, "sample_period", problem, line=lines.get("sample_period"))
         sample_period = float(sample_period)
     if on_uncertain not in (None, "fail", "pass"):
         raise ModelError(source, "on_uncertain", f"must be 'fail' or 'pass', got {on_uncertain!r}",

@@ -211,6 +211,13 @@ def _decompose(model: Model):
                          line=model.line_of("plant.E"),
                          hint="check for a state that appears in no equation")
     finite = np.abs(beta) > tiny * scale_e * np.maximum(np.abs(alpha) / scale_a, 1.0)
+    if not finite.any():
+        # Nothing to classify or check: a verdict on no modes would pass vacuously.
+        raise ModelError(model.source, "plant.E", f"gives no finite eigenvalues: all {n} "
+                         "eigenvalues of the pencil (A, E) are infinite, so the model has no "
+                         "dynamic mode to check", line=model.line_of("plant.E"),
+                         hint="E is zero or nilpotent: check that the differential equations "
+                         "are in E")
     lam = alpha[finite] / beta[finite]
     vr, vl = vr[:, finite], vl[:, finite]
     ew = E.conj().T @ vl  # E^H w: with it, w^H E v plays the role of w^H v
@@ -236,6 +243,9 @@ def analyse(model: Model) -> Spectrum:
 
     n = model.n_states
     lam, vr, vl, ew, norm, infinite, balanced = _decompose(model)
+    if not (np.isfinite(lam).all() and math.isfinite(norm)):  # never a verdict from inf/nan
+        raise ModelError(model.source, "plant.A", "has eigenvalues beyond the range of double "
+                         "precision", line=model.line_of("plant.A"), hint="rescale the units")
     eps = float(np.finfo(float).eps)
 
     # Condition numbers κ_i = ‖w‖‖v‖/|w^H v| (w^H E v for descriptor models).
