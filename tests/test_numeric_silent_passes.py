@@ -18,23 +18,7 @@ import pytest
 import eigengate as eg
 from eigengate.errors import ModelError
 from eigengate.loader import load_models
-
-
-def spectrum_of(A, **kw):
-    return eg.analyse(eg.from_arrays(A, **kw))
-
-
-def jordan(n, lam=-1.0):
-    return lam * np.eye(n) + np.diag(np.ones(n - 1), 1)
-
-
-def orthogonal(rng, n):
-    Q, R = np.linalg.qr(rng.standard_normal((n, n)))
-    return Q * np.sign(np.diag(R))
-
-
-def rotation(theta):
-    return np.array([[np.cos(theta), -np.sin(theta)], [np.sin(theta), np.cos(theta)]])
+from test_numerical_honesty import jordan, orthogonal, rotation, spectrum_of
 
 
 def mp_eigenvalues(A, dps=60):
