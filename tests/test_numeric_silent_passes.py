@@ -163,9 +163,10 @@ def test_well_separated_types_stay_decided():
         assert eq.type == kind and not eq.uncertain
 
 
-def test_declared_known_modes_do_not_change_the_type_of_the_origin():
+def test_declared_known_modes_that_are_all_the_modes_keep_the_type_of_the_origin():
     # Jordan form: J_2(0) is a double zero, the equilibria form a line: degenerate with two
-    # center directions, whether or not the zero is declared a known mode.
+    # center directions, whether or not the zero is declared a known mode (setting aside
+    # every eigenvalue would leave nothing to classify, not an unstable node).
     A = np.array([[0.0, 1.0], [0.0, 0.0]])
     known = (eg.KnownMode(count=2, eigenvalue=0.0, reason="free mass"),)
     for kw in ({}, {"known_modes": known}):
@@ -177,17 +178,19 @@ def test_declared_known_modes_do_not_change_the_type_of_the_origin():
         verdict = [v for v in result.verdicts if v.rule == "EG106"][0]
         assert not verdict.passed
         if kw:
-            assert "declared known" in eq.describe()
+            assert "every eigenvalue is a declared known mode" in eq.describe()
 
 
-def test_known_integrator_beside_a_stable_mode():
-    # diag(0, -1): a line of equilibria (degenerate); declaring the zero known does not make
-    # the origin a stable node, and the stability requirement still sets it aside.
+def test_known_integrator_beside_a_stable_mode_is_set_aside_plainly():
+    # diag(0, -1) with the zero declared: the origin is classified from -1 alone and says
+    # that the declared eigenvalue was set aside (common practice: one real stable direction).
     model = eg.from_arrays(np.diag([0.0, -1.0]), requirements=(eg.Stability(),),
                            known_modes=(eg.KnownMode(count=1, eigenvalue=0.0),))
     result = eg.check_model(model)
     assert result.passed
-    assert result.equilibrium.type == "degenerate" and result.equilibrium.center == 1
+    eq = result.equilibrium
+    assert eq.type == "stable-node" and eq.stable == 1 and eq.center == 0
+    assert "1 declared known eigenvalue(s) set aside" in eq.describe()
 
 
 # ------------------------------------------------------------ extreme periods and magnitudes

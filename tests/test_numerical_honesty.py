@@ -300,11 +300,10 @@ def test_rigid_body_mode_declared_known_is_excluded():
     assert all(v.passed for v in verdicts), [v.message for v in verdicts]
     result = eg.check_model(model)
     assert result.passed
-    # the origin's type still sees every eigenvalue (the declared double zero is part of the
-    # dynamics: a line of equilibria, degenerate) and says which were declared
+    # the origin's type sets the declared double zero aside, and says so
     eq = result.equilibrium
-    assert eq.stable == 2 and eq.center == 2 and eq.type == "degenerate"
-    assert "2 of the eigenvalues are declared known modes" in eq.detail
+    assert eq.stable == 2 and eq.center == 0
+    assert "2 declared known eigenvalue(s) set aside" in eq.describe()
 
 
 def test_known_mode_that_is_not_there_fails():

@@ -73,7 +73,7 @@ def analyse_model(model: Model, config: "Config | None" = None) -> ModelResult:
     spectrum = analyse(model)
     verdicts = evaluate(spectrum)
     remaining, _ = split_known_modes(spectrum, model.known_modes)
-    return ModelResult(model=model, spectrum=spectrum, equilibrium=origin(remaining, spectrum),
+    return ModelResult(model=model, spectrum=spectrum, equilibrium=origin(remaining, spectrum)[0],
                        verdicts=verdicts, findings=tuple(findings_of(model, verdicts, config)))
 
 

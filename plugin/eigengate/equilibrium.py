@@ -64,10 +64,11 @@ def on_boundary_inexact(mode: Mode) -> bool:
     return side(mode) == 0 and mode.s.real != 0.0
 
 
-def classify(modes: Iterable[Mode], *, declared: int = 0) -> Equilibrium:
-    """Classify the origin from ``modes`` (every mode of a spectrum: declared known modes
-    included, since they are part of the dynamics; ``declared`` counts their eigenvalues for
-    the description).
+def classify(modes: Iterable[Mode], *, declared: int = 0, set_aside: bool = True
+             ) -> Equilibrium:
+    """Classify the origin from ``modes`` (normally every mode of a spectrum). ``declared``
+    counts the eigenvalues of declared known modes, for the description: set aside (not in
+    ``modes``) or, with ``set_aside=False``, all the modes there are and classified.
 
     The type is *uncertain* when it depends on an eigenvalue within its error bound of the
     boundary (Re s = 0 but not computed exactly there), or on a cluster (a mode of
@@ -117,8 +118,9 @@ def classify(modes: Iterable[Mode], *, declared: int = 0) -> Equilibrium:
                            f"{real_repeated[0].multiplicity}) could be distinct or a complex "
                            "pair")
     if declared:
-        detail += ("; " if detail else "") + (f"{declared} of the eigenvalues are declared "
-                                              "known modes, counted here")
+        detail += ("; " if detail else "") + (
+            f"{declared} declared known eigenvalue(s) set aside" if set_aside else
+            "every eigenvalue is a declared known mode, so the type is theirs")
     if reasons:
         detail += ("; " if detail else "") + "; ".join(reasons)
     return Equilibrium(type=kind, stable=stable, unstable=unstable, center=center,

@@ -1,8 +1,8 @@
 """Known modes: integrators, rigid-body modes and conserved quantities a model declares.
 
-They are taken out of the spectrum before the other requirements run (except the equilibrium
-requirements: the type of the origin is classified from every eigenvalue, declared ones
-included), and a declaration that no longer matches the model is itself a failing verdict
+They are taken out of the spectrum before the other requirements run (the type of the origin
+says so; when they are all the modes, it is classified from them, see
+``requirements.origin``), and a declaration that no longer matches the model is itself a failing verdict
 (EG109), so a stale declaration cannot hide a real change.
 """
 

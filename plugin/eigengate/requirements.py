@@ -261,11 +261,15 @@ class PoleRegion(Requirement):
 
 
 def origin(modes: Sequence[Mode], spectrum: Spectrum):
-    """The type of the origin from every eigenvalue of ``spectrum``: declared known modes
-    (the difference between ``modes`` and the spectrum) are part of the dynamics, so they
-    are counted, and named in the description, rather than set aside."""
+    """The type of the origin and the modes it was classified from.
+
+    Declared known modes (the difference between ``modes`` and the spectrum) are set aside,
+    and the description says so; when they are all the modes, there is nothing else to
+    classify, so the origin is classified from all of them (a declared double zero stays a
+    degenerate origin, never a node with no directions)."""
     declared = spectrum.n_eigenvalues - sum(m.count for m in modes)
-    return classify(spectrum.modes, declared=declared)
+    seen = tuple(modes) if modes or not declared else spectrum.modes
+    return classify(seen, declared=declared, set_aside=bool(modes)), seen
 
 
 @dataclass(frozen=True)
@@ -279,13 +283,13 @@ class EquilibriumType(Requirement):
         return f"equilibrium: {self.expected}"
 
     def check(self, modes, spectrum, on_uncertain):
-        eq = origin(modes, spectrum)
+        eq, seen = origin(modes, spectrum)
         ok = eq.type == self.expected
         passed = ok and (not eq.uncertain or on_uncertain == "pass")
         message = f"expected {self.expected}, found {eq.describe()}"
         return self._verdict(passed=passed, uncertain=eq.uncertain, measured=eq.type,
                              threshold=self.expected, margin=None,
-                             offending=() if ok else tuple(spectrum.modes), message=message,
+                             offending=() if ok else seen, message=message,
                              suggestion=None if passed else f"equilibrium: {eq.type} matches "
                              "the current model")
 
@@ -300,10 +304,10 @@ class NoSaddle(Requirement):
         return "no_saddle: true"
 
     def check(self, modes, spectrum, on_uncertain):
-        eq = origin(modes, spectrum)
+        eq, seen = origin(modes, spectrum)
         saddle = eq.stable > 0 and eq.unstable > 0
         passed = not saddle and (not eq.uncertain or on_uncertain == "pass")
-        offending = tuple(m for m in spectrum.modes if side(m) > 0) if saddle else ()
+        offending = tuple(m for m in seen if side(m) > 0) if saddle else ()
         return self._verdict(passed=passed, uncertain=eq.uncertain, measured=eq.type,
                              threshold="not saddle", margin=None, offending=offending,
                              message=("saddle: " if saddle else "no saddle: ") + eq.describe())
@@ -324,7 +328,7 @@ class DirectionCounts(Requirement):
         return "directions: {" + ", ".join(parts) + "}"
 
     def check(self, modes, spectrum, on_uncertain):
-        eq = origin(modes, spectrum)
+        eq, seen = origin(modes, spectrum)
         found = {"stable": eq.stable, "unstable": eq.unstable, "center": eq.center}
         wrong = [f"{k} {found[k]} (expected {v})" for k, v in
                  (("stable", self.stable), ("unstable", self.unstable), ("center", self.center))
@@ -335,7 +339,7 @@ class DirectionCounts(Requirement):
         return self._verdict(passed=passed, uncertain=eq.uncertain,
                              measured=f"{eq.stable}/{eq.unstable}/{eq.center}",
                              threshold=self.spec(), margin=None,
-                             offending=tuple(spectrum.modes) if wrong else (), message=message)
+                             offending=seen if wrong else (), message=message)
 
 
 def evaluate(spectrum: Spectrum, requirements: Sequence[Requirement] | None = None, *,
