@@ -306,7 +306,22 @@ def _parse_json(text: str, source: str) -> tuple[Any, dict[str, int]]:
         raise ModelError(source, path, "is given twice" + (
             f", on lines {first} and {second}" if first else ""), line=second,
             hint="remove one of them") from None
+    lone = _LONE_SURROGATE.search(text) if "\\u" in text else None
+    if lone is not None:  # json decodes "\ud800" to a str no output can encode
+        try:
+            json.dumps(data, ensure_ascii=False).encode("utf-8")
+        except UnicodeEncodeError:
+            line = text.count("\n", 0, lone.start()) + 1
+            raise ModelError(source, "", f"holds the escape {lone.group(0)!r} at line {line}, a "
+                             "lone UTF-16 surrogate, which is not text", line=line,
+                             hint="write the character itself or a complete surrogate pair"
+                             ) from None
     return data, _json_scan(text)[0]
+
+
+# A high surrogate escape without a low one after it, or a low one without a high one before.
+_LONE_SURROGATE = re.compile(r"\\u[dD][89abAB][0-9a-fA-F]{2}(?!\\u[dD][c-fC-F])"
+                             r"|(?<!\\u[dD][89abAB][0-9a-fA-F]{2})\\u[dD][c-fC-F][0-9a-fA-F]{2}")
 
 
 def unique_pairs(items: list[tuple[str, Any]]) -> dict[str, Any]:
