@@ -189,10 +189,15 @@ def _yaml_loader_class() -> type:
 def _parse_yaml(text: str, source: str) -> tuple[Any, dict[str, int]]:
     import yaml
 
-    loader = _yaml_loader_class()(text)
+    try:  # the pure-Python reader checks the characters already here
+        loader = _yaml_loader_class()(text)
+    except yaml.reader.ReaderError as exc:
+        raise _unprintable(exc, text, source) from None
     try:
         try:
             node = loader.get_single_node()
+        except yaml.reader.ReaderError as exc:  # libyaml's reader, while parsing
+            raise _unprintable(exc, text, source) from None
         except yaml.MarkedYAMLError as exc:
             mark = exc.problem_mark or exc.context_mark
             where = f" at line {mark.line + 1}, column {mark.column + 1}" if mark else ""
@@ -212,6 +217,16 @@ def _parse_yaml(text: str, source: str) -> tuple[Any, dict[str, int]]:
                              line=mark.line + 1 if mark else None) from None
     finally:
         loader.dispose()
+
+
+def _unprintable(exc: Any, text: str, source: str) -> ModelError:
+    # ReaderError renders over two lines; say the same in one, with the line of the character.
+    position = min(max(int(exc.position), 0), len(text))
+    line = text.count("\n", 0, position) + 1
+    char = exc.character if isinstance(exc.character, str) else chr(exc.character)
+    return ModelError(source, "", f"is not valid YAML: the character U+{ord(char):04X} at line "
+                      f"{line} is not allowed ({exc.reason})", line=line,
+                      hint="model files are printable UTF-8 text")
 
 
 class _YamlWalk:

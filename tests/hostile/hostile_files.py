@@ -85,6 +85,7 @@ add("top-list", "- model_format: 1\n")
 add("top-scalar", "42\n")
 add("top-null", "~\n")
 add("two-documents", BASE + "---\n" + BASE)
+add("control-char", "model_format: 1\nname: a\x01b\nplant: {A: [[-1]]}\n", "U+0001", "line 2")
 add("tabs", "model_format: 1\nplant:\n\tA: [[1]]\n")
 add("unclosed-flow", "model_format: 1\nplant: {A: [[1, 2]\n")
 add("duplicate-key", BASE + "name: again\n", "name")
@@ -347,7 +348,7 @@ add_doc("tf-num-empty", put(TF, "plant.num", []), "plant.num")
 add_doc("e-all-zero", put(SS, "plant.E", [[0.0, 0.0], [0.0, 0.0]]), "plant.E")
 add_doc("vf-module-outside", put(put(SS, "plant", DELETE), "vector_field", {
     "function": "os.path:join", "states": ["a"], "at": [{"label": "o", "x": [0.0]}]}),
-    "vector_field.function")
+    "vector_field.function", "repository")
 add("escape-in-name", "model_format: 1\nname: \"evil\\e[31m\\n::error::injected\"\n"
     "plant: {A: [[-1.0]]}\nrequirements: {stable: true}\n", expect="model")
 
