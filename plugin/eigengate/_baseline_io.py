@@ -253,6 +253,9 @@ def parse(text: str, path: str) -> tuple[list["Entry"], Mapping[tuple[str, str],
     except json.JSONDecodeError as exc:
         raise BaselineError(path, f"is not valid JSON: {exc.msg} (column {exc.colno})",
                             line=exc.lineno, hint=hint) from None
+    except RecursionError:
+        raise BaselineError(path, "nests lists or objects too deeply to be a baseline",
+                            hint=hint) from None
     except ValueError as exc:
         bare = re.search(r"-?Infinity|NaN", text)
         raise BaselineError(path, str(exc), hint=hint, line=None if bare is None else

@@ -147,8 +147,9 @@ def _system(block: dict[str, Any], ctx: _Ctx, path: str, *, plant: bool) -> tupl
             a, b, c, d = ic.tf_siso(nums[0][0], dens[0][0])
         else:
             a, b, c, d = ic.tf_mimo(nums, dens)
-    except ic.InterconnectError as exc:
-        raise ctx.err(f"{path}.num", str(exc)) from None
+    except ic.InterconnectError as exc:  # a zero denominator is the den field's fault
+        raise ctx.err(f"{path}.den" if "zero denominator" in str(exc) else f"{path}.num",
+                      str(exc)) from None
     if plant and a.shape[0] == 0:
         raise ctx.err(f"{path}.den", "gives a static gain with no states; eigengate needs a "
                       "plant with at least one state")
@@ -176,6 +177,10 @@ def _tf_entries(block: Mapping[str, Any], ctx: _Ctx, path: str
                 ) -> tuple[list[list[Any]], list[list[Any]]]:
     """Coefficient rows of num and den: [[row]] for SISO, nested for a matrix."""
     def coeffs(value: Any, where: str) -> Any:
+        if isinstance(value, list) and any(isinstance(v, list) for v in value):
+            raise ctx.err(where, f"must be one list of coefficients, got a nested list "
+                          f"{value!r:.60}", "a matrix transfer function is a list of rows "
+                          "of coefficient lists")
         c = as_matrix(value, ctx.source, ctx.prefix + where, line=ctx.line(where),
                       allow_vector=True).ravel()
         if not c.size:

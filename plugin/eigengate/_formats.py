@@ -189,10 +189,15 @@ def _yaml_loader_class() -> type:
 def _parse_yaml(text: str, source: str) -> tuple[Any, dict[str, int]]:
     import yaml
 
-    loader = _yaml_loader_class()(text)
+    try:  # the pure-Python reader checks the characters already here
+        loader = _yaml_loader_class()(text)
+    except yaml.reader.ReaderError as exc:
+        raise _unprintable(exc, text, source) from None
     try:
         try:
             node = loader.get_single_node()
+        except yaml.reader.ReaderError as exc:  # libyaml's reader, while parsing
+            raise _unprintable(exc, text, source) from None
         except yaml.MarkedYAMLError as exc:
             mark = exc.problem_mark or exc.context_mark
             where = f" at line {mark.line + 1}, column {mark.column + 1}" if mark else ""
@@ -212,6 +217,16 @@ def _parse_yaml(text: str, source: str) -> tuple[Any, dict[str, int]]:
                              line=mark.line + 1 if mark else None) from None
     finally:
         loader.dispose()
+
+
+def _unprintable(exc: Any, text: str, source: str) -> ModelError:
+    # ReaderError renders over two lines; say the same in one, with the line of the character.
+    position = min(max(int(exc.position), 0), len(text))
+    line = text.count("\n", 0, position) + 1
+    char = exc.character if isinstance(exc.character, str) else chr(exc.character)
+    return ModelError(source, "", f"is not valid YAML: the character U+{ord(char):04X} at line "
+                      f"{line} is not allowed ({exc.reason})", line=line,
+                      hint="model files are printable UTF-8 text")
 
 
 class _YamlWalk:
@@ -306,7 +321,22 @@ def _parse_json(text: str, source: str) -> tuple[Any, dict[str, int]]:
         raise ModelError(source, path, "is given twice" + (
             f", on lines {first} and {second}" if first else ""), line=second,
             hint="remove one of them") from None
+    lone = _LONE_SURROGATE.search(text) if "\\u" in text else None
+    if lone is not None:  # json decodes "\ud800" to a str no output can encode
+        try:
+            json.dumps(data, ensure_ascii=False).encode("utf-8")
+        except UnicodeEncodeError:
+            line = text.count("\n", 0, lone.start()) + 1
+            raise ModelError(source, "", f"holds the escape {lone.group(0)!r} at line {line}, a "
+                             "lone UTF-16 surrogate, which is not text", line=line,
+                             hint="write the character itself or a complete surrogate pair"
+                             ) from None
     return data, _json_scan(text)[0]
+
+
+# A high surrogate escape without a low one after it, or a low one without a high one before.
+_LONE_SURROGATE = re.compile(r"\\u[dD][89abAB][0-9a-fA-F]{2}(?!\\u[dD][c-fC-F])"
+                             r"|(?<!\\u[dD][89abAB][0-9a-fA-F]{2})\\u[dD][c-fC-F][0-9a-fA-F]{2}")
 
 
 def unique_pairs(items: list[tuple[str, Any]]) -> dict[str, Any]:

@@ -178,7 +178,9 @@ def _read_npz(path: "Path | Any", rel: str, key: str | None, bad: Any) -> "np.nd
 
     try:
         # allow_pickle=False: a pickled array would run code from the file when loaded.
-        with np.load(path, allow_pickle=False) as archive:
+        # np.load leaves its own file open when the archive is not a readable zip: open it here.
+        with (open(path, "rb") if isinstance(path, Path) else path) as fh, \
+                np.load(fh, allow_pickle=False) as archive:
             if not isinstance(archive, np.lib.npyio.NpzFile):
                 raise bad(f"refers to {rel!r}, which is not a .npz archive", sub=".file")
             name = _pick(list(archive.files), key, rel, bad)

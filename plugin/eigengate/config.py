@@ -184,11 +184,11 @@ def find_config(start: Path) -> Path | None:
         py = folder / "pyproject.toml"
         if py.is_file():
             try:
-                text = py.read_text(encoding="utf-8")
-            except (OSError, UnicodeDecodeError):
+                raw = py.read_bytes()
+            except OSError:
                 continue
-            if "tool.eigengate" in text:
-                return py
+            if b"tool.eigengate" in raw:  # even when not UTF-8: load_config says what is wrong,
+                return py                 # rather than the policy being ignored without a word
     return None
 
 

@@ -247,7 +247,7 @@ def _load(data: dict[str, Any], *, source: str, root: Path | None, base_dir: Pat
         pctx = dataclasses.replace(ctx, prefix=f"operating_points[{i}].")
         pctx.lines = {**ctx.lines, **{k[len(where) + 1:]: v for k, v in ctx.lines.items()
                                       if k.startswith(where + ".")}}
-        point = _mapping(point, pctx, "")
+        point = _mapping(point, ctx, f"operating_points[{i}]")
         label = point.get("label")
         if label is None:
             raise ModelError(source, f"operating_points[{i}].label", "is missing",
