@@ -325,6 +325,7 @@ def _numbers(value: Any, ctx: Any, path: str, size: int | None) -> tuple[float, 
 def load_vector_field(data: Mapping[str, Any], ctx: Any, name: str,
                       parse_requirements: Callable[..., tuple]) -> list[Model]:
     """Models of a model file with a ``vector_field`` block (called by the loader)."""
+    from .applicability import refuse_unmet
     from .loader import _check_keys, _mapping
     from .loop_requirements import LOOP_RULES, POINT_RULES, SET_RULES
     from .requirements import apply_layers
@@ -414,6 +415,8 @@ def load_vector_field(data: Mapping[str, Any], ctx: Any, name: str,
             seen.add(label)
             pctx = dataclasses.replace(ctx, prefix=ctx.prefix + f"{path} (label {label!r}).")
             own = parse_requirements({"requirements": p.get("requirements", {})}, pctx, states)
+            refuse_unmet(own[0], ("vector field",) + (("equilibria box",) if box else ()),
+                         pctx.err)
             at.append((label, _numbers(p.get("x"), ctx, f"{path}.x", n),
                        _numbers(p.get("u", [0.0] * m), ctx, f"{path}.u", m), *own[:2]))
     models: list[Model] = []  # product() of no grids is one empty combination: no sweep
