@@ -15,7 +15,7 @@ taught here.
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING, Callable, Iterable, Sequence
+from typing import TYPE_CHECKING, Callable, Iterable, Mapping, Sequence
 
 if TYPE_CHECKING:  # pragma: no cover
     from .errors import ModelError
@@ -113,11 +113,14 @@ def not_evaluable(req: "Requirement", why: str) -> "Verdict":
 
 
 def refuse_unmet(requirements: Iterable["Requirement"], have: Iterable[str],
-                 err: Callable[[str, str, str | None], "ModelError"]) -> None:
+                 err: Callable[[str, str, str | None], "ModelError"],
+                 hints: Mapping[str, str] | None = None) -> None:
     """Raise ``err(field, problem, hint)`` (a loader context's) for the first requirement of
-    a model file whose need the model does not meet."""
+    a model file whose need the model does not meet; ``hints`` replaces the hint of a need."""
     for req, why in unmet(requirements, have):
-        hint = NEEDS.get(first_missing(req.needs, frozenset(have)), ("", None))[1]
-        raise err(f"requirements.{req.info.key}", why,
-                  f"{hint}, or remove the requirement" if hint else None)
+        need = first_missing(req.needs, frozenset(have))
+        hint = (hints or {}).get(need)
+        if hint is None and need in NEEDS:
+            hint = f"{NEEDS[need][1]}, or remove the requirement"
+        raise err(f"requirements.{req.info.key}", why, hint)
 
