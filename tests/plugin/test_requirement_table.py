@@ -31,6 +31,7 @@ import control
 import numpy as np
 import pytest
 import yaml
+from support import run_cli
 
 from eigengate._reqparse import REQUIREMENT_KEYS
 from eigengate.assertions import Checker, RequirementArgumentError, StabilityAssertionError
@@ -386,3 +387,18 @@ def test_refusals_say_what_would_make_the_key_evaluable(repo):
     with pytest.raises(ModelError, match="must be square"):  # 1 output, 2 inputs
         Checker().check([[-1.0]], [[1.0, 1.0]], [[1.0]], [[0.0, 0.0]], loop="open",
                         stable=True)
+
+
+def test_the_command_line_fails_a_policy_margin_it_cannot_evaluate(tmp_path):
+    # a repository-wide phase-margin target over a loop and a plain model: the loop is
+    # measured (53.4°, passes 45), the plain model fails as not evaluated, never "ok"
+    root = make_repo(tmp_path)
+    (root / "pyproject.toml").write_text(
+        "[tool.eigengate]\nallow_python = true\ninclude = ['loop-calm.yaml', 'plain-calm.yaml']"
+        "\n\n[tool.eigengate.requirements]\nmin_phase_margin_deg = 45\n", encoding="utf-8")
+    done = run_cli("check", "--no-cache", ".", cwd=root)
+    assert done.returncode == 1, done.stdout + done.stderr
+    assert "min_phase_margin_deg cannot be evaluated" in done.stdout
+    assert "plain-calm.yaml" in done.stdout and "Traceback" not in done.stderr
+    alone = run_cli("check", "--no-cache", "loop-calm.yaml", cwd=root)
+    assert alone.returncode == 0, alone.stdout + alone.stderr
