@@ -79,17 +79,15 @@ def build_model(doc: Mapping[str, Any], ctx: _Ctx, name: str, label: str | None)
 def _loop(doc: Mapping[str, Any], ctx: _Ctx, parts: list[dict[str, Any]],
           requirements: tuple) -> Any:
     """LoopParts of a closed loop (with the ``loop:`` block applied), or None without one."""
-    from .loop_requirements import LOOP_RULES, parse_loop_block
+    from .applicability import refuse_unmet
+    from .loop_requirements import parse_loop_block
 
+    # a plant model provides a loop (with feedback) and nothing else: the rest is refused
+    refuse_unmet(requirements, ("loop",) if parts else (), ctx.err)
     if not parts:
         if "loop" in doc:
             raise ctx.err("loop", "needs a closed loop, but the model has no feedback block",
                           "add feedback (state_gain, output_gain or controller)")
-        needing = [r for r in requirements if r.rule in LOOP_RULES]
-        if needing:
-            key = needing[0].spec().split(":")[0]
-            raise ctx.err(f"requirements.{key}", "needs a closed loop to break, but the model "
-                          "has no feedback block", "add feedback, or remove the requirement")
         return None
     from .margins import LoopParts
 

@@ -28,12 +28,12 @@ each step at once; the defaults it does not restate are asserted by :meth:`Check
 from __future__ import annotations
 
 import os
-import reprlib
 import sys
 from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Iterable, Mapping, Sequence
 
+from ._assert_models import ARRAY_KEYS, Built, NotAModelError, build_models, refusal
 from ._assert_report import failure_report, requirement_origins, result_record
 from .errors import EigengateError, ModelError
 
@@ -45,10 +45,6 @@ if TYPE_CHECKING:  # pragma: no cover
 __all__ = ["StabilityAssertionError", "NotAModelError", "RequirementArgumentError", "Layer",
            "Checker", "Subject", "check", "of", "parse_layer", "result_record"]
 
-_ARRAY_KEYS = ("sample_period", "states", "inputs", "outputs", "name")
-_ACCEPTED = ("a square matrix A (numpy array or nested list), matrices A, B, C, D, a "
-             "python-control StateSpace or TransferFunction, an eigengate Model, or a model "
-             "file path")
 
 
 class StabilityAssertionError(AssertionError):
@@ -64,16 +60,6 @@ class StabilityAssertionError(AssertionError):
         return self.report
 
 
-class NotAModelError(EigengateError, TypeError):
-    """Something that does not describe a model was given; carries it as ``given``."""
-
-    def __init__(self, where: str, given: Any, hint: str | None = None) -> None:
-        self.where, self.given = where, given
-        text = (f"{where} expected a model ({_ACCEPTED}), got {type(given).__name__}: "
-                f"{_short(given)}")
-        super().__init__(text + (f" ({hint})" if hint else ""))
-
-
 class RequirementArgumentError(EigengateError, ValueError):
     """A requirement keyword (of a call, a chain step or a marker) has a bad key or value."""
 
@@ -86,12 +72,6 @@ class RequirementArgumentError(EigengateError, ValueError):
             text = f"{origin}: {key}={value!r}: {error.field or key} {error.problem}"
             text += f" ({error.hint})" if error.hint else ""
         super().__init__(text)
-
-
-def _short(value: Any) -> str:
-    r = reprlib.Repr()
-    r.maxstring, r.maxother, r.maxlist, r.maxdict = 50, 50, 4, 4
-    return r.repr(value)
 
 
 @dataclass(frozen=True)
@@ -121,44 +101,6 @@ def parse_layer(mapping: Mapping[str, Any], origin: str, label: str | None = Non
         reqs.extend(r)
         off.extend(o)
     return Layer(label or origin, tuple(reqs), tuple(off), tuple(str(k) for k in mapping))
-
-
-# ---------------------------------------------------------------------------- models
-def _kind_of(obj: Any) -> str:
-    return type(obj).__module__.split(".")[0]
-
-
-def _is_matrix(obj: Any) -> bool:
-    if isinstance(obj, (list, tuple)):
-        return True
-    return _kind_of(obj) == "numpy" and hasattr(obj, "shape") and hasattr(obj, "dtype") \
-        and getattr(obj, "ndim", 0) >= 1
-
-
-def _shape(obj: Any) -> str:
-    shape = getattr(obj, "shape", None)
-    if shape is None:
-        rows = len(obj)
-        cols = len(obj[0]) if rows and isinstance(obj[0], (list, tuple)) else 1
-        shape = (rows, cols)
-    return "×".join(str(s) for s in shape)
-
-
-def _describe(system: Sequence[Any], models: Sequence["Model"]) -> str:
-    first = system[0]
-    if len(system) > 1:
-        names = "ABCDE"
-        return "matrices " + ", ".join(f"{names[i]} ({_shape(m)})" for i, m in
-                                       enumerate(system) if m is not None)
-    if _is_matrix(first):
-        return f"{_shape(first)} matrix A"
-    if isinstance(first, (str, os.PathLike)):
-        return models[0].source if models else os.fspath(first)
-    if _kind_of(first) == "control":
-        n = models[0].n_states if models else "?"
-        return f"control.{type(first).__name__} ({n} states)"
-    m = models[0]
-    return f"eigengate Model {m.title}" + ("" if m.source.startswith("<") else f" ({m.source})")
 
 
 class Checker:
@@ -193,31 +135,41 @@ class Checker:
 
     # ---- front doors
     def check(self, *system: Any, operating_point: str | None = None,
-              on_uncertain: str | None = None, **kwargs: Any) -> tuple["ModelResult", ...]:
+              on_uncertain: str | None = None, loop: str | None = None,
+              **kwargs: Any) -> tuple["ModelResult", ...]:
         """Assert that the model meets the given requirements (and the defaults) now.
 
         ``kwargs`` are requirement keywords (``stable=True``, ``min_damping=0.3``, ...) plus,
         for matrices and python-control objects, ``sample_period``, ``states``, ``inputs``,
-        ``outputs`` and ``name``. Returns the results, one per operating point.
+        ``outputs`` and ``name``. ``loop="open"`` says that matrices or a python-control
+        object are the open-loop transfer ``L``: eigengate closes it with unity negative
+        feedback, margin keywords measure ``L``, the others judge the closed loop. A
+        requirement the model cannot be judged by (a margin of a system given as it is) is
+        refused with :class:`RequirementArgumentError`. Returns the results, one per
+        operating point.
         """
         __tracebackhide__ = True
-        build = {k: kwargs.pop(k) for k in _ARRAY_KEYS if k in kwargs}
-        models, what = self._models(system, operating_point, build, "stability.check()")
+        build = {k: kwargs.pop(k) for k in ARRAY_KEYS if k in kwargs}
+        built = self._models(system, operating_point, build, "stability.check()", loop)
         call = parse_layer(kwargs, "stability.check()", "this call")
-        return self._assert(models, what, self.defaults + (call,), on_uncertain,
+        return self._assert(built, self.defaults + (call,), on_uncertain,
                             use_file=True, context="stability.check()")
 
     def of(self, *system: Any, operating_point: str | None = None,
-           on_uncertain: str | None = None, **build: Any) -> "Subject":
-        """A subject to chain assertions on: ``of(sys).is_stable().min_damping(0.3)``."""
+           on_uncertain: str | None = None, loop: str | None = None,
+           **build: Any) -> "Subject":
+        """A subject to chain assertions on: ``of(sys).is_stable().min_damping(0.3)``;
+        ``loop="open"`` as in :meth:`check`."""
         __tracebackhide__ = True
-        bad = [k for k in build if k not in _ARRAY_KEYS]
+        bad = [k for k in build if k not in ARRAY_KEYS]
         if bad:
             raise TypeError(f"stability.of() got unexpected keyword {bad[0]!r}: requirements "
                             "go in the chain (.min_damping(0.3)) or in stability.check()")
-        models, what = self._models(system, operating_point, build, "stability.of()")
-        subject = Subject(self, models, what, on_uncertain, _caller())
-        if self.defaults or any(m.requirements for m in models):
+        built = self._models(system, operating_point, build, "stability.of()", loop)
+        # the defaults and the file's own are asserted later: refused now, at the call
+        self._refuse_unmet(built, self.defaults, "stability.of()", use_file=True)
+        subject = Subject(self, built, on_uncertain, _caller())
+        if self.defaults or any(m.requirements for m in built.models):
             self._pending.append(subject)
         return subject
 
@@ -230,93 +182,46 @@ class Checker:
 
     # ---- building models
     def _models(self, system: Sequence[Any], point: str | None, build: dict[str, Any],
-                where: str) -> tuple[list["Model"], str]:
+                where: str, loop: str | None) -> Built:
         __tracebackhide__ = True
         try:
-            return self._build(system, point, build, where)
+            return build_models(system, point, build, where, loop, self.search, self.config)
         except ModelError as exc:  # raised afresh here: the engine's frames say nothing
             raise ModelError(exc.source, exc.field, exc.problem, line=exc.line,
                              hint=exc.hint) from None
 
-    def _build(self, system: Sequence[Any], point: str | None, build: dict[str, Any],
-               where: str) -> tuple[list["Model"], str]:
+    def _refuse_unmet(self, built: Built, layers: Sequence[Layer], context: str, *,
+                      use_file: bool, only: set[str] | None = None) -> None:
+        """Raise :class:`RequirementArgumentError` for the first requirement that a model of
+        ``built`` cannot be judged by: it is never passed over."""
         __tracebackhide__ = True
-        if not system:
-            raise TypeError(f"{where} needs a model: {_ACCEPTED}")
-        if len(system) > 5:
-            raise TypeError(f"{where} takes at most 5 matrices (A, B, C, D, E), got "
-                            f"{len(system)} arguments")
-        first = system[0]
-        if len(system) > 1 or _is_matrix(first):
-            for obj in system:
-                if obj is not None and not _is_matrix(obj):
-                    raise NotAModelError(where, obj, "each of A, B, C, D must be a matrix")
-            from .model import from_arrays
+        from .applicability import first_missing, provided, unmet_for
+        from .requirements import apply_layers
 
-            models = [from_arrays(*system, **build)]
-        elif _kind_of(first) == "control":
-            from .model import from_control
-
-            models = [from_control(first, **build)]
-        else:
-            from .model import Model
-
-            if isinstance(first, Model):
-                models = [first]
-            elif isinstance(first, (str, os.PathLike)) and not isinstance(first, bytes):
-                models = self._load(first, where)
-            else:
-                hint = "wrap a one-state model as [[a]]" if isinstance(first, (int, float)) \
-                    else None
-                raise NotAModelError(where, first, hint)
-            if build:
-                raise TypeError(f"{where}: {', '.join(build)} apply to matrices and "
-                                "python-control objects only; a model or model file brings "
-                                "its own")
-        if point is not None:
-            chosen = [m for m in models if m.label == point]
-            if not chosen:
-                labels = ", ".join(repr(m.label) for m in models if m.label) or "none"
-                raise ModelError(models[0].source, "operating_points",
-                                 f"has no operating point labelled {point!r}",
-                                 hint=f"labels: {labels}")
-            models = chosen
-        return models, _describe(system, models)
-
-    def _load(self, path: str | os.PathLike[str], where: str) -> list["Model"]:
-        __tracebackhide__ = True
-        from .loader import load_models
-
-        given = Path(path)
-        candidates = [given] if given.is_absolute() else [d / given for d in self.search]
-        found = next((c for c in candidates if c.is_file()), None)
-        if found is None:
-            looked = ", ".join(str(c.parent) for c in candidates)
-            raise ModelError(os.fspath(path), "", "does not exist", hint=f"{where} looked in "
-                             f"{looked}")
-        root = None
-        if self.config is not None:
-            try:
-                found.resolve().relative_to(self.config.root.resolve())
-                root = self.config.root
-            except ValueError:
-                root = None
-        models = load_models(found, root=root, allow_python=True)
-        if self.config is not None and root is not None:
-            models = [self.config.effective(m) for m in models]
-        return models
+        for model in built.models:
+            base = (model.requirements, model.disabled) if use_file else ((), ())
+            reqs = apply_layers([base] + [(lay.requirements, lay.off) for lay in layers])
+            reqs = tuple(r for r in reqs if only is None or r.rule in only)
+            for req, why in unmet_for(model, reqs, together=built.models):
+                have = provided(model)
+                need = first_missing(req.needs, have) if req.needs not in have else ""
+                origin = requirement_origins(model, (req,), layers, use_file)[req.rule]
+                raise RequirementArgumentError(context, req.info.key, None, problem=refusal(
+                    req.info.key, why, need, built, origin))
 
     # ---- evaluation
-    def _assert(self, models: Sequence["Model"], what: str, layers: Sequence[Layer],
-                on_uncertain: str | None, *, use_file: bool, context: str,
+    def _assert(self, built: Built, layers: Sequence[Layer], on_uncertain: str | None, *,
+                use_file: bool, context: str,
                 only: Iterable[str] | None = None) -> tuple["ModelResult", ...]:
         __tracebackhide__ = True
         from .engine import check_model
         from .requirements import apply_layers
 
         only = None if only is None else set(only)
+        self._refuse_unmet(built, layers, context, use_file=use_file, only=only)
+        what = built.what
         results, failures, checked = [], [], 0
-        for model in models:
+        for model in built.models:
             base = (model.requirements, model.disabled) if use_file else ((), ())
             reqs = apply_layers([base] + [(lay.requirements, lay.off) for lay in layers])
             if only is not None:
@@ -353,12 +258,13 @@ class Subject:
     """Chained assertions on one model (or each operating point of a model file). Each step
     asserts at once and returns the subject; ``spectrum`` and ``results`` give the figures."""
 
-    def __init__(self, checker: Checker, models: Sequence["Model"], what: str,
-                 on_uncertain: str | None, where: str = "") -> None:
+    def __init__(self, checker: Checker, built: Built, on_uncertain: str | None,
+                 where: str = "") -> None:
         self._checker = checker
         self.where = where
-        self.models = tuple(models)
-        self.what = what
+        self._built = built
+        self.models = built.models
+        self.what = built.what
         self._on_uncertain = on_uncertain
         self._stated: set[str] = set()
 
@@ -438,7 +344,7 @@ class Subject:
 
         self._stated.update(rule_by_key(k).id for k in mapping)
         if layer.requirements:
-            self._checker._assert(self.models, self.what, (layer,), self._on_uncertain,
+            self._checker._assert(self._built, (layer,), self._on_uncertain,
                                   use_file=False, context=f"stability.of(){label}")
         return self
 
@@ -454,7 +360,7 @@ class Subject:
         if not left:
             return
         try:
-            self._checker._assert(self.models, self.what, layers, self._on_uncertain,
+            self._checker._assert(self._built, layers, self._on_uncertain,
                                   use_file=True, context="stability.of()", only=left)
         except StabilityAssertionError as exc:
             where = f" at {self.where}" if self.where else ""

@@ -3,11 +3,12 @@ nonlinear models (EG401–EG404), with the parsers of their model-file keys.
 
 They are ordinary :class:`~eigengate.requirements.Requirement` objects: ``check`` reads the
 model behind the spectrum (``model.loop_parts`` for margins, ``model.nonlinear`` for
-equilibria) and returns a :class:`~eigengate.rules.Verdict`. A model without a loop (or
-without a vector field) gets a passing ``n/a`` verdict, so a repository-wide margin target
-does not fail models it cannot apply to; a model file that asks for a margin without a loop is
-refused by the loader. A closed loop that is unstable fails every margin requirement before
-any margin is quoted. Heavy modules are imported inside ``check``.
+equilibria) and returns a :class:`~eigengate.rules.Verdict`. Each names what it needs
+(``needs``); a model without it (a margin target on a model without a loop, say) gets a
+failing "cannot be evaluated" verdict (:mod:`eigengate.applicability`), never a pass, and a
+model file or a fixture call that asks for it is refused. A closed loop that is unstable
+fails every margin requirement before any margin is quoted. Heavy modules are imported
+inside ``check``.
 """
 
 from __future__ import annotations
@@ -16,6 +17,7 @@ import math
 from dataclasses import dataclass
 from typing import Any, Callable, Mapping, Sequence
 
+from .applicability import not_evaluable, why_not
 from .equilibrium import EQUILIBRIUM_TYPES, side
 from .errors import ModelError
 from .requirements import Requirement
@@ -43,21 +45,23 @@ def _w(x: float | None) -> str:
     return "none" if x is None else ("∞" if math.isinf(x) else f"{x:.4g} rad/s")
 
 
-def _na(req: Requirement, threshold: Any, why: str):
-    """A passing 'not applicable' verdict."""
+def _elsewhere(req: Requirement, threshold: Any, why: str):
+    """A passing verdict of a point whose set-level requirement is judged on another."""
     return req._verdict(passed=True, uncertain=False, measured="n/a", threshold=threshold,
                         margin=None, offending=(), message=why)
 
 
 class _LoopRequirement(Requirement):
-    """Common path: no loop → n/a; unstable closed loop → fail; else ``_measure``."""
+    """Common path: no loop → cannot be evaluated; unstable closed loop → fail; else
+    ``_measure``."""
+
+    needs = "loop"
 
     def check(self, modes, spectrum, on_uncertain):
         model = spectrum.model
         parts = getattr(model, "loop_parts", None)
         if parts is None:
-            return _na(self, self._threshold(), "no feedback loop to break: the model has no "
-                       "feedback block")
+            return not_evaluable(self, why_not(self, model))
         bad = [m for m in spectrum.modes if side(m) >= 0]
         if bad:
             n_out = sum(m.count for m in bad if side(m) > 0)
@@ -204,14 +208,16 @@ class MinDiskMargin(_LoopRequirement):
 class _SetRequirement(Requirement):
     """Reads the equilibrium search of ``model.nonlinear`` (once per parameter set)."""
 
+    needs = "equilibria box"
+
     def check(self, modes, spectrum, on_uncertain):
         info = getattr(spectrum.model, "nonlinear", None)
-        if info is None or not info.carrier:
-            return _na(self, self._threshold(), "the model has no vector field" if info is None
-                       else f"checked once per parameter set, on {info.carrier_label!r}")
+        if info is None or info.box is None:
+            return not_evaluable(self, why_not(self, spectrum.model))
+        if not info.carrier:
+            return _elsewhere(self, self._threshold(), "checked once per parameter set, on "
+                              f"{info.carrier_label!r}")
         search = info.search()
-        if search is None:
-            return _na(self, self._threshold(), "no box declared (vector_field.equilibria)")
         if not search.equilibria and self.rule != "EG403":
             return self._verdict(passed=on_uncertain == "pass", uncertain=True,
                                  measured="none found", threshold=self._threshold(),
@@ -303,6 +309,7 @@ class EquilibriumAt(Requirement):
     points: tuple[tuple[tuple[float, ...], str], ...]
     tolerance: float = 1e-6
     rule = "EG402"
+    needs = "vector field"
 
     def spec(self):
         inner = ", ".join(f"{{x: {list(x)}, type: {t}}}" for x, t in self.points)
@@ -310,9 +317,11 @@ class EquilibriumAt(Requirement):
 
     def check(self, modes, spectrum, on_uncertain):
         info = getattr(spectrum.model, "nonlinear", None)
-        if info is None or not info.carrier:
-            return _na(self, self.spec(), "the model has no vector field" if info is None else
-                       f"checked once per parameter set, on {info.carrier_label!r}")
+        if info is None:
+            return not_evaluable(self, why_not(self, spectrum.model))
+        if not info.carrier:
+            return _elsewhere(self, self.spec(), "checked once per parameter set, on "
+                              f"{info.carrier_label!r}")
         wrong, unsure, found = [], False, []
         for x, expected in self.points:
             try:

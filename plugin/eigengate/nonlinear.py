@@ -322,9 +322,13 @@ def _numbers(value: Any, ctx: Any, path: str, size: int | None) -> tuple[float, 
     return tuple(float(v) for v in value)
 
 
+_NO_LOOP = "a vector field has no loop to break: remove the requirement"
+
+
 def load_vector_field(data: Mapping[str, Any], ctx: Any, name: str,
                       parse_requirements: Callable[..., tuple]) -> list[Model]:
     """Models of a model file with a ``vector_field`` block (called by the loader)."""
+    from .applicability import refuse_unmet
     from .loader import _check_keys, _mapping
     from .loop_requirements import LOOP_RULES, POINT_RULES, SET_RULES
     from .requirements import apply_layers
@@ -391,15 +395,17 @@ def load_vector_field(data: Mapping[str, Any], ctx: Any, name: str,
         box = (lo, hi, _numbers(eq.get("u", [0.0] * m), ctx, "vector_field.equilibria.u", m),
                starts, tol[0] if "tolerance" in eq else None)
     top, top_off, known = parse_requirements(data, ctx, states)
-    if any(r.rule in LOOP_RULES for r in top):
-        raise ctx.err("requirements", "asks for loop margins, but a vector field has no loop")
+    for r in [r for r in top if r.rule in LOOP_RULES][:1]:
+        raise ctx.err(f"requirements.{r.info.key}", "asks for a loop margin, but a vector field "
+                      "has no loop", _NO_LOOP)
     points = block.get("at")
     if points is None and box is None:
         raise ctx.err("vector_field", "needs at (operating points) or equilibria (a box to "
                       "search)", "add at: [{label: ..., x: [...]}]")
-    if any(r.rule in SET_RULES for r in top) and box is None:
-        raise ctx.err("vector_field.equilibria", "is missing, but the requirements count or "
-                      "classify the equilibria in a box", "add equilibria: {box: {...}}")
+    for r in [r for r in top if r.rule in SET_RULES and box is None][:1]:
+        raise ctx.err("vector_field.equilibria", f"is missing, but requirements.{r.info.key} "
+                      "counts or classifies the equilibria in a box",
+                      "add equilibria: {box: {...}}")
     at: list[tuple[str, tuple, tuple, tuple, tuple]] = []
     if points is not None:
         if not isinstance(points, list) or not points:
@@ -414,6 +420,8 @@ def load_vector_field(data: Mapping[str, Any], ctx: Any, name: str,
             seen.add(label)
             pctx = dataclasses.replace(ctx, prefix=ctx.prefix + f"{path} (label {label!r}).")
             own = parse_requirements({"requirements": p.get("requirements", {})}, pctx, states)
+            refuse_unmet(own[0], ("vector field",) + (("equilibria box",) if box else ()),
+                         pctx.err, hints={"loop": _NO_LOOP})
             at.append((label, _numbers(p.get("x"), ctx, f"{path}.x", n),
                        _numbers(p.get("u", [0.0] * m), ctx, f"{path}.u", m), *own[:2]))
     models: list[Model] = []  # product() of no grids is one empty combination: no sweep

@@ -32,9 +32,9 @@ _MARKERS = (
     f"{REQUIREMENTS_MARK}(**requirements): default stability requirements for every model "
     "checked through the `stability` fixture in this test, class or module; the closest "
     "marker wins key by key, the call itself wins over all. Keys as in a model file's "
-    "requirements: stable, min_decay_rate, min_damping, max_frequency, pole_region, "
-    f"equilibrium, no_saddle, directions. Example: @pytest.mark.{REQUIREMENTS_MARK}"
-    "(stable=True, min_damping=0.3)",
+    "requirements (stable, min_damping, ..., margins for a loop given with loop='open'); a "
+    "key the model cannot be judged by is refused, never passed over. Example: "
+    f"@pytest.mark.{REQUIREMENTS_MARK}(stable=True, min_damping=0.3)",
     f"{EQUILIBRIUM_MARK}(kind): the origin of every model checked through the `stability` "
     "fixture is of this type (saddle, stable-node, unstable-node, stable-focus, "
     "unstable-focus, center, degenerate, non-hyperbolic). Example: "

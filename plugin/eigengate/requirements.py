@@ -32,6 +32,9 @@ class Requirement:
     """Base class: subclasses set ``rule`` and implement :meth:`check`."""
 
     rule: str = ""
+    #: What the model must provide besides its matrices ("" for nothing); see
+    #: :mod:`eigengate.applicability`.
+    needs: str = ""
 
     @property
     def info(self) -> Rule:
@@ -348,7 +351,8 @@ def evaluate(spectrum: Spectrum, requirements: Sequence[Requirement] | None = No
     """Evaluate requirements (default: the model's own) on a spectrum.
 
     Known modes (default: the model's own) are taken out first; when any are declared, a
-    known-modes verdict comes first in the result.
+    known-modes verdict comes first in the result. A requirement the model cannot be judged
+    by (a margin without a loop, say) gets a failing verdict that says why.
     """
     model = spectrum.model
     reqs = model.requirements if requirements is None else tuple(requirements)
@@ -356,9 +360,13 @@ def evaluate(spectrum: Spectrum, requirements: Sequence[Requirement] | None = No
     policy = on_uncertain or model.on_uncertain or "fail"
     if policy not in ("fail", "pass"):
         raise ValueError(f"on_uncertain must be 'fail' or 'pass', got {policy!r}")
+    from .applicability import not_evaluable, unmet_for
+
     modes, taken = split_known_modes(spectrum, known)
     out = [known_modes_verdict(taken)] if known else []
-    out.extend(r.check(modes, spectrum, policy) for r in reqs)
+    refused = {id(r): why for r, why in unmet_for(model, reqs)}  # fail, never pass unseen
+    out.extend(r.check(modes, spectrum, policy) if id(r) not in refused else
+               not_evaluable(r, refused[id(r)]) for r in reqs)
     return tuple(out)
 
 

@@ -76,11 +76,16 @@ def test_bad_loop_input_is_a_clear_model_error(change, field, words):
     assert info.value.source == "shade.yaml"
 
 
-def test_margin_requirement_on_a_model_without_loop_is_not_applicable():
-    # a repository-wide margin target must not fail open-loop models
+def test_margin_requirement_on_a_model_without_loop_fails_as_not_evaluated():
+    # a margin target (a repository-wide one, say) on a model with no loop is never a pass
+    from eigengate.requirements import evaluate
+
     spectrum = analyse(from_arrays([[-1.0]]))
-    v = MinPhaseMargin(45.0).check(spectrum.modes, spectrum, "fail")
-    assert v.passed and v.measured == "n/a" and "no feedback" in v.message
+    direct = MinPhaseMargin(45.0).check(spectrum.modes, spectrum, "fail")
+    (v,) = evaluate(spectrum, [MinPhaseMargin(45.0)])
+    for verdict in (direct, v):
+        assert not verdict.passed and verdict.measured == "not evaluated"
+        assert "cannot be evaluated" in verdict.message and "no feedback" in verdict.message
 
 
 def test_state_feedback_loop_breaks_at_the_plant_input():
