@@ -12,20 +12,20 @@ from typing import Any
 __version__ = "0.1.0"
 
 _EXPORTS = {
-    "Model": "model", "from_arrays": "model", "from_control": "model",
+    "Model": "model.core", "from_arrays": "model.core", "from_control": "model.core",
     "ModelError": "errors", "EigengateError": "errors",
-    "load_models": "loader",
-    "Mode": "modes", "Spectrum": "modes", "analyse": "modes",
-    "Equilibrium": "equilibrium", "classify": "equilibrium",
-    "Verdict": "requirements", "Requirement": "requirements", "Stability": "requirements",
-    "MinDecayRate": "requirements", "MinDamping": "requirements",
-    "MaxFrequency": "requirements", "PoleRegion": "requirements",
-    "EquilibriumType": "requirements", "NoSaddle": "requirements",
-    "DirectionCounts": "requirements", "KnownMode": "known_modes",
-    "evaluate": "requirements", "RULES": "rules", "Rule": "rules",
-    "Finding": "findings",
-    "check_model": "engine", "check_file": "engine", "check_paths": "engine",
-    "ModelResult": "engine", "FileResult": "engine",
+    "load_models": "load.loader",
+    "Mode": "analysis.modes", "Spectrum": "analysis.modes", "analyse": "analysis.modes",
+    "Equilibrium": "analysis.equilibrium", "classify": "analysis.equilibrium",
+    "Verdict": "rules.requirements", "Requirement": "rules.requirements", "Stability": "rules.requirements",
+    "MinDecayRate": "rules.requirements", "MinDamping": "rules.requirements",
+    "MaxFrequency": "rules.requirements", "PoleRegion": "rules.requirements",
+    "EquilibriumType": "rules.requirements", "NoSaddle": "rules.requirements",
+    "DirectionCounts": "rules.requirements", "KnownMode": "rules.known_modes",
+    "evaluate": "rules.requirements", "RULES": "rules.catalogue", "Rule": "rules.catalogue",
+    "Finding": "rules.findings",
+    "check_model": "scan.engine", "check_file": "scan.engine", "check_paths": "scan.engine",
+    "ModelResult": "scan.engine", "FileResult": "scan.engine",
 }
 
 __all__ = sorted(_EXPORTS) + ["__version__"]

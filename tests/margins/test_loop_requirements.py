@@ -4,12 +4,12 @@ import math
 
 import pytest
 
-from eigengate.engine import check_model
+from eigengate.scan.engine import check_model
 from eigengate.errors import ModelError
-from eigengate.loader import load_document
-from eigengate.loop_requirements import MinPhaseMargin
-from eigengate.model import from_arrays
-from eigengate.modes import analyse
+from eigengate.load.loader import load_document
+from eigengate.rules.loop_requirements import MinPhaseMargin
+from eigengate.model.core import from_arrays
+from eigengate.analysis.modes import analyse
 
 # An invented greenhouse shade-motor loop: the classic K/(s(s+1)(s+2)) shape.
 BASE = {
