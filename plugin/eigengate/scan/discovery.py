@@ -13,12 +13,13 @@ import os
 from pathlib import Path
 from typing import TYPE_CHECKING, Callable, NamedTuple, Sequence
 
-from .engine import MODEL_SUFFIXES
 
 if TYPE_CHECKING:  # pragma: no cover
     from .config import Config
 
-__all__ = ["FoundFile", "find_model_files"]
+__all__ = ["FoundFile", "find_model_files", "MODEL_SUFFIXES"]
+
+MODEL_SUFFIXES = (".yaml", ".yml", ".toml", ".json")
 
 #: Bytes of a file read to tell whether it is a model file; a model file read whole while
 #: discovering it is kept (for the cache key) up to this many bytes.

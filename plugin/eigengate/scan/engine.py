@@ -9,6 +9,7 @@ from typing import TYPE_CHECKING, Iterable, Sequence
 from ..errors import ModelError
 from ..rules.findings import Finding, error_finding, findings_of
 from ..model.core import Model
+from .discovery import MODEL_SUFFIXES  # re-exported: the suffixes live with discovery
 
 if TYPE_CHECKING:  # pragma: no cover
     import datetime
@@ -19,7 +20,6 @@ __all__ = ["ModelResult", "FileResult", "analyse_model", "apply_waivers", "check
            "analyse_file", "file_result", "check_file", "check_paths",
            "discover_model_files", "policy_findings", "MODEL_SUFFIXES"]
 
-MODEL_SUFFIXES = (".yaml", ".yml", ".toml", ".json")
 
 
 @dataclass(frozen=True, eq=False)
