@@ -243,7 +243,7 @@ def pytest_configure(config: pytest.Config) -> None:
         _baseline_or_usage_error(config, s)
     from .summary import Reporter
 
-    config.pluginmanager.register(Reporter(config), "eigengate-reporter")
+    config.pluginmanager.register(Reporter(config, s, _baseline_error), "eigengate-reporter")
 
 
 def pytest_report_header(config: pytest.Config) -> str | None:

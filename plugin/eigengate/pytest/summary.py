@@ -2,11 +2,10 @@
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING, Any, Callable
 
 import pytest
 
-from .plugin import _baseline_error, settings_key
 
 if TYPE_CHECKING:  # pragma: no cover
     from .collector import BaselineTally
@@ -16,8 +15,11 @@ class Reporter:
     """Gathers the records carried by reports (on the controller under xdist): JUnit suite
     properties and the terminal summary of failing models."""
 
-    def __init__(self, config: pytest.Config) -> None:
+    def __init__(self, config: pytest.Config, settings: Any,
+                 baseline_error: Callable[[Any, pytest.Config], str]) -> None:
         self.config = config
+        self.settings = settings  # the plugin's per-run Settings (given, so no import goes up)
+        self._baseline_error = baseline_error
         self.failing: list[tuple[str, dict[str, Any]]] = []
         self._tally: "BaselineTally | None" = None
 
@@ -88,11 +90,11 @@ class Reporter:
         from ..baseline.store import BaselineError
 
         config, option = self.config, self.config.option
-        s = config.stash[settings_key]
+        s = self.settings
         try:
             baseline = s.baseline.baseline()
         except BaselineError as exc:
-            return [f"baseline not read: {_baseline_error(exc, config)}"]
+            return [f"baseline not read: {self._baseline_error(exc, config)}"]
         # the paths and eigengate options as given, for the commands the summary prints
         paths = list(config.args) if config.args_source == pytest.Config.ArgsSource.ARGS \
             else []
