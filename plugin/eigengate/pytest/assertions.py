@@ -30,11 +30,11 @@ from __future__ import annotations
 import os
 import reprlib
 import sys
-from dataclasses import dataclass, replace
+from dataclasses import replace
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Iterable, Mapping, Sequence
 
-from .failure_report import failure_report, requirement_origins, result_record
+from .failure_report import Layer, failure_report, requirement_origins, result_record
 from ..errors import EigengateError, ModelError
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -92,17 +92,6 @@ def _short(value: Any) -> str:
     r = reprlib.Repr()
     r.maxstring, r.maxother, r.maxlist, r.maxdict = 50, 50, 4, 4
     return r.repr(value)
-
-
-@dataclass(frozen=True)
-class Layer:
-    """Parsed requirements of one source (``origin`` says where, for reports): the
-    requirements, the rule ids switched off with ``False``, and the keys given."""
-
-    origin: str
-    requirements: tuple = ()
-    off: tuple[str, ...] = ()
-    keys: tuple[str, ...] = ()
 
 
 def parse_layer(mapping: Mapping[str, Any], origin: str, label: str | None = None) -> Layer:

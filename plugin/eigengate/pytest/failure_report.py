@@ -3,13 +3,24 @@
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any, Sequence
 
 if TYPE_CHECKING:  # pragma: no cover
-    from .assertions import Layer
     from ..scan.engine import ModelResult
     from ..rules.findings import Finding
     from ..model.core import Model
+
+
+@dataclass(frozen=True)
+class Layer:
+    """Parsed requirements of one source (``origin`` says where, for reports): the
+    requirements, the rule ids switched off with ``False``, and the keys given."""
+
+    origin: str
+    requirements: tuple = ()
+    off: tuple[str, ...] = ()
+    keys: tuple[str, ...] = ()
 
 
 def requirement_origins(model: "Model", reqs: Sequence[Any], layers: Sequence[Layer],
