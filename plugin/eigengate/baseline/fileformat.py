@@ -23,7 +23,7 @@ from ..model.formats import DuplicateKey, unique_pairs
 from ..errors import EigengateError
 
 if TYPE_CHECKING:  # pragma: no cover
-    from .store import Entry
+    from .entries import Entry
 
 __all__ = ["BaselineError", "fmt_float", "dump_text", "parse", "ensure_folder", "locked"]
 
@@ -238,7 +238,7 @@ def _kind(v: Any) -> str:
 def parse(text: str, path: str) -> tuple[list["Entry"], Mapping[tuple[str, str], int]]:
     """Entries of a baseline file and the line of each (found when asked for); raises
     :class:`BaselineError`."""
-    from .store import BaselineMode, Entry
+    from .entries import BaselineMode, Entry
     from ..analysis.equilibrium import EQUILIBRIUM_TYPES
 
     hint = "restore the file from version control, or accept again"

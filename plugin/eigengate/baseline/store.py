@@ -34,7 +34,7 @@ from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any, Iterable, Iterator, Mapping
 
-from ..analysis.modes import ModeFigures
+from .entries import BaselineMode, Entry, Key
 from .fileformat import DIGITS, FORMAT_VERSION, BaselineError, fmt_float
 
 __all__ = ["DEFAULT_PATH", "FORMAT_VERSION", "DIGITS", "Baseline", "BaselineError",
@@ -48,73 +48,10 @@ TOP_STATES = 3
 #: Seconds to wait for another process's lock before giving up.
 LOCK_TIMEOUT = 120.0
 
-Key = tuple[str, str]  # (source, title)
-
-
 def _r(x: float, digits: int = DIGITS) -> float:
     """``x`` rounded to ``digits`` significant digits (what the file can hold)."""
     x = float(x)
     return float(format(x, f".{digits}g")) + 0.0 if math.isfinite(x) else x
-
-
-@dataclass(frozen=True)
-class BaselineMode(ModeFigures):
-    """One accepted mode; the attribute names match :class:`~eigengate.analysis.modes.Mode`."""
-
-    eigenvalue: complex
-    s: complex
-    multiplicity: int
-    pair: bool
-    defective: bool
-    damping_ratio: float
-    natural_frequency: float
-    time_constant: float
-    uncertainty: float
-    condition: float
-    states: tuple[tuple[str, float], ...]
-
-    def row(self, index: int) -> Any:
-        """This mode as a :class:`~eigengate.rules.findings.ModeRow` (``index`` is 1-based)."""
-        from ..rules.findings import ModeRow
-
-        return ModeRow(index=index, eigenvalue=self.eigenvalue, s=self.s, pair=self.pair,
-                       multiplicity=self.multiplicity, defective=self.defective,
-                       damping_ratio=self.damping_ratio,
-                       natural_frequency=self.natural_frequency,
-                       time_constant=self.time_constant, uncertainty=self.uncertainty,
-                       condition=self.condition, top_states=self.states)
-
-
-@dataclass(frozen=True)
-class Entry:
-    """The accepted state of one model (one operating point)."""
-
-    source: str
-    title: str
-    domain: str
-    sample_period: float | None
-    modes: tuple[BaselineMode, ...]
-    spectral_abscissa: float
-    spectral_radius: float
-    min_damping: float
-    equilibrium: str
-    stable: int
-    unstable: int
-    center: int
-    written_by: str
-
-    @property
-    def key(self) -> Key:
-        return (self.source, self.title)
-
-    @property
-    def name(self) -> str:
-        return self.title.split("[", 1)[0] if self.title.endswith("]") else self.title
-
-    @property
-    def label(self) -> str | None:
-        return self.title.split("[", 1)[1][:-1] if self.title.endswith("]") and "[" in \
-            self.title else None
 
 
 def _complex(z: complex) -> complex:
