@@ -15,10 +15,6 @@ from ..errors import ModelError
 if TYPE_CHECKING:  # pragma: no cover
     import numpy as np
 
-    from ..rules.known_modes import KnownMode
-    from ..rules.requirements import Requirement
-    from ..rules.waivers import Waiver
-
 __all__ = ["Model", "from_arrays", "from_control", "as_matrix", "MAX_STATES"]
 
 #: Largest number of states a model may have (dense eigen-decomposition stays in seconds).
@@ -52,11 +48,11 @@ class Model:
     label: str | None = None
     source: str = "<arrays>"
     structure: str = "state-space"
-    requirements: tuple["Requirement", ...] = ()
-    known_modes: tuple["KnownMode", ...] = ()
+    requirements: tuple[Any, ...] = ()
+    known_modes: tuple[Any, ...] = ()
     on_uncertain: str | None = None
     disabled: tuple[str, ...] = ()
-    waivers: tuple["Waiver", ...] = ()
+    waivers: tuple[Any, ...] = ()
     lines: Mapping[str, int] = field(default_factory=dict)
     allowed_drift: Mapping[str, Any] | None = None  # regression tolerances of the model file
     #: Plant and controller kept apart (:class:`eigengate.analysis.margins.LoopParts`) when the loader
@@ -214,11 +210,11 @@ def from_arrays(
     label: str | None = None,
     source: str = "<arrays>",
     structure: str = "state-space",
-    requirements: Sequence["Requirement"] = (),
-    known_modes: Sequence["KnownMode"] = (),
+    requirements: Sequence[Any] = (),
+    known_modes: Sequence[Any] = (),
     on_uncertain: str | None = None,
     disabled: Sequence[str] = (),
-    waivers: Sequence["Waiver"] = (),
+    waivers: Sequence[Any] = (),
     lines: Mapping[str, int] | None = None,
     prefix: str = "",
 ) -> Model:
