@@ -6,7 +6,7 @@ import dataclasses
 from typing import Any, Mapping
 
 from ..model.formats import suggest
-from .loader import (CONTROLLER_SS_KEYS, CONTROLLER_TF_KEYS, FEEDBACK_KEYS, FEEDBACK_KINDS,
+from .context import (CONTROLLER_SS_KEYS, CONTROLLER_TF_KEYS, FEEDBACK_KEYS, FEEDBACK_KINDS,
                      SS_KEYS, TF_KEYS, _check_keys, _Ctx, _mapping, _requirements)
 from ..model.core import Model, as_matrix, from_arrays
 
