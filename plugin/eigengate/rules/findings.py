@@ -7,16 +7,23 @@ loaded. Reports render findings; they never look at matrices or verdicts themsel
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Iterable
+from typing import TYPE_CHECKING, Iterable, Protocol
 
 if TYPE_CHECKING:  # pragma: no cover
-    from ..scan.config import Config
     from ..errors import ModelError
     from ..model.core import Model
     from ..analysis.modes import Mode
     from .catalogue import Verdict
 
-__all__ = ["Finding", "ModeRow", "findings_of", "error_finding", "INVALID_RULE"]
+__all__ = ["Finding", "ModeRow", "findings_of", "error_finding", "INVALID_RULE", "RulePolicy"]
+
+
+class RulePolicy(Protocol):
+    """What findings need of the repository policy (:class:`eigengate.scan.config.Config`)."""
+
+    def rule_enabled(self, rule: str) -> bool: ...
+
+    def severity_of(self, rule: str) -> str: ...
 
 #: The note every report gives a finding whose value is within its error bound of the threshold.
 UNCERTAIN_NOTE = "numerically uncertain: a value lies within its error bound of the threshold"
@@ -82,7 +89,7 @@ class Finding:
 
 
 def findings_of(model: "Model", verdicts: Iterable["Verdict"],
-                config: "Config | None" = None) -> list[Finding]:
+                config: RulePolicy | None = None) -> list[Finding]:
     """Findings for one analysed model: every failed verdict (severity from the configuration,
     ``error`` by default) and every verdict that passed only by the on_uncertain=pass policy
     (warning)."""
