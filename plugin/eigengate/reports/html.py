@@ -19,7 +19,7 @@ from .html_parts import _CSS, _STATUS_WORD, _e, _finding, _img, _mode_rows_table
 from .figures import ReportDependencyError
 
 if TYPE_CHECKING:  # pragma: no cover
-    from ..scan.engine import FileResult, ModelResult
+    from ..rules.results import FileResult, ModelResult
     from ..rules.findings import Finding
 
 __all__ = ["render_html", "CAUTION", "ReportDependencyError", "DEFAULT_MAX_IMAGES",

@@ -16,7 +16,7 @@ from .portrait import (_null_vector, can_draw_phase_portrait, phase_portrait_fig
                        phase_portrait_png)
 
 if TYPE_CHECKING:  # pragma: no cover
-    from ..scan.engine import ModelResult
+    from ..rules.results import ModelResult
 
 __all__ = ["ReportDependencyError", "AllowedRegion", "allowed_region", "pole_map_png",
            "pole_map_svg", "phase_portrait_png", "pole_map_figure", "phase_portrait_figure",

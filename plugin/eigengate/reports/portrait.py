@@ -9,7 +9,7 @@ from .figures import (_GRID, _INK, _MUTED, _STABLE_DIR, _UNSTABLE_DIR, _new_figu
                        _require, _style)
 
 if TYPE_CHECKING:  # pragma: no cover
-    from ..scan.engine import ModelResult
+    from ..rules.results import ModelResult
 
 __all__ = ["can_draw_phase_portrait", "phase_portrait_figure", "phase_portrait_png"]
 

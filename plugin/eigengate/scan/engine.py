@@ -2,12 +2,13 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+
 from pathlib import Path
 from typing import TYPE_CHECKING, Iterable, Sequence
 
 from ..errors import ModelError
 from ..rules.findings import Finding, error_finding, findings_of
+from ..rules.results import FileResult, ModelResult
 from ..model.core import Model
 from .discovery import MODEL_SUFFIXES  # re-exported: the suffixes live with discovery
 
@@ -20,46 +21,6 @@ __all__ = ["ModelResult", "FileResult", "analyse_model", "apply_waivers", "check
            "analyse_file", "file_result", "check_file", "check_paths",
            "discover_model_files", "policy_findings", "MODEL_SUFFIXES"]
 
-
-
-@dataclass(frozen=True, eq=False)
-class ModelResult:
-    """Analysis of one model (one operating point)."""
-
-    model: Model
-    spectrum: "object"
-    equilibrium: "object"
-    verdicts: tuple
-    findings: tuple[Finding, ...]
-    waived: tuple[Finding, ...] = ()
-    used_waivers: tuple = ()
-
-    @property
-    def passed(self) -> bool:
-        """No finding of severity error (waived findings do not count)."""
-        return not any(f.severity == "error" for f in self.findings)
-
-
-@dataclass(frozen=True, eq=False)
-class FileResult:
-    """Everything learnt from one model file: a result per operating point, or an error.
-
-    ``findings`` holds the findings of every operating point plus the file's own (invalid
-    file, expired or unused waivers of the file).
-    """
-
-    source: str
-    results: tuple[ModelResult, ...] = ()
-    error: ModelError | None = None
-    findings: tuple[Finding, ...] = field(default=())
-
-    @property
-    def passed(self) -> bool:
-        return not any(f.severity == "error" for f in self.findings)
-
-    @property
-    def used_waivers(self) -> tuple:
-        return tuple(w for r in self.results for w in r.used_waivers)
 
 
 def analyse_model(model: Model, config: "Config | None" = None) -> ModelResult:
