@@ -87,7 +87,7 @@ def _num(x: Any, digits: int = 4, unit: str = "") -> str:
 
 
 def _ev(z: complex, pair: bool) -> str:
-    from .text import format_eigenvalue
+    from .render import format_eigenvalue
 
     return format_eigenvalue(z, pair)
 

@@ -16,7 +16,6 @@ from numbers import Integral
 from typing import Any, Iterable, Iterator
 
 from ..rules.findings import UNCERTAIN_NOTE, Finding, ModeRow
-from .text import format_eigenvalue
 
 __all__ = ["UNCERTAIN_NOTE", "json_number", "json_value", "json_complex", "mode_data", "finding_data",
            "text_number", "mode_cells", "mode_summary", "finding_summary", "own_findings",
@@ -25,6 +24,13 @@ __all__ = ["UNCERTAIN_NOTE", "json_number", "json_value", "json_complex", "mode_
 #: Said by every report meant for people: what the tool is, and what it is not.
 CAUTION = ("eigengate is an engineering aid for model regression checks; it is not a safety "
            "sign-off.")
+
+
+def format_eigenvalue(z: complex, pair: bool) -> str:
+    if z.imag == 0.0:
+        return f"{z.real:.6g}"
+    sign = "±" if pair else ("+" if z.imag > 0 else "-")
+    return f"{z.real:.6g}{sign}{abs(z.imag):.6g}j"
 
 
 def json_number(x: Any) -> Any:

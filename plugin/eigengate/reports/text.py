@@ -6,6 +6,7 @@ import math
 from typing import Iterable, Sequence
 
 from ..rules.findings import UNCERTAIN_NOTE, Finding, ModeRow
+from .render import format_eigenvalue  # shared by every writer; re-exported
 
 __all__ = ["render_results", "render_model", "model_lines", "finding_lines", "mode_table",
            "format_eigenvalue"]
@@ -16,13 +17,6 @@ _COLORS = {"FAIL": "\x1b[1;31m", "warn": "\x1b[33m", "ok": "\x1b[32m", "FAILED":
 
 def _paint(word: str, color: bool) -> str:
     return f"{_COLORS[word]}{word}\x1b[0m" if color and word in _COLORS else word
-
-
-def format_eigenvalue(z: complex, pair: bool) -> str:
-    if z.imag == 0.0:
-        return f"{z.real:.6g}"
-    sign = "±" if pair else ("+" if z.imag > 0 else "-")
-    return f"{z.real:.6g}{sign}{abs(z.imag):.6g}j"
 
 
 def _num(x: float, unit: str = "") -> str:
