@@ -342,8 +342,8 @@ def _accept(args) -> int:
         summary = accept(result.files, config, complete=not args.paths)
     except BaselineError as exc:
         raise UsageError(str(exc)) from None
-    for fr in broken:
-        print(f"not accepted (invalid model file): {fr.error.render()}", file=sys.stderr)
+    for error in (fr.error for fr in broken if fr.error is not None):
+        print(f"not accepted (invalid model file): {error.render()}", file=sys.stderr)
     print(f"baseline {config.baseline}: {len(summary.added)} added, {len(summary.changed)} "
           f"changed, {len(summary.removed)} removed, {len(summary.unchanged)} unchanged"
           + ("" if summary.written else " (file unchanged)"))

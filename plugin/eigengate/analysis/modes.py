@@ -185,7 +185,7 @@ def _decompose(model: Model):
     A, E = model.A, model.E
     n = A.shape[0]
     if E is None:
-        norm_a = np.linalg.norm(A, 1)
+        norm_a = float(np.linalg.norm(A, 1))
         balanced = False
         work = A
         if n > 1 and norm_a > 0:
@@ -358,7 +358,7 @@ def _geometric(model: Model, centre: complex, vectors: "np.ndarray", size: int,
         E = np.eye(n) if model.E is None else model.E
         sv = np.linalg.svd(model.A - centre * E, compute_uv=False)
         tol = 1e3 * n * eps * (norm + abs(centre))
-        return int(min(size, max(1, np.sum(sv <= tol))))
+        return int(min(size, max(1, int(np.sum(sv <= tol)))))
     # Large models: the cluster's eigenvectors are (nearly) parallel when it is defective.
     unit = vectors / np.linalg.norm(vectors, axis=0)
     sv = np.linalg.svd(unit, compute_uv=False)

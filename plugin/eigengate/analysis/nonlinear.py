@@ -18,7 +18,7 @@ import re
 import sys
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any, Callable, Iterator, Mapping, Sequence
+from typing import Any, Callable, Iterator, Mapping, Sequence, Union
 
 import numpy as np
 
@@ -27,6 +27,9 @@ from ..model.core import Model, from_arrays
 
 __all__ = ["VectorField", "FoundEquilibrium", "EquilibriumSearch", "FieldPoint", "jacobians",
            "linearise", "find_equilibria", "import_function"]
+
+#: A point of state or input space: numbers in a list or tuple, or a 1-D array.
+Vector = Union[Sequence[float], "np.ndarray"]
 
 _REF = re.compile(r"^[A-Za-z_][\w]*(\.[A-Za-z_][\w]*)*:[A-Za-z_]\w*$")
 _EPS = float(np.finfo(float).eps)
@@ -116,18 +119,25 @@ def _columns(vf: VectorField, x: np.ndarray, u: np.ndarray, wrt: str, how: str
     return np.column_stack(cols) if cols else np.zeros((len(vf.states), 0))
 
 
-def jacobians(vf: VectorField, x: Sequence[float], u: Sequence[float] | None = None
+def _central(vf: VectorField, x: np.ndarray, u: np.ndarray, wrt: str) -> np.ndarray:
+    """Central differences (never refused, unlike the complex step)."""
+    cols = _columns(vf, x, u, wrt, "central")
+    assert cols is not None
+    return cols
+
+
+def jacobians(vf: VectorField, x: Vector, u: Vector | None = None
               ) -> tuple[np.ndarray, np.ndarray, str]:
     """``(∂f/∂x, ∂f/∂u, method)`` at ``(x, u)``; method is ``jacobian function``,
     ``complex step`` or ``central differences``."""
-    x = np.asarray(x, dtype=float)
-    u = np.zeros(len(vf.inputs)) if u is None else np.asarray(u, dtype=float)
-    f0 = vf(x, u)  # a clear error first if f fails at the point itself
+    xa = np.asarray(x, dtype=float)
+    ua = np.zeros(len(vf.inputs)) if u is None else np.asarray(u, dtype=float)
+    f0 = vf(xa, ua)  # a clear error first if f fails at the point itself
     if vf.jacobian is not None:
-        a, b = _user_jacobian(vf, x, u)
-        return a, (_columns(vf, x, u, "u", "central") if b is None else b), "jacobian function"
-    ca, cb = _columns(vf, x, u, "x", "complex"), _columns(vf, x, u, "u", "complex")
-    da, db = _columns(vf, x, u, "x", "central"), _columns(vf, x, u, "u", "central")
+        a, b = _user_jacobian(vf, xa, ua)
+        return a, (_central(vf, xa, ua, "u") if b is None else b), "jacobian function"
+    ca, cb = _columns(vf, xa, ua, "x", "complex"), _columns(vf, xa, ua, "u", "complex")
+    da, db = _central(vf, xa, ua, "x"), _central(vf, xa, ua, "u")
     # A function that accepts complex numbers but is not analytic in them (abs, real parts,
     # branches on values) gives a wrong complex step; central differences catch that.
     if ca is not None and cb is not None and all(
@@ -137,7 +147,7 @@ def jacobians(vf: VectorField, x: Sequence[float], u: Sequence[float] | None = N
     return da, db, "central differences"
 
 
-def linearise(vf: VectorField, x: Sequence[float], u: Sequence[float] | None = None, *,
+def linearise(vf: VectorField, x: Vector, u: Vector | None = None, *,
               name: str = "model", label: str | None = None, **kwargs: Any) -> Model:
     """The linearisation at ``(x, u)`` as a :class:`Model` (``A = ∂f/∂x``, ``B = ∂f/∂u``);
     ``kwargs`` go to :func:`~eigengate.model.core.from_arrays`."""
@@ -190,8 +200,8 @@ def _classify(vf: VectorField, x: np.ndarray, u: np.ndarray) -> FoundEquilibrium
                             classify(spectrum.modes), tuple(spectrum.eigenvalues()))
 
 
-def find_equilibria(vf: VectorField, lower: Sequence[float], upper: Sequence[float],
-                    u: Sequence[float] | None = None, *, starts: int = 64,
+def find_equilibria(vf: VectorField, lower: Vector, upper: Vector,
+                    u: Vector | None = None, *, starts: int = 64,
                     tolerance: float | None = None) -> EquilibriumSearch:
     """Equilibria of ``f(·, u)`` in the box ``[lower, upper]``.
 
@@ -204,11 +214,11 @@ def find_equilibria(vf: VectorField, lower: Sequence[float], upper: Sequence[flo
     from scipy.stats import qmc
 
     lo, hi = np.asarray(lower, dtype=float), np.asarray(upper, dtype=float)
-    u, width = np.zeros(len(vf.inputs)) if u is None else np.asarray(u, dtype=float), hi - lo
+    ua, width = np.zeros(len(vf.inputs)) if u is None else np.asarray(u, dtype=float), hi - lo
     tol = tolerance if tolerance is not None else 1e-6 * max(1.0, float(width.max()))
     unit = qmc.Halton(d=lo.size, scramble=False).random(max(starts, 1))[1:]  # [0] is a corner
     x0s = [lo + width / 2] + [lo + width * p for p in unit]
-    jac = None if vf.jacobian is None else (lambda x: _user_jacobian(vf, x, u)[0])
+    jac = None if vf.jacobian is None else (lambda x: _user_jacobian(vf, x, ua)[0])
     found: list[FoundEquilibrium] = []
     errors: list[str] = []
     converged = failed = outside = 0
@@ -216,11 +226,11 @@ def find_equilibria(vf: VectorField, lower: Sequence[float], upper: Sequence[flo
         x = None
         try:
             for method in ("hybr", "lm"):
-                sol = root(lambda x: vf(x, u), x0, jac=jac, method=method)
+                sol = root(lambda x: vf(x, ua), x0, jac=jac, method=method)
                 if not np.all(np.isfinite(sol.x)):
                     continue
-                norm_a = float(np.abs(jacobians(vf, sol.x, u)[0]).max())
-                if np.max(np.abs(vf(sol.x, u))) <= 1e-8 * max(1.0, norm_a * max(
+                norm_a = float(np.abs(jacobians(vf, sol.x, ua)[0]).max())
+                if np.max(np.abs(vf(sol.x, ua))) <= 1e-8 * max(1.0, norm_a * max(
                         1.0, float(np.abs(sol.x).max()))):
                     x = sol.x
                     break
@@ -233,7 +243,7 @@ def find_equilibria(vf: VectorField, lower: Sequence[float], upper: Sequence[flo
         else:
             converged += 1
             if not any(np.max(np.abs(np.array(e.x) - x)) <= tol for e in found):
-                found.append(_classify(vf, x, u))
+                found.append(_classify(vf, x, ua))
     found.sort(key=lambda e: tuple(round(v, 9) for v in e.x))
     return EquilibriumSearch(tuple(found), len(x0s), converged, failed, outside, tuple(errors[:3]))
 

@@ -246,6 +246,7 @@ class _Judge:
 
 def _rows(mt: "Match") -> dict[str, tuple[ModeRow, ...]]:
     """A matched mode as a finding shows it, after and before (built only when reported)."""
+    assert mt.before is not None and mt.after is not None and mt.before_index is not None
     return dict(after=(ModeRow.of(mt.after),), before=(mt.before.row(mt.before_index + 1),))
 
 
@@ -301,6 +302,7 @@ def compare(result: Any, entry: "Entry | None", tolerances: Tolerances | None = 
     for mt in matches:
         b, a = mt.before, mt.after
         if a is None:
+            assert b is not None and mt.before_index is not None  # a mode that disappeared
             j.add("EG207", f"baseline mode {_ev(b)} (ζ={b.damping_ratio:.3g}, ωn="
                   f"{_f(b.natural_frequency)} rad/s) has no counterpart in the model"
                   + (f" ({mt.count} of its {b.multiplicity})" if mt.count < b.multiplicity
@@ -391,6 +393,7 @@ def compare_all(file_results: Iterable[Any], baseline: "Baseline",
     sev = {**DEFAULT_SEVERITY, **(severities or {})}.get("EG209", "warning")
     for key in stale if sev != "off" else ():
         entry = baseline.entry(*key)
+        assert entry is not None  # stale keys are keys of the baseline
         line = baseline.line_of(key)
         gone = "its model file is gone" if key[0] not in checked else \
             "its model file no longer defines it"

@@ -32,7 +32,7 @@ import os
 import tempfile
 from dataclasses import dataclass, replace
 from pathlib import Path
-from typing import Any, Iterable, Iterator, Mapping
+from typing import Any, Iterable, Iterator, Mapping, cast
 
 from .entries import BaselineMode, Entry, Key
 from .fileformat import DIGITS, FORMAT_VERSION, BaselineError, fmt_float
@@ -188,7 +188,7 @@ class Baseline:
             if old is None or not _same(old, e):
                 out[e.key] = e
         for k in remove:
-            out.pop(tuple(k), None)  # type: ignore[call-overload]
+            out.pop(cast(Key, tuple(k)), None)
         return Baseline(out.values(), path=self.path)
 
     def renamed(self, mapping: Mapping[str, str]) -> "Baseline":
@@ -246,7 +246,7 @@ def merge_write(path: str | os.PathLike[str], new_entries: Iterable[Entry],
     processes accepting at the same time (pytest-xdist workers) lose no entry. Nothing is
     written when the text would not change. A corrupt baseline raises and is left alone."""
     path = Path(path)
-    new_entries, removed_keys = list(new_entries), [tuple(k) for k in removed_keys]
+    new_entries, removed_keys = list(new_entries), [cast(Key, tuple(k)) for k in removed_keys]
     try:
         from .fileformat import ensure_folder, locked
 

@@ -67,6 +67,7 @@ def load_vector_field(data: Mapping[str, Any], ctx: Any, name: str,
         if not isinstance(names, list) or not all(isinstance(v, str) for v in names) or not (
                 names or key == "inputs"):
             raise ctx.err(f"vector_field.{key}", f"must be a list of names, got {names!r:.60}")
+    assert isinstance(states, list) and isinstance(inputs, list)  # checked just above
     params = dict(_mapping(block.get("parameters", {}), ctx, "vector_field.parameters"))
     for k, v in params.items():
         _numbers([v], ctx, f"vector_field.parameters.{k}", 1)
@@ -131,7 +132,9 @@ def load_vector_field(data: Mapping[str, Any], ctx: Any, name: str,
         shared: dict = {}  # the search, once per parameter set
         rows = list(at)
         if points is None:  # the equilibria found are the operating points
+            assert box is not None  # refused above: no points and no box
             search = FieldPoint(vf, (), (), True, None, box, shared).search()
+            assert search is not None  # a box is always searched
             rows = [(f"x*={_vec(e.x)}", e.x, box[2], (), ()) for e in search.equilibria]
             if not rows:
                 if not any(r.rule in SET_RULES + POINT_RULES for r in top):

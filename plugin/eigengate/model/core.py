@@ -319,7 +319,7 @@ def from_control(sys: Any, *, name: str = "model", **kwargs: Any) -> Model:
     if dt is True:
         raise ModelError("<python-control>", "dt", "must be a numeric sample period for a "
                          "discrete model, got dt=True (unspecified)")
-    names = {}
+    names: dict[str, Any] = {}
     for key, attr in (("states", "state_labels"), ("inputs", "input_labels"),
                       ("outputs", "output_labels")):
         labels = getattr(sys, attr, None)

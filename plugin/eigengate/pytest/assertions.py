@@ -32,6 +32,7 @@ import reprlib
 import sys
 from dataclasses import replace
 from pathlib import Path
+from types import FrameType
 from typing import TYPE_CHECKING, Any, Iterable, Mapping, Sequence
 
 from .failure_report import Layer, failure_report, requirement_origins, result_record
@@ -454,7 +455,7 @@ class Subject:
 
 def _caller() -> str:
     """``file:line`` of the first frame outside eigengate (where the user called us)."""
-    frame = sys._getframe(1)
+    frame: FrameType | None = sys._getframe(1)
     while frame is not None and frame.f_globals.get("__name__", "").startswith("eigengate"):
         frame = frame.f_back
     if frame is None:

@@ -102,6 +102,8 @@ class ModelFile(pytest.File):
 class ModelItem(pytest.Item):
     """One model (one operating point) of a model file, checked with the repository policy."""
 
+    parent: ModelFile
+
     def __init__(self, *, model: "Model", **kw: Any) -> None:
         super().__init__(**kw)
         self.model = model

@@ -302,7 +302,8 @@ def pytest_sessionfinish(session: pytest.Session) -> None:
     if workeroutput is not None:
         workeroutput["eigengate_baseline"] = {"written": written, "error": error}
         return
-    config.pluginmanager.get_plugin("eigengate-reporter").tally.add_write(written, error)
+    reporter: Any = config.pluginmanager.get_plugin("eigengate-reporter")
+    reporter.tally.add_write(written, error)
 
 
 # ---------------------------------------------------------------------------- markers, fixture
@@ -395,7 +396,7 @@ def pytest_runtest_call(item: pytest.Item):
 def pytest_runtest_makereport(item: pytest.Item, call: pytest.CallInfo):
     report = yield
     records = None
-    collector = sys.modules.get("eigengate.pytest.collector")  # not imported: no model items
+    collector: Any = sys.modules.get("eigengate.pytest.collector")  # not imported: no model items
     collected = collector is not None and isinstance(
         item, (collector.ModelItem, collector.InvalidModelItem))
     if collected and isinstance(item, collector.ModelItem) and call.when == "call":

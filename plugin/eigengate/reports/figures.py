@@ -102,7 +102,7 @@ def _png_bytes(fig: Any, dpi: int) -> bytes:
     fig.canvas.draw()
     w, h = fig.canvas.get_width_height()
     img = Image.frombuffer("RGBA", (w, h), bytes(fig.canvas.buffer_rgba()), "raw", "RGBA", 0, 1)
-    img = img.convert("RGB").quantize(colors=PNG_COLORS, method=0, dither=0)  # median cut
+    img = img.convert("RGB").quantize(colors=PNG_COLORS, method=0, dither=Image.Dither.NONE)  # median cut
     out = io.BytesIO()
     img.save(out, format="PNG", optimize=True)
     return out.getvalue()

@@ -187,6 +187,7 @@ def _figures(e: _Entry, mpl: Any, baseline: Sequence[complex] | None, dpi: int) 
     from .portrait import can_draw_phase_portrait, phase_portrait_figure
 
     r = e.result
+    assert r is not None  # figures are drawn for analysed models only
     m = r.model
     n = r.spectrum.n_eigenvalues
     hits = sum(mode.count for mode in r.spectrum.modes if mode.index in marked_modes(r))

@@ -326,12 +326,12 @@ def pole_map_figure(result: "ModelResult", *, baseline_poles: Sequence[complex] 
     ax.set_ylim(y0, y1)
     ax.grid(True, color=_GRID, linewidth=0.5, zorder=0)
     ax.set_axisbelow(True)
-    handles = []
+    handles: list[Any] = []  # legend entries: patches and lines
 
     if region is not None:
         from matplotlib.patches import Patch, Polygon as PolygonPatch
 
-        if discrete:
+        if T is not None:  # discrete
             # The primary strip |Im s| ≤ π/T maps one-to-one onto the z-plane (less 0);
             # its left end is pushed far enough that the hole left at z = 0 is invisible.
             r_view = math.hypot(max(abs(x0), abs(x1)), max(abs(y0), abs(y1)))
@@ -340,7 +340,7 @@ def pole_map_figure(result: "ModelResult", *, baseline_poles: Sequence[complex] 
             w, h = x1 - x0, y1 - y0
             sbox = (x0 - w, x1 + w, y0 - h, y1 + h)
         for k, piece in enumerate(region_pieces(region, sbox)):
-            poly = _map_path(piece, T, closed=True) if discrete else piece
+            poly = _map_path(piece, T, closed=True) if T is not None else piece
             patch = PolygonPatch(poly, closed=True, facecolor=_REGION_FILL, edgecolor="none",
                                  zorder=1)
             patch.set_gid(REGION_GID if k == 0 else f"{REGION_GID}-{k + 1}")

@@ -3,10 +3,13 @@
 from __future__ import annotations
 
 import math
-from typing import Iterable, Sequence
+from typing import TYPE_CHECKING, Iterable, Sequence
 
 from ..rules.findings import UNCERTAIN_NOTE, Finding, ModeRow
 from .render import format_eigenvalue  # shared by every writer; re-exported
+
+if TYPE_CHECKING:  # pragma: no cover
+    from ..rules.results import FileResult, ModelResult
 
 __all__ = ["render_results", "render_model", "model_lines", "finding_lines", "mode_table",
            "format_eigenvalue"]
@@ -74,7 +77,7 @@ def finding_lines(f: Finding, discrete: bool, color: bool = False) -> list[str]:
 _finding_lines = finding_lines  # the former private name
 
 
-def model_lines(r: "object", *, verbose: bool = True, color: bool = False) -> list[str]:
+def model_lines(r: ModelResult, *, verbose: bool = True, color: bool = False) -> list[str]:
     """The block of one :class:`~eigengate.scan.engine.ModelResult`: a summary line (status,
     eigenvalue count, spectral abscissa or radius, min ζ, type of the origin), the passing
     requirements when ``verbose``, then each finding and each waived finding."""
@@ -101,7 +104,7 @@ def model_lines(r: "object", *, verbose: bool = True, color: bool = False) -> li
     return lines
 
 
-def render_results(results: Iterable["object"], *, verbose: bool = True,
+def render_results(results: Iterable[FileResult], *, verbose: bool = True,
                    color: bool = False) -> str:
     """Render :class:`~eigengate.scan.engine.FileResult` objects as text, grouped by file, with a
     one-line summary; ANSI colour only when ``color``."""
@@ -137,7 +140,7 @@ def render_results(results: Iterable["object"], *, verbose: bool = True,
     return "\n".join(lines) + "\n"
 
 
-def render_model(result: "object") -> str:
+def render_model(result: ModelResult) -> str:
     """Everything about one analysed model: every mode, the origin's type, every verdict."""
     from ..rules.findings import ModeRow
 

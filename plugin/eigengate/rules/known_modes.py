@@ -41,7 +41,7 @@ class KnownMode:
     def matches(self, mode: Mode, spectrum: Spectrum) -> bool:
         if self.eigenvalue is not None:
             native_err = mode.uncertainty
-            if spectrum.model.discrete:
+            if spectrum.model.sample_period is not None:  # the model is discrete
                 native_err *= abs(mode.eigenvalue) * spectrum.model.sample_period
             ev = self.eigenvalue
             near = min(abs(mode.eigenvalue - ev), abs(mode.eigenvalue.conjugate() - ev))

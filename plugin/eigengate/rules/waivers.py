@@ -168,7 +168,7 @@ def waiver_findings(waivers: Sequence[Waiver], used: Iterable[Waiver], on: _dt.d
     used_ids = {id(w) for w in used}
     out = []
     for w in waivers:
-        if w.expired(on):
+        if w.expires is not None and w.expired(on):
             rule = RULES["EG002"]
             message = (f"waiver of {w.rule} expired on {w.expires.isoformat()} "
                        f"(reason given: {w.reason}); the finding it covered is reported again")

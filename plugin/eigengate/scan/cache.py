@@ -283,7 +283,8 @@ class ResultCache:
         changed)."""
         entry = self._entries().get(key)
         try:
-            refs, data, (first, count) = entry["refs"], entry["data"], entry["blobs"]
+            # a missing entry (None) raises TypeError here, handled like a malformed one
+            refs, data, (first, count) = entry["refs"], entry["data"], entry["blobs"]  # type: ignore[index]
             if type(refs) is not dict or type(data) is not dict:
                 return None
             blobs = self._read.blobs(first, count)  # type: ignore[union-attr]

@@ -63,7 +63,7 @@ _DECODE = {"c": _complex_or_none, "c?": _complex_or_none, "d?": _date_or_none, "
 
 
 @functools.lru_cache(maxsize=None)
-def _codec(cls) -> tuple[tuple[str, ...], tuple[str | None, ...], bool, tuple]:
+def _codec(cls: type) -> tuple[tuple[str, ...], tuple[str | None, ...], bool, tuple]:
     """Field names, their special kinds, whether there are none, and the decoders of the
     special fields as ``(position, decoder)``."""
     names = tuple(f.name for f in dataclasses.fields(cls))
@@ -76,7 +76,8 @@ def _codec(cls) -> tuple[tuple[str, ...], tuple[str | None, ...], bool, tuple]:
 def record(obj) -> list:
     """A dataclass as a list of its field values in field order (positional: compact and
     fast to rebuild)."""
-    names, kinds, plain, _ = _codec(type(obj))
+    cls: type = type(obj)
+    names, kinds, plain, _ = _codec(cls)
     if plain:
         return [getattr(obj, n) for n in names]
     out = []

@@ -14,6 +14,7 @@ from __future__ import annotations
 import functools
 import json
 from collections.abc import Sequence
+from typing import Any, cast
 
 import numpy as np
 
@@ -97,6 +98,7 @@ class _LazyModes(Sequence):
     def _all(self) -> tuple:
         if self._built is None:
             if self._source is not None:
+                assert self._pick is not None  # a picked view always has its picks
                 every = self._source._all()
                 self._built = tuple(every[i] for i in self._pick)
             else:
@@ -154,7 +156,7 @@ class CachedSpectrum:
         self.modes = _LazyModes(blobs, rows, part, model.states, count)
 
     def eigenvalues(self) -> list[complex]:
-        return Spectrum.eigenvalues(self)  # same logic, reading self.modes
+        return Spectrum.eigenvalues(cast(Spectrum, self))  # same logic, reading self.modes
 
 
 def _spectrum_data(sp, blobs: Blobs) -> dict:
@@ -224,7 +226,7 @@ def _model_data(m, blobs: Blobs) -> dict:
     for r in m.requirements:
         if type(r).__name__ not in classes:  # pragma: no cover - a new class not listed
             raise TypeError(f"cannot cache requirement {type(r).__name__}")
-    out = {k: blobs.put_array(getattr(m, k)) for k in _MATRICES}
+    out: dict[str, Any] = {k: blobs.put_array(getattr(m, k)) for k in _MATRICES}
     out.update({
         "name": m.name, "label": m.label, "source": m.source, "structure": m.structure,
         "sample_period": m.sample_period, "states": list(m.states), "inputs": list(m.inputs),
@@ -417,7 +419,8 @@ def _result_from(d: dict, blobs, shapes: list):
     spectrum = CachedSpectrum(model, d["spectrum"], blobs, shapes)
     verdicts = [unrecord(Verdict, v["v"], offending=spectrum.modes.subset(v["offending"]))
                 for v in d["verdicts"]]
-    return ModelResult(model=model, spectrum=spectrum,
+    # CachedSpectrum stands in for a Spectrum: the same attributes, read lazily (duck typing)
+    return ModelResult(model=model, spectrum=cast(Spectrum, spectrum),
                        equilibrium=unrecord(Equilibrium, d["equilibrium"]),
                        verdicts=tuple(verdicts),
                        findings=_findings_from(d["findings"], d["rows"], model.states, blobs))
