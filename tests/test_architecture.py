@@ -44,3 +44,22 @@ def test_a_wrong_way_import_breaks_a_contract(tmp_path, module, line, contract):
     out = lint(tmp_path)
     assert out.returncode != 0
     assert f"{contract}" in out.stdout and "BROKEN" in out.stdout
+
+
+def test_docs_import_only_the_public_face():
+    """Every import a document shows is ``from eigengate import ...`` of a public name."""
+    import re
+
+    import eigengate
+
+    texts = {p.name: p.read_text(encoding="utf-8") for p in [
+        REPO / "README.md", REPO / "example_repo" / "README.md", *(REPO / "docs").glob("*.md")]}
+    seen = 0
+    for name, text in texts.items():
+        assert not re.search(r"^\s*(from|import) eigengate\.", text, re.M), name
+        for m in re.finditer(r"^\s*from eigengate import (\([^)]*\)|.*)$", text, re.M):
+            for item in re.split(r"[,\s()]+", m.group(1).split("#")[0].strip()):
+                if item:
+                    seen += 1
+                    assert item in eigengate.__all__, (name, item)
+    assert seen > 10

@@ -40,7 +40,7 @@ class UsageError(Exception):
 
 
 def _parser() -> argparse.ArgumentParser:
-    from . import __version__
+    from .version import __version__
 
     p = argparse.ArgumentParser(
         prog="eigengate",
@@ -180,7 +180,7 @@ def render(fmt: str, results: list, *, color: bool = False, quiet: bool = False,
     """Render ``results`` (FileResult objects) in ``fmt``."""
     import importlib
 
-    from . import __version__
+    from .version import __version__
 
     module, name, versioned = FORMATS[fmt]
     func = getattr(importlib.import_module(f".{module}", __package__), name)

@@ -74,7 +74,7 @@ def baseline_entry_from(result: Any, source: str | None = None,
                         written_by: str | None = None) -> Entry:
     """The baseline entry of an analysed model (an :class:`~eigengate.scan.engine.ModelResult`);
     ``source`` replaces the model's own (a file read from git under its old name)."""
-    from .. import __version__
+    from ..version import __version__
 
     model, sp, eq = result.model, result.spectrum, result.equilibrium
     return Entry(source=source or model.source, title=model.title,

@@ -203,7 +203,7 @@ class ResultCache:
     MAX_ENTRIES = 100_000
 
     def __init__(self, root: Path, config_digest: str, *, folder: Path | None = None) -> None:
-        from .. import __version__
+        from ..version import __version__
         from .serial import FORMAT
 
         self.root = Path(root)
