@@ -61,7 +61,7 @@ def hand_loop(paths: list[Path]) -> int:
 
 
 def engine_loop(paths: list[Path], root: Path) -> int:
-    from eigengate.engine import check_file
+    from eigengate.scan.engine import check_file
 
     stable = 0
     for p in paths:
@@ -111,7 +111,7 @@ def main(argv=None) -> int:
     import scipy.linalg as la
 
     import eigengate
-    from eigengate.modes import analyse
+    from eigengate.analysis.modes import analyse
 
     work = Path(tempfile.mkdtemp(prefix="eigengate-bench-"))
     try:

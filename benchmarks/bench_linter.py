@@ -103,8 +103,8 @@ def main(argv=None) -> int:
     args = ap.parse_args(argv)
 
     from eigengate.cli import render
-    from eigengate.config import load_config
-    from eigengate.runner import scan
+    from eigengate.scan.config import load_config
+    from eigengate.scan.runner import scan
 
     work = Path(tempfile.mkdtemp(prefix="eigengate-lint-bench-"))
     try:

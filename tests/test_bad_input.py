@@ -11,9 +11,9 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from eigengate import _formats, _matrixfiles
+from eigengate.model import formats as _formats, matrixfiles as _matrixfiles
 from eigengate.errors import ModelError
-from eigengate.loader import load_document, load_models
+from eigengate.load.loader import load_document, load_models
 
 BASE = """\
 model_format: 1

@@ -6,10 +6,10 @@ import os
 import pytest
 from support import oscillator, write
 
-import eigengate.cache as cache_mod
-from eigengate.cache import read_pack
-from eigengate.config import load_config
-from eigengate.runner import scan
+import eigengate.scan.cache as cache_mod
+from eigengate.scan.cache import read_pack
+from eigengate.scan.config import load_config
+from eigengate.scan.runner import scan
 
 
 @pytest.fixture
@@ -36,8 +36,8 @@ def test_unchanged_files_are_neither_read_nor_hashed_again(repo, monkeypatch):
     def no_read(*args, **kwargs):
         raise AssertionError(f"read a file the cache knows unchanged: {args[0]}")
 
-    monkeypatch.setattr("eigengate.discovery._sniff", no_read)
-    monkeypatch.setattr("eigengate.runner.open", no_read, raising=False)
+    monkeypatch.setattr("eigengate.scan.discovery._sniff", no_read)
+    monkeypatch.setattr("eigengate.scan.runner.open", no_read, raising=False)
     again = scan([repo], config, jobs=1)
     assert again.cache_hits == 3 and again.analysed == 0
     assert [f.findings for f in again.files] == [f.findings for f in first.files]

@@ -5,11 +5,11 @@ from pathlib import Path
 
 import pytest
 
-from eigengate._glob import glob_match
-from eigengate.config import ConfigError, find_config, load_config, parse_config
-from eigengate.engine import check_model, discover_model_files
-from eigengate.model import from_arrays
-from eigengate.requirements import MinDamping, Stability
+from eigengate.rules.patterns import glob_match
+from eigengate.scan.config import ConfigError, find_config, load_config, parse_config
+from eigengate.scan.engine import check_model, discover_model_files
+from eigengate.model.core import from_arrays
+from eigengate.rules.requirements import MinDamping, Stability
 
 
 def pyproject(tmp_path: Path, body: str) -> Path:

@@ -8,7 +8,7 @@ import control
 import numpy as np
 import pytest
 
-from eigengate import _interconnect as ic
+from eigengate.model import interconnect as ic
 
 POINTS = [0.3j, 1.0 + 2.0j, 5.0j, -0.4 + 0.7j]
 

@@ -127,7 +127,7 @@ def _packs(repo):
 def _rewrite_heads(repo, change):
     """Rewrite every pack with ``change`` applied to each entry's data and a correct
     checksum, so only the reader's own checks of the entries stand between it and them."""
-    from eigengate.cache import read_pack, write_pack
+    from eigengate.scan.cache import read_pack, write_pack
 
     for pack in _packs(repo):
         read = read_pack(pack.read_bytes())
@@ -141,7 +141,7 @@ def _rewrite_heads(repo, change):
 @pytest.mark.parametrize("damage", ["garbage", "truncated", "flipped byte", "empty",
                                     "nonsense results", "bad blob spans", "wrong shapes"])
 def test_corrupt_cache_is_ignored_and_rebuilt(repo, damage):
-    from eigengate.cache import read_pack
+    from eigengate.scan.cache import read_pack
 
     first = run_cli("check", cwd=repo).stdout
     for pack in _packs(repo):
@@ -166,8 +166,8 @@ def test_corrupt_cache_is_ignored_and_rebuilt(repo, damage):
         assert read_pack(pack.read_bytes()).head["entries"]
     assert run_cli("check", "--no-cache", cwd=repo).stdout == first
     # and what was rebuilt is served whole: every entry a hit, its matrices readable
-    from eigengate.config import load_config
-    from eigengate.runner import scan
+    from eigengate.scan.config import load_config
+    from eigengate.scan.runner import scan
 
     config = load_config(start=repo)
     served, fresh = scan([repo], config, jobs=1), scan([repo], config, jobs=1, use_cache=False)
@@ -252,8 +252,8 @@ def test_every_report_from_the_cache_has_the_same_bytes_as_from_a_fresh_analysis
         assert a == b == c, f"{name} report differs when served from the cache"
     # and, in the same process, every model served by the cache is the fresh one, field by
     # field, and so is every spectrum's mode list
-    from eigengate.config import load_config
-    from eigengate.runner import scan
+    from eigengate.scan.config import load_config
+    from eigengate.scan.runner import scan
 
     config = load_config(start=repo)
     served, fresh = scan([repo], config, jobs=1), scan([repo], config, jobs=1, use_cache=False)
@@ -272,8 +272,8 @@ def test_a_text_report_from_the_cache_reads_no_matrix_and_builds_no_mode(tmp_pat
     from pathlib import Path
 
     from eigengate.cli import render
-    from eigengate.config import load_config
-    from eigengate.runner import scan
+    from eigengate.scan.config import load_config
+    from eigengate.scan.runner import scan
 
     repo = tmp_path / "repo"
     shutil.copytree(Path(__file__).resolve().parents[1] / "example_repo", repo,

@@ -8,9 +8,9 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from eigengate import loader
-from eigengate._formats import parse_text
-from eigengate.loader import load_document, load_models, load_models_with_refs
+from eigengate.load import loader
+from eigengate.model.formats import parse_text
+from eigengate.load.loader import load_document, load_models, load_models_with_refs
 
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -285,8 +285,8 @@ def test_examples_validate_and_load(index, repo):
 
 def _example_files():
     # The model files of the example repository, as its own policy selects them.
-    from eigengate.config import load_config
-    from eigengate.engine import discover_model_files
+    from eigengate.scan.config import load_config
+    from eigengate.scan.engine import discover_model_files
 
     config = load_config(start=ROOT / "example_repo")
     return discover_model_files([ROOT / "example_repo"], config)

@@ -17,7 +17,7 @@ import pytest
 
 import eigengate as eg
 from eigengate.errors import ModelError
-from eigengate.loader import load_models
+from eigengate.load.loader import load_models
 from test_numerical_honesty import jordan, orthogonal, rotation, spectrum_of
 
 
@@ -248,7 +248,7 @@ def test_numerator_without_coefficients_is_refused(tmp_path, block, field):
 
 
 def test_numerator_without_coefficients_is_refused_by_the_realisation():
-    from eigengate import _interconnect as ic
+    from eigengate.model import interconnect as ic
 
     with pytest.raises(ic.InterconnectError, match="no coefficients"):
         ic.tf_siso([], [1.0, 1.0])

@@ -5,7 +5,7 @@ import math
 import numpy as np
 import pytest
 
-from eigengate.requirements import region_distance
+from eigengate.rules.requirements import region_distance
 
 
 def brute_distance(s, alpha, zeta, omega):

@@ -2,10 +2,10 @@
 
 import pytest
 
-from eigengate._reqparse import parse_known_modes, parse_requirement_layer, parse_requirements
+from eigengate.rules.parsing import parse_known_modes, parse_requirement_layer, parse_requirements
 from eigengate.errors import ModelError
-from eigengate.known_modes import KnownMode
-from eigengate.requirements import (
+from eigengate.rules.known_modes import KnownMode
+from eigengate.rules.requirements import (
     DirectionCounts, EquilibriumType, MinDamping, PoleRegion, Stability, apply_layers,
 )
 

@@ -1,41 +1,111 @@
 """eigengate: gate merges on the stability of control-system models.
 
-The public names are re-exported here and imported on first use, so ``import eigengate``
-(which every pytest run does once the plugin is installed) loads neither numpy nor scipy.
+The documented Python API is re-exported here, so user code never imports a private path:
+``from eigengate import load_models, analyse, check``. The names are imported on first use
+(PEP 562), so ``import eigengate`` (which every pytest run does once the plugin is installed)
+loads neither numpy nor scipy.
 """
 
 from __future__ import annotations
 
 import importlib
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
-__version__ = "0.1.0"
+from .version import __version__
 
+# public name -> "module" (relative to this package), or "module:attribute" for a renamed one
 _EXPORTS = {
-    "Model": "model", "from_arrays": "model", "from_control": "model",
+    # the model and its sources
+    "Model": "model.core", "from_arrays": "model.core", "from_control": "model.core",
     "ModelError": "errors", "EigengateError": "errors",
-    "load_models": "loader",
-    "Mode": "modes", "Spectrum": "modes", "analyse": "modes",
-    "Equilibrium": "equilibrium", "classify": "equilibrium",
-    "Verdict": "requirements", "Requirement": "requirements", "Stability": "requirements",
-    "MinDecayRate": "requirements", "MinDamping": "requirements",
-    "MaxFrequency": "requirements", "PoleRegion": "requirements",
-    "EquilibriumType": "requirements", "NoSaddle": "requirements",
-    "DirectionCounts": "requirements", "KnownMode": "known_modes",
-    "evaluate": "requirements", "RULES": "rules", "Rule": "rules",
-    "Finding": "findings",
-    "check_model": "engine", "check_file": "engine", "check_paths": "engine",
-    "ModelResult": "engine", "FileResult": "engine",
+    "load_models": "load.loader",
+    # analysis
+    "Mode": "analysis.modes", "Spectrum": "analysis.modes", "analyse": "analysis.modes",
+    "Equilibrium": "analysis.equilibrium", "classify": "analysis.equilibrium",
+    "LoopParts": "analysis.margins", "LoopTransfer": "analysis.margins",
+    "LoopMargins": "analysis.margins", "ChannelMargins": "analysis.margins",
+    "Resolvent": "analysis.margins", "loop_transfer": "analysis.margins",
+    "channel_loop": "analysis.margins", "siso_margins": "analysis.margins",
+    "unstable_poles": "analysis.margins", "disk_gain_range": "analysis.margins",
+    "disk_phase": "analysis.margins",
+    "VectorField": "analysis.nonlinear", "linearise": "analysis.nonlinear",
+    "find_equilibria": "analysis.nonlinear", "jacobians": "analysis.nonlinear",
+    "match_modes": "analysis.matching",
+    # requirements and findings
+    "Verdict": "rules.catalogue", "RULES": "rules.catalogue", "Rule": "rules.catalogue",
+    "Requirement": "rules.requirements", "Stability": "rules.requirements",
+    "MinDecayRate": "rules.requirements", "MinDamping": "rules.requirements",
+    "MaxFrequency": "rules.requirements", "PoleRegion": "rules.requirements",
+    "EquilibriumType": "rules.requirements", "NoSaddle": "rules.requirements",
+    "DirectionCounts": "rules.requirements", "evaluate": "rules.requirements",
+    "KnownMode": "rules.known_modes", "Finding": "rules.findings",
+    "ModelResult": "rules.results", "FileResult": "rules.results",
+    # the pipeline
+    "check_model": "scan.engine", "check_file": "scan.engine", "check_paths": "scan.engine",
+    "revision_baseline": "scan.gitrev",
+    # the baseline
+    "Baseline": "baseline.store", "baseline_entry_from": "baseline.store",
+    "merge_write": "baseline.store", "DEFAULT_BASELINE_PATH": "baseline.store:DEFAULT_PATH",
+    "compare": "baseline.regressions", "compare_all": "baseline.regressions",
+    "Tolerances": "baseline.regressions", "parse_tolerances": "baseline.regressions",
+    # reports
+    "render_results": "reports.text", "render_json": "reports.json",
+    "render_sarif": "reports.sarif", "render_junit": "reports.junit",
+    "render_markdown": "reports.markdown", "render_annotations": "reports.annotations",
+    "render_html": "reports.html", "pole_map_png": "reports.plots",
+    "pole_map_svg": "reports.plots", "phase_portrait_png": "reports.portrait",
+    "ReportDependencyError": "reports.figures",
+    # the fixture's API, usable without pytest
+    "check": "pytest.assertions", "of": "pytest.assertions", "Checker": "pytest.assertions",
+    "StabilityAssertionError": "pytest.assertions", "NotAModelError": "pytest.assertions",
+    "RequirementArgumentError": "pytest.assertions",
 }
 
 __all__ = sorted(_EXPORTS) + ["__version__"]
 
+if TYPE_CHECKING:  # pragma: no cover - the same names, for type checkers
+    from .analysis.equilibrium import Equilibrium, classify
+    from .analysis.margins import (ChannelMargins, LoopMargins, LoopParts, LoopTransfer,
+                                   Resolvent, channel_loop, disk_gain_range, disk_phase,
+                                   loop_transfer, siso_margins, unstable_poles)
+    from .analysis.matching import match_modes
+    from .analysis.modes import Mode, Spectrum, analyse
+    from .analysis.nonlinear import VectorField, find_equilibria, jacobians, linearise
+    from .baseline.regressions import Tolerances, compare, compare_all, parse_tolerances
+    from .baseline.store import DEFAULT_PATH as DEFAULT_BASELINE_PATH
+    from .baseline.store import Baseline, baseline_entry_from, merge_write
+    from .errors import EigengateError, ModelError
+    from .load.loader import load_models
+    from .model.core import Model, from_arrays, from_control
+    from .pytest.assertions import (Checker, NotAModelError, RequirementArgumentError,
+                                    StabilityAssertionError, check, of)
+    from .reports.annotations import render_annotations
+    from .reports.figures import ReportDependencyError
+    from .reports.html import render_html
+    from .reports.json import render_json
+    from .reports.junit import render_junit
+    from .reports.markdown import render_markdown
+    from .reports.plots import pole_map_png, pole_map_svg
+    from .reports.portrait import phase_portrait_png
+    from .reports.sarif import render_sarif
+    from .reports.text import render_results
+    from .rules.catalogue import RULES, Rule, Verdict
+    from .rules.findings import Finding
+    from .rules.known_modes import KnownMode
+    from .rules.requirements import (DirectionCounts, EquilibriumType, MaxFrequency,
+                                     MinDamping, MinDecayRate, NoSaddle, PoleRegion,
+                                     Requirement, Stability, evaluate)
+    from .rules.results import FileResult, ModelResult
+    from .scan.engine import check_file, check_model, check_paths
+    from .scan.gitrev import revision_baseline
+
 
 def __getattr__(name: str) -> Any:
-    module = _EXPORTS.get(name)
-    if module is None:
+    target = _EXPORTS.get(name)
+    if target is None:
         raise AttributeError(f"module 'eigengate' has no attribute {name!r}")
-    value = getattr(importlib.import_module(f".{module}", __name__), name)
+    module, _, attribute = target.partition(":")
+    value = getattr(importlib.import_module(f".{module}", __name__), attribute or name)
     globals()[name] = value
     return value
 

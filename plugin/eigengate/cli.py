@@ -19,13 +19,13 @@ __all__ = ["main", "run", "Exit", "FORMATS"]
 COMMANDS = ("check", "show", "rules", "explain", "baseline")
 #: Output formats: name → (module, function, takes tool_version).
 FORMATS = {
-    "text": ("report_text", "render_results", False),
-    "json": ("report_json", "render_json", True),
-    "sarif": ("report_sarif", "render_sarif", True),
-    "junit": ("report_junit", "render_junit", False),
-    "markdown": ("report_markdown", "render_markdown", False),
-    "annotations": ("report_annotations", "render_annotations", False),
-    "html": ("report_html", "render_html", True),
+    "text": ("reports.text", "render_results", False),
+    "json": ("reports.json", "render_json", True),
+    "sarif": ("reports.sarif", "render_sarif", True),
+    "junit": ("reports.junit", "render_junit", False),
+    "markdown": ("reports.markdown", "render_markdown", False),
+    "annotations": ("reports.annotations", "render_annotations", False),
+    "html": ("reports.html", "render_html", True),
 }
 
 
@@ -40,7 +40,7 @@ class UsageError(Exception):
 
 
 def _parser() -> argparse.ArgumentParser:
-    from . import __version__
+    from .version import __version__
 
     p = argparse.ArgumentParser(
         prog="eigengate",
@@ -156,7 +156,7 @@ def main(argv: Sequence[str] | None = None) -> int:
 
 
 def _load_config(args, start: Path):
-    from .config import ConfigError, load_config
+    from .scan.config import ConfigError, load_config
 
     try:
         return load_config(Path(args.config) if args.config else None, start=start)
@@ -180,14 +180,14 @@ def render(fmt: str, results: list, *, color: bool = False, quiet: bool = False,
     """Render ``results`` (FileResult objects) in ``fmt``."""
     import importlib
 
-    from . import __version__
+    from .version import __version__
 
     module, name, versioned = FORMATS[fmt]
     func = getattr(importlib.import_module(f".{module}", __package__), name)
     if fmt == "text":
         return func(results, verbose=not quiet, color=color)
     if fmt == "html":
-        from .runner import terminal_progress
+        from .scan.runner import terminal_progress
 
         return func(results, tool_version=__version__, baseline_poles=baseline_poles,
                     progress=terminal_progress())
@@ -213,7 +213,7 @@ def _write_pole_maps(folder: Path, files: list, baseline_poles) -> int:
     """PNG and SVG pole maps of every model with findings, named after file and model."""
     import re
 
-    from .plots import pole_map_png, pole_map_svg
+    from .reports.plots import pole_map_png, pole_map_svg
 
     folder.mkdir(parents=True, exist_ok=True)
     count = 0
@@ -250,8 +250,8 @@ def _use_color(choice: str) -> bool:
 
 
 def _check(args) -> int:
-    from .engine import FileResult
-    from .runner import scan, terminal_progress
+    from .scan.engine import FileResult
+    from .scan.runner import scan, terminal_progress
 
     outputs = _outputs(args.output)
     missing = [p for p in args.paths if not Path(p).exists()]
@@ -268,7 +268,7 @@ def _check(args) -> int:
     failed = result.failed
     poles = None
     if not args.no_baseline:
-        from .baseline_check import accept_command, compare_files, with_regressions
+        from .scan.baseline_check import accept_command, compare_files, with_regressions
 
         baseline = _reference(config, args.against)
         if baseline is not None:
@@ -299,7 +299,7 @@ def _check(args) -> int:
     if not files:
         print("eigengate: no model files found (configure [tool.eigengate] include, or name "
               "the files; a model file has a model_format key)", file=sys.stderr)
-    from .plots import ReportDependencyError
+    from .reports.plots import ReportDependencyError
 
     try:
         for fmt, path in outputs:
@@ -317,9 +317,9 @@ def _check(args) -> int:
 
 
 def _reference(config, against: str | None):
-    from .baseline import BaselineError
-    from .baseline_check import reference_baseline
-    from .gitrev import GitError
+    from .baseline.store import BaselineError
+    from .scan.baseline_check import reference_baseline
+    from .scan.gitrev import GitError
 
     try:
         return reference_baseline(config, against)
@@ -328,9 +328,9 @@ def _reference(config, against: str | None):
 
 
 def _accept(args) -> int:
-    from .baseline import BaselineError
-    from .baseline_check import accept
-    from .runner import scan
+    from .baseline.store import BaselineError
+    from .scan.baseline_check import accept
+    from .scan.runner import scan
 
     missing = [p for p in args.paths if not Path(p).exists()]
     if missing:
@@ -342,8 +342,8 @@ def _accept(args) -> int:
         summary = accept(result.files, config, complete=not args.paths)
     except BaselineError as exc:
         raise UsageError(str(exc)) from None
-    for fr in broken:
-        print(f"not accepted (invalid model file): {fr.error.render()}", file=sys.stderr)
+    for error in (fr.error for fr in broken if fr.error is not None):
+        print(f"not accepted (invalid model file): {error.render()}", file=sys.stderr)
     print(f"baseline {config.baseline}: {len(summary.added)} added, {len(summary.changed)} "
           f"changed, {len(summary.removed)} removed, {len(summary.unchanged)} unchanged"
           + ("" if summary.written else " (file unchanged)"))
@@ -351,8 +351,8 @@ def _accept(args) -> int:
 
 
 def _show(args) -> int:
-    from .engine import check_file
-    from .report_text import render_model
+    from .scan.engine import check_file
+    from .reports.text import render_model
 
     path = Path(args.path)
     if not path.is_file():
@@ -371,7 +371,7 @@ def _show(args) -> int:
 
 
 def _rules() -> int:
-    from .rules import RULES
+    from .rules.catalogue import RULES
 
     width = max(len(r.name) for r in RULES.values())
     for r in sorted(RULES.values(), key=lambda r: r.id):
@@ -381,7 +381,7 @@ def _rules() -> int:
 
 
 def _explain(name: str) -> int:
-    from .rules import RULES, explain_rule
+    from .rules.catalogue import RULES, explain_rule
 
     rule = RULES.get(name.upper()) or next((r for r in RULES.values() if r.name == name), None)
     if rule is None:

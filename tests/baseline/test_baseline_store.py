@@ -11,9 +11,9 @@ import numpy as np
 import pytest
 
 from eigengate import from_arrays
-from eigengate.baseline import (DEFAULT_PATH, Baseline, BaselineError, BaselineMode, Entry,
+from eigengate.baseline.store import (DEFAULT_PATH, Baseline, BaselineError, BaselineMode, Entry,
                                 baseline_entry_from, fmt_float, merge_write, write_atomic)
-from eigengate.engine import analyse_model
+from eigengate.scan.engine import analyse_model
 
 
 def _result(A, *, name="pitch", label=None, source="models/pitch.yaml", states=None, T=None):

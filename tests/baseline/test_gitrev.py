@@ -9,11 +9,11 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from eigengate.baseline import baseline_entry_from
-from eigengate.config import load_config
-from eigengate.engine import check_paths
-from eigengate.gitrev import GitError, renames_since, resolve_revision, revision_baseline
-from eigengate.regressions import compare_all
+from eigengate.baseline.store import baseline_entry_from
+from eigengate.scan.config import load_config
+from eigengate.scan.engine import check_paths
+from eigengate.scan.gitrev import GitError, renames_since, resolve_revision, revision_baseline
+from eigengate.baseline.regressions import compare_all
 
 pytestmark = pytest.mark.skipif(shutil.which("git") is None, reason="git is not installed")
 
@@ -216,7 +216,7 @@ def test_references_read_through_a_callback_match_the_filesystem(tmp_path, suffi
     # The filesystem loader is the reference for the loader's read-callback hook.
     import scipy.io
 
-    from eigengate.loader import load_models, load_models_from_bytes
+    from eigengate.load.loader import load_models, load_models_from_bytes
 
     A = flex_A(0.03)
     data = tmp_path / "m" / f"plant{suffix}"

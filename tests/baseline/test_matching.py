@@ -10,8 +10,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from eigengate import from_arrays
-from eigengate.matching import DEFAULT_GATE, FLOOR_FRACTION, match_modes, scaled_distance
-from eigengate.modes import analyse
+from eigengate.analysis.matching import DEFAULT_GATE, FLOOR_FRACTION, match_modes, scaled_distance
+from eigengate.analysis.modes import analyse
 
 
 def mode(re, im=0.0, mult=1):
@@ -222,7 +222,7 @@ _eigenvalue = st.one_of(st.builds(complex, _finite, _finite), st.sampled_from(
 def test_the_distance_matrix_is_the_scalar_distance_to_the_last_bit(before, after, floor):
     # Exact ties decide assignments, so the matrix used for matching must agree bit for bit
     # with scaled_distance (Python's abs of a complex number is hypot of its parts).
-    from eigengate.matching import _distances
+    from eigengate.analysis.matching import _distances
 
     matrix = _distances(np.array(before), np.array(after), floor)
     for i, b in enumerate(before):

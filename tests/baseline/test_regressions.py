@@ -8,12 +8,12 @@ import pytest
 from scipy.linalg import block_diag
 
 from eigengate import from_arrays
-from eigengate.baseline import Baseline, baseline_entry_from
-from eigengate.engine import analyse_model, check_file
+from eigengate.baseline.store import Baseline, baseline_entry_from
+from eigengate.scan.engine import analyse_model, check_file
 from eigengate.errors import ModelError
-from eigengate.regressions import (DEFAULT_SEVERITY, Tolerance, Tolerances, compare,
+from eigengate.baseline.regressions import (DEFAULT_SEVERITY, Tolerance, Tolerances, compare,
                                    compare_all, parse_tolerances)
-from eigengate.rules import RULES
+from eigengate.rules.catalogue import RULES
 
 
 def osc(zeta, wn):
@@ -290,8 +290,8 @@ def test_finding_before_survives_the_cache_round_trip():
     # Finding.before is new: a cached (pre-waiver) finding must come back equal and hashable
     import json
 
-    from eigengate._serial import results_from_data, results_to_data
-    from eigengate.requirements import MinDamping
+    from eigengate.scan.serial import results_from_data, results_to_data
+    from eigengate.rules.requirements import MinDamping
 
     m = from_arrays(osc(0.1, 2.0), np.zeros((2, 1)), np.zeros((1, 2)), np.zeros((1, 1)),
                     requirements=(MinDamping(0.5),))

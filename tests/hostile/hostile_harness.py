@@ -7,7 +7,7 @@ import signal
 from pathlib import Path
 
 from eigengate.errors import EigengateError, ModelError
-from eigengate.loader import load_models
+from eigengate.load.loader import load_models
 
 #: Seconds one case may take in-process before it counts as a hang.
 CASE_SECONDS = 60
@@ -44,7 +44,7 @@ def make_repo(root: Path, cases) -> Path:
 
 def outcome(case, repo: Path):
     """Load ``case`` from ``repo``: ("model", models) or ("error", ModelError)."""
-    from eigengate.engine import analyse_model
+    from eigengate.scan.engine import analyse_model
 
     file = repo / case.path
     with time_limit(CASE_SECONDS):

@@ -16,7 +16,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from eigengate.errors import EigengateError
-from eigengate.loader import load_models
+from eigengate.load.loader import load_models
 from hostile_cases import toml_value
 from hostile_harness import time_limit
 
@@ -73,7 +73,7 @@ def _load_promise(raw: bytes, ext: str) -> None:
                 assert "Traceback" not in message and "\n" not in message, message
                 return
         assert models and all(m.source == f"models/drawn.{ext}" for m in models)
-        from eigengate.engine import analyse_model
+        from eigengate.scan.engine import analyse_model
 
         for m in models:
             analyse_model(m)

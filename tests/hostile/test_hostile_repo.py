@@ -153,7 +153,7 @@ MEASURE = textwrap.dedent("""\
     sys.path[:0] = sys.argv[1:3]
     from pathlib import Path
     from eigengate.errors import EigengateError
-    from eigengate.loader import load_models
+    from eigengate.load.loader import load_models
     import hostile_files
     repo = Path(sys.argv[3])
     ids = set(sys.argv[4].split(","))

@@ -4,12 +4,12 @@ import math
 
 import pytest
 
-from eigengate.engine import check_model
+from eigengate.scan.engine import check_model
 from eigengate.errors import ModelError
-from eigengate.loader import load_document
-from eigengate.loop_requirements import MinPhaseMargin
-from eigengate.model import from_arrays
-from eigengate.modes import analyse
+from eigengate.load.loader import load_document
+from eigengate.rules.loop_requirements import MinPhaseMargin
+from eigengate.model.core import from_arrays
+from eigengate.analysis.modes import analyse
 
 # An invented greenhouse shade-motor loop: the classic K/(s(s+1)(s+2)) shape.
 BASE = {
@@ -78,7 +78,7 @@ def test_bad_loop_input_is_a_clear_model_error(change, field, words):
 
 def test_margin_requirement_on_a_model_without_loop_fails_as_not_evaluated():
     # a margin target (a repository-wide one, say) on a model with no loop is never a pass
-    from eigengate.requirements import evaluate
+    from eigengate.rules.requirements import evaluate
 
     spectrum = analyse(from_arrays([[-1.0]]))
     direct = MinPhaseMargin(45.0).check(spectrum.modes, spectrum, "fail")

@@ -6,8 +6,8 @@ import warnings
 import numpy as np
 import pytest
 
-from eigengate import _interconnect as ic
-from eigengate.margins import LoopTransfer, Resolvent, siso_margins, unstable_poles
+from eigengate.model import interconnect as ic
+from eigengate.analysis.margins import LoopTransfer, Resolvent, siso_margins, unstable_poles
 
 
 def lt_of(a, b, c, d, dt=None):

@@ -6,8 +6,8 @@ import math
 import numpy as np
 import pytest
 
-from eigengate import _interconnect as ic
-from eigengate.margins import (LoopParts, LoopTransfer, channel_loop,
+from eigengate.model import interconnect as ic
+from eigengate.analysis.margins import (LoopParts, LoopTransfer, channel_loop,
                                disk_gain_range, disk_phase, loop_margins, loop_transfer,
                                siso_margins, unstable_poles)
 

@@ -6,9 +6,9 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from eigengate.equilibrium import classify
-from eigengate.modes import analyse
-from eigengate.nonlinear import VectorField, find_equilibria, jacobians, linearise
+from eigengate.analysis.equilibrium import classify
+from eigengate.analysis.modes import analyse
+from eigengate.analysis.nonlinear import VectorField, find_equilibria, jacobians, linearise
 
 import importlib.util
 

@@ -8,10 +8,10 @@ from pathlib import Path
 import pytest
 import yaml
 
-from eigengate.config import Config
-from eigengate.engine import check_file, check_model
+from eigengate.scan.config import Config
+from eigengate.scan.engine import check_file, check_model
 from eigengate.errors import ModelError
-from eigengate.loader import load_models
+from eigengate.load.loader import load_models
 
 FIELDS = Path(__file__).with_name("fields.py")
 

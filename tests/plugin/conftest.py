@@ -16,10 +16,10 @@ import pytest
 import scipy.linalg  # noqa: F401
 import yaml  # noqa: F401
 
-import eigengate.assertions  # noqa: F401
-import eigengate.collector  # noqa: F401
-import eigengate.engine  # noqa: F401
-import eigengate.loader  # noqa: F401
+import eigengate.pytest.assertions  # noqa: F401
+import eigengate.pytest.collector  # noqa: F401
+import eigengate.scan.engine  # noqa: F401
+import eigengate.load.loader  # noqa: F401
 
 INI = """\
 [tool.pytest.ini_options]

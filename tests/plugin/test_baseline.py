@@ -9,7 +9,7 @@ import sys
 import pytest
 from support import lift_axis
 
-from eigengate.baseline import Baseline
+from eigengate.baseline.store import Baseline
 
 POLICY = 'include = ["models/**/*.yaml"]\n'
 BASELINE = ".eigengate/baseline.json"

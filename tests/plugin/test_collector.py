@@ -1,8 +1,8 @@
 """The model-file collector: selection by [tool.eigengate] and the options, one item per
 operating point, failures that point at the file, malformed files, agreement with the CLI."""
 
-from eigengate.config import load_config
-from eigengate.engine import check_paths
+from eigengate.scan.config import load_config
+from eigengate.scan.engine import check_paths
 
 POLICY = """\
 include = ["models/**/*.yaml"]
@@ -149,7 +149,7 @@ eigengate_collect = false
 
 def test_suffix_list_matches_the_engine():
     # the plugin keeps its own copy so that deciding about a file imports nothing
-    from eigengate.engine import MODEL_SUFFIXES
-    from eigengate.pytest_plugin import MODEL_SUFFIXES as plugin_suffixes
+    from eigengate.scan.engine import MODEL_SUFFIXES
+    from eigengate.pytest.plugin import MODEL_SUFFIXES as plugin_suffixes
 
     assert set(MODEL_SUFFIXES) == plugin_suffixes

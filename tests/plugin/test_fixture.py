@@ -3,7 +3,7 @@ objects, eigengate models and model files; readable failure reports; non-model i
 
 import pytest
 
-from eigengate.assertions import NotAModelError, StabilityAssertionError, check, of
+from eigengate.pytest.assertions import NotAModelError, StabilityAssertionError, check, of
 
 # s² + 0.4 s + 4 as x'' = -4x - 0.4x': ωn = 2, ζ = 0.4/(2·2) = 0.1, eigenvalues
 # -ζωn ± jωn√(1-ζ²) = -0.2 ± 1.98997j (second-order standard form, common in control

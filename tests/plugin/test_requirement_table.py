@@ -33,14 +33,14 @@ import pytest
 import yaml
 from support import run_cli
 
-from eigengate._reqparse import REQUIREMENT_KEYS
-from eigengate.assertions import Checker, RequirementArgumentError, StabilityAssertionError
-from eigengate.config import parse_config
-from eigengate.engine import check_file
+from eigengate.rules.parsing import REQUIREMENT_KEYS
+from eigengate.pytest.assertions import Checker, RequirementArgumentError, StabilityAssertionError
+from eigengate.scan.config import parse_config
+from eigengate.scan.engine import check_file
 from eigengate.errors import ModelError
-from eigengate.loader import load_models
-from eigengate.model import from_arrays
-from eigengate.rules import RULES, rule_by_key
+from eigengate.load.loader import load_models
+from eigengate.model.core import from_arrays
+from eigengate.rules.catalogue import RULES, rule_by_key
 
 
 @dataclass(frozen=True)

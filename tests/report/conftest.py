@@ -88,7 +88,7 @@ def repo_root(tmp_path):
 
 @pytest.fixture
 def repo_results(repo_root):
-    from eigengate.engine import check_paths
+    from eigengate.scan.engine import check_paths
 
     return check_paths([repo_root / "models"], root=repo_root)
 
@@ -101,7 +101,7 @@ def by_name(repo_results):
 @pytest.fixture(scope="module")
 def shared_results(tmp_path_factory):
     """The same repository checked once per test module, for tests that only read it."""
-    from eigengate.engine import check_paths
+    from eigengate.scan.engine import check_paths
 
     root = write_repo(tmp_path_factory.mktemp("repo"))
     return check_paths([root / "models"], root=root)

@@ -10,7 +10,7 @@ from types import SimpleNamespace
 
 import pytest
 
-from eigengate.report_html import CAUTION, render_html
+from eigengate.reports.html import CAUTION, render_html
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
 
@@ -180,7 +180,7 @@ def test_max_images_and_progress(mpl, repo_results):
 def test_missing_matplotlib(monkeypatch, repo_results):
     import sys
 
-    from eigengate.plots import ReportDependencyError
+    from eigengate.reports.plots import ReportDependencyError
 
     monkeypatch.setitem(sys.modules, "matplotlib", None)
     with pytest.raises(ReportDependencyError, match=r'pip install "eigengate\[report\]"'):
@@ -213,7 +213,7 @@ OSC = """\
 
 
 def test_margin_columns_from_margin_verdicts(mpl, make_repo):
-    from eigengate.engine import check_paths
+    from eigengate.scan.engine import check_paths
 
     root = make_repo({"shade.yaml": LOOP, "osc.yaml": OSC})
     doc = Doc(render_html(check_paths([root / "models"], root=root), tool_version="0"))
@@ -243,9 +243,9 @@ def test_equilibria_are_listed_when_the_result_has_them(mpl, repo_results):
 
 def _results(n: int):
     """n small models through the real engine (no files: the loader is not what is timed)."""
-    from eigengate.engine import analyse_model, file_result
-    from eigengate.model import from_arrays
-    from eigengate.requirements import MinDamping, Stability
+    from eigengate.scan.engine import analyse_model, file_result
+    from eigengate.model.core import from_arrays
+    from eigengate.rules.requirements import MinDamping, Stability
 
     out = []
     for k in range(n):

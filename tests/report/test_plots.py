@@ -10,7 +10,7 @@ import xml.etree.ElementTree as ET
 
 import pytest
 
-from eigengate import plots
+from eigengate.reports import plots
 
 SVG = "{http://www.w3.org/2000/svg}"
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
@@ -91,7 +91,7 @@ def inside(poly, x, y):
     (complex(-1, -1.5), True),    # lower half: ζ ≈ 0.55
 ])
 def test_region_pieces_hold_exactly_the_allowed_poles(s, expected):
-    from eigengate.requirements import region_distance
+    from eigengate.rules.requirements import region_distance
 
     region = plots.AllowedRegion(alpha=0.2, zeta=0.5, omega=3.0)
     pieces = plots.region_pieces(region, (-10, 10, -10, 10))
@@ -201,16 +201,16 @@ def test_the_rest_of_the_tool_never_imports_matplotlib(repo_root):
     root = repo_root
     code = (
         "import sys\n"
-        "from eigengate.engine import check_paths\n"
-        "from eigengate.report_text import render_results\n"
-        "import eigengate.report_html, eigengate.plots, eigengate.cli\n"
+        "from eigengate.scan.engine import check_paths\n"
+        "from eigengate.reports.text import render_results\n"
+        "import eigengate.reports.html, eigengate.reports.plots, eigengate.cli\n"
         f"res = check_paths([{str(root / 'models')!r}], root={str(root)!r})\n"
         "render_results(res)\n"
         "print('matplotlib' in sys.modules)\n"
         "sys.modules['matplotlib'] = None\n"
         "try:\n"
-        "    eigengate.report_html.render_html(res, tool_version='0')\n"
-        "except eigengate.plots.ReportDependencyError as exc:\n"
+        "    eigengate.reports.html.render_html(res, tool_version='0')\n"
+        "except eigengate.reports.plots.ReportDependencyError as exc:\n"
         "    print(exc)\n")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
                          timeout=120)

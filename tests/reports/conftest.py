@@ -12,8 +12,8 @@ from pathlib import Path
 import pytest
 from support import oscillator
 
-from eigengate.config import parse_config
-from eigengate.engine import check_file
+from eigengate.scan.config import parse_config
+from eigengate.scan.engine import check_file
 
 FILES = {
     # EG103: ζ = 0.1 < 0.3 (see the module docstring).

@@ -4,9 +4,9 @@ from __future__ import annotations
 
 import re
 
-from eigengate.engine import FileResult, check_file
-from eigengate.findings import Finding
-from eigengate.report_annotations import escape_data, escape_property, render_annotations
+from eigengate.scan.engine import FileResult, check_file
+from eigengate.rules.findings import Finding
+from eigengate.reports.annotations import escape_data, escape_property, render_annotations
 
 LINE = re.compile(r"^::(error|warning) file=[^,:]+(,line=\d+)?,title=[^,:]+::[^\r\n]*$")
 

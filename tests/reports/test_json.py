@@ -10,7 +10,7 @@ from pathlib import Path
 import jsonschema
 import pytest
 
-from eigengate.report_json import REPORT_FORMAT, render_json
+from eigengate.reports.json import REPORT_FORMAT, render_json
 
 from .conftest import build
 
@@ -157,7 +157,7 @@ def test_regression_modes_before(results):
     """A regression finding carries the baseline's modes; they are rendered like the others."""
     import dataclasses
 
-    from eigengate.engine import FileResult
+    from eigengate.scan.engine import FileResult
 
     (f,) = results[0].findings
     regressed = dataclasses.replace(f, rule="EG203", name="damping-regressed", before=f.modes)

@@ -7,9 +7,9 @@ import xml.etree.ElementTree as ET
 import pytest
 from junitparser import Error, Failure, JUnitXml
 
-from eigengate.engine import FileResult
-from eigengate.findings import Finding
-from eigengate.report_junit import render_junit
+from eigengate.scan.engine import FileResult
+from eigengate.rules.findings import Finding
+from eigengate.reports.junit import render_junit
 
 
 @pytest.fixture(scope="module")

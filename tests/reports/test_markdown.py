@@ -6,7 +6,7 @@ import re
 
 import pytest
 
-from eigengate.report_markdown import escape, render_markdown
+from eigengate.reports.markdown import escape, render_markdown
 
 
 @pytest.fixture(scope="module")
@@ -85,7 +85,7 @@ def test_empty_and_deterministic(results):
 def test_regression_shows_the_baseline_modes(results):
     import dataclasses
 
-    from eigengate.engine import FileResult
+    from eigengate.scan.engine import FileResult
 
     (f,) = results[0].findings
     regressed = dataclasses.replace(f, rule="EG203", name="damping-regressed", before=f.modes)

@@ -9,10 +9,10 @@ from pathlib import Path
 import jsonschema
 import pytest
 
-from eigengate.engine import FileResult
-from eigengate.findings import Finding
-from eigengate.report_sarif import FINGERPRINT_KEY, render_sarif
-from eigengate.rules import RULES
+from eigengate.scan.engine import FileResult
+from eigengate.rules.findings import Finding
+from eigengate.reports.sarif import FINGERPRINT_KEY, render_sarif
+from eigengate.rules.catalogue import RULES
 
 #: The OASIS schema, kept in shared/reference beside the repository root (tests/reports/ is
 #: two levels below the root).

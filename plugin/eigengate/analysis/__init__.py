@@ -1,0 +1,1 @@
+"""Analysis of a model: modes and spectrum, equilibria, margins, vector fields, mode matching."""

@@ -1,0 +1,1 @@
+"""The committed baseline: store, file format and the regression rules."""

@@ -1,0 +1,408 @@
+"""Regression rules: how an analysed model compares with the state accepted before.
+
+Public API::
+
+    Tolerance(abs=0.0, rel=0.0, worse="lower")
+    Tolerances(decay_rate=..., damping=..., frequency=..., match_gate=1.0)
+    parse_tolerances(value, source, prefix="allowed_drift.", lines=None, base=None) -> Tolerances
+    compare(result, entry, tolerances=None, *, severities=None) -> Comparison
+    compare_all(file_results, baseline, tolerances_for=None, *, complete=False,
+                severities=None) -> Outcome
+    DEFAULT_SEVERITY
+
+Modes are matched with :func:`eigengate.analysis.matching.match_modes`; each matched mode is judged
+figure by figure (decay rate -Re s, damping ratio ζ, natural frequency ωn), each with its own
+tolerance: a change counts when it exceeds ``max(abs, rel·|before|)``, and ``worse`` says which
+way is a regression. Whole-model figures (slowest decay rate, smallest damping, equilibrium type
+and direction counts) are judged too, so a regression hidden in a mode that appeared is still
+caught. Rules EG201-EG209 (see :mod:`eigengate.rules.catalogue`); changes for the better are collected as
+:class:`Improvement` records, which never fail.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field, replace
+from typing import TYPE_CHECKING, Any, Callable, Iterable, Mapping
+
+from ..errors import ModelError
+from ..rules.findings import Finding, ModeRow
+from ..rules.catalogue import RULES
+
+if TYPE_CHECKING:  # pragma: no cover
+    from .store import Baseline, Entry
+    from ..analysis.matching import Match
+
+__all__ = ["Tolerance", "Tolerances", "parse_tolerances", "compare", "compare_all",
+           "Comparison", "Improvement", "Outcome", "DEFAULT_SEVERITY", "TOLERANCE_KEYS"]
+
+#: Default severity of each regression rule ("error", "warning" or "off").
+DEFAULT_SEVERITY: dict[str, str] = {
+    "EG201": "error", "EG202": "error", "EG203": "error", "EG204": "error",
+    "EG205": "warning", "EG206": "warning", "EG207": "warning", "EG208": "warning",
+    "EG209": "warning"}
+#: Keys of an ``allowed_drift`` block, and of each figure's mapping in it.
+TOLERANCE_KEYS = ("decay_rate", "damping", "frequency", "match_gate")
+FIGURE_KEYS = ("abs", "rel", "worse")
+WORSE = ("lower", "higher", "either")
+
+
+@dataclass(frozen=True)
+class Tolerance:
+    """How much one figure may change, and which way is worse."""
+
+    abs: float = 0.0
+    rel: float = 0.0
+    worse: str = "lower"
+
+    def allowed(self, before: float) -> float:
+        return max(self.abs, self.rel * abs(before))
+
+    def judge(self, before: float, after: float) -> str:
+        """``"worse"``, ``"better"`` or ``"same"`` (within tolerance)."""
+        if before == after or not abs(after - before) > self.allowed(before):
+            return "same"
+        if self.worse == "either":
+            return "worse"
+        return "worse" if (after < before) == (self.worse == "lower") else "better"
+
+
+@dataclass(frozen=True)
+class Tolerances:
+    """Tolerances of every compared figure, and the matching gate."""
+
+    decay_rate: Tolerance = Tolerance(abs=1e-6, rel=0.05, worse="lower")
+    damping: Tolerance = Tolerance(abs=0.005, rel=0.05, worse="lower")
+    frequency: Tolerance = Tolerance(abs=1e-6, rel=0.05, worse="either")
+    match_gate: float = 1.5  # matching.DEFAULT_GATE
+
+
+def parse_tolerances(value: Any, source: str, prefix: str = "allowed_drift.",
+                     lines: Mapping[str, int] | None = None,
+                     base: Tolerances | None = None) -> Tolerances:
+    """Read an ``allowed_drift`` block over ``base`` (default: :class:`Tolerances`()).
+
+    ``{decay_rate: {abs, rel, worse}, damping: {...}, frequency: {...}, match_gate: x}``;
+    every key is optional and a figure's missing keys keep ``base``'s values, so a repository
+    default, path overrides and a model file's own block layer in that order.
+
+    Raises
+    ------
+    ModelError
+        Naming ``source``, the field (``prefix`` + key) and its line when ``lines`` has it.
+    """
+    base = base or Tolerances()
+    lines = lines or {}
+    where = prefix.rstrip(".")
+
+    def bad(key: str, problem: str, hint: str | None = None) -> ModelError:
+        path = f"{prefix}{key}" if key else where
+        return ModelError(source, path, problem, line=lines.get(path) or lines.get(where),
+                          hint=hint)
+
+    def number(v: Any, key: str, positive: bool = False) -> float:
+        if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v) \
+                or v < 0 or (positive and v == 0):
+            raise bad(key, f"must be a {'positive' if positive else 'non-negative'} number, "
+                      f"got {v!r}")
+        return float(v)
+
+    if not isinstance(value, Mapping):
+        raise bad("", f"must be a mapping of {', '.join(TOLERANCE_KEYS)}, got {value!r:.60}")
+    out = base
+    for key, v in value.items():
+        if key not in TOLERANCE_KEYS:
+            from ..model.formats import suggest
+
+            close = suggest(str(key), TOLERANCE_KEYS)
+            raise bad(str(key), "is not a tolerance", f"did you mean {close!r}?" if close
+                      else "known keys: " + ", ".join(TOLERANCE_KEYS))
+        if key == "match_gate":
+            out = replace(out, match_gate=number(v, key, positive=True))
+            continue
+        if not isinstance(v, Mapping):
+            raise bad(key, f"must be a mapping of {', '.join(FIGURE_KEYS)}, got {v!r:.60}",
+                      "for example {abs: 0.01, rel: 0.05}")
+        tol = getattr(out, key)
+        for k, x in v.items():
+            sub = f"{key}.{k}"
+            if k not in FIGURE_KEYS:
+                raise bad(sub, "is not a tolerance field", "known: " + ", ".join(FIGURE_KEYS))
+            if k == "worse":
+                if x not in WORSE:
+                    raise bad(sub, f"must be one of {', '.join(WORSE)}, got {x!r}")
+                tol = replace(tol, worse=x)
+            else:
+                tol = replace(tol, **{k: number(x, sub)})
+        out = replace(out, **{key: tol})
+    return out
+
+
+@dataclass(frozen=True)
+class Improvement:
+    """A change for the better; reported, never failing."""
+
+    figure: str
+    source: str
+    model: str
+    label: str | None
+    message: str
+    modes: tuple[ModeRow, ...] = ()
+    before: tuple[ModeRow, ...] = ()
+
+    @property
+    def title(self) -> str:
+        return self.model if self.label is None else f"{self.model}[{self.label}]"
+
+
+@dataclass(frozen=True, eq=False)
+class Comparison:
+    """One model against its entry: findings (errors and warnings), improvements, matches."""
+
+    source: str
+    title: str
+    regressions: tuple[Finding, ...]
+    improvements: tuple[Improvement, ...] = ()
+    matched: tuple["Match", ...] = ()
+
+    @property
+    def failed(self) -> bool:
+        return any(f.severity == "error" for f in self.regressions)
+
+
+@dataclass(frozen=True, eq=False)
+class Outcome:
+    """A run compared with a baseline; keys are ``(source, title)``."""
+
+    findings: tuple[Finding, ...]
+    improvements: tuple[Improvement, ...]
+    stale_keys: tuple[tuple[str, str], ...]
+    new_keys: tuple[tuple[str, str], ...]
+    comparisons: tuple[Comparison, ...] = field(default=())
+
+    @property
+    def failed(self) -> bool:
+        return any(f.severity == "error" for f in self.findings)
+
+
+def _f(x: float) -> str:
+    return "∞" if math.isinf(x) and x > 0 else "-∞" if math.isinf(x) else f"{x:.4g}"
+
+
+def _ev(m: Any) -> str:
+    z = complex(m.eigenvalue)
+    text = f"{z.real:.6g}" if z.imag == 0 else f"{z.real:.6g}±{abs(z.imag):.6g}j"
+    return text + (f" ×{m.multiplicity}" if m.multiplicity > 1 else "")
+
+
+def _change(before: float, after: float, tol: Tolerance, unit: str) -> str:
+    d = after - before
+    pct = f", {100 * d / abs(before):+.1f} %" if before and math.isfinite(d) else ""
+    unit = f" {unit}" if unit else ""
+    return (f"{_f(before)} → {_f(after)}{unit} ({'+' if d > 0 else ''}{_f(d)}{pct}; allowed "
+            f"±{_f(tol.allowed(before))})")
+
+
+def _side(m: Any) -> int:
+    re = m.s.real
+    return -1 if re < -m.uncertainty else 1 if re > m.uncertainty else 0
+
+
+class _Judge:
+    """Builds the findings and improvements of one comparison."""
+
+    def __init__(self, result: Any, severities: Mapping[str, str] | None) -> None:
+        self.model = result.model
+        self.sev = {**DEFAULT_SEVERITY, **(severities or {})}
+        self.findings: list[Finding] = []
+        self.better: list[Improvement] = []
+        m = self.model
+        self.line = (m.line_of("feedback") or m.line_of("plant")) if m.lines else None
+
+    def add(self, rule: str, message: str, *, after: Iterable[ModeRow] = (),
+            before: Iterable[ModeRow] = (), measured: Any = None, threshold: Any = None,
+            margin: float | None = None) -> None:
+        severity = self.sev.get(rule, "error")
+        if severity == "off":
+            return
+        m, info = self.model, RULES[rule]
+        self.findings.append(Finding(
+            rule=rule, name=info.name, severity=severity, source=m.source, line=self.line,
+            model=m.name, label=m.label, message=message, requirement="baseline",
+            measured=measured, threshold=threshold, margin=margin, unit=info.unit,
+            modes=tuple(after), before=tuple(before),
+            suggestion="if the change is intended, accept it into the baseline"))
+
+    def improve(self, figure: str, message: str, after: Iterable[ModeRow] = (),
+                before: Iterable[ModeRow] = ()) -> None:
+        m = self.model
+        self.better.append(Improvement(figure, m.source, m.name, m.label, message,
+                                       tuple(after), tuple(before)))
+
+    def reported(self, rules: tuple[str, ...], mode: Any) -> bool:
+        return any(f.rule in rules and any(r.index == mode.index for r in f.modes)
+                   for f in self.findings)
+
+
+def _rows(mt: "Match") -> dict[str, tuple[ModeRow, ...]]:
+    """A matched mode as a finding shows it, after and before (built only when reported)."""
+    assert mt.before is not None and mt.after is not None and mt.before_index is not None
+    return dict(after=(ModeRow.of(mt.after),), before=(mt.before.row(mt.before_index + 1),))
+
+
+def _figure(j: _Judge, mt: "Match", rule: str, what: str, b: float, a: float, tol: Tolerance,
+            unit: str) -> None:
+    verdict = tol.judge(b, a)
+    if verdict not in ("worse", "better"):
+        return
+    rows = _rows(mt)
+    text = f"mode {_ev(mt.before)} → {_ev(mt.after)}: {what} {_change(b, a, tol, unit)}"
+    if verdict == "worse":
+        margin = tol.allowed(b) - abs(a - b)
+        j.add(rule, text, measured=a, threshold=b, margin=margin, **rows)
+    elif verdict == "better":
+        j.improve(what.replace(" ", "_"), text, **rows)
+
+
+def _equilibrium(j: _Judge, entry: "Entry", eq: Any, after_modes: list) -> None:
+    def score(t: str, unstable: int, center: int) -> tuple[int, int, int]:
+        return (unstable, center, 1 if t.endswith("focus") or t == "center" else 0)
+
+    b, a = score(entry.equilibrium, entry.unstable, entry.center), score(eq.type, eq.unstable,
+                                                                           eq.center)
+    text = (f"equilibrium {entry.equilibrium} ({entry.stable} stable, {entry.unstable} "
+            f"unstable, {entry.center} center) → {eq.type} ({eq.stable} stable, {eq.unstable} "
+            f"unstable, {eq.center} center)")
+    if a > b:
+        rows = [ModeRow.of(m) for m in after_modes if _side(m) >= 0]
+        j.add("EG204", text, after=rows, measured=eq.type, threshold=entry.equilibrium)
+    elif a < b:
+        j.improve("equilibrium", text)
+
+
+def compare(result: Any, entry: "Entry | None", tolerances: Tolerances | None = None, *,
+            severities: Mapping[str, str] | None = None) -> Comparison:
+    """Compare an analysed model (:class:`~eigengate.scan.engine.ModelResult`) with its entry.
+
+    ``entry`` None gives one EG208 new-model finding. ``severities`` overrides
+    :data:`DEFAULT_SEVERITY` per rule (``"off"`` drops the rule).
+    """
+    from ..analysis.matching import match_modes
+
+    tol = tolerances or Tolerances()
+    j = _Judge(result, severities)
+    m = result.model
+    if entry is None:
+        j.add("EG208", f"{m.title} has no baseline entry: accept it to start comparing its "
+              "modes with later changes")
+        return Comparison(m.source, m.title, tuple(j.findings))
+    after = list(result.spectrum.modes)
+    matches = match_modes(entry.modes, after, gate=tol.match_gate)
+    eq = result.equilibrium
+    for mt in matches:
+        b, a = mt.before, mt.after
+        if a is None:
+            assert b is not None and mt.before_index is not None  # a mode that disappeared
+            j.add("EG207", f"baseline mode {_ev(b)} (ζ={b.damping_ratio:.3g}, ωn="
+                  f"{_f(b.natural_frequency)} rad/s) has no counterpart in the model"
+                  + (f" ({mt.count} of its {b.multiplicity})" if mt.count < b.multiplicity
+                     else ""), after=(b.row(mt.before_index + 1),))
+            continue
+        if b is None:
+            if _side(a) > 0 and eq.unstable > entry.unstable:
+                j.add("EG201", f"unstable mode {_ev(a)} (decay rate {_f(a.decay_rate)} 1/s) "
+                      "appeared with no counterpart in the baseline", after=(ModeRow.of(a),),
+                      measured=-a.decay_rate, threshold=0.0)
+            else:
+                j.add("EG206", f"mode {_ev(a)} (ζ={a.damping_ratio:.3g}, ωn="
+                      f"{_f(a.natural_frequency)} rad/s) has no counterpart in the baseline",
+                      after=(ModeRow.of(a),))
+            continue
+        sb, sa = _side(b), _side(a)
+        if sb <= 0 and sa > 0:
+            j.add("EG201", f"mode {_ev(b)} → {_ev(a)} crossed into instability: decay rate "
+                  + _change(b.decay_rate, a.decay_rate, tol.decay_rate, "1/s"),
+                  measured=a.decay_rate, threshold=b.decay_rate, margin=a.decay_rate,
+                  **_rows(mt))
+            continue
+        if sb > 0 and sa < 0:
+            j.improve("stability", f"mode {_ev(b)} → {_ev(a)} is stable now", **_rows(mt))
+        _figure(j, mt, "EG202", "decay rate", b.decay_rate, a.decay_rate, tol.decay_rate,
+                "1/s")
+        if b.oscillatory or a.oscillatory:
+            _figure(j, mt, "EG203", "damping ratio", b.damping_ratio, a.damping_ratio,
+                    tol.damping, "")
+        if b.oscillatory and a.oscillatory:
+            _figure(j, mt, "EG205", "natural frequency", b.natural_frequency,
+                    a.natural_frequency, tol.frequency, "rad/s")
+    # Whole-model figures, for regressions no matched mode explains (a mode that appeared).
+    if after:
+        slow = max(after, key=lambda x: (x.s.real, -x.index))
+        b_rate, a_rate = -entry.spectral_abscissa, -result.spectrum.spectral_abscissa
+        if tol.decay_rate.judge(b_rate, a_rate) == "worse" and \
+                not j.reported(("EG201", "EG202"), slow):
+            j.add("EG202", "slowest decay rate of the model "
+                  + _change(b_rate, a_rate, tol.decay_rate, "1/s")
+                  + f", now from mode {_ev(slow)}", after=(ModeRow.of(slow),),
+                  measured=a_rate, threshold=b_rate)
+        osc = [x for x in after if x.oscillatory]
+        if osc:
+            low = min(osc, key=lambda x: (x.damping_ratio, x.index))
+            b_z, a_z = entry.min_damping, result.spectrum.min_damping
+            if tol.damping.judge(b_z, a_z) == "worse" and not j.reported(("EG201", "EG203"),
+                                                                         low):
+                j.add("EG203", "smallest damping ratio of the model "
+                      + _change(b_z, a_z, tol.damping, "") + f", now from mode {_ev(low)}",
+                      after=(ModeRow.of(low),), measured=a_z, threshold=b_z)
+    _equilibrium(j, entry, eq, after)
+    return Comparison(m.source, m.title, tuple(j.findings), tuple(j.better), tuple(matches))
+
+
+def compare_all(file_results: Iterable[Any], baseline: "Baseline",
+                tolerances_for: "Tolerances | Callable[[Any], Tolerances] | None" = None, *,
+                complete: bool = False, severities: Mapping[str, str] | None = None
+                ) -> Outcome:
+    """Compare every model of ``file_results`` (:class:`~eigengate.scan.engine.FileResult`) with
+    ``baseline``.
+
+    ``tolerances_for`` is one :class:`Tolerances` for all, or a function of the
+    :class:`~eigengate.scan.engine.ModelResult`. An entry is *stale* (EG209) when its model file
+    was checked and no longer has that model, or, with ``complete`` (the whole repository was
+    checked), when its file was not checked at all. Files that failed to load are skipped:
+    their EG001 finding already fails the run, and their entries are not called stale.
+    """
+    comparisons: list[Comparison] = []
+    seen: set[tuple[str, str]] = set()
+    checked: set[str] = set()
+    broken: set[str] = set()
+    for fr in file_results:
+        if fr.error is not None:
+            broken.add(fr.source)
+            continue
+        checked.add(fr.source)
+        for r in fr.results:
+            key = (r.model.source, r.model.title)
+            checked.add(key[0])
+            seen.add(key)
+            tol = tolerances_for(r) if callable(tolerances_for) else tolerances_for
+            comparisons.append(compare(r, baseline.entry(*key), tol, severities=severities))
+    new = tuple(sorted(k for k in seen if k not in baseline))
+    stale = tuple(k for k in baseline.keys() if k not in seen and k[0] not in broken
+                  and (complete or k[0] in checked))
+    findings = [f for c in comparisons for f in c.regressions]
+    sev = {**DEFAULT_SEVERITY, **(severities or {})}.get("EG209", "warning")
+    for key in stale if sev != "off" else ():
+        entry = baseline.entry(*key)
+        assert entry is not None  # stale keys are keys of the baseline
+        line = baseline.line_of(key)
+        gone = "its model file is gone" if key[0] not in checked else \
+            "its model file no longer defines it"
+        findings.append(Finding(
+            rule="EG209", name=RULES["EG209"].name, severity=sev,
+            source=baseline.path if line is not None and baseline.path else key[0], line=line,
+            model=entry.name, label=entry.label, requirement="baseline",
+            message=f"baseline entry {key[1]!r} of {key[0]!r} is stale: {gone}",
+            suggestion="accept again to remove stale entries"))
+    return Outcome(findings=tuple(findings),
+                   improvements=tuple(i for c in comparisons for i in c.improvements),
+                   stale_keys=stale, new_keys=new, comparisons=tuple(comparisons))

@@ -1,0 +1,1 @@
+"""Loading model files into Models, with the requirements and waivers they declare."""

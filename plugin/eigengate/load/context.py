@@ -1,0 +1,101 @@
+"""What every part of the model-file loader shares: the key sets of format 1, the load
+context (source, lines, domain, collected references), key and mapping checks, and the
+``requirements:``/``known_modes:`` blocks of a file or operating point."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any, Callable, Mapping
+
+from ..model.formats import suggest
+from ..errors import ModelError
+
+#: Versions of ``model_format`` this loader reads.
+FORMAT_VERSIONS = (1,)
+TOP_KEYS = ("model_format", "name", "description", "domain", "sample_period", "plant",
+            "feedback", "requirements", "known_modes", "on_uncertain", "operating_points",
+            "waivers", "loop", "vector_field", "allowed_drift")
+POINT_KEYS = ("label", "plant", "feedback", "requirements", "known_modes", "on_uncertain",
+              "loop", "allowed_drift")
+SS_KEYS = ("A", "B", "C", "D", "E", "states", "inputs", "outputs")
+TF_KEYS = ("num", "den", "states", "inputs", "outputs")
+FEEDBACK_KEYS = ("state_gain", "output_gain", "controller", "inputs", "outputs")
+FEEDBACK_KINDS = ("state_gain", "output_gain", "controller")
+CONTROLLER_SS_KEYS = ("A", "B", "C", "D", "states", "domain", "sample_period")
+CONTROLLER_TF_KEYS = ("num", "den", "states", "domain", "sample_period")
+DOMAINS = ("continuous", "discrete")
+
+
+@dataclass
+class _Ctx:
+    """Where the fields being read come from, so every error names file, field and line."""
+
+    source: str
+    root: Path | None
+    base_dir: Path | None
+    lines: dict[str, int]  # unprefixed dotted paths → lines for this operating point
+    refs: list[str]
+    prefix: str = ""  # "operating_points[1] (label 'v=30')." for a point
+    sample_period: float | None = None
+    domain: str = "continuous"
+    waivers: tuple = ()
+    read: Callable[[str], bytes] | None = None  # matrix files through this, not the filesystem
+    allow_python: bool = False  # may a vector_field block import project code
+
+    def line(self, path: str) -> int | None:
+        parts = path.split(".")
+        while parts:
+            found = self.lines.get(".".join(parts))
+            if found is not None:
+                return found
+            parts.pop()
+        return None
+
+    def err(self, path: str, problem: str, hint: str | None = None) -> ModelError:
+        return ModelError(self.source, self.prefix + path, problem, line=self.line(path),
+                          hint=hint)
+
+    def prefixed_lines(self) -> dict[str, int]:
+        return {self.prefix + k: v for k, v in self.lines.items()}
+
+
+def _check_keys(block: Mapping[str, Any], allowed: tuple[str, ...], ctx: _Ctx, path: str,
+                what: str) -> None:
+    for key in block:
+        if key not in allowed:
+            close = suggest(str(key), allowed)
+            where = f"{path}.{key}" if path else str(key)
+            raise ctx.err(where, f"is not a field of {what}",
+                          f"did you mean {close!r}?" if close
+                          else "known fields: " + ", ".join(allowed))
+
+
+def _mapping(value: Any, ctx: _Ctx, path: str) -> dict[str, Any]:
+    if not isinstance(value, Mapping):
+        raise ctx.err(path, f"must be a mapping, got {_kind(value)} {value!r:.60}")
+    return dict(value)
+
+
+def _kind(value: Any) -> str:
+    if value is None:
+        return "null"
+    return {list: "a list", str: "a string", bool: "a boolean", int: "a number",
+            float: "a number"}.get(type(value), type(value).__name__)
+
+
+def _requirements(doc: Mapping[str, Any], ctx: _Ctx, states: list[str]
+                  ) -> tuple[tuple, tuple[str, ...], tuple]:
+    from ..rules import parsing as _reqparse
+
+    lines = ctx.prefixed_lines()
+    requirements: tuple = ()
+    disabled: tuple[str, ...] = ()
+    known: tuple = ()
+    if "requirements" in doc:
+        requirements, disabled = _reqparse.parse_requirement_layer(
+            doc["requirements"], ctx.source, ctx.prefix + "requirements.", lines)
+    if "known_modes" in doc:
+        known = _reqparse.parse_known_modes(doc["known_modes"], ctx.source,
+                                            ctx.prefix + "known_modes", lines, states)
+    return requirements, disabled, known

@@ -1,0 +1,239 @@
+"""Load model files (format 1) into validated :class:`~eigengate.model.core.Model` objects.
+
+One file gives one model, or one per operating point. The file format is documented in
+``docs/model-format.md`` and described by ``schema/model-v1.schema.json``; the key sets
+below are the single list both are checked against.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import os
+from pathlib import Path
+from typing import Any, Callable, Mapping
+
+from ..model.formats import read_document, suggest
+from ..errors import ModelError
+from ..model.core import Model, sample_period_problem
+
+__all__ = ["FORMAT_VERSIONS", "TOP_KEYS", "load_models", "load_models_with_refs",
+           "load_models_from_bytes", "load_document", "find_root"]
+
+from .context import (  # noqa: F401 (re-exported: the loader's schema and helpers)
+    FORMAT_VERSIONS, TOP_KEYS, POINT_KEYS, SS_KEYS, TF_KEYS, FEEDBACK_KEYS,
+    FEEDBACK_KINDS, CONTROLLER_SS_KEYS, CONTROLLER_TF_KEYS, DOMAINS, _Ctx,
+    _check_keys, _mapping, _kind, _requirements)
+
+
+def find_root(path: Path) -> Path:
+    """Nearest folder at or above ``path``'s folder holding ``.git`` or ``pyproject.toml``;
+    the file's own folder when there is none."""
+    start = Path(path).resolve().parent
+    for folder in (start, *start.parents):
+        if (folder / ".git").exists() or (folder / "pyproject.toml").is_file():
+            return folder
+    return start
+
+
+def load_models(path: str | os.PathLike[str], root: str | os.PathLike[str] | None = None,
+                *, allow_python: bool = False) -> list[Model]:
+    """Load the model file at ``path``: one :class:`Model` per operating point, or one.
+
+    Parameters
+    ----------
+    path
+        A ``.yaml``/``.yml``/``.toml``/``.json`` model file.
+    root
+        Repository root; found from ``path`` with :func:`find_root` when None. Model sources
+        are reported relative to it and referenced matrix files must lie inside it.
+    allow_python
+        Whether a ``vector_field`` block may import project code (``module:function``,
+        resolved relative to ``root``); refused with a :class:`ModelError` otherwise.
+
+    Raises
+    ------
+    ModelError
+        For any problem with the file, naming the file, field and line.
+    """
+    return load_models_with_refs(path, root, allow_python=allow_python)[0]
+
+
+def load_models_with_refs(path: str | os.PathLike[str],
+                          root: str | os.PathLike[str] | None = None, *,
+                          allow_python: bool = False) -> tuple[list[Model], list[str]]:
+    """Like :func:`load_models`, also returning the repository-relative paths (POSIX) of the
+    matrix files the model references, sorted and without repeats, so a cache can hash them."""
+    file = Path(path)
+    base = Path(root) if root is not None else find_root(file)
+    try:
+        source = file.resolve().relative_to(base.resolve()).as_posix()
+    except ValueError:  # a file outside the given root still gets a usable name
+        source = file.as_posix()
+    data, lines = read_document(file, source)
+    refs: list[str] = []
+    models = _load(data, source=source, root=base, base_dir=file.parent, lines=lines, refs=refs,
+                   stem=file.stem, allow_python=allow_python)
+    return models, sorted(set(refs))
+
+
+def load_models_from_bytes(raw: bytes, source: str, read: Callable[[str], bytes], *,
+                           stem: str | None = None) -> tuple[list[Model], list[str]]:
+    """Load a model file given as bytes, reading its matrix files through ``read``.
+
+    For model files that are not in the working tree (a git revision, say). ``source`` is the
+    file's repository-relative POSIX path: its suffix picks the format, its folder is where
+    references are resolved (lexically, confined to the repository) and ``read(rel)`` returns
+    the bytes of the repository-relative file ``rel`` (``FileNotFoundError`` when missing).
+    ``stem`` replaces the file-name stem as the default model name (a renamed file keeps the
+    name its new path gives it). Returns the models and the referenced paths, as
+    :func:`load_models_with_refs` does.
+    """
+    import posixpath
+    from pathlib import PurePosixPath
+
+    from ..model.formats import parse_bytes
+
+    data, lines = parse_bytes(raw, posixpath.splitext(source)[1], source)
+    refs: list[str] = []
+    base_dir = PurePosixPath(posixpath.dirname(source) or ".")
+    models = _load(data, source=source, root=None, base_dir=base_dir,  # type: ignore[arg-type]
+                   lines=lines, refs=refs,  # base_dir: a PurePosixPath, only joined (files come from read)
+                   stem=stem or PurePosixPath(source).stem, read=read)  # type: ignore[arg-type]
+    return models, sorted(set(refs))
+
+
+def load_document(data: Mapping[str, Any], *, source: str = "<document>",
+                  root: Path | None = None, base_dir: Path | None = None,
+                  lines: Mapping[str, int] | None = None,
+                  allow_python: bool = False) -> list[Model]:
+    """Build models from an already parsed document (same rules as :func:`load_models`).
+
+    Parameters
+    ----------
+    data
+        The top-level mapping.
+    source
+        Name for messages and ``Model.source``; its stem is the default model name.
+    root, base_dir
+        Repository root and the folder file references are relative to; references are
+        refused when ``base_dir`` is None.
+    lines
+        ``{dotted.field: line}`` as produced by the readers, when known.
+    """
+    if not isinstance(data, Mapping):
+        raise ModelError(source, "", f"must be a mapping of fields, got {type(data).__name__}")
+    return _load(dict(data), source=source, root=root, base_dir=base_dir,
+                 lines=dict(lines or {}), refs=[], stem=Path(source).stem or "model",
+                 allow_python=allow_python)
+
+
+def _load(data: dict[str, Any], *, source: str, root: Path | None, base_dir: Path | None,
+          lines: dict[str, int], refs: list[str], stem: str,
+          read: Callable[[str], bytes] | None = None,
+          allow_python: bool = False) -> list[Model]:
+    ctx = _Ctx(source, root, base_dir, lines, refs, read=read, allow_python=allow_python)
+    if "model_format" not in data:
+        raise ctx.err("model_format", "is missing",
+                      f"start the file with 'model_format: {FORMAT_VERSIONS[-1]}'")
+    version = data["model_format"]
+    if isinstance(version, bool) or version not in FORMAT_VERSIONS:
+        raise ctx.err("model_format", f"is {version!r}, but this version of eigengate reads "
+                      f"model_format {', '.join(map(str, FORMAT_VERSIONS))} only",
+                      "upgrade eigengate to read newer files")
+    _check_keys(data, TOP_KEYS, ctx, "", "a model file")
+    name = data.get("name", stem)
+    if not isinstance(name, str) or not name.strip():
+        raise ctx.err("name", f"must be a non-empty string, got {name!r}")
+    if not isinstance(data.get("description", ""), str):
+        raise ctx.err("description", f"must be text, got {_kind(data['description'])}")
+    domain = data.get("domain", "continuous")
+    if domain not in DOMAINS:
+        close = suggest(str(domain), DOMAINS)
+        raise ctx.err("domain", f"must be 'continuous' or 'discrete', got {domain!r}",
+                      f"did you mean {close!r}?" if close else None)
+    ctx.domain = domain
+    ctx.sample_period = _sample_period(data, domain, ctx, "sample_period")
+    if "vector_field" in data:  # a nonlinear model: linearised by eigengate.analysis.nonlinear
+        from .fields import load_vector_field
+
+        return load_vector_field(data, ctx, name, _requirements)
+    if "plant" not in data and "operating_points" not in data:
+        raise ctx.err("plant", "is missing", "describe the plant with A (state space) or "
+                      "num and den (transfer function)")
+    points = data.get("operating_points")
+    base = {k: v for k, v in data.items() if k != "operating_points"}
+    if "waivers" in data:
+        from ..rules.waivers import parse_waivers
+
+        ctx.waivers = parse_waivers(data["waivers"], source, "waivers", lines)
+    from .blocks import build_model
+
+    if points is None:
+        return [build_model(base, ctx, name, None)]
+    if not isinstance(points, list) or not points:
+        raise ctx.err("operating_points", f"must be a non-empty list of mappings, got "
+                      f"{_kind(points) if points != [] else 'an empty list'}")
+    models: list[Model] = []
+    seen: dict[str, int] = {}
+    for i, point in enumerate(points):
+        where = f"operating_points.{i}"
+        pctx = dataclasses.replace(ctx, prefix=f"operating_points[{i}].")
+        pctx.lines = {**ctx.lines, **{k[len(where) + 1:]: v for k, v in ctx.lines.items()
+                                      if k.startswith(where + ".")}}
+        point = _mapping(point, ctx, f"operating_points[{i}]")
+        label = point.get("label")
+        if label is None:
+            raise ModelError(source, f"operating_points[{i}].label", "is missing",
+                             line=ctx.lines.get(where),
+                             hint="each operating point needs a unique label, e.g. label: 'v=30'")
+        if not isinstance(label, str) or not label.strip():
+            raise pctx.err("label", f"must be a non-empty string, got {label!r}",
+                           "quote it, e.g. label: '30'")
+        if label in seen:
+            raise pctx.err("label", f"is {label!r}, already used by operating_points"
+                           f"[{seen[label]}]", "labels must be unique")
+        seen[label] = i
+        pctx.prefix = f"operating_points[{i}] (label {label!r})."
+        _check_keys(point, POINT_KEYS, pctx, "", "an operating point")
+        merged = _merge(base, {k: v for k, v in point.items() if k != "label"})
+        models.append(build_model(merged, pctx, name, label))
+    for i, w in enumerate(ctx.waivers):
+        if w.label is not None and w.label not in seen:
+            close = suggest(w.label, list(seen))
+            raise ctx.err(f"waivers[{i}].label", f"names no operating point (got {w.label!r})",
+                          f"did you mean {close!r}?" if close else
+                          "labels: " + ", ".join(seen))
+    return models
+
+
+def _merge(base: Any, over: Any) -> Any:
+    # Mappings merge key by key; a null removes the key; anything else replaces, and a matrix
+    # file reference ({file: ...}) replaces as a whole rather than mixing keys of two files.
+    if not isinstance(base, Mapping) or not isinstance(over, Mapping) or "file" in over \
+            or "file" in base:
+        return over
+    out = dict(base)
+    for k, v in over.items():
+        if v is None:
+            out.pop(k, None)
+        elif k in out:
+            out[k] = _merge(out[k], v)
+        else:
+            out[k] = v
+    return out
+
+
+def _sample_period(block: Mapping[str, Any], domain: str, ctx: _Ctx, path: str) -> float | None:
+    value = block.get("sample_period")
+    if domain == "continuous":
+        if value is not None:
+            raise ctx.err(path, f"is {value!r}, but a continuous model has no sample period",
+                          "set domain: discrete, or remove sample_period")
+        return None
+    if value is None:
+        raise ctx.err(path, "is missing; a discrete model needs its sample period in seconds",
+                      "add e.g. sample_period: 0.01")
+    problem = sample_period_problem(value)
+    if problem:
+        raise ctx.err(path, problem)
+    return float(value)

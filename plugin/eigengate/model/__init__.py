@@ -1,0 +1,1 @@
+"""The model: document formats, matrix files, interconnection and the frozen Model."""

@@ -1,0 +1,375 @@
+"""The validated model every other stage reads: matrices, sample period, signal names, requirements.
+
+A :class:`Model` is built by the file loader, by :func:`from_arrays` or by :func:`from_control`.
+Whatever the source, the same shape and value checks run here, so every front end gets the
+same errors with the same wording.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import TYPE_CHECKING, Any, Mapping, Sequence
+
+from ..errors import ModelError
+
+if TYPE_CHECKING:  # pragma: no cover
+    import numpy as np
+
+
+__all__ = ["Model", "from_arrays", "from_control", "as_matrix", "MAX_STATES",
+           "sample_period_problem"]
+
+#: Largest number of states a model may have (dense eigen-decomposition stays in seconds).
+MAX_STATES = 4000
+#: Largest magnitude of a matrix entry: norms, products and the s-plane mapping stay finite
+#: in double precision (squares stay below 1e300).
+MAX_MAGNITUDE = 1e150
+#: Smallest nonzero scale (largest entry) of A or E: below it LAPACK works in or near the
+#: subnormal range, where eigenvalues lose every digit.
+MIN_SCALE = 1e-150
+#: Sample periods in seconds (femtoseconds to about 30 million years): ln|z|/T neither
+#: overflows nor underflows to an exact zero for any |z| that double precision holds.
+MIN_SAMPLE_PERIOD = 1e-15
+MAX_SAMPLE_PERIOD = 1e15
+_NUMBER_TYPES = frozenset((int, float))  # exact types: bool, a subclass of int, is refused
+
+
+@dataclass(frozen=True, eq=False)
+class Model:
+    """A linear time-invariant model, ready for modal analysis.
+
+    ``x' = A x + B u`` (or ``E x' = A x + B u`` for descriptor models), ``y = C x + D u``;
+    for discrete models ``x[k+1] = A x[k] + B u[k]`` with sample period ``sample_period``.
+    A closed loop formed by the loader is stored as its closed-loop matrices; ``structure``
+    says how it was formed. ``requirements`` are the model's own; ``disabled`` lists rule ids
+    the model switches off (``stable: false``) so a repository default does not apply to it;
+    ``on_uncertain`` is None when the model leaves it to the repository policy.
+    ``loop_parts`` and ``nonlinear`` carry what margin and equilibrium requirements need.
+    """
+
+    name: str
+    A: "np.ndarray"
+    B: "np.ndarray"
+    C: "np.ndarray"
+    D: "np.ndarray"
+    E: "np.ndarray | None" = None
+    sample_period: float | None = None
+    states: tuple[str, ...] = ()
+    inputs: tuple[str, ...] = ()
+    outputs: tuple[str, ...] = ()
+    label: str | None = None
+    source: str = "<arrays>"
+    structure: str = "state-space"
+    requirements: tuple[Any, ...] = ()
+    known_modes: tuple[Any, ...] = ()
+    on_uncertain: str | None = None
+    disabled: tuple[str, ...] = ()
+    waivers: tuple[Any, ...] = ()
+    lines: Mapping[str, int] = field(default_factory=dict)
+    allowed_drift: Mapping[str, Any] | None = None  # regression tolerances of the model file
+    #: Plant and controller kept apart (:class:`eigengate.analysis.margins.LoopParts`) when the loader
+    #: closed the loop, so margins can break it; None otherwise.
+    loop_parts: Any = None
+    #: The vector field behind a linearised model (:class:`eigengate.analysis.nonlinear.FieldPoint`).
+    nonlinear: Any = None
+
+    @property
+    def discrete(self) -> bool:
+        return self.sample_period is not None
+
+    @property
+    def n_states(self) -> int:
+        return self.A.shape[0]
+
+    @property
+    def descriptor(self) -> bool:
+        return self.E is not None
+
+    @property
+    def title(self) -> str:
+        """``name`` or ``name[label]`` for an operating point."""
+        return self.name if self.label is None else f"{self.name}[{self.label}]"
+
+    def line_of(self, field_path: str) -> int | None:
+        """Line in the source file where ``field_path`` (or its closest parent) is defined."""
+        parts = field_path.split(".")
+        while parts:
+            line = self.lines.get(".".join(parts))
+            if line is not None:
+                return line
+            parts.pop()
+        return None
+
+
+def as_matrix(
+    value: Any,
+    source: str,
+    field_path: str,
+    *,
+    line: int | None = None,
+    allow_vector: bool = False,
+) -> "np.ndarray":
+    """Convert ``value`` to a finite real 2-D float array or raise :class:`ModelError`.
+
+    Accepts nested lists, numpy arrays and scalars (a scalar is a 1×1 matrix). A flat list is
+    taken as one row when ``allow_vector`` is true. Booleans, strings, complex numbers, NaN
+    and Inf are refused with the position of the first bad entry.
+    """
+    import numpy as np
+
+    def bad(problem: str, hint: str | None = None) -> ModelError:
+        return ModelError(source, field_path, problem, line=line, hint=hint)
+
+    if isinstance(value, np.ndarray):
+        arr = value
+        if arr.dtype == bool or arr.dtype.kind not in "iuf":
+            if arr.dtype.kind == "c":
+                if arr.size and not np.any(arr.imag):
+                    arr = arr.real
+                else:
+                    raise bad("must be real, got complex entries")
+            else:
+                raise bad(f"must hold real numbers, got an array of dtype {arr.dtype}")
+        if arr.ndim == 0:
+            arr = arr.reshape(1, 1)
+        elif arr.ndim == 1:
+            if not allow_vector:
+                raise bad(f"must be a 2-D matrix, got a 1-D array of length {arr.shape[0]}",
+                          "write it as [[...]] for one row")
+            arr = arr.reshape(1, -1)
+        elif arr.ndim != 2:
+            raise bad(f"must be a 2-D matrix, got a {arr.ndim}-D array of shape {arr.shape}")
+    else:
+        rows = _rows_of(value, bad, allow_vector)
+        width = len(rows[0]) if rows else 0
+        # Fast path: one pass in C over the entry types; the loop below only runs to find
+        # and name the first bad entry.
+        if all(len(row) == width for row in rows) and \
+                {type(x) for row in rows for x in row} <= _NUMBER_TYPES:
+            rows_ok = True
+        else:
+            rows_ok = False
+        for i, row in enumerate(() if rows_ok else rows):
+            if len(row) != width:
+                raise bad(f"must have rows of equal length, row 1 has {width} entries "
+                          f"and row {i + 1} has {len(row)}")
+            for j, entry in enumerate(row):
+                if isinstance(entry, bool) or not isinstance(entry, (int, float)):
+                    kind = "complex" if isinstance(entry, complex) else type(entry).__name__
+                    raise bad(f"must hold real numbers, entry ({i + 1},{j + 1}) is "
+                              f"{entry!r} ({kind})")
+        arr = np.array(rows, dtype=float).reshape(len(rows), width)
+    arr = np.array(arr, dtype=float, copy=True)
+    if arr.size:
+        finite = np.isfinite(arr)
+        if not finite.all():
+            i, j = np.argwhere(~finite)[0]
+            raise bad(f"must hold finite numbers, entry ({i + 1},{j + 1}) is {arr[i, j]}")
+        big = np.abs(arr) > MAX_MAGNITUDE
+        if big.any():
+            i, j = np.argwhere(big)[0]
+            raise bad(f"must hold numbers of magnitude at most {MAX_MAGNITUDE:g}, entry "
+                      f"({i + 1},{j + 1}) is {arr[i, j]:g}",
+                      "rescale the units: beyond that the eigenvalue computation overflows "
+                      "double precision")
+    return arr
+
+
+def _check_scale(arr: "np.ndarray", bad) -> None:
+    """Refuse a nonzero matrix whose largest entry is below MIN_SCALE."""
+    import numpy as np
+
+    top = float(np.abs(arr).max()) if arr.size else 0.0
+    if 0.0 < top < MIN_SCALE:
+        i, j = np.unravel_index(int(np.argmax(np.abs(arr))), arr.shape)
+        raise bad(f"is too small to analyse: its largest entry ({i + 1},{j + 1}) is {top:g}, "
+                  f"below {MIN_SCALE:g}", "rescale the units (or write 0 for a zero matrix)")
+
+
+def sample_period_problem(value: Any) -> str | None:
+    """Why ``value`` is not a usable sample period, or None when it is."""
+    import math
+
+    if isinstance(value, bool) or not isinstance(value, (int, float)) \
+            or not math.isfinite(value) or value <= 0:
+        return f"must be a positive number of seconds, got {value!r}"
+    if not MIN_SAMPLE_PERIOD <= value <= MAX_SAMPLE_PERIOD:
+        return (f"is {value!r} s, outside the range the s-plane mapping ln(z)/T computes in "
+                f"double precision: expected between {MIN_SAMPLE_PERIOD:g} and "
+                f"{MAX_SAMPLE_PERIOD:g} s")
+    return None
+
+
+def _rows_of(value: Any, bad, allow_vector: bool) -> list[list[Any]]:
+    if isinstance(value, bool) or isinstance(value, (int, float, complex)):
+        return [[value]]
+    if not isinstance(value, (list, tuple)):
+        raise bad(f"must be a matrix (a list of rows), got {type(value).__name__} {value!r:.60}")
+    if not value:
+        return []
+    if all(isinstance(r, (list, tuple)) for r in value):
+        return [list(r) for r in value]
+    if any(isinstance(r, (list, tuple)) for r in value):
+        raise bad("must be a list of rows, got a mix of rows and numbers")
+    if allow_vector:
+        return [list(value)]
+    raise bad(f"must be a 2-D matrix (a list of rows), got a flat list of {len(value)} numbers",
+              "write [[a, b]] for one row or [[a], [b]] for one column")
+
+
+def _names(given: Sequence[str] | None, count: int, prefix: str, source: str, field_path: str,
+           lines: Mapping[str, int]) -> tuple[str, ...]:
+    if given is None:
+        return tuple(f"{prefix}{i + 1}" for i in range(count))
+    names = tuple(given)
+    line = lines.get(field_path)
+    if len(names) != count:
+        raise ModelError(source, field_path, f"must name {count} signals, got {len(names)}",
+                         line=line)
+    for n in names:
+        if not isinstance(n, str) or not n.strip():
+            raise ModelError(source, field_path, f"must hold non-empty strings, got {n!r}",
+                             line=line)
+    seen: set[str] = set()
+    for n in names:
+        if n in seen:
+            raise ModelError(source, field_path, f"names must be unique, {n!r} appears twice",
+                             line=line)
+        seen.add(n)
+    return names
+
+
+def from_arrays(
+    A: Any,
+    B: Any = None,
+    C: Any = None,
+    D: Any = None,
+    E: Any = None,
+    *,
+    sample_period: float | None = None,
+    name: str = "model",
+    states: Sequence[str] | None = None,
+    inputs: Sequence[str] | None = None,
+    outputs: Sequence[str] | None = None,
+    label: str | None = None,
+    source: str = "<arrays>",
+    structure: str = "state-space",
+    requirements: Sequence[Any] = (),
+    known_modes: Sequence[Any] = (),
+    on_uncertain: str | None = None,
+    disabled: Sequence[str] = (),
+    waivers: Sequence[Any] = (),
+    lines: Mapping[str, int] | None = None,
+    prefix: str = "",
+) -> Model:
+    """Build a validated :class:`Model` from matrices.
+
+    ``B``, ``C`` and ``D`` default to empty (no inputs, no outputs; ``C`` defaults to no
+    outputs). ``prefix`` is prepended to field names in error messages (``"plant."``).
+    """
+    import numpy as np
+
+    lines = dict(lines or {})
+
+    def fld(key: str) -> str:
+        return prefix + key
+
+    def mat(value: Any, key: str) -> np.ndarray:
+        return as_matrix(value, source, fld(key), line=lines.get(fld(key)))
+
+    a = mat(A, "A")
+    _check_scale(a, lambda p, h=None: ModelError(source, fld("A"), p, line=lines.get(fld("A")),
+                                                 hint=h))
+    n = a.shape[0]
+    if a.size == 0:
+        raise ModelError(source, fld("A"), "must not be empty, got a 0×0 matrix",
+                         line=lines.get(fld("A")))
+    if a.shape[0] != a.shape[1]:
+        raise ModelError(source, fld("A"), f"must be square, got {a.shape[0]}×{a.shape[1]}",
+                         line=lines.get(fld("A")))
+    if n > MAX_STATES:
+        raise ModelError(source, fld("A"), f"has {n} states, more than the limit of {MAX_STATES}",
+                         line=lines.get(fld("A")))
+    b = np.zeros((n, 0)) if B is None else mat(B, "B")
+    if B is not None and b.size == 0:
+        b = np.zeros((n, 0))
+    if b.shape[0] != n:
+        raise ModelError(source, fld("B"), f"must have {n} rows (one per state of A), got "
+                         f"{b.shape[0]}×{b.shape[1]}", line=lines.get(fld("B")))
+    m = b.shape[1]
+    c = np.zeros((0, n)) if C is None else mat(C, "C")
+    if C is not None and c.size == 0:
+        c = np.zeros((0, n))
+    if c.shape[1] != n:
+        raise ModelError(source, fld("C"), f"must have {n} columns (one per state of A), got "
+                         f"{c.shape[0]}×{c.shape[1]}", line=lines.get(fld("C")))
+    p = c.shape[0]
+    d = np.zeros((p, m)) if D is None else mat(D, "D")
+    if D is not None and d.size == 0:
+        d = np.zeros((p, m))
+    if d.shape != (p, m):
+        raise ModelError(source, fld("D"), f"must be {p}×{m} (outputs of C × inputs of B), got "
+                         f"{d.shape[0]}×{d.shape[1]}", line=lines.get(fld("D")))
+    e = None
+    if E is not None:
+        e = mat(E, "E")
+        if e.shape != (n, n):
+            raise ModelError(source, fld("E"), f"must be {n}×{n} like A, got "
+                             f"{e.shape[0]}×{e.shape[1]}", line=lines.get(fld("E")))
+        _check_scale(e, lambda p, h=None: ModelError(source, fld("E"), p,
+                                                     line=lines.get(fld("E")), hint=h))
+        if np.array_equal(e, np.eye(n)):
+            e = None  # an identity E is an ordinary state-space model
+    if sample_period is not None:
+        problem = sample_period_problem(sample_period)
+        if problem:
+            raise ModelError(source, "sample_period", problem, line=lines.get("sample_period"))
+        sample_period = float(sample_period)
+    if on_uncertain not in (None, "fail", "pass"):
+        raise ModelError(source, "on_uncertain", f"must be 'fail' or 'pass', got {on_uncertain!r}",
+                         line=lines.get("on_uncertain"))
+    return Model(
+        name=name,
+        A=a, B=b, C=c, D=d, E=e,
+        sample_period=sample_period,
+        states=_names(states, n, "x", source, fld("states"), lines),
+        inputs=_names(inputs, m, "u", source, fld("inputs"), lines),
+        outputs=_names(outputs, p, "y", source, fld("outputs"), lines),
+        label=label,
+        source=source,
+        structure=structure,
+        requirements=tuple(requirements),
+        known_modes=tuple(known_modes),
+        on_uncertain=on_uncertain,
+        disabled=tuple(disabled),
+        waivers=tuple(waivers),
+        lines=lines,
+    )
+
+
+def from_control(sys: Any, *, name: str = "model", **kwargs: Any) -> Model:
+    """Build a :class:`Model` from a python-control ``StateSpace`` or ``TransferFunction``.
+
+    Transfer functions are realised by python-control (``control.ss``); signal names are taken
+    from the object where it carries them.
+    """
+    import control  # heavy: only when a python-control object is actually given
+
+    if isinstance(sys, control.TransferFunction):
+        sys = control.ss(sys)
+    if not isinstance(sys, control.StateSpace):
+        raise ModelError("<python-control>", "", "must be a control.StateSpace or "
+                         f"control.TransferFunction, got {type(sys).__name__}")
+    dt = sys.dt
+    sample_period = None if dt in (0, None, False) else (None if dt is True else float(dt))
+    if dt is True:
+        raise ModelError("<python-control>", "dt", "must be a numeric sample period for a "
+                         "discrete model, got dt=True (unspecified)")
+    names: dict[str, Any] = {}
+    for key, attr in (("states", "state_labels"), ("inputs", "input_labels"),
+                      ("outputs", "output_labels")):
+        labels = getattr(sys, attr, None)
+        if labels and key not in kwargs:
+            names[key] = list(labels)
+    return from_arrays(sys.A, sys.B, sys.C, sys.D, sample_period=sample_period, name=name,
+                       source=kwargs.pop("source", "<python-control>"), **names, **kwargs)

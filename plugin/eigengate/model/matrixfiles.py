@@ -1,0 +1,260 @@
+"""Matrices kept in files next to the model: ``{file: "plant.npz", key: "A"}``.
+
+Reads ``.npz`` (numpy, never pickles), ``.mat`` (MATLAB v4-v7 through ``scipy.io.loadmat``,
+dense or sparse) and ``.csv`` (plain numbers separated by commas, ``#`` comments). A path is
+relative to the model file's folder and must resolve, symlinks followed, inside the repository
+root: a model file in a pull request must not make CI read files elsewhere on the machine.
+Nothing is cached here; the caller gets the repository-relative path of every file read so a
+cache can hash their contents.
+
+A caller that reads files from somewhere other than the working tree (git history, say) passes
+``read``: a callable from a repository-relative POSIX path to the file's bytes. The path is then
+resolved lexically (``..`` may not climb above the root) and nothing touches the filesystem.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import TYPE_CHECKING, Any, Callable, Mapping
+
+from .formats import suggest
+from ..errors import ModelError
+
+if TYPE_CHECKING:  # pragma: no cover
+    import numpy as np
+
+__all__ = ["MAX_MATRIX_FILE_BYTES", "MATRIX_SUFFIXES", "REFERENCE_KEYS", "is_reference",
+           "load_reference"]
+
+#: Largest referenced matrix file read, in bytes (a dense 4000×4000 float64 matrix is 128 MB).
+MAX_MATRIX_FILE_BYTES = 256 * 1024 * 1024
+#: Endings of matrix files that can be referenced.
+MATRIX_SUFFIXES = (".npz", ".mat", ".csv")
+#: Keys of a reference mapping.
+REFERENCE_KEYS = ("file", "key")
+
+
+def is_reference(value: Any) -> bool:
+    """True when ``value`` is a mapping, which in a matrix field means a file reference."""
+    return isinstance(value, Mapping)
+
+
+def load_reference(
+    ref: Mapping[str, Any],
+    *,
+    source: str,
+    field: str,
+    line: int | None,
+    base_dir: Path | None,
+    root: Path | None,
+    read: Callable[[str], bytes] | None = None,
+) -> tuple["np.ndarray", str]:
+    """Load the matrix a reference mapping points at.
+
+    Parameters
+    ----------
+    ref
+        ``{"file": relative path, "key": name}``; ``key`` picks the array in ``.npz`` and
+        ``.mat`` files and may be left out when the file holds exactly one.
+    source, field, line
+        Where the reference is written, for error messages.
+    base_dir
+        Folder of the model file; paths are relative to it.
+    root
+        Repository root; the resolved file must lie inside it. Defaults to ``base_dir``.
+    read
+        When given, files are read through it instead of the filesystem: it takes the
+        repository-relative POSIX path and returns the bytes (``FileNotFoundError`` when there
+        is no such file, ``IsADirectoryError`` or ``OSError`` otherwise); ``base_dir`` is then
+        the model file's folder relative to the root (``root`` is not used).
+
+    Returns
+    -------
+    tuple of numpy.ndarray and str
+        The array as stored (the caller checks it with ``as_matrix``) and the file's path
+        relative to ``root`` with POSIX slashes.
+
+    Raises
+    ------
+    ModelError
+        For a malformed reference, a path outside the repository, a missing, oversized or
+        unreadable file, a missing or unknown key, or pickled/object content.
+    """
+    def bad(problem: str, hint: str | None = None, sub: str = "") -> ModelError:
+        return ModelError(source, field + sub, problem, line=line, hint=hint)
+
+    for k in ref:
+        if k not in REFERENCE_KEYS:
+            close = suggest(str(k), REFERENCE_KEYS)
+            raise bad(f"has an unknown key {k!r} in a matrix file reference",
+                      f"did you mean {close!r}?" if close else "a reference has 'file' and 'key'")
+    name = ref.get("file")
+    if not isinstance(name, str) or not name.strip():
+        raise bad(f"must be a non-empty path string, got {name!r}",
+                  "a matrix is a list of rows or {file: 'path.npz', key: 'A'}", ".file")
+    key = ref.get("key")
+    if key is not None and not isinstance(key, str):
+        raise bad(f"must be a string naming the array, got {key!r}", sub=".key")
+    if base_dir is None:
+        raise bad(f"refers to the file {name!r}, but this model was not read from a file",
+                  "pass base_dir to resolve file references", ".file")
+    if Path(name).is_absolute() or name.startswith(("/", "\\")) or Path(name).drive:
+        raise bad(f"must be a path relative to the model file's folder, got the absolute "
+                  f"path {name!r}", "absolute paths do not travel between machines", ".file")
+    if read is not None:
+        return _load_through(read, name, key, str(base_dir), bad)
+    base_dir = Path(base_dir)
+    root = Path(root) if root is not None else base_dir
+    root_real = root.resolve()
+    target = (base_dir / name).resolve()
+    # resolve() follows symlinks, so a link pointing out of the repository is caught here,
+    # before anything about the target (even whether it exists) is revealed.
+    if not target.is_relative_to(root_real):
+        raise bad(f"points outside the repository: {name!r} resolves outside the "
+                  "repository root", "keep matrix files inside the repository", ".file")
+    rel = target.relative_to(root_real).as_posix()
+    if not target.is_file():
+        raise bad(f"refers to {rel!r}, which does not exist" if not target.exists()
+                  else f"refers to {rel!r}, which is not a file", sub=".file")
+    suffix = target.suffix.lower()
+    if suffix not in MATRIX_SUFFIXES:
+        raise bad(f"refers to {rel!r}, an unknown matrix file type {target.suffix or '(none)'!r}",
+                  "matrix files end in " + ", ".join(MATRIX_SUFFIXES), ".file")
+    size = target.stat().st_size
+    if size > MAX_MATRIX_FILE_BYTES:
+        raise bad(f"refers to {rel!r}, {size} bytes, larger than the limit of "
+                  f"{MAX_MATRIX_FILE_BYTES} bytes", sub=".file")
+    reader = {".npz": _read_npz, ".mat": _read_mat, ".csv": _read_csv}[suffix]
+    return reader(target, rel, key, bad), rel
+
+
+def _load_through(read: Callable[[str], bytes], name: str, key: str | None, base_dir: str,
+                  bad: Any) -> tuple["np.ndarray", str]:
+    """Resolve ``name`` lexically against ``base_dir`` (repository-relative) and read it with
+    ``read``; the same confinement, type and size rules as for files on disk."""
+    import io
+    import posixpath
+
+    rel = posixpath.normpath(posixpath.join(base_dir.replace("\\", "/"), name.replace("\\", "/")))
+    if rel == ".." or rel.startswith("../") or rel.startswith("/"):
+        raise bad(f"points outside the repository: {name!r} resolves outside the "
+                  "repository root", "keep matrix files inside the repository", ".file")
+    suffix = posixpath.splitext(rel)[1].lower()
+    if suffix not in MATRIX_SUFFIXES:
+        raise bad(f"refers to {rel!r}, an unknown matrix file type {suffix or '(none)'!r}",
+                  "matrix files end in " + ", ".join(MATRIX_SUFFIXES), ".file")
+    try:
+        data = read(rel)
+    except FileNotFoundError:
+        raise bad(f"refers to {rel!r}, which does not exist", sub=".file") from None
+    except OSError as exc:
+        raise bad(f"refers to {rel!r}, which cannot be read ({exc})", sub=".file") from None
+    if len(data) > MAX_MATRIX_FILE_BYTES:
+        raise bad(f"refers to {rel!r}, {len(data)} bytes, larger than the limit of "
+                  f"{MAX_MATRIX_FILE_BYTES} bytes", sub=".file")
+    reader = {".npz": _read_npz, ".mat": _read_mat, ".csv": _read_csv}[suffix]
+    return reader(io.BytesIO(data), rel, key, bad), rel
+
+
+def _pick(names: list[str], key: str | None, rel: str, bad: Any) -> str:
+    if key is None:
+        if len(names) == 1:
+            return names[0]
+        raise bad(f"must name the array to read from {rel!r}, which holds "
+                  f"{len(names)}: {', '.join(sorted(names)) or '(none)'}",
+                  "add key: NAME to the reference", ".key")
+    if key not in names:
+        close = suggest(key, names)
+        raise bad(f"names {key!r}, which {rel!r} does not hold (it holds "
+                  f"{', '.join(sorted(names)) or 'nothing'})",
+                  f"did you mean {close!r}?" if close else None, ".key")
+    return key
+
+
+def _read_npz(path: "Path | Any", rel: str, key: str | None, bad: Any) -> "np.ndarray":
+    import zipfile
+
+    import numpy as np
+
+    try:
+        # allow_pickle=False: a pickled array would run code from the file when loaded.
+        # np.load leaves its own file open when the archive is not a readable zip: open it here.
+        with (open(path, "rb") if isinstance(path, Path) else path) as fh, \
+                np.load(fh, allow_pickle=False) as archive:
+            if not isinstance(archive, np.lib.npyio.NpzFile):
+                raise bad(f"refers to {rel!r}, which is not a .npz archive", sub=".file")
+            name = _pick(list(archive.files), key, rel, bad)
+            try:
+                return np.asarray(archive[name])
+            except ValueError:
+                raise bad(f"refers to the array {name!r} in {rel!r}, which holds pickled "
+                          "object data; eigengate never unpickles files",
+                          "save plain float arrays with numpy.savez") from None
+    except ModelError:  # a ValueError too: let our own message through unchanged
+        raise
+    except (OSError, zipfile.BadZipFile, EOFError, ValueError) as exc:
+        raise bad(f"refers to {rel!r}, which is not a readable .npz archive ({exc})",
+                  sub=".file") from None
+
+
+def _read_mat(path: "Path | Any", rel: str, key: str | None, bad: Any) -> "np.ndarray":
+    import warnings
+
+    import numpy as np
+    import scipy.io
+    import scipy.sparse
+
+    try:
+        with warnings.catch_warnings():
+            # scipy warns about odd headers; the numbers are what matters and -W error must not
+            # turn a readable file into a crash.
+            warnings.simplefilter("ignore")
+            content = scipy.io.loadmat(path)
+    except NotImplementedError:
+        raise bad(f"refers to {rel!r}, a MATLAB v7.3 (HDF5) file, which is not supported",
+                  "save it with save(..., '-v7')", ".file") from None
+    except (OSError, ValueError, TypeError, scipy.io.matlab.MatReadError) as exc:
+        raise bad(f"refers to {rel!r}, which is not a readable .mat file ({exc})",
+                  sub=".file") from None
+    names = [k for k in content if not k.startswith("__")]
+    name = _pick(names, key, rel, bad)
+    value = content[name]
+    if scipy.sparse.issparse(value):
+        value = value.toarray()
+    return np.asarray(value)
+
+
+def _read_csv(path: "Path | Any", rel: str, key: str | None, bad: Any) -> "np.ndarray":
+    import numpy as np
+
+    if key is not None:
+        raise bad(f"is {key!r}, but a .csv file holds a single matrix",
+                  "remove key from the reference", ".key")
+    try:
+        raw = path.getvalue() if hasattr(path, "getvalue") else path.read_bytes()
+        text = raw.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        raise bad(f"refers to {rel!r}, which is not UTF-8 text (byte offset {exc.start})",
+                  sub=".file") from None
+    except OSError as exc:
+        raise bad(f"refers to {rel!r}, which cannot be read ({exc.strerror or exc})",
+                  sub=".file") from None
+    rows: list[list[float]] = []
+    for number, raw in enumerate(text.removeprefix("\ufeff").splitlines(), start=1):
+        body = raw.split("#", 1)[0].strip()
+        if not body:
+            continue
+        row = []
+        for column, cell in enumerate(body.split(","), start=1):
+            try:
+                row.append(float(cell))
+            except ValueError:
+                raise bad(f"refers to {rel!r}, whose line {number}, column {column} is "
+                          f"{cell.strip()!r}, not a number") from None
+        if rows and len(row) != len(rows[0]):
+            raise bad(f"refers to {rel!r}, whose line {number} has {len(row)} numbers while "
+                      f"the first row has {len(rows[0])}")
+        rows.append(row)
+    if not rows:
+        raise bad(f"refers to {rel!r}, which holds no numbers")
+    return np.array(rows, dtype=float)

@@ -1,0 +1,1 @@
+"""Report writers (text, JSON, SARIF, JUnit, Markdown, annotations, HTML) and figures."""

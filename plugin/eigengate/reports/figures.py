@@ -1,0 +1,115 @@
+"""Shared plumbing of the report figures: palette, fixed style, lazy matplotlib, encoders."""
+
+from __future__ import annotations
+
+import contextlib
+import io
+from typing import Any, Iterator
+
+from ..errors import EigengateError
+
+#: Size of every figure, inches (at 90 dpi: 405×324 px).
+FIGSIZE = (4.5, 3.6)
+#: Default resolution of the figures embedded in the HTML report.
+HTML_DPI = 90
+#: Colours a PNG keeps; the figures use a dozen flat colours plus antialiasing ramps.
+PNG_COLORS = 96
+
+# Our palette: ink, region, and one colour per finding severity.
+_INK = "#1f3347"
+_MUTED = "#7d8a96"
+_GRID = "#e4e8ec"
+_REGION_FILL = "#dcefe6"
+_REGION_EDGE = "#3f7f68"
+_ERROR = "#c0392b"
+_WARNING = "#d68910"
+_BASELINE = "#8e99a4"
+_STABLE_DIR = "#2e7d5b"
+_UNSTABLE_DIR = "#c0392b"
+
+_RC = {
+    "font.family": "DejaVu Sans",  # shipped with matplotlib: the same glyphs everywhere
+    "font.size": 8.0,
+    "axes.titlesize": 8.5,
+    "axes.labelsize": 8.0,
+    "axes.linewidth": 0.6,
+    "axes.edgecolor": "#5b6670",
+    "axes.labelcolor": _INK,
+    "xtick.labelsize": 7.0,
+    "ytick.labelsize": 7.0,
+    "xtick.color": "#5b6670",
+    "ytick.color": "#5b6670",
+    "xtick.major.width": 0.6,
+    "ytick.major.width": 0.6,
+    "legend.fontsize": 7.0,
+    "svg.hashsalt": "eigengate",
+    "svg.fonttype": "none",  # text stays text: small files, searchable labels
+    "path.simplify": True,
+}
+
+
+class ReportDependencyError(EigengateError, ImportError):
+    """The graphical report needs matplotlib, which is not installed."""
+
+    def __init__(self, what: str = "the graphical report") -> None:
+        self.what = what
+        super().__init__(f"{what} needs matplotlib, which is not installed; install it with "
+                         f'pip install "eigengate[report]"')
+
+
+def _require(what: str = "the graphical report") -> Any:
+    """Import matplotlib (and select the Agg backend when nothing else chose one yet)."""
+    import sys
+
+    try:
+        import matplotlib
+    except ImportError:
+        raise ReportDependencyError(what) from None
+    if "matplotlib.pyplot" not in sys.modules:
+        # Every figure is drawn on an explicit Agg canvas anyway; selecting Agg here only keeps
+        # a later pyplot import from probing for a display. A session that already runs pyplot
+        # keeps its backend: switching it would close the user's windows.
+        matplotlib.use("Agg")
+    return matplotlib
+
+
+@contextlib.contextmanager
+def _style() -> Iterator[Any]:
+    """matplotlib's default style plus ours, for the duration of one figure."""
+    mpl = _require()
+    with mpl.rc_context():
+        mpl.rcdefaults()
+        mpl.rcParams.update(_RC)
+        yield mpl
+
+
+def _new_figure(mpl: Any) -> Any:
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure
+
+    fig = Figure(figsize=FIGSIZE, facecolor="white")
+    FigureCanvasAgg(fig)
+    return fig
+
+
+# -- encoders --------------------------------------------------------------------------------
+
+def _png_bytes(fig: Any, dpi: int) -> bytes:
+    """The figure as a palette PNG: a fifth of the RGBA size, the same bytes every run."""
+    from PIL import Image  # a matplotlib dependency
+
+    fig.set_dpi(dpi)
+    fig.canvas.draw()
+    w, h = fig.canvas.get_width_height()
+    img = Image.frombuffer("RGBA", (w, h), bytes(fig.canvas.buffer_rgba()), "raw", "RGBA", 0, 1)
+    img = img.convert("RGB").quantize(colors=PNG_COLORS, method=0, dither=Image.Dither.NONE)  # median cut
+    out = io.BytesIO()
+    img.save(out, format="PNG", optimize=True)
+    return out.getvalue()
+
+
+def _svg_text(fig: Any) -> str:
+    out = io.StringIO()
+    fig.savefig(out, format="svg", metadata={"Date": None, "Creator": None, "Format": None,
+                                             "Type": None})
+    return out.getvalue()

@@ -1,0 +1,121 @@
+"""Markdown report, for a pull-request comment or a CI job summary.
+
+A one-line verdict, a summary table (one row per model, one per invalid file), a section per
+model or file with findings (each finding with its table of offending modes), and the caution
+that the check is an engineering aid, not a safety sign-off. Every piece of text that comes
+from a model file is escaped, so a name cannot break a table or inject markup.
+"""
+
+from __future__ import annotations
+
+import re
+from typing import Any, Iterable, Sequence
+
+from .render import (CAUTION, mode_cells, own_findings, plural, status_of, tally, UNCERTAIN_NOTE,
+                      text_number)
+
+__all__ = ["render_markdown", "escape"]
+
+#: Punctuation that Markdown (CommonMark and the usual extensions) may read as markup.
+_SPECIAL = re.compile(r"([\\`*_{}\[\]<>|#~$&])")
+
+
+def escape(text: str) -> str:
+    """``text`` with markup characters backslash-escaped and line breaks made spaces."""
+    return _SPECIAL.sub(r"\\\1", " ".join(str(text).splitlines()))
+
+
+def _row(cells: Sequence[str]) -> str:
+    return "| " + " | ".join(cells) + " |"
+
+
+def _table(head: Sequence[str], rows: Iterable[Sequence[str]]) -> list[str]:
+    return [_row(head), _row(["---"] * len(head)), *(_row(r) for r in rows)]
+
+
+def _rule_list(findings: Sequence[Any]) -> str:
+    return ", ".join(sorted({f.rule for f in findings})) or "–"
+
+
+def _verdict(results: Sequence[Any]) -> str:
+    c = tally(results)
+    word = "failed" if c["errors"] else ("passed with warnings" if c["warnings"] else "passed")
+    text = (f"**eigengate: {word}** — {plural(c['files'], 'file')}, "
+            f"{plural(c['models'], 'model')}: {c['failed_models']} failing")
+    if c["invalid_files"]:
+        text += f", {plural(c['invalid_files'], 'invalid file')}"
+    text += f"; {plural(c['errors'], 'error')}, {plural(c['warnings'], 'warning')}"
+    if c["waived"]:
+        text += f", {c['waived']} waived"
+    return text + "."
+
+
+def _summary_rows(results: Sequence[Any]) -> Iterable[list[str]]:
+    for fr in results:
+        src = escape(fr.source)
+        for r in fr.results:
+            sp = r.spectrum
+            yield [src, escape(r.model.title), status_of(r.findings),
+                   text_number(sp.spectral_abscissa, 6, "1/s"),
+                   text_number(sp.min_damping, 3), _rule_list(r.findings)]
+        own = own_findings(fr)
+        if fr.error is not None or own:
+            status = "invalid" if fr.error is not None else status_of(own)
+            yield [src, "–", status, "–", "–", _rule_list(own)]
+
+
+def _finding_block(f: Any, discrete: bool) -> list[str]:
+    where = ", ".join(x for x in (f.severity, f"line {f.line}" if f.line else "",
+                                  escape(f.requirement) if f.rule != "EG001" else "") if x)
+    lines = [f"- **{f.rule} {f.name}** ({where}): {escape(f.message)}"]
+    if f.uncertain:
+        lines.append(f"  - {UNCERTAIN_NOTE}")
+    if f.suggestion:
+        lines.append(f"  - hint: {escape(f.suggestion)}")
+    reason = getattr(f, "waived", None)
+    if reason:
+        lines.append(f"  - waived: {escape(reason)}")
+    if f.modes:
+        head = ["mode", "z" if discrete else "eigenvalue", "ζ", "ωn [rad/s]", "τ [s]",
+                "participating states"]
+        rows = ([escape(c) for c in mode_cells(m)] for m in f.modes)
+        lines += ["", *("  " + x for x in _table(head, rows))]
+    before = getattr(f, "before", ())
+    if before:
+        lines += ["", "  in the baseline:", "",
+                  *("  " + x for x in _table(head, ([escape(c) for c in mode_cells(m)]
+                                                    for m in before)))]
+    return lines
+
+
+def _section(title: str, findings: Sequence[Any], discrete: bool) -> list[str]:
+    out = ["", f"### {title}", ""]
+    for f in findings:
+        out += _finding_block(f, discrete)
+    return out
+
+
+def render_markdown(results: Iterable[Any]) -> str:
+    """Render :class:`~eigengate.scan.engine.FileResult` objects as GitHub-flavoured Markdown.
+
+    Returns
+    -------
+    str
+        Markdown text ending in a newline.
+    """
+    results = list(results)
+    lines = [_verdict(results), ""]
+    lines += _table(["file", "model", "status", "spectral abscissa", "min ζ", "findings"],
+                    _summary_rows(results))
+    for fr in results:
+        for r in fr.results:
+            shown = [*r.findings, *getattr(r, "waived", ())]
+            if shown:
+                title = f"{escape(fr.source)} · {escape(r.model.title)}"
+                lines += _section(f"{title} — {status_of(r.findings)}", shown, r.model.discrete)
+        own = own_findings(fr)
+        if own:
+            status = "invalid model file" if fr.error is not None else status_of(own)
+            lines += _section(f"{escape(fr.source)} — {status}", own, False)
+    lines += ["", f"> {CAUTION}"]
+    return "\n".join(lines) + "\n"

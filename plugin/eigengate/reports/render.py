@@ -1,0 +1,191 @@
+"""Formatting shared by the report writers: JSON-safe numbers, mode cells, walking results.
+
+Nothing here computes a figure: every number comes from a finding, a verdict, a spectrum's
+summary properties or an equilibrium, and is only formatted.
+
+JSON numbers are written as JSON numbers with Python's ``repr`` precision (the shortest text
+that reads back to the same float), except the three values JSON has no number for, which
+become the strings ``"inf"``, ``"-inf"`` and ``"nan"``. ``null`` always means *not
+applicable*, never infinity.
+"""
+
+from __future__ import annotations
+
+import math
+from numbers import Integral
+from typing import Any, Iterable, Iterator
+
+from ..rules.findings import UNCERTAIN_NOTE, Finding, ModeRow
+
+__all__ = ["UNCERTAIN_NOTE", "json_number", "json_value", "json_complex", "mode_data", "finding_data",
+           "text_number", "mode_cells", "mode_summary", "finding_summary", "own_findings",
+           "model_findings", "all_findings", "status_of", "tally", "plural", "CAUTION"]
+
+#: Said by every report meant for people: what the tool is, and what it is not.
+CAUTION = ("eigengate is an engineering aid for model regression checks; it is not a safety "
+           "sign-off.")
+
+
+def format_eigenvalue(z: complex, pair: bool) -> str:
+    if z.imag == 0.0:
+        return f"{z.real:.6g}"
+    sign = "±" if pair else ("+" if z.imag > 0 else "-")
+    return f"{z.real:.6g}{sign}{abs(z.imag):.6g}j"
+
+
+def json_number(x: Any) -> Any:
+    """``x`` as a JSON number, ``"inf"``/``"-inf"``/``"nan"`` where JSON has none, or None."""
+    if x is None or isinstance(x, bool):
+        return x
+    if isinstance(x, Integral):
+        return int(x)
+    x = float(x)
+    if math.isnan(x):
+        return "nan"
+    if math.isinf(x):
+        return "inf" if x > 0 else "-inf"
+    return x + 0.0  # + 0.0 turns -0.0 into 0.0, so the output does not depend on its sign
+
+
+def json_value(x: Any) -> Any:
+    """A measured value or threshold: a number (see :func:`json_number`), text, or None."""
+    return x if isinstance(x, str) else json_number(x)
+
+
+def json_complex(z: complex) -> dict[str, Any]:
+    """``{"re": ..., "im": ...}`` with JSON-safe parts."""
+    z = complex(z)
+    return {"re": json_number(z.real), "im": json_number(z.imag)}
+
+
+def mode_data(row: ModeRow) -> dict[str, Any]:
+    """One offending mode as JSON data (the member with Im ≥ 0 for a conjugate pair)."""
+    return {
+        "index": row.index,
+        "eigenvalue": json_complex(row.eigenvalue),
+        "s": json_complex(row.s),
+        "pair": bool(row.pair),
+        "multiplicity": int(row.multiplicity),
+        "defective": bool(row.defective),
+        "damping_ratio": json_number(row.damping_ratio),
+        "natural_frequency": json_number(row.natural_frequency),
+        "time_constant": json_number(row.time_constant),
+        "uncertainty": json_number(row.uncertainty),
+        "condition": json_number(row.condition),
+        "top_states": [{"state": name, "participation": json_number(p)}
+                       for name, p in row.top_states],
+    }
+
+
+def finding_data(f: Finding) -> dict[str, Any]:
+    """A finding as JSON data, modes included (and, for a regression, the same modes as the
+    baseline has them, under ``before``)."""
+    return {
+        "rule": f.rule, "name": f.name, "severity": f.severity, "source": f.source,
+        "line": f.line, "model": f.model, "label": f.label, "title": f.title,
+        "message": f.message, "requirement": f.requirement,
+        "measured": json_value(f.measured), "threshold": json_value(f.threshold),
+        "margin": json_number(f.margin), "unit": f.unit, "uncertain": bool(f.uncertain),
+        "suggestion": f.suggestion, "waived": getattr(f, "waived", None),
+        "modes": [mode_data(m) for m in f.modes],
+        "before": [mode_data(m) for m in getattr(f, "before", ())],
+    }
+
+
+def text_number(x: float | None, digits: int = 4, unit: str = "") -> str:
+    """``x`` to ``digits`` significant digits for people (``∞``, ``-∞``, ``NaN``; ``–`` for
+    None)."""
+    if x is None:
+        return "–"
+    x = float(x)
+    if math.isnan(x):
+        text = "NaN"
+    elif math.isinf(x):
+        text = "∞" if x > 0 else "-∞"
+    else:
+        text = f"{x + 0.0:.{digits}g}"
+    return f"{text} {unit}" if unit else text
+
+
+def mode_cells(row: ModeRow) -> list[str]:
+    """Mode, eigenvalue (×multiplicity), ζ, ωn [rad/s], τ [s], participating states."""
+    ev = format_eigenvalue(row.eigenvalue, row.pair)
+    if row.multiplicity > 1:
+        ev += f" ×{row.multiplicity}" + (" (defective)" if row.defective else "")
+    states = ", ".join(f"{name} {p:.2f}" for name, p in row.top_states)
+    return [f"#{row.index}", ev, text_number(row.damping_ratio, 3),
+            text_number(row.natural_frequency), text_number(row.time_constant), states]
+
+
+def mode_summary(row: ModeRow) -> str:
+    """``#1 -0.2±1.98997j (ζ=0.1, ωn=2 rad/s, τ=5 s; angle 0.50, rate 0.50)``."""
+    index, ev, zeta, wn, tau, states = mode_cells(row)
+    return f"{index} {ev} (ζ={zeta}, ωn={wn} rad/s, τ={tau} s; {states})"
+
+
+def finding_summary(f: Finding, *, with_title: bool = True) -> list[str]:
+    """The lines of a compact finding: message, offending modes (and their baseline
+    counterparts, for a regression), hint."""
+    head = f"{f.title}: {f.message}" if with_title and f.title else f.message
+    lines = [head]
+    if f.modes:
+        lines.append("offending modes: " + "; ".join(mode_summary(m) for m in f.modes))
+    before = getattr(f, "before", ())
+    if before:
+        lines.append("in the baseline: " + "; ".join(mode_summary(m) for m in before))
+    if f.suggestion:
+        lines.append(f"hint: {f.suggestion}")
+    return lines
+
+
+def model_findings(fr: Any) -> Iterator[tuple[Any, Finding]]:
+    """(model result, finding) for every finding of every model of ``fr``, in order."""
+    for r in fr.results:
+        for f in r.findings:
+            yield r, f
+
+
+def own_findings(fr: Any) -> list[Finding]:
+    """The file's own findings (invalid file, expired or unused waivers, policy), which belong
+    to no model result."""
+    shown = {id(f) for r in fr.results for f in r.findings}
+    return [f for f in fr.findings if id(f) not in shown]
+
+
+def all_findings(results: Iterable[Any]) -> Iterator[tuple[Any, Any, Finding]]:
+    """(file result, model result or None, finding) for every finding, file by file."""
+    for fr in results:
+        for r, f in model_findings(fr):
+            yield fr, r, f
+        for f in own_findings(fr):
+            yield fr, None, f
+
+
+def status_of(findings: Iterable[Finding]) -> str:
+    """``failed`` (an error), ``warning`` (only warnings) or ``passed`` (no finding)."""
+    severities = {f.severity for f in findings}
+    if "error" in severities:
+        return "failed"
+    return "warning" if severities else "passed"
+
+
+def tally(results: Iterable[Any]) -> dict[str, int]:
+    """Counts for a summary: files, invalid files, models, failed models, errors, warnings,
+    waived findings."""
+    out = dict.fromkeys(("files", "invalid_files", "models", "failed_models", "errors",
+                         "warnings", "waived"), 0)
+    for fr in results:
+        out["files"] += 1
+        out["invalid_files"] += fr.error is not None
+        for r in fr.results:
+            out["models"] += 1
+            out["failed_models"] += not r.passed
+            out["waived"] += len(getattr(r, "waived", ()))
+        for f in fr.findings:
+            out["errors" if f.severity == "error" else "warnings"] += 1
+    return out
+
+
+def plural(n: int, word: str) -> str:
+    """``1 model``, ``2 models``."""
+    return f"{n} {word}{'' if n == 1 else 's'}"

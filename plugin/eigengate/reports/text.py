@@ -1,0 +1,166 @@
+"""Plain-text rendering of check results: grouped by file, one block per model, mode tables."""
+
+from __future__ import annotations
+
+import math
+from typing import TYPE_CHECKING, Iterable, Sequence
+
+from ..rules.findings import UNCERTAIN_NOTE, Finding, ModeRow
+from .render import format_eigenvalue  # shared by every writer; re-exported
+
+if TYPE_CHECKING:  # pragma: no cover
+    from ..rules.results import FileResult, ModelResult
+
+__all__ = ["render_results", "render_model", "model_lines", "finding_lines", "mode_table",
+           "format_eigenvalue"]
+
+_COLORS = {"FAIL": "\x1b[1;31m", "warn": "\x1b[33m", "ok": "\x1b[32m", "FAILED": "\x1b[1;31m",
+           "pass": "\x1b[32m"}
+
+
+def _paint(word: str, color: bool) -> str:
+    return f"{_COLORS[word]}{word}\x1b[0m" if color and word in _COLORS else word
+
+
+def _num(x: float, unit: str = "") -> str:
+    if math.isinf(x):
+        return ("-" if x < 0 else "") + "∞"
+    text = f"{x:.4g}"
+    return f"{text} {unit}".rstrip()
+
+
+def mode_table(rows: Sequence[ModeRow], discrete: bool = False, indent: str = "    ",
+               detail: bool = False) -> list[str]:
+    """Rows of a fixed-width table: mode, eigenvalue, ζ, ωn, τ, participating states (and,
+    with ``detail``, the error bound and condition number)."""
+    head = ["mode", "z" if discrete else "eigenvalue", "ζ", "ωn [rad/s]", "τ [s]",
+            "participating states"]
+    if detail:
+        head[5:5] = ["± bound", "κ"]
+    body = []
+    for r in rows:
+        ev = format_eigenvalue(r.eigenvalue, r.pair)
+        if r.multiplicity > 1:
+            ev += f" ×{r.multiplicity}" + (" (defective)" if r.defective else "")
+        states = ", ".join([f"{n} {p:.2f}" for n, p in r.top_states])
+        row = [f"#{r.index}", ev, f"{r.damping_ratio:.3g}", _num(r.natural_frequency),
+               _num(r.time_constant), states]
+        if detail:
+            row[5:5] = [f"{r.uncertainty:.2g}", f"{r.condition:.3g}"]
+        body.append(row)
+    # one format for every line: each column padded to its widest cell
+    line = indent + "  ".join(f"{{:<{max(map(len, column))}}}"
+                              for column in zip(head, *body))
+    return [line.format(*cells).rstrip() for cells in (head, *body)]
+
+
+def finding_lines(f: Finding, discrete: bool, color: bool = False) -> list[str]:
+    """Lines of one finding: head (mark, rule, requirement, line), message, then the
+    uncertainty note, the hint and the mode table when there are any."""
+    mark = _paint("FAIL" if f.severity == "error" else "warn", color)
+    where = f"line {f.line}" if f.line else ""
+    head = f"  {mark}  {f.rule} {f.name}"
+    if f.requirement and f.rule != "EG001":
+        head += f"  [{f.requirement}]"
+    if where:
+        head += f"  ({where})"
+    out = [head, f"        {f.message}"]
+    if f.uncertain:
+        out.append(f"        note: {UNCERTAIN_NOTE}")
+    if f.suggestion:
+        out.append(f"        hint: {f.suggestion}")
+    if f.modes:
+        out.extend(mode_table(f.modes, discrete, indent="        "))
+    return out
+
+
+_finding_lines = finding_lines  # the former private name
+
+
+def model_lines(r: ModelResult, *, verbose: bool = True, color: bool = False) -> list[str]:
+    """The block of one :class:`~eigengate.scan.engine.ModelResult`: a summary line (status,
+    eigenvalue count, spectral abscissa or radius, min ζ, type of the origin), the passing
+    requirements when ``verbose``, then each finding and each waived finding."""
+    sp, m = r.spectrum, r.model
+    status = _paint("ok" if r.passed else "FAILED", color)
+    figure = (f"spectral radius {sp.spectral_radius:.6g}" if m.discrete else
+              f"spectral abscissa {sp.spectral_abscissa:.6g} 1/s")
+    extra = f", {sp.infinite} infinite" if sp.infinite else ""
+    nm = len(sp.modes)
+    lines = [f"  {m.title}: {status} — {sp.n_eigenvalues} eigenvalues in {nm} "
+             f"mode{'' if nm == 1 else 's'}{extra}, {figure}, "
+             f"min ζ {sp.min_damping:.3g}; origin: {r.equilibrium.type}"]
+    if verbose:
+        for v in r.verdicts:
+            if v.passed and not v.uncertain:
+                margin = f" ({v.message})" if v.margin is None else \
+                    f" (margin {v.margin:.4g})"
+                lines.append(f"    {_paint('pass', color)}  {v.rule} {v.name}  "
+                             f"[{v.requirement}]{margin}")
+    for f in r.findings:
+        lines.extend(finding_lines(f, m.discrete, color))
+    for f in getattr(r, "waived", ()):
+        lines.append(f"    waived  {f.rule} {f.name}  [{f.requirement}]: {f.waived}")
+    return lines
+
+
+def render_results(results: Iterable[FileResult], *, verbose: bool = True,
+                   color: bool = False) -> str:
+    """Render :class:`~eigengate.scan.engine.FileResult` objects as text, grouped by file, with a
+    one-line summary; ANSI colour only when ``color``."""
+    lines: list[str] = []
+    files = models = failing = 0
+    errors = warnings = 0
+    for fr in results:
+        files += 1
+        failing += 1 if fr.error is not None else 0
+        quiet_file = not verbose and not fr.findings and not any(
+            getattr(r, "waived", ()) for r in fr.results)
+        if not quiet_file:
+            lines.append(fr.source)
+        shown: set[int] = set()
+        for r in fr.results:
+            models += 1
+            failing += 0 if r.passed else 1
+            if verbose or r.findings or getattr(r, "waived", ()):
+                lines.extend(model_lines(r, verbose=verbose, color=color))
+            shown.update(id(f) for f in r.findings)
+        for f in fr.findings:
+            if id(f) not in shown:  # the file's own: invalid file, expired or unused waivers
+                lines.extend(finding_lines(f, False, color))
+            if f.severity == "error":
+                errors += 1
+            else:
+                warnings += 1
+        if not quiet_file:
+            lines.append("")
+    lines.append(f"{files} file{'s' if files != 1 else ''}, {models} model"
+                 f"{'s' if models != 1 else ''} checked: {failing} failing, {errors} error"
+                 f"{'s' if errors != 1 else ''}, {warnings} warning{'s' if warnings != 1 else ''}")
+    return "\n".join(lines) + "\n"
+
+
+def render_model(result: ModelResult) -> str:
+    """Everything about one analysed model: every mode, the origin's type, every verdict."""
+    from ..rules.findings import ModeRow
+
+    m, sp = result.model, result.spectrum
+    kind = f"discrete, T = {m.sample_period:g} s" if m.discrete else "continuous"
+    lines = [f"{m.source} — {m.title}",
+             f"  {m.structure}, {kind}, {m.n_states} states"
+             + (f", {sp.infinite} infinite eigenvalues (descriptor)" if sp.infinite else ""),
+             f"  origin: {result.equilibrium.describe()}",
+             (f"  spectral radius {sp.spectral_radius:.6g}, " if m.discrete else "  ")
+             + f"spectral abscissa {sp.spectral_abscissa:.6g} 1/s, min ζ {sp.min_damping:.3g}",
+             "  modes (least stable first):"]
+    lines.extend(mode_table([ModeRow.of(x) for x in sp.modes], m.discrete, detail=True))
+    lines.append("  verdicts:")
+    for v in result.verdicts:
+        mark = "pass" if v.passed else "FAIL"
+        margin = "" if v.margin is None else f", margin {v.margin:.4g}"
+        note = " (numerically uncertain)" if v.uncertain else ""
+        lines.append(f"    {mark}  {v.rule} {v.name}  [{v.requirement}]{margin}{note}")
+        lines.append(f"          {v.message}")
+    for f in result.waived:
+        lines.append(f"    waived  {f.rule} {f.name}: {f.waived}")
+    return "\n".join(lines) + "\n"

@@ -1,0 +1,1 @@
+"""Rules: the catalogue, requirements, known modes, waivers, requirement parsing, findings."""

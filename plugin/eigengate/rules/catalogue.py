@@ -1,0 +1,184 @@
+"""Rule identities and the verdict record every requirement returns.
+
+Rule ids are stable: reports, configuration (select, ignore, severity) and waivers name them.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import TYPE_CHECKING
+
+from ..analysis.equilibrium import EQUILIBRIUM_TYPES
+
+if TYPE_CHECKING:  # pragma: no cover
+    from ..analysis.modes import Mode
+
+__all__ = ["Rule", "RULES", "Verdict", "rule_by_key"]
+
+
+@dataclass(frozen=True, eq=False)
+class Verdict:
+    """Outcome of one requirement on one model (and operating point)."""
+
+    rule: str
+    name: str
+    requirement: str
+    passed: bool
+    uncertain: bool
+    measured: float | str
+    threshold: float | str
+    margin: float | None
+    unit: str
+    offending: tuple["Mode", ...]
+    message: str
+    suggestion: str | None = None
+
+
+@dataclass(frozen=True)
+class Rule:
+    """Stable identity of a requirement: id, name, file key, units and what it checks."""
+
+    id: str
+    name: str
+    key: str
+    unit: str
+    summary: str
+
+
+RULES: dict[str, Rule] = {r.id: r for r in (
+    Rule("EG101", "asymptotic-stability", "stable", "1/s",
+         "Every mode decays: Re(s) < 0 (Hurwitz) or |z| < 1 (Schur). `stable: marginal` also "
+         "accepts simple eigenvalues on the boundary; defective ones (Jordan blocks) always fail."),
+    Rule("EG102", "decay-rate", "min_decay_rate", "1/s",
+         "Every mode decays at least like exp(-αt): -Re(s) ≥ α (discrete: |z| ≤ exp(-αT))."),
+    Rule("EG103", "damping-ratio", "min_damping", "",
+         "Every oscillatory mode has damping ratio ζ = -Re(s)/|s| ≥ ζmin."),
+    Rule("EG104", "natural-frequency", "max_frequency", "rad/s",
+         "Every mode has natural frequency ωn = |s| ≤ ωmax (deadbeat z = 0 modes excepted)."),
+    Rule("EG105", "pole-region", "pole_region", "rad/s",
+         "Every pole lies in the region given by min_decay_rate, min_damping and max_frequency; "
+         "the margin is the s-plane distance to the region's boundary."),
+    Rule("EG106", "equilibrium-type", "equilibrium",
+         "", "The origin has the expected type: " + ", ".join(EQUILIBRIUM_TYPES) + "."),
+    Rule("EG107", "no-saddle", "no_saddle", "",
+         "The origin is not a saddle: not both stable and unstable directions."),
+    Rule("EG108", "direction-counts", "directions", "",
+         "The numbers of stable, unstable and center directions are as stated."),
+    Rule("EG001", "invalid-model", "", "",
+         "The model file could not be read, or a field is malformed; the message names the "
+         "file, the field, what was found and what was expected."),
+    Rule("EG002", "expired-waiver", "waivers", "",
+         "A waiver's expiry date has passed: it no longer waives anything, and the finding it "
+         "covered is reported again."),
+    Rule("EG003", "unused-waiver", "waivers", "",
+         "A waiver matched no finding: the problem it was written for is gone, or the waiver "
+         "names the wrong rule, model or operating point."),
+    Rule("EG109", "known-modes", "known_modes", "",
+         "Every declared known mode (integrator, rigid-body mode, conserved quantity) is present "
+         "exactly as declared; known modes are left out of every other requirement."),
+    # Loop margins (eigengate.analysis.margins, eigengate.rules.loop_requirements): need a feedback block.
+    Rule("EG301", "gain-margin", "min_gain_margin_db", "dB",
+         "The loop, broken at the plant input (or output), tolerates a gain increase and, where "
+         "the loop is only stable above some gain, a decrease of at least this many dB; "
+         "MIMO loops are checked one channel at a time, the others closed."),
+    Rule("EG302", "phase-margin", "min_phase_margin_deg", "deg",
+         "At every gain crossover |L(jω)| = 1 the phase is at least this far from -180°."),
+    Rule("EG303", "delay-margin", "min_delay_margin", "s",
+         "The loop tolerates a pure delay of at least this many seconds: the least PM_i/ω_i "
+         "over every gain crossover."),
+    Rule("EG304", "sensitivity-peak", "max_sensitivity_peak", "",
+         "The sensitivity peak Ms = max over ω of σ̄((I + L)⁻¹) is at most this value."),
+    Rule("EG305", "disk-margin", "min_disk_margin", "",
+         "The balanced disk margin α = 2 / max over ω of σ̄(S − T) (all channels at once) is "
+         "at least this value: gains in [(1−α/2)/(1+α/2), (1+α/2)/(1−α/2)] and phases within "
+         "±2·atan(α/2) are tolerated."),
+    # Equilibria of nonlinear models (eigengate.analysis.nonlinear): need a vector_field block.
+    Rule("EG401", "no-saddle-in-box", "no_saddle_in_box", "",
+         "No equilibrium found in the declared box is a saddle."),
+    Rule("EG402", "equilibrium-at", "equilibrium_at", "",
+         "Each listed point is an equilibrium (|f(x, u)| within the tolerance) of the listed "
+         "type."),
+    Rule("EG403", "equilibrium-count", "equilibrium_count", "",
+         "The declared box holds exactly this many distinct equilibria."),
+    Rule("EG404", "equilibria-stable", "equilibria_stable", "",
+         "Every equilibrium found in the box is asymptotically stable (hyperbolic, no unstable "
+         "direction)."),
+    # Regressions against the accepted baseline (eigengate.baseline.regressions); the key is the
+    # tolerance block that tunes them.
+    Rule("EG201", "crossed-into-instability", "allowed_drift", "1/s",
+         "A mode that was stable (or on the boundary) in the baseline is now unstable, or an "
+         "unstable mode appeared with no counterpart in the baseline."),
+    Rule("EG202", "decay-rate-regressed", "allowed_drift", "1/s",
+         "A mode decays more slowly than in the baseline (-Re s dropped by more than the "
+         "tolerance), or the slowest decay rate of the model did."),
+    Rule("EG203", "damping-regressed", "allowed_drift", "",
+         "An oscillatory mode is less damped than in the baseline (ζ dropped by more than the "
+         "tolerance), or the smallest damping ratio of the model did."),
+    Rule("EG204", "equilibrium-type-changed", "allowed_drift", "",
+         "The equilibrium type or its unstable/center direction counts changed for the worse "
+         "since the baseline (for example a saddle appeared)."),
+    Rule("EG205", "frequency-shifted", "allowed_drift", "rad/s",
+         "An oscillatory mode's natural frequency ωn moved by more than the tolerance."),
+    Rule("EG206", "mode-appeared", "allowed_drift", "",
+         "A mode has no counterpart in the baseline (the model order grew, or a mode moved "
+         "beyond the matching gate)."),
+    Rule("EG207", "mode-disappeared", "allowed_drift", "",
+         "A baseline mode has no counterpart in the model (the model order shrank, or a mode "
+         "moved beyond the matching gate)."),
+    Rule("EG208", "new-model", "", "",
+         "The model has no baseline entry yet: nothing to compare with until it is accepted."),
+    Rule("EG209", "stale-baseline-entry", "", "",
+         "A baseline entry names a model that no longer exists (file deleted or renamed, "
+         "operating point removed); accepting again removes it."),
+)}
+
+
+
+
+def rule_by_key(key: str) -> Rule:
+    """The rule whose model-file key is ``key`` (``"min_damping"`` → EG103)."""
+    for rule in RULES.values():
+        if rule.key == key:
+            return rule
+    raise KeyError(key)
+
+
+_EXAMPLES = {
+    "EG101": "requirements:\n  stable: true        # or: stable: marginal",
+    "EG102": "requirements:\n  min_decay_rate: 0.5  # 1/s: every mode decays at least like e^(-0.5 t)",
+    "EG103": "requirements:\n  min_damping: 0.3",
+    "EG104": "requirements:\n  max_frequency: 120   # rad/s",
+    "EG105": "requirements:\n  pole_region: {min_decay_rate: 0.5, min_damping: 0.4, "
+             "max_frequency: 120}",
+    "EG106": "requirements:\n  equilibrium: stable-node",
+    "EG107": "requirements:\n  no_saddle: true",
+    "EG108": "requirements:\n  directions: {stable: 4, unstable: 0, center: 0}",
+    "EG109": "known_modes:\n  - {eigenvalue: 0, count: 2, reason: rigid-body translation}",
+    "EG002": "waivers:\n  - {rule: EG103, reason: 'retune in review', expires: 2027-03-31}",
+    "EG003": "waivers:\n  - {rule: EG103, reason: 'retune in review'}",
+    "EG001": "model_format: 1\nplant:\n  A: [[-1.0]]",
+    "EG301": "loop: {at: plant_input}\nrequirements:\n  min_gain_margin_db: 6",
+    "EG302": "requirements:\n  min_phase_margin_deg: 45",
+    "EG303": "requirements:\n  min_delay_margin: 0.05   # s",
+    "EG304": "requirements:\n  max_sensitivity_peak: 2.0",
+    "EG305": "requirements:\n  min_disk_margin: 0.5",
+    "EG401": "requirements:\n  no_saddle_in_box: true",
+    "EG402": "requirements:\n  equilibrium_at: {x: [0.0, 0.0], type: stable-focus}",
+    "EG403": "requirements:\n  equilibrium_count: 3",
+    "EG404": "requirements:\n  equilibria_stable: true",
+    **{rid: "allowed_drift:      # [tool.eigengate.allowed_drift] or a model file's own\n"
+            "  decay_rate: {abs: 1.0e-6, rel: 0.05}\n  damping: {abs: 0.005, rel: 0.05}\n"
+            "  frequency: {rel: 0.05}"
+       for rid in ("EG201", "EG202", "EG203", "EG204", "EG205", "EG206", "EG207")},
+}
+
+
+def explain_rule(rule: Rule) -> str:
+    """A rule's id, name, file key, unit, description and an example."""
+    lines = [f"{rule.id} {rule.name}", "", rule.summary, ""]
+    if rule.key:
+        lines.append(f"model-file key: {rule.key}" + (f" (unit: {rule.unit})" if rule.unit else ""))
+    lines += ["", "example:", *("  " + x for x in _EXAMPLES.get(rule.id, "").splitlines()), "",
+              "A failing rule is an error by default; [tool.eigengate.severity] can make it a "
+              "warning or switch it off, and a waiver (with a reason) can accept one finding."]
+    return "\n".join(lines)

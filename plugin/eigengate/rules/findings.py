@@ -1,0 +1,127 @@
+"""Findings: what a report says about a model, as plain data.
+
+A finding is made from a failed (or uncertain) verdict, or from a model that could not be
+loaded. Reports render findings; they never look at matrices or verdicts themselves.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Iterable, Protocol
+
+if TYPE_CHECKING:  # pragma: no cover
+    from ..errors import ModelError
+    from ..model.core import Model
+    from ..analysis.modes import Mode
+    from .catalogue import Verdict
+
+__all__ = ["Finding", "ModeRow", "findings_of", "error_finding", "INVALID_RULE", "RulePolicy"]
+
+
+class RulePolicy(Protocol):
+    """What findings need of the repository policy (:class:`eigengate.scan.config.Config`)."""
+
+    def rule_enabled(self, rule: str) -> bool: ...
+
+    def severity_of(self, rule: str) -> str: ...
+
+#: The note every report gives a finding whose value is within its error bound of the threshold.
+UNCERTAIN_NOTE = "numerically uncertain: a value lies within its error bound of the threshold"
+
+#: Rule of a model source that could not be loaded or analysed.
+INVALID_RULE = ("EG001", "invalid-model")
+
+
+@dataclass(frozen=True)
+class ModeRow:
+    """One offending mode as a report shows it."""
+
+    index: int
+    eigenvalue: complex
+    s: complex
+    pair: bool
+    multiplicity: int
+    defective: bool
+    damping_ratio: float
+    natural_frequency: float
+    time_constant: float
+    uncertainty: float
+    condition: float
+    top_states: tuple[tuple[str, float], ...]
+
+    @classmethod
+    def of(cls, mode: "Mode") -> "ModeRow":
+        return cls(index=mode.index, eigenvalue=mode.eigenvalue, s=mode.s, pair=mode.pair,
+                   multiplicity=mode.multiplicity, defective=mode.defective,
+                   damping_ratio=mode.damping_ratio, natural_frequency=mode.natural_frequency,
+                   time_constant=mode.time_constant, uncertainty=mode.uncertainty,
+                   condition=mode.condition, top_states=tuple(mode.top_states()))
+
+
+@dataclass(frozen=True)
+class Finding:
+    """A problem to report: rule, place, requirement, measured value, margin, offending modes."""
+
+    rule: str
+    name: str
+    severity: str  # "error" or "warning"
+    source: str
+    line: int | None
+    model: str
+    label: str | None
+    message: str
+    requirement: str = ""
+    measured: float | str | None = None
+    threshold: float | str | None = None
+    margin: float | None = None
+    unit: str = ""
+    uncertain: bool = False
+    modes: tuple[ModeRow, ...] = ()
+    suggestion: str | None = None
+    waived: str | None = None  # the waiver's reason, when a waiver accepts this finding
+    #: Regressions: the offending modes as the baseline has them, aligned with ``modes``
+    #: (a disappeared mode is in ``modes``, as the baseline has it, and ``before`` is empty).
+    before: tuple[ModeRow, ...] = ()
+
+    @property
+    def title(self) -> str:
+        return self.model if self.label is None else f"{self.model}[{self.label}]"
+
+
+def findings_of(model: "Model", verdicts: Iterable["Verdict"],
+                config: RulePolicy | None = None) -> list[Finding]:
+    """Findings for one analysed model: every failed verdict (severity from the configuration,
+    ``error`` by default) and every verdict that passed only by the on_uncertain=pass policy
+    (warning)."""
+    out = []
+    for v in verdicts:
+        if v.passed and not v.uncertain:
+            continue
+        if config is not None and not config.rule_enabled(v.rule):
+            continue
+        severity = "warning" if v.passed else (
+            "error" if config is None else config.severity_of(v.rule))
+        key = v.requirement.split(":")[0]
+        line = model.line_of(f"requirements.{key}") or model.line_of("requirements") \
+            or model.line_of("plant.A")
+        out.append(Finding(
+            rule=v.rule, name=v.name, severity=severity,
+            source=model.source, line=line, model=model.name, label=model.label,
+            message=v.message, requirement=v.requirement, measured=v.measured,
+            threshold=v.threshold, margin=v.margin, unit=v.unit, uncertain=v.uncertain,
+            modes=tuple(ModeRow.of(m) for m in v.offending), suggestion=v.suggestion))
+    return out
+
+
+def error_finding(error: "ModelError", model: str = "", label: str | None = None) -> Finding:
+    """A finding for a model source that could not be loaded or analysed."""
+    return Finding(rule=INVALID_RULE[0], name=INVALID_RULE[1], severity="error",
+                   source=error.source, line=error.line, model=model, label=label,
+                   message=error.render(), requirement=error.field)
+
+
+def count(findings: Iterable[Finding]) -> dict[str, int]:
+    out = {"error": 0, "warning": 0}
+    for f in findings:
+        out[f.severity] += 1
+    return out

@@ -1,0 +1,385 @@
+"""Stability requirements and their verdicts.
+
+A requirement reads the modes of a :class:`~eigengate.analysis.modes.Spectrum` and returns a
+:class:`Verdict`: passed or not, the measured value against the threshold, the signed margin
+(positive: passed by that much), the offending modes, and whether the outcome is *uncertain*
+because a mode lies within its numerical error bound of the threshold. Uncertain verdicts fail
+unless the model says ``on_uncertain: pass``; either way the verdict says so.
+
+Discrete models are checked on the s-plane equivalent of each pole, ``s = ln(z)/T``, so one
+threshold in 1/s or rad/s means the same thing for both kinds of model.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Any, Callable, Iterable, Sequence
+
+from ..analysis.equilibrium import classify, side
+from .known_modes import KnownMode, known_modes_verdict, split_known_modes
+from ..analysis.modes import Mode, Spectrum
+from .catalogue import RULES, Rule, Verdict
+
+__all__ = [
+    "Verdict", "Requirement", "Stability", "MinDecayRate", "MinDamping", "MaxFrequency",
+    "PoleRegion", "EquilibriumType", "NoSaddle", "DirectionCounts", "KnownMode",
+    "RULES", "Rule", "evaluate", "apply_layers", "region_distance",
+]
+
+
+class Requirement:
+    """Base class: subclasses set ``rule`` and implement :meth:`check`."""
+
+    rule: str = ""
+    #: What the model must provide besides its matrices ("" for nothing); see
+    #: :mod:`eigengate.rules.applicability`.
+    needs: str = ""
+
+    @property
+    def info(self) -> Rule:
+        return RULES[self.rule]
+
+    def spec(self) -> str:  # pragma: no cover - overridden
+        raise NotImplementedError
+
+    def check(self, modes: Sequence[Mode], spectrum: Spectrum, on_uncertain: str) -> Verdict:
+        raise NotImplementedError  # pragma: no cover
+
+    def _verdict(self, **kw: Any) -> Verdict:
+        info = self.info
+        return Verdict(rule=info.id, name=info.name, requirement=self.spec(),
+                       unit=kw.pop("unit", info.unit), **kw)
+
+
+def _fmt(x: float) -> str:
+    return f"{x:.6g}"
+
+
+def _threshold_verdict(req: Requirement, rows: list[tuple[Mode, float, float]], threshold: float,
+                       at_least: bool, what: str, on_uncertain: str, *,
+                       empty: str, suggest: Callable[[float], str]) -> Verdict:
+    """Shared logic of single-threshold requirements.
+
+    ``rows`` holds (mode, value, uncertainty of value). ``at_least``: value must be ≥ threshold,
+    else ≤ threshold.
+    """
+    if not rows:
+        return req._verdict(passed=True, uncertain=False, measured="n/a", threshold=threshold,
+                            margin=None, offending=(), message=empty)
+    sign = 1.0 if at_least else -1.0
+    margins = [(m, sign * (v - threshold), u, v) for m, v, u in rows]
+    failing = [m for m, g, u, _ in margins if g < -u]
+    unsure = [m for m, g, u, _ in margins if abs(g) <= u]
+    worst = min(margins, key=lambda t: (t[1], t[0].index))
+    margin, worst_value = worst[1], worst[3]
+    uncertain = bool(unsure)
+    passed = not failing and (not unsure or on_uncertain == "pass")
+    rel = "≥" if at_least else "≤"
+    if failing:
+        verb = "modes violate" if len(failing) > 1 else "mode violates"
+        message = (f"{len(failing)} {verb} {what} {rel} "
+                   f"{_fmt(threshold)}: worst {_fmt(worst_value)} (margin {_fmt(margin)})")
+    elif unsure:
+        message = (f"{what} {_fmt(worst_value)} is within its numerical uncertainty "
+                   f"(±{_fmt(max(u for m, g, u, _ in margins if m in unsure))}) of the threshold "
+                   f"{_fmt(threshold)}; verdict {'passed' if passed else 'failed'} by the "
+                   f"on_uncertain={on_uncertain} policy")
+    else:
+        message = f"{what} {_fmt(worst_value)} {rel} {_fmt(threshold)} (margin {_fmt(margin)})"
+    offending = tuple(m for m, *_ in margins if m in failing or m in unsure)
+    return req._verdict(passed=passed, uncertain=uncertain, measured=worst_value,
+                        threshold=threshold, margin=margin, offending=offending, message=message,
+                        suggestion=None if passed else suggest(worst_value))
+
+
+def _decay_rows(modes: Iterable[Mode]) -> list[tuple[Mode, float, float]]:
+    return [(m, m.decay_rate, m.uncertainty) for m in modes]
+
+
+@dataclass(frozen=True)
+class Stability(Requirement):
+    """Asymptotic stability (Hurwitz or Schur); ``allow_marginal`` accepts simple boundary modes."""
+
+    allow_marginal: bool = False
+    rule = "EG101"
+
+    def spec(self) -> str:
+        return "stable: marginal" if self.allow_marginal else "stable: true"
+
+    def check(self, modes, spectrum, on_uncertain):
+        discrete = spectrum.model.discrete
+        unstable = [m for m in modes if side(m) > 0]
+        boundary = [m for m in modes if side(m) == 0]
+        # A boundary mode computed exactly on the boundary (Re s == 0.0) is taken as exact; one
+        # within its bound but off it may lie on either side, so it decides nothing for sure.
+        inexact = [m for m in boundary if m.s.real != 0.0]
+        exact = [m for m in boundary if m.s.real == 0.0]
+        defective = [m for m in exact if m.defective]
+        simple = [m for m in exact if not m.defective]
+        margin = min((m.decay_rate for m in modes), default=math.inf)
+        abscissa = -margin
+        certain = unstable + defective + ([] if self.allow_marginal else simple)
+        uncertain = bool(inexact)
+        passed = not certain and (not inexact or on_uncertain == "pass")
+        bad = certain + inexact
+        where = "|z| < 1" if discrete else "Re(s) < 0"
+        measured = spectrum.spectral_radius if discrete else abscissa
+        parts = []
+        if unstable:
+            parts.append(f"{sum(m.count for m in unstable)} unstable eigenvalue(s), worst "
+                         + unstable[0].describe())
+        if defective:
+            parts.append(f"defective eigenvalue on the stability boundary ({defective[0].describe()}):"
+                         " unstable, the response grows polynomially")
+        if simple:
+            state = "accepted as marginally stable" if self.allow_marginal else \
+                "marginally stable, not asymptotically stable"
+            parts.append(f"simple eigenvalue on the stability boundary ({simple[0].describe()}): "
+                         f"{state}")
+        if inexact:
+            could = ("slightly unstable" if self.allow_marginal else "slightly stable") \
+                if not any(m.defective for m in inexact) else "on either side"
+            decided = (f"verdict {'passed' if passed else 'failed'} by the "
+                       f"on_uncertain={on_uncertain} policy") if not certain else \
+                "the verdict fails for the reasons above"
+            parts.append(f"{sum(m.count for m in inexact)} eigenvalue(s) within their numerical "
+                         f"uncertainty of the boundary (±{_fmt(max(m.uncertainty for m in inexact))}"
+                         f" 1/s), worst {inexact[0].describe()}: could be {could}, not decided; "
+                         + decided)
+        if not parts:
+            parts.append(f"all {sum(m.count for m in modes)} eigenvalues satisfy {where}; "
+                         f"slowest decay rate {_fmt(margin)} 1/s")
+        if discrete:  # margin in the plane of the measured value: 1 - spectral radius
+            margin = 1.0 - measured
+        return self._verdict(passed=passed, uncertain=uncertain, measured=measured,
+                             threshold=1.0 if discrete else 0.0,
+                             margin=margin if math.isfinite(margin) else None,
+                             unit="" if discrete else "1/s", offending=tuple(bad),
+                             message="; ".join(parts),
+                             suggestion=None if passed else
+                             "move the listed modes into the open left half-plane"
+                             + (" (inside the unit circle)" if discrete else ""))
+
+
+@dataclass(frozen=True)
+class MinDecayRate(Requirement):
+    """Every mode decays at least like exp(-αt)."""
+
+    alpha: float
+    rule = "EG102"
+
+    def spec(self):
+        return f"min_decay_rate: {_fmt(self.alpha)}"
+
+    def check(self, modes, spectrum, on_uncertain):
+        return _threshold_verdict(self, _decay_rows(modes), self.alpha, True, "decay rate",
+                                  on_uncertain, empty="no modes to check",
+                                  suggest=lambda w: f"passes with min_decay_rate ≤ {_fmt(w)}")
+
+
+@dataclass(frozen=True)
+class MinDamping(Requirement):
+    """Every oscillatory mode has ζ ≥ zeta."""
+
+    zeta: float
+    rule = "EG103"
+
+    def spec(self):
+        return f"min_damping: {_fmt(self.zeta)}"
+
+    def check(self, modes, spectrum, on_uncertain):
+        rows = [(m, m.damping_ratio, m.uncertainty / m.natural_frequency)
+                for m in modes if m.oscillatory and m.natural_frequency > 0]
+        return _threshold_verdict(self, rows, self.zeta, True, "damping ratio", on_uncertain,
+                                  empty="no oscillatory modes",
+                                  suggest=lambda w: f"passes with min_damping ≤ {_fmt(w)}")
+
+
+@dataclass(frozen=True)
+class MaxFrequency(Requirement):
+    """Every mode has ωn ≤ omega."""
+
+    omega: float
+    rule = "EG104"
+
+    def spec(self):
+        return f"max_frequency: {_fmt(self.omega)}"
+
+    def check(self, modes, spectrum, on_uncertain):
+        rows = [(m, m.natural_frequency, m.uncertainty) for m in modes
+                if math.isfinite(m.natural_frequency)]
+        return _threshold_verdict(self, rows, self.omega, False, "natural frequency",
+                                  on_uncertain, empty="no modes to check",
+                                  suggest=lambda w: f"passes with max_frequency ≥ {_fmt(w)}")
+
+
+def region_distance(s: complex, alpha: float | None, zeta: float | None,
+                    omega: float | None) -> float:
+    """Signed s-plane distance from ``s`` to the boundary of the allowed region.
+
+    Positive inside. Inside, it is exact (the smallest distance to any constraint's boundary);
+    outside, it is the largest distance to a single violated constraint, a lower bound of the
+    distance to the region.
+    """
+    if math.isinf(s.real):
+        return math.inf
+    d = []
+    if alpha is not None:
+        d.append(-alpha - s.real)
+    if zeta is not None:
+        theta0 = math.acos(max(-1.0, min(1.0, zeta)))  # half-angle of the sector about -Re
+        r = abs(s)
+        phi = math.atan2(abs(s.imag), -s.real) if r > 0 else 0.0
+        gap = theta0 - phi
+        d.append(r * math.sin(gap) if abs(gap) < math.pi / 2 else math.copysign(r, gap))
+    if omega is not None:
+        d.append(omega - abs(s))
+    # Inside, the nearest boundary is the nearest constraint's; outside, min(d) is minus the
+    # largest single violation.
+    return min(d)
+
+
+@dataclass(frozen=True)
+class PoleRegion(Requirement):
+    """All poles inside {Re s ≤ -α} ∩ {ζ ≥ ζmin} ∩ {|s| ≤ ωmax} (any subset of the three)."""
+
+    alpha: float | None = None
+    zeta: float | None = None
+    omega: float | None = None
+    rule = "EG105"
+
+    def spec(self):
+        parts = [f"{k}: {_fmt(v)}" for k, v in (("min_decay_rate", self.alpha),
+                 ("min_damping", self.zeta), ("max_frequency", self.omega)) if v is not None]
+        return "pole_region: {" + ", ".join(parts) + "}"
+
+    def check(self, modes, spectrum, on_uncertain):
+        rows = [(m, region_distance(m.s, self.alpha, self.zeta, self.omega), m.uncertainty)
+                for m in modes]
+        return _threshold_verdict(self, rows, 0.0, True, "distance into the allowed region",
+                                  on_uncertain, empty="no modes to check",
+                                  suggest=lambda w: "move the listed modes into the region, or "
+                                  "widen it")
+
+
+def origin(modes: Sequence[Mode], spectrum: Spectrum):
+    """The type of the origin and the modes it was classified from.
+
+    Declared known modes (the difference between ``modes`` and the spectrum) are set aside,
+    and the description says so; when they are all the modes, there is nothing else to
+    classify, so the origin is classified from all of them (a declared double zero stays a
+    degenerate origin, never a node with no directions)."""
+    declared = spectrum.n_eigenvalues - sum(m.count for m in modes)
+    seen = tuple(modes) if modes or not declared else spectrum.modes
+    return classify(seen, declared=declared, set_aside=bool(modes)), seen
+
+
+@dataclass(frozen=True)
+class EquilibriumType(Requirement):
+    """The origin has the expected type."""
+
+    expected: str
+    rule = "EG106"
+
+    def spec(self):
+        return f"equilibrium: {self.expected}"
+
+    def check(self, modes, spectrum, on_uncertain):
+        eq, seen = origin(modes, spectrum)
+        ok = eq.type == self.expected
+        passed = ok and (not eq.uncertain or on_uncertain == "pass")
+        message = f"expected {self.expected}, found {eq.describe()}"
+        return self._verdict(passed=passed, uncertain=eq.uncertain, measured=eq.type,
+                             threshold=self.expected, margin=None,
+                             offending=() if ok else seen, message=message,
+                             suggestion=None if passed else f"equilibrium: {eq.type} matches "
+                             "the current model")
+
+
+@dataclass(frozen=True)
+class NoSaddle(Requirement):
+    """Not both stable and unstable directions."""
+
+    rule = "EG107"
+
+    def spec(self):
+        return "no_saddle: true"
+
+    def check(self, modes, spectrum, on_uncertain):
+        eq, seen = origin(modes, spectrum)
+        saddle = eq.stable > 0 and eq.unstable > 0
+        passed = not saddle and (not eq.uncertain or on_uncertain == "pass")
+        offending = tuple(m for m in seen if side(m) > 0) if saddle else ()
+        return self._verdict(passed=passed, uncertain=eq.uncertain, measured=eq.type,
+                             threshold="not saddle", margin=None, offending=offending,
+                             message=("saddle: " if saddle else "no saddle: ") + eq.describe())
+
+
+@dataclass(frozen=True)
+class DirectionCounts(Requirement):
+    """Numbers of stable, unstable and center directions (any subset)."""
+
+    stable: int | None = None
+    unstable: int | None = None
+    center: int | None = None
+    rule = "EG108"
+
+    def spec(self):
+        parts = [f"{k}: {v}" for k, v in (("stable", self.stable), ("unstable", self.unstable),
+                                          ("center", self.center)) if v is not None]
+        return "directions: {" + ", ".join(parts) + "}"
+
+    def check(self, modes, spectrum, on_uncertain):
+        eq, seen = origin(modes, spectrum)
+        found = {"stable": eq.stable, "unstable": eq.unstable, "center": eq.center}
+        wrong = [f"{k} {found[k]} (expected {v})" for k, v in
+                 (("stable", self.stable), ("unstable", self.unstable), ("center", self.center))
+                 if v is not None and found[k] != v]
+        passed = not wrong and (not eq.uncertain or on_uncertain == "pass")
+        message = ("direction counts differ: " + ", ".join(wrong) if wrong else
+                   "direction counts as expected") + f"; {eq.describe()}"
+        return self._verdict(passed=passed, uncertain=eq.uncertain,
+                             measured=f"{eq.stable}/{eq.unstable}/{eq.center}",
+                             threshold=self.spec(), margin=None,
+                             offending=seen if wrong else (), message=message)
+
+
+def evaluate(spectrum: Spectrum, requirements: Sequence[Requirement] | None = None, *,
+             known_modes: Sequence[KnownMode] | None = None,
+             on_uncertain: str | None = None) -> tuple[Verdict, ...]:
+    """Evaluate requirements (default: the model's own) on a spectrum.
+
+    Known modes (default: the model's own) are taken out first; when any are declared, a
+    known-modes verdict comes first in the result. A requirement the model cannot be judged
+    by (a margin without a loop, say) gets a failing verdict that says why.
+    """
+    model = spectrum.model
+    reqs = model.requirements if requirements is None else tuple(requirements)
+    known = model.known_modes if known_modes is None else tuple(known_modes)
+    policy = on_uncertain or model.on_uncertain or "fail"
+    if policy not in ("fail", "pass"):
+        raise ValueError(f"on_uncertain must be 'fail' or 'pass', got {policy!r}")
+    from .applicability import not_evaluable, unmet_for
+
+    modes, taken = split_known_modes(spectrum, known)
+    out = [known_modes_verdict(taken)] if known else []
+    refused = {id(r): why for r, why in unmet_for(model, reqs)}  # fail, never pass unseen
+    out.extend(r.check(modes, spectrum, policy) if id(r) not in refused else
+               not_evaluable(r, refused[id(r)]) for r in reqs)
+    return tuple(out)
+
+
+
+
+def apply_layers(layers: Iterable[tuple[Sequence[Requirement], Sequence[str]]]
+                 ) -> tuple[Requirement, ...]:
+    """Combine requirement layers, general first: each layer's ``(requirements, off)`` first
+    switches off the rule ids in ``off``, then replaces rules of the same id."""
+    by_rule: dict[str, Requirement] = {}
+    for reqs, off in layers:
+        for rule in off:
+            by_rule.pop(rule, None)
+        for r in reqs:
+            by_rule[r.rule] = r
+    return tuple(by_rule[k] for k in sorted(by_rule))

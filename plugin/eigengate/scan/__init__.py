@@ -1,0 +1,1 @@
+"""The scan: policy, discovery, the pipeline, result cache, process pool, git revisions."""

@@ -1,0 +1,139 @@
+"""Baseline workflow shared by the command line and the pytest plugin: compare checked models
+with the accepted baseline (or a git revision), fold the regression findings into the results,
+and accept the current models as the new baseline.
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+from pathlib import Path
+from typing import TYPE_CHECKING, Sequence
+
+if TYPE_CHECKING:  # pragma: no cover
+    from ..baseline.store import Baseline, MergeSummary
+    from .config import Config
+    from .engine import FileResult, ModelResult
+    from ..baseline.regressions import Comparison, Outcome
+
+__all__ = ["reference_baseline", "compare_files", "compare_result", "with_regressions",
+           "accept", "accept_command", "stale_entries"]
+
+
+def reference_baseline(config: "Config", against: str | None = None) -> "Baseline | None":
+    """What to compare with: the models of git revision ``against``, else the stored baseline
+    file, else None (no baseline accepted yet: nothing to compare)."""
+    from ..baseline.store import Baseline
+
+    if against is not None:
+        from .gitrev import revision_baseline
+
+        return revision_baseline(against, config.root, config=config).baseline
+    path = config.baseline_path
+    if not path.is_file():
+        return None
+    return Baseline.load(path)
+
+
+def compare_files(files: Sequence["FileResult"], config: "Config", baseline: "Baseline", *,
+                  complete: bool) -> "Outcome":
+    """Compare every checked model with ``baseline`` under the policy's tolerances and
+    severities; findings of rules the policy switches off are dropped."""
+    from ..baseline.regressions import compare_all
+
+    outcome = compare_all(files, baseline, config.tolerances_for, complete=complete,
+                          severities=dict(config.severity))
+    kept = tuple(f for f in outcome.findings if config.rule_enabled(f.rule))
+    return replace(outcome, findings=kept)
+
+
+def compare_result(result: "ModelResult", config: "Config", baseline: "Baseline"
+                   ) -> tuple["ModelResult", "Comparison"]:
+    """One analysed model against its entry in ``baseline``, as :func:`compare_files` judges
+    it (the pytest items compare one model at a time): the result with the regression
+    findings added, and the comparison; findings of rules the policy switches off are
+    dropped."""
+    from ..baseline.regressions import compare
+
+    entry = baseline.entry(result.model.source, result.model.title)
+    comparison = compare(result, entry, config.tolerances_for(result),
+                         severities=dict(config.severity))
+    kept = tuple(f for f in comparison.regressions if config.rule_enabled(f.rule))
+    comparison = replace(comparison, regressions=kept)
+    return (replace(result, findings=result.findings + kept) if kept else result), comparison
+
+
+def stale_entries(baseline: "Baseline", models: dict[str, set[str]], root: Path
+                  ) -> list[tuple[tuple[str, str], str]]:
+    """Entries of ``baseline`` whose model no longer exists, with the reason: entries of a
+    file in ``models`` (source -> the titles it defines now) that it no longer defines, and
+    entries of a model file that is gone from ``root``. Files absent from ``models`` that
+    still exist (not checked, or failed to load) keep their entries."""
+    out = []
+    for key in baseline.keys():
+        source, title = key
+        if source in models:
+            if title not in models[source]:
+                out.append((key, "its model file no longer defines it"))
+        elif not (root / source).exists():
+            out.append((key, "its model file is gone"))
+    return out
+
+
+def with_regressions(files: Sequence["FileResult"], outcome: "Outcome", config: "Config"
+                     ) -> list["FileResult"]:
+    """``files`` with each regression finding added to its model's result, and the stale
+    baseline entries as findings of the baseline file (appended as a result of its own)."""
+    from .engine import FileResult
+
+    by_key: dict[tuple[str, str | None, str], list] = {}
+    loose = []
+    for f in outcome.findings:
+        if f.rule == "EG209":
+            loose.append(f)
+        else:
+            by_key.setdefault((f.source, f.label, f.model), []).append(f)
+    out = []
+    for fr in files:
+        if fr.error is not None or not fr.results:
+            out.append(fr)
+            continue
+        results = []
+        for r in fr.results:
+            extra = by_key.get((r.model.source, r.model.label, r.model.name), [])
+            results.append(replace(r, findings=r.findings + tuple(extra)) if extra else r)
+        model_ids = {id(f) for r in fr.results for f in r.findings}
+        own = tuple(f for f in fr.findings if id(f) not in model_ids)
+        out.append(replace(fr, results=tuple(results),
+                           findings=tuple(f for r in results for f in r.findings) + own))
+    if loose:
+        out.append(FileResult(source=config.baseline, findings=tuple(loose)))
+    return out
+
+
+def accept(files: Sequence["FileResult"], config: "Config", *, complete: bool
+           ) -> "MergeSummary":
+    """Write the current models of ``files`` into the baseline (locked, atomic, merged with
+    what is there). With ``complete`` (the whole repository was checked), entries of models
+    that no longer exist are removed; otherwise only entries of the checked files that lost a
+    model are. Files that failed to load keep their entries."""
+    from ..baseline.store import Baseline, baseline_entry_from, merge_write
+
+    entries = [baseline_entry_from(r) for fr in files if fr.error is None for r in fr.results]
+    current = Baseline.load(config.baseline_path) if config.baseline_path.is_file() else Baseline()
+    seen = {e.key for e in entries}
+    checked = {fr.source for fr in files if fr.error is None}
+    broken = {fr.source for fr in files if fr.error is not None}
+    stale = [k for k in current.keys() if k not in seen and k[0] not in broken
+             and (complete or k[0] in checked)]
+    return merge_write(config.baseline_path, entries, removed_keys=stale)
+
+
+def accept_command(paths: Sequence[str], config_flag: str | None = None) -> str:
+    """The exact command that accepts what was just checked."""
+    import shlex
+
+    parts = ["eigengate", "baseline", "accept"]
+    if config_flag:
+        parts += ["--config", config_flag]
+    parts += [str(Path(p)) for p in paths]
+    return " ".join(shlex.quote(p) for p in parts)

@@ -1,0 +1,139 @@
+"""Finding the model files of a repository.
+
+Below a folder, a file is a model file when its suffix is one of ``MODEL_SUFFIXES``, no part
+of its path is hidden, the configuration (include/exclude globs, relative to its root)
+selects it, and, when no include globs are configured, its text has a ``model_format`` key
+(so other YAML and JSON files of the repository are left alone). Links are resolved once per
+folder, and a file read to tell whether it is a model file is kept for the cache key.
+"""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+from typing import TYPE_CHECKING, Callable, NamedTuple, Sequence
+
+
+if TYPE_CHECKING:  # pragma: no cover
+    from .config import Config
+
+__all__ = ["FoundFile", "find_model_files", "MODEL_SUFFIXES"]
+
+MODEL_SUFFIXES = (".yaml", ".yml", ".toml", ".json")
+
+#: Bytes of a file read to tell whether it is a model file; a model file read whole while
+#: discovering it is kept (for the cache key) up to this many bytes.
+_SNIFF_BYTES = 65536
+_KEEP_BYTES = 1 << 18
+
+
+class FoundFile(NamedTuple):
+    """A discovered model file: its path (as found), its path relative to the configuration's
+    root after resolving links (what include and exclude globs match, and a stable identity
+    for the cache), its bytes when discovery read them whole, and its status (``os.stat``,
+    taken before any read) when the caller asked for it."""
+
+    path: str
+    rel: str
+    content: bytes | None = None
+    stat: os.stat_result | None = None
+
+
+def _sniff(path: str) -> tuple[bool, bytes | None]:
+    """Whether a file looks like a model file (has a ``model_format`` key near its start),
+    and its bytes when it does and is small enough to keep."""
+    try:
+        with open(path, "rb") as fh:
+            head = fh.read(_SNIFF_BYTES)
+            if b"model_format" not in head:
+                return False, None
+            if len(head) < _SNIFF_BYTES:
+                return True, head
+            rest = fh.read(_KEEP_BYTES)
+            return True, (head + rest if len(rest) < _KEEP_BYTES else None)
+    except OSError:
+        return True, None  # let the loader report why it cannot be read
+
+
+def find_model_files(paths: Sequence[str | Path], config: "Config | None" = None, *,
+                     filter_named: bool = False,
+                     known: Callable[[str, os.stat_result], bool] | None = None
+                     ) -> list[FoundFile]:
+    """The model files below ``paths`` (folders are expanded, sorted; named files pass
+    through, or are tested too with ``filter_named``: a pre-commit hook is handed every
+    changed file).
+
+    With ``known``, every candidate's status is taken (before any read), and a file for which
+    ``known(rel, stat)`` is true is taken as a model file without reading it (the result
+    cache knows it, unchanged since it last read it).
+    """
+    root = os.path.realpath(config.root) if config is not None else os.path.realpath(".")
+    out: list[FoundFile] = []
+    for p in paths:
+        p = Path(p)
+        if not p.is_dir():
+            full = os.fspath(p)
+            rel = _rel(os.path.realpath(full), root)
+            if filter_named:
+                found = _select(full, os.path.basename(full), rel, config, known, None)
+                if found is not None:
+                    out.append(found)
+            else:
+                out.append(FoundFile(full, rel, stat=_stat(full) if known is not None else None))
+            continue
+        below: list[FoundFile] = []
+        stack = [os.fspath(p)]
+        while stack:  # like os.walk: hidden entries skipped, linked folders not followed
+            folder = stack.pop()
+            real_folder = _rel(os.path.realpath(folder), root)
+            try:
+                entries = list(os.scandir(folder))
+            except OSError:
+                continue
+            for e in entries:
+                if e.name.startswith("."):
+                    continue
+                try:
+                    if e.is_dir(follow_symlinks=False):
+                        stack.append(e.path)
+                        continue
+                    if e.is_symlink():
+                        if os.path.isdir(e.path):
+                            continue
+                        rel = _rel(os.path.realpath(e.path), root)
+                    else:
+                        rel = e.name if real_folder == "." else f"{real_folder}/{e.name}"
+                except OSError:
+                    continue
+                found = _select(e.path, e.name, rel, config, known, e)
+                if found is not None:
+                    below.append(found)
+        below.sort(key=lambda f: f.path)
+        out.extend(below)
+    return out
+
+
+def _rel(real: str, root: str) -> str:
+    return os.path.relpath(real, root).replace(os.sep, "/")
+
+
+def _stat(path: str, entry: os.DirEntry | None = None) -> os.stat_result | None:
+    try:
+        return entry.stat() if entry is not None else os.stat(path)
+    except OSError:
+        return None
+
+
+def _select(full: str, name: str, rel: str, config: "Config | None", known, entry
+            ) -> FoundFile | None:
+    if name == "pyproject.toml" or os.path.splitext(name)[1] not in MODEL_SUFFIXES:
+        return None
+    if config is not None and not config.is_model_path(rel):
+        return None
+    st = _stat(full, entry) if known is not None else None  # before any read of the file
+    if st is not None and known(rel, st):
+        return FoundFile(full, rel, stat=st)
+    if config is not None and config.include:  # selected by name: no need to look inside
+        return FoundFile(full, rel, stat=st)
+    is_model, content = _sniff(full)
+    return FoundFile(full, rel, content, st) if is_model else None

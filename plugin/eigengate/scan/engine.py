@@ -1,0 +1,134 @@
+"""The pipeline every front end calls: source → models → spectra → verdicts → findings."""
+
+from __future__ import annotations
+
+
+from pathlib import Path
+from typing import TYPE_CHECKING, Iterable, Sequence
+
+from ..errors import ModelError
+from ..rules.findings import Finding, error_finding, findings_of
+from ..rules.results import FileResult, ModelResult
+from ..model.core import Model
+from .discovery import MODEL_SUFFIXES  # re-exported: the suffixes live with discovery
+
+if TYPE_CHECKING:  # pragma: no cover
+    import datetime
+
+    from .config import Config
+
+__all__ = ["ModelResult", "FileResult", "analyse_model", "apply_waivers", "check_model",
+           "analyse_file", "file_result", "check_file", "check_paths",
+           "discover_model_files", "policy_findings", "MODEL_SUFFIXES"]
+
+
+
+def analyse_model(model: Model, config: "Config | None" = None) -> ModelResult:
+    """Analyse one model and evaluate its requirements (the repository layers of ``config``
+    below the model's own, when given); no waivers applied yet."""
+    from ..analysis.modes import analyse
+    from ..rules.requirements import evaluate, origin, split_known_modes
+
+    if config is not None:
+        model = config.effective(model)
+    spectrum = analyse(model)
+    verdicts = evaluate(spectrum)
+    remaining, _ = split_known_modes(spectrum, model.known_modes)
+    return ModelResult(model=model, spectrum=spectrum, equilibrium=origin(remaining, spectrum)[0],
+                       verdicts=verdicts, findings=tuple(findings_of(model, verdicts, config)))
+
+
+def apply_waivers(result: ModelResult, config: "Config | None" = None,
+                  on: "datetime.date | None" = None) -> ModelResult:
+    """Set aside the findings that a live waiver of the model file or the policy accepts."""
+    model = result.model
+    waivers = model.waivers + (config.waivers_for(model.source) if config else ())
+    if not waivers:
+        return result
+    from dataclasses import replace
+
+    from ..rules.waivers import split_waived, today
+
+    kept, waived = split_waived(result.findings, waivers, on or today())
+    return replace(result, findings=tuple(kept), waived=tuple(f for f, _ in waived),
+                   used_waivers=tuple(w for _, w in waived))
+
+
+def check_model(model: Model, config: "Config | None" = None,
+                on: "datetime.date | None" = None) -> ModelResult:
+    """:func:`analyse_model` then :func:`apply_waivers`; ``on`` is the date waivers are
+    judged on (default: today)."""
+    return apply_waivers(analyse_model(model, config), config, on)
+
+
+def file_result(source: str, results: Sequence[ModelResult], error: ModelError | None,
+                config: "Config | None" = None, on: "datetime.date | None" = None
+                ) -> FileResult:
+    """Assemble a file's result from its analysed (pre-waiver) models: waivers applied, and
+    the file's expired or unused waivers reported."""
+    if error is not None:
+        return FileResult(source=error.source, error=error, findings=(error_finding(error),))
+    results = tuple([apply_waivers(r, config, on) for r in results])
+    first = results[0].model
+    findings = tuple([f for r in results for f in r.findings])
+    if first.waivers:
+        from ..rules.waivers import today, waiver_findings
+
+        on = on or today()
+        findings += tuple(waiver_findings(first.waivers,
+                                          [w for r in results for w in r.used_waivers], on,
+                                          model=first.name))
+    return FileResult(source=source, results=results, findings=findings)
+
+
+def analyse_file(path: str | Path, root: str | Path | None = None,
+                 config: "Config | None" = None
+                 ) -> tuple[str, tuple[ModelResult, ...], ModelError | None, list[str]]:
+    """Load and analyse a model file without waivers: (source, results, error, referenced
+    matrix files). The cache stores exactly this."""
+    from ..load.loader import load_models_with_refs
+
+    if root is None and config is not None:
+        root = config.root
+    try:
+        models, refs = load_models_with_refs(
+            path, root=root, allow_python=bool(getattr(config, "allow_python", False)))
+        return models[0].source, tuple(analyse_model(m, config) for m in models), None, refs
+    except ModelError as exc:
+        return exc.source, (), exc, []
+
+
+def check_file(path: str | Path, root: str | Path | None = None,
+               config: "Config | None" = None, on: "datetime.date | None" = None
+               ) -> FileResult:
+    """Load every operating point of a model file and check it; a bad file becomes one
+    invalid-model finding instead of an exception. Expired and unused waivers written in the
+    file are findings of the file."""
+    source, results, error, _ = analyse_file(path, root, config)
+    return file_result(source, results, error, config, on)
+
+
+def discover_model_files(paths: Sequence[str | Path], config: "Config | None" = None,
+                         *, filter_named: bool = False) -> list[Path]:
+    """Expand folders into the model files below them (see
+    :func:`eigengate.scan.discovery.find_model_files`)."""
+    from .discovery import find_model_files
+
+    return [Path(f.path) for f in find_model_files(paths, config, filter_named=filter_named)]
+
+
+def check_paths(paths: Iterable[str | Path], root: str | Path | None = None,
+                config: "Config | None" = None, on: "datetime.date | None" = None
+                ) -> list[FileResult]:
+    """Check every model file under ``paths``; one bad file never stops the others."""
+    return [check_file(f, root=root, config=config, on=on)
+            for f in discover_model_files(list(paths), config)]
+
+
+def policy_findings(config: "Config", results: Sequence[FileResult],
+                    on: "datetime.date | None" = None) -> list[Finding]:
+    """Expired and unused waivers of the repository policy, judged over a whole run."""
+    from ..rules.waivers import today, waiver_findings
+
+    used = [w for fr in results for w in fr.used_waivers]
+    return waiver_findings(config.waivers, used, on or today())

@@ -1,0 +1,116 @@
+"""Positional records of the small frozen dataclasses of a result (verdicts, findings, mode
+rows, requirements, waivers, known modes, equilibria), for the result cache: a list of the
+field values in field order, with complex numbers, dates and tuples in JSON's types.
+
+A record is rebuilt without the frozen ``__init__`` (which sets each field through
+``object.__setattr__``): its values were the fields of such an instance when they were
+written, and none of these classes has a ``__post_init__``. A class named in the data is
+looked up only among the requirement classes listed here.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import datetime as _dt
+import functools
+
+from ..rules import requirements as _requirements
+
+__all__ = ["record", "unrecord", "requirement_classes"]
+
+
+@functools.lru_cache(maxsize=None)
+def requirement_classes() -> dict[str, type]:
+    """The requirement classes a cached model may hold, by class name."""
+    from ..rules import loop_requirements as lr
+
+    r = _requirements
+    return {c.__name__: c for c in (r.Stability, r.MinDecayRate, r.MinDamping, r.MaxFrequency,
+                                     r.PoleRegion, r.EquilibriumType, r.NoSaddle,
+                                     r.DirectionCounts, lr.MinGainMargin, lr.MinPhaseMargin,
+                                     lr.MinDelayMargin, lr.MaxSensitivityPeak, lr.MinDiskMargin,
+                                     lr.NoSaddleInBox, lr.EquilibriumAt, lr.EquilibriumCount,
+                                     lr.EquilibriaStable)}
+
+
+#: Fields that need more than JSON's own types, per class: c complex, c? complex or None,
+#: d? date or None, t tuple, t2 tuple of tuples, skip (filled in by the caller).
+_SPECIAL = {
+    "ModeRow": {"eigenvalue": "c", "s": "c", "top_states": "t2"},
+    "KnownMode": {"eigenvalue": "c?", "states": "t"},
+    "Waiver": {"expires": "d?", "paths": "t"},
+    "Finding": {"modes": "skip", "before": "t"},  # before: () for every cached finding
+    "Verdict": {"offending": "skip"},
+}
+
+
+def _complex_or_none(v) -> complex | None:
+    return None if v is None else complex(float(v[0]), float(v[1]))
+
+
+def _date_or_none(v):
+    return None if v is None else _dt.date.fromisoformat(v)
+
+
+def _tuple2(v) -> tuple:
+    return tuple(tuple(x) for x in v)
+
+
+_SKIP = object()
+#: How each special kind is read back.
+_DECODE = {"c": _complex_or_none, "c?": _complex_or_none, "d?": _date_or_none, "t": tuple,
+           "t2": _tuple2, "skip": _SKIP}
+
+
+@functools.lru_cache(maxsize=None)
+def _codec(cls: type) -> tuple[tuple[str, ...], tuple[str | None, ...], bool, tuple]:
+    """Field names, their special kinds, whether there are none, and the decoders of the
+    special fields as ``(position, decoder)``."""
+    names = tuple(f.name for f in dataclasses.fields(cls))
+    special = _SPECIAL.get(cls.__name__, {})
+    kinds = tuple(special.get(n) for n in names)
+    decoders = tuple((i, _DECODE[k]) for i, k in enumerate(kinds) if k is not None)
+    return names, kinds, not special, decoders
+
+
+def record(obj) -> list:
+    """A dataclass as a list of its field values in field order (positional: compact and
+    fast to rebuild)."""
+    cls: type = type(obj)
+    names, kinds, plain, _ = _codec(cls)
+    if plain:
+        return [getattr(obj, n) for n in names]
+    out = []
+    for n, k in zip(names, kinds):
+        v = getattr(obj, n)
+        if k is None:
+            out.append(v)
+        elif k == "skip":
+            out.append(None)
+        elif k in ("c", "c?"):
+            out.append(None if v is None else [v.real, v.imag])
+        elif k == "d?":
+            out.append(None if v is None else v.isoformat())
+        elif k == "t":
+            out.append(list(v))
+        else:  # t2
+            out.append([list(x) for x in v])
+    return out
+
+
+def unrecord(cls, values: list, **given):
+    """Rebuild a dataclass from :func:`record` data; ``given`` fields are taken as they are.
+
+    The instance is filled in directly rather than through the frozen ``__init__`` (which sets
+    each field with ``object.__setattr__``): the values were the fields of such an instance
+    when they were written, and none of these classes has a ``__post_init__``."""
+    names, _, plain, decoders = _codec(cls)
+    if len(values) != len(names):
+        raise ValueError(f"{cls.__name__} record has {len(values)} fields, not {len(names)}")
+    if not plain:
+        values = list(values)
+        for i, decode in decoders:
+            values[i] = given[names[i]] if decode is _SKIP else decode(values[i])
+    obj = object.__new__(cls)
+    obj.__dict__.update(zip(names, values))
+    return obj

@@ -1,0 +1,445 @@
+"""Exact round trip of check results, for the result cache and the process pool.
+
+A file's results become JSON-safe *data* plus a list of *blobs*: the large items (matrices,
+participation factors, mode rows, the line table) kept out of the JSON, so that reading a
+cache pack decodes only what a report reads. Matrices are float64 bytes, so a result read
+back renders to the same bytes as the one computed. Blobs are read lazily: a warm re-check
+that only prints a summary never touches a matrix or builds a Mode object. Nothing here
+executes code from the data: unknown kinds are errors, which the cache treats as a corrupt
+entry.
+"""
+
+from __future__ import annotations
+
+import functools
+import json
+from collections.abc import Sequence
+from typing import Any, cast
+
+import numpy as np
+
+from .engine import ModelResult
+from ..analysis.equilibrium import Equilibrium
+from ..errors import ModelError
+from ..rules.findings import Finding, ModeRow
+from ..rules.known_modes import KnownMode
+from .records import record, requirement_classes, unrecord
+from ..model.core import Model
+from ..analysis.modes import Mode, Spectrum
+from ..rules.catalogue import Verdict
+from ..rules.waivers import Waiver
+
+__all__ = ["results_to_data", "results_from_data", "CachedSpectrum", "Blobs", "FORMAT"]
+
+FORMAT = 3
+
+
+class Blobs:
+    """The large items of one file's encoded results, by index: float64 matrices, and JSON
+    texts of other values. Encoding appends to ``items``; decoding reads them back by index
+    (``shapes`` has None for a text). The cache's reader (:class:`eigengate.scan.cache.PackBlobs`)
+    serves the same three methods from the bytes of a pack."""
+
+    def __init__(self, items: list | None = None) -> None:
+        self.items: list = [] if items is None else items
+
+    def put_array(self, a) -> int | None:
+        if a is None:
+            return None
+        self.items.append(np.ascontiguousarray(a, dtype=np.float64))
+        return len(self.items) - 1
+
+    def put_json(self, value) -> int:
+        self.items.append(json.dumps(value, separators=(",", ":")))
+        return len(self.items) - 1
+
+    def shapes(self) -> list[tuple[int, int] | None]:
+        return [None if isinstance(a, str) else a.shape for a in self.items]
+
+    def array(self, i: int):
+        a = self.items[i]
+        if not isinstance(a, np.ndarray):
+            raise ValueError(f"blob {i} is not an array")
+        return a
+
+    def json(self, i: int):
+        text = self.items[i]
+        if not isinstance(text, str):
+            raise ValueError(f"blob {i} is not a text")
+        return json.loads(text)
+
+
+# ------------------------------------------------------------------ modes, lazily
+
+_MODE_SCALARS = ("multiplicity", "geometric_multiplicity", "pair", "natural_frequency",
+                 "damping_ratio", "time_constant", "uncertainty", "condition")
+#: A mode as a row of float64 (exact for every field): index, eigenvalue and s as real and
+#: imaginary parts, then the scalars above.
+_MODE_COLUMNS = 5 + len(_MODE_SCALARS)
+
+
+def _mode_table(modes) -> "np.ndarray":
+    rows = [[m.index, m.eigenvalue.real, m.eigenvalue.imag, m.s.real, m.s.imag]
+            + [getattr(m, k) for k in _MODE_SCALARS] for m in modes]
+    return np.array(rows, dtype=np.float64).reshape(len(rows), _MODE_COLUMNS)
+
+
+class _LazyModes(Sequence):
+    """A tuple-like view of modes built on first use from their stored rows."""
+
+    def __init__(self, blobs, rows: int, participation: int, states: tuple[str, ...],
+                 count: int, pick: list[int] | None = None,
+                 source: "_LazyModes | None" = None) -> None:
+        self._blobs, self._rows, self._part, self._states = blobs, rows, participation, states
+        self._count = count
+        self._pick, self._source = pick, source
+        self._built: tuple | None = None
+
+    def _all(self) -> tuple:
+        if self._built is None:
+            if self._source is not None:
+                assert self._pick is not None  # a picked view always has its picks
+                every = self._source._all()
+                self._built = tuple(every[i] for i in self._pick)
+            else:
+                part = self._blobs.array(self._part)  # shapes checked by CachedSpectrum
+                rows = self._blobs.array(self._rows)
+                self._built = tuple(
+                    Mode(index=int(r[0]), eigenvalue=complex(r[1], r[2]), s=complex(r[3], r[4]),
+                         multiplicity=int(r[5]), geometric_multiplicity=int(r[6]),
+                         pair=bool(r[7]), natural_frequency=r[8], damping_ratio=r[9],
+                         time_constant=r[10], uncertainty=r[11], condition=r[12],
+                         participation=part[:, k], states=self._states)
+                    for k, r in enumerate(rows.tolist()))
+        return self._built
+
+    def subset(self, indices: list[int]) -> "_LazyModes":
+        return _LazyModes(self._blobs, self._rows, self._part, self._states, self._count,
+                          pick=list(indices), source=self)
+
+    def __len__(self) -> int:
+        return len(self._pick) if self._pick is not None else self._count
+
+    def __getitem__(self, i):
+        return self._all()[i]
+
+    def __iter__(self):
+        return iter(self._all())
+
+    def __eq__(self, other) -> bool:
+        return tuple(self) == tuple(other)
+
+    def __hash__(self):  # pragma: no cover - not used as a key
+        return id(self)
+
+
+class CachedSpectrum:
+    """Stands in for :class:`~eigengate.analysis.modes.Spectrum` when a result comes from the cache:
+    the summary figures are stored, the modes are built only when something reads them."""
+
+    def __init__(self, model, data: dict, blobs, shapes: list) -> None:
+        self.model = model
+        self.infinite = data["infinite"]
+        self.norm = data["norm"]
+        self.balanced = data["balanced"]
+        self.spectral_abscissa = data["abscissa"]
+        self.spectral_radius = data["radius"]
+        self.min_damping = data["min_damping"]
+        self.n_eigenvalues = data["n_eigenvalues"]
+        count = data["n_modes"]
+        rows, part = data["modes"], data["participation"]
+        # The blobs are read when the modes are: check now that they fit, so a damaged
+        # entry is analysed again instead of failing later.
+        if _shape(shapes, rows) != (count, _MODE_COLUMNS) or \
+                _shape(shapes, part) not in ((len(model.states), count), (0, 0)):
+            raise ValueError("mode table or participation factors do not fit the model")
+        self.modes = _LazyModes(blobs, rows, part, model.states, count)
+
+    def eigenvalues(self) -> list[complex]:
+        return Spectrum.eigenvalues(cast(Spectrum, self))  # same logic, reading self.modes
+
+
+def _spectrum_data(sp, blobs: Blobs) -> dict:
+    modes = list(sp.modes)
+    part = np.stack([m.participation for m in modes], axis=1) if modes else np.zeros((0, 0))
+    return {
+        "infinite": sp.infinite, "norm": sp.norm, "balanced": sp.balanced,
+        "abscissa": sp.spectral_abscissa, "radius": sp.spectral_radius,
+        "min_damping": sp.min_damping, "n_eigenvalues": sp.n_eigenvalues,
+        "n_modes": len(modes),
+        "modes": blobs.put_array(_mode_table(modes)),
+        "participation": blobs.put_array(part),
+    }
+
+
+# ------------------------------------------------------------------ model and results
+
+_MATRICES = ("A", "B", "C", "D", "E")
+
+
+def _array(ref: tuple) -> "np.ndarray":
+    blobs, index = ref
+    return blobs.array(index)
+
+
+def _text(ref: tuple):
+    blobs, index = ref
+    return blobs.json(index)
+
+
+def _requirements_of(records: list) -> tuple:
+    classes = requirement_classes()
+    return tuple(unrecord(classes[k], v) for k, v in records)
+
+
+def _known_modes_of(records: list) -> tuple:
+    return tuple(unrecord(KnownMode, k) for k in records)
+
+
+def _lazy(name: str, load):
+    """A field built on first use by ``load`` from what ``_stored`` keeps for it, then kept."""
+    def read(self):
+        return load(self.__dict__["_stored"][name])
+
+    read.__name__ = name
+    return functools.cached_property(read)
+
+
+class CachedModel(Model):
+    """A :class:`~eigengate.model.core.Model` rebuilt from the cache: its matrices and its line
+    table are read from the blobs when first used (then kept), its requirements and known
+    modes built from their records when first used, the other fields at once. Reports,
+    which print verdicts and findings, read none of them."""
+
+    A = _lazy("A", _array)
+    B = _lazy("B", _array)
+    C = _lazy("C", _array)
+    D = _lazy("D", _array)
+    E = _lazy("E", _array)
+    lines = _lazy("lines", _text)
+    requirements = _lazy("requirements", _requirements_of)
+    known_modes = _lazy("known_modes", _known_modes_of)
+
+
+def _model_data(m, blobs: Blobs) -> dict:
+    classes = requirement_classes()
+    for r in m.requirements:
+        if type(r).__name__ not in classes:  # pragma: no cover - a new class not listed
+            raise TypeError(f"cannot cache requirement {type(r).__name__}")
+    out: dict[str, Any] = {k: blobs.put_array(getattr(m, k)) for k in _MATRICES}
+    out.update({
+        "name": m.name, "label": m.label, "source": m.source, "structure": m.structure,
+        "sample_period": m.sample_period, "states": list(m.states), "inputs": list(m.inputs),
+        "outputs": list(m.outputs), "on_uncertain": m.on_uncertain,
+        "disabled": list(m.disabled), "lines": blobs.put_json(dict(m.lines)),
+        "requirements": [[type(r).__name__, record(r)] for r in m.requirements],
+        "known_modes": [record(k) for k in m.known_modes],
+        "waivers": [record(w) for w in m.waivers],
+        "allowed_drift": m.allowed_drift,
+        "nonlinear": _field_data(m.nonlinear),
+    })
+    return out
+
+
+# A linearised model's vector field is code and is not stored; what the reports read of it
+# (the operating point, the box, and the equilibria found in it) is.
+
+def _field_data(info) -> dict | None:
+    if info is None:
+        return None
+    search = info.shared.get("search")
+    return {
+        "x": list(info.x), "u": list(info.u), "carrier": info.carrier,
+        "carrier_label": info.carrier_label,
+        "box": None if info.box is None else [list(info.box[0]), list(info.box[1]),
+                                              list(info.box[2]), info.box[3], info.box[4]],
+        "search": None if search is None else {
+            "equilibria": [[list(e.x), e.residual, record(e.equilibrium),
+                            [[z.real, z.imag] for z in e.eigenvalues]]
+                           for e in search.equilibria],
+            "counts": [search.starts, search.converged, search.failed, search.outside],
+            "errors": list(search.errors)},
+    }
+
+
+def _field_from(d: dict | None):
+    if d is None:
+        return None
+    from ..analysis.nonlinear import EquilibriumSearch, FoundEquilibrium
+
+    shared = {}
+    if d["search"] is not None:
+        found = tuple(FoundEquilibrium(tuple(x), residual, unrecord(Equilibrium, eq),
+                                       tuple(complex(float(a), float(b)) for a, b in ev))
+                      for x, residual, eq, ev in d["search"]["equilibria"])
+        starts, converged, failed, outside = d["search"]["counts"]
+        shared["search"] = EquilibriumSearch(found, starts, converged, failed, outside,
+                                             tuple(d["search"]["errors"]))
+    box = d["box"]
+    return _cached_field_class()(
+        field=None, x=tuple(d["x"]), u=tuple(d["u"]), carrier=d["carrier"],
+        carrier_label=d["carrier_label"],
+        box=None if box is None else (tuple(box[0]), tuple(box[1]), tuple(box[2]), box[3],
+                                      box[4]),
+        shared=shared)
+
+
+@functools.lru_cache(maxsize=None)
+def _cached_field_class():
+    from ..analysis.nonlinear import FieldPoint  # imported when a cached model has a vector field
+
+    class CachedFieldPoint(FieldPoint):
+        """A :class:`~eigengate.analysis.nonlinear.FieldPoint` from the cache: no vector field, only
+        the search it had run (a cached result is never analysed again)."""
+
+        def search(self):
+            return self.shared.get("search")
+
+    return CachedFieldPoint
+
+
+def _shape(shapes: list, index) -> tuple[int, int] | None:
+    if type(index) is not int or not 0 <= index < len(shapes):
+        raise ValueError(f"{index!r} is not a blob of the entry")
+    return shapes[index]
+
+
+def _model_from(d: dict, blobs, shapes: list) -> CachedModel:
+    classes = requirement_classes()
+    if not all(type(r) is list and len(r) == 2 and r[0] in classes for r in d["requirements"]) \
+            or type(d["known_modes"]) is not list:
+        raise ValueError("model requirements are not records of known classes")
+    m = object.__new__(CachedModel)
+    fields = m.__dict__
+    stored = {"requirements": d["requirements"], "known_modes": d["known_modes"]}
+    for k in (*_MATRICES, "lines"):
+        index = d[k]
+        if index is None and k != "A":
+            fields[k] = None
+            continue
+        # read later: check now that it is there, and of its kind
+        if (_shape(shapes, index) is None) != (k == "lines"):
+            raise ValueError(f"model field {k} is not a blob of its kind")
+        stored[k] = (blobs, index)
+    n = len(d["states"])
+    if shapes[d["A"]] != (n, n):
+        raise ValueError("model matrix A does not fit its states")
+    fields.update(
+        _stored=stored, name=d["name"], label=d["label"], source=d["source"],
+        structure=d["structure"], sample_period=d["sample_period"],
+        states=tuple(d["states"]), inputs=tuple(d["inputs"]), outputs=tuple(d["outputs"]),
+        on_uncertain=d["on_uncertain"], disabled=tuple(d["disabled"]),
+        waivers=tuple(unrecord(Waiver, w) for w in d["waivers"]),
+        allowed_drift=d["allowed_drift"], loop_parts=None,
+        nonlinear=_field_from(d["nonlinear"]))
+    return m
+
+
+#: A finding's mode row as float64: index, eigenvalue and s (real, imaginary), pair,
+#: multiplicity, defective, ζ, ωn, τ, bound, κ, then up to _TOP participating states as
+#: (position in the model's states, factor) after their count.
+_TOP = 3
+_ROW_COLUMNS = 14 + 2 * _TOP
+
+
+def _row_values(r: ModeRow, position: dict[str, int]) -> list[float] | None:
+    if len(r.top_states) > _TOP or any(n not in position for n, _ in r.top_states):
+        return None
+    out = [r.index, r.eigenvalue.real, r.eigenvalue.imag, r.s.real, r.s.imag, r.pair,
+           r.multiplicity, r.defective, r.damping_ratio, r.natural_frequency, r.time_constant,
+           r.uncertainty, r.condition, len(r.top_states)]
+    for n, p in r.top_states:
+        out += [position[n], p]
+    return out + [0.0] * (_ROW_COLUMNS - len(out))
+
+
+def _findings_data(findings, states: tuple[str, ...], blobs: Blobs) -> tuple[list, int | None]:
+    """The findings' records, their mode rows in one float64 table (a finding refers to its
+    ``[first, count]``), or as records where a row does not fit the table."""
+    position = {n: i for i, n in enumerate(states)}
+    table: list[list[float]] = []
+    out = []
+    for f in findings:
+        rows = [_row_values(r, position) for r in f.modes]
+        if any(r is None for r in rows):
+            out.append({"f": record(f), "modes": [record(r) for r in f.modes]})
+        else:
+            out.append({"f": record(f), "rows": [len(table), len(rows)]})
+            table.extend(rows)  # type: ignore[arg-type]
+    if not table:
+        return out, None
+    return out, blobs.put_array(np.array(table, dtype=np.float64))
+
+
+def _row_of(r: list, states: tuple[str, ...]) -> ModeRow:
+    i, er, ei, sr, si, pair, mult, defective, zeta, wn, tau, bound, kappa, k, *top = r
+    row = object.__new__(ModeRow)
+    row.__dict__.update(
+        index=int(i), eigenvalue=complex(er, ei), s=complex(sr, si), pair=bool(pair),
+        multiplicity=int(mult), defective=bool(defective), damping_ratio=zeta,
+        natural_frequency=wn, time_constant=tau, uncertainty=bound, condition=kappa,
+        top_states=tuple([(states[int(top[j])], top[j + 1]) for j in range(0, 2 * int(k), 2)]))
+    return row
+
+
+def _findings_from(items: list, table: int | None, states: tuple[str, ...], blobs) -> tuple:
+    rows: list = []
+    if table is not None:
+        arr = blobs.array(table)
+        if arr.shape[1:] != (_ROW_COLUMNS,):
+            raise ValueError("finding mode rows have the wrong width")
+        rows = arr.tolist()
+    out = []
+    for d in items:
+        if "rows" in d:
+            first, count = d["rows"]
+            if not 0 <= first <= first + count <= len(rows):
+                raise ValueError("finding mode rows outside their table")
+            modes = tuple(_row_of(r, states) for r in rows[first:first + count])
+        else:
+            modes = tuple(unrecord(ModeRow, r) for r in d["modes"])
+        out.append(unrecord(Finding, d["f"], modes=modes))
+    return tuple(out)
+
+
+def _verdict_data(v) -> dict:
+    return {"v": record(v), "offending": [m.index - 1 for m in v.offending]}
+
+
+def _result_data(r, blobs: Blobs) -> dict:
+    findings, rows = _findings_data(r.findings, r.model.states, blobs)
+    return {"model": _model_data(r.model, blobs), "spectrum": _spectrum_data(r.spectrum, blobs),
+            "equilibrium": record(r.equilibrium),
+            "verdicts": [_verdict_data(v) for v in r.verdicts],
+            "findings": findings, "rows": rows}
+
+
+def _result_from(d: dict, blobs, shapes: list):
+    model = _model_from(d["model"], blobs, shapes)
+    spectrum = CachedSpectrum(model, d["spectrum"], blobs, shapes)
+    verdicts = [unrecord(Verdict, v["v"], offending=spectrum.modes.subset(v["offending"]))
+                for v in d["verdicts"]]
+    # CachedSpectrum stands in for a Spectrum: the same attributes, read lazily (duck typing)
+    return ModelResult(model=model, spectrum=cast(Spectrum, spectrum),
+                       equilibrium=unrecord(Equilibrium, d["equilibrium"]),
+                       verdicts=tuple(verdicts),
+                       findings=_findings_from(d["findings"], d["rows"], model.states, blobs))
+
+
+def results_to_data(source: str, results: Sequence, error) -> tuple[dict, Blobs]:
+    """Data and blobs of one file's pre-waiver check: its model results, or its load error."""
+    blobs = Blobs()
+    if error is not None:
+        return {"source": source, "error": [error.source, error.field, error.problem,
+                                             error.line, error.hint]}, blobs
+    return {"source": source, "results": [_result_data(r, blobs) for r in results]}, blobs
+
+
+def results_from_data(d: dict, blobs):
+    """Inverse of :func:`results_to_data`: ``(source, results, error)``. ``blobs`` is a
+    :class:`Blobs` or anything with its ``shapes``, ``array`` and ``json`` methods."""
+    if "error" in d:
+        src, fld, problem, line, hint = d["error"]
+        return d["source"], (), ModelError(src, fld, problem, line=line, hint=hint)
+    shapes = blobs.shapes()
+    return d["source"], tuple([_result_from(r, blobs, shapes) for r in d["results"]]), None
