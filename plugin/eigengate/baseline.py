@@ -193,13 +193,19 @@ class MergeSummary:
 
 
 class Baseline:
-    """An immutable set of entries; ``path`` names the file (or revision) it came from."""
+    """An immutable set of entries; ``path`` names the file (or revision) it came from.
+
+    ``unreadable`` maps model files (by today's path) that could not be loaded where the
+    entries came from (a git revision) to the reason: their models are not "new", they could
+    not be compared (EG210)."""
 
     def __init__(self, entries: Iterable[Entry] = (), path: str | None = None,
-                 lines: Mapping[Key, int] | None = None) -> None:
+                 lines: Mapping[Key, int] | None = None,
+                 unreadable: Mapping[str, str] | None = None) -> None:
         self._entries: dict[Key, Entry] = {e.key: e for e in entries}
         self.path = path
         self._lines: Mapping[Key, int] = lines if lines is not None else {}
+        self.unreadable: Mapping[str, str] = dict(unreadable or {})
 
     @classmethod
     def load(cls, path: str | os.PathLike[str]) -> "Baseline":

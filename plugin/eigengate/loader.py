@@ -88,7 +88,8 @@ def load_models_with_refs(path: str | os.PathLike[str],
 
 
 def load_models_from_bytes(raw: bytes, source: str, read: Callable[[str], bytes], *,
-                           stem: str | None = None) -> tuple[list[Model], list[str]]:
+                           stem: str | None = None, python_root: Path | None = None
+                           ) -> tuple[list[Model], list[str]]:
     """Load a model file given as bytes, reading its matrix files through ``read``.
 
     For model files that are not in the working tree (a git revision, say). ``source`` is the
@@ -96,8 +97,10 @@ def load_models_from_bytes(raw: bytes, source: str, read: Callable[[str], bytes]
     references are resolved (lexically, confined to the repository) and ``read(rel)`` returns
     the bytes of the repository-relative file ``rel`` (``FileNotFoundError`` when missing).
     ``stem`` replaces the file-name stem as the default model name (a renamed file keeps the
-    name its new path gives it). Returns the models and the referenced paths, as
-    :func:`load_models_with_refs` does.
+    name its new path gives it). ``python_root``, when given, allows a ``vector_field`` block
+    and is the folder its module is imported from (a revision's Python files, materialised by
+    :mod:`eigengate.gitrev`); without it such a block is refused. Returns the models and the
+    referenced paths, as :func:`load_models_with_refs` does.
     """
     import posixpath
     from pathlib import PurePosixPath
@@ -108,7 +111,8 @@ def load_models_from_bytes(raw: bytes, source: str, read: Callable[[str], bytes]
     refs: list[str] = []
     base_dir = PurePosixPath(posixpath.dirname(source) or ".")
     models = _load(data, source=source, root=None, base_dir=base_dir, lines=lines, refs=refs,
-                   stem=stem or PurePosixPath(source).stem, read=read)  # type: ignore[arg-type]
+                   stem=stem or PurePosixPath(source).stem, read=read,  # type: ignore[arg-type]
+                   allow_python=python_root is not None, python_root=python_root)
     return models, sorted(set(refs))
 
 
@@ -152,6 +156,7 @@ class _Ctx:
     waivers: tuple = ()
     read: Callable[[str], bytes] | None = None  # matrix files through this, not the filesystem
     allow_python: bool = False  # may a vector_field block import project code
+    python_root: Path | None = None  # import it from here instead of root (a revision's tree)
 
     def line(self, path: str) -> int | None:
         parts = path.split(".")
@@ -197,8 +202,9 @@ def _kind(value: Any) -> str:
 def _load(data: dict[str, Any], *, source: str, root: Path | None, base_dir: Path | None,
           lines: dict[str, int], refs: list[str], stem: str,
           read: Callable[[str], bytes] | None = None,
-          allow_python: bool = False) -> list[Model]:
-    ctx = _Ctx(source, root, base_dir, lines, refs, read=read, allow_python=allow_python)
+          allow_python: bool = False, python_root: Path | None = None) -> list[Model]:
+    ctx = _Ctx(source, root, base_dir, lines, refs, read=read, allow_python=allow_python,
+               python_root=python_root)
     if "model_format" not in data:
         raise ctx.err("model_format", "is missing",
                       f"start the file with 'model_format: {FORMAT_VERSIONS[-1]}'")

@@ -345,7 +345,7 @@ def load_vector_field(data: Mapping[str, Any], ctx: Any, name: str,
         raise ctx.err("vector_field.function", f"imports project code ({block['function']}), "
                       "which is off unless allowed", "set allow_python = true under "
                       "[tool.eigengate] in pyproject.toml, or pass allow_python=True")
-    root = Path(ctx.root or ctx.base_dir or ".")
+    root = Path(ctx.python_root or ctx.root or ctx.base_dir or ".")
     fns = {}
     for key in ("function", "jacobian"):
         if key in block:

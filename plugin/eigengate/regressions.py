@@ -40,7 +40,7 @@ __all__ = ["Tolerance", "Tolerances", "parse_tolerances", "compare", "compare_al
 DEFAULT_SEVERITY: dict[str, str] = {
     "EG201": "error", "EG202": "error", "EG203": "error", "EG204": "error",
     "EG205": "warning", "EG206": "warning", "EG207": "warning", "EG208": "warning",
-    "EG209": "warning"}
+    "EG209": "warning", "EG210": "error"}
 #: Keys of an ``allowed_drift`` block, and of each figure's mapping in it.
 TOLERANCE_KEYS = ("decay_rate", "damping", "frequency", "match_gate")
 FIGURE_KEYS = ("abs", "rel", "worse")
@@ -280,17 +280,23 @@ def _equilibrium(j: _Judge, entry: "Entry", eq: Any, after_modes: list) -> None:
 
 
 def compare(result: Any, entry: "Entry | None", tolerances: Tolerances | None = None, *,
-            severities: Mapping[str, str] | None = None) -> Comparison:
+            severities: Mapping[str, str] | None = None, unreadable: str | None = None
+            ) -> Comparison:
     """Compare an analysed model (:class:`~eigengate.engine.ModelResult`) with its entry.
 
-    ``entry`` None gives one EG208 new-model finding. ``severities`` overrides
-    :data:`DEFAULT_SEVERITY` per rule (``"off"`` drops the rule).
+    ``entry`` None gives one EG208 new-model finding, or, with ``unreadable`` (where and why
+    the model file could not be loaded, "at REV (commit): reason"), one EG210 finding.
+    ``severities`` overrides :data:`DEFAULT_SEVERITY` per rule (``"off"`` drops the rule).
     """
     from .matching import match_modes
 
     tol = tolerances or Tolerances()
     j = _Judge(result, severities)
     m = result.model
+    if entry is None and unreadable is not None:
+        j.add("EG210", f"{m.title} was not compared: its model file could not be loaded "
+              f"{unreadable}")
+        return Comparison(m.source, m.title, tuple(j.findings))
     if entry is None:
         j.add("EG208", f"{m.title} has no baseline entry: accept it to start comparing its "
               "modes with later changes")
@@ -383,8 +389,10 @@ def compare_all(file_results: Iterable[Any], baseline: "Baseline",
             checked.add(key[0])
             seen.add(key)
             tol = tolerances_for(r) if callable(tolerances_for) else tolerances_for
-            comparisons.append(compare(r, baseline.entry(*key), tol, severities=severities))
-    new = tuple(sorted(k for k in seen if k not in baseline))
+            comparisons.append(compare(r, baseline.entry(*key), tol, severities=severities,
+                                       unreadable=baseline.unreadable.get(key[0])))
+    new = tuple(sorted(k for k in seen if k not in baseline
+                       and k[0] not in baseline.unreadable))
     stale = tuple(k for k in baseline.keys() if k not in seen and k[0] not in broken
                   and (complete or k[0] in checked))
     findings = [f for c in comparisons for f in c.regressions]
