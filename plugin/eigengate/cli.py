@@ -273,7 +273,8 @@ def _check(args) -> int:
         if not paths:
             return Exit.CLEAN  # nothing the commit changed is used by a model
     result = scan(paths, config, jobs=args.jobs, use_cache=not args.no_cache,
-                  progress=terminal_progress(), filter_named=args.only_model_files)
+                  progress=terminal_progress(), filter_named=args.only_model_files,
+                  complete=complete)
     files = list(result.files)
     notes = []
     failed = result.failed
