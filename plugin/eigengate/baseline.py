@@ -102,6 +102,9 @@ class Entry:
     unstable: int
     center: int
     written_by: str
+    #: The operating point's identity in its file (``Model.point_id``), None for a file of
+    #: one model or an entry written before identities were stored.
+    point: str | None = None
 
     @property
     def key(self) -> Key:
@@ -147,13 +150,15 @@ def baseline_entry_from(result: Any, source: str | None = None,
                  spectral_abscissa=_r(sp.spectral_abscissa),
                  spectral_radius=_r(sp.spectral_radius), min_damping=_r(sp.min_damping),
                  equilibrium=eq.type, stable=eq.stable, unstable=eq.unstable, center=eq.center,
-                 written_by=written_by or f"eigengate {__version__}")
+                 written_by=written_by or f"eigengate {__version__}",
+                 point=getattr(model, "point_id", None))
 
 
 def _same(a: Entry, b: Entry) -> bool:
     """Equal up to round-off: figures within 1e-9 relative, diagnostics within 1e-3."""
-    if (a.key, a.domain, a.equilibrium, a.stable, a.unstable, a.center, len(a.modes)) != \
-            (b.key, b.domain, b.equilibrium, b.stable, b.unstable, b.center, len(b.modes)):
+    if (a.key, a.point, a.domain, a.equilibrium, a.stable, a.unstable, a.center,
+            len(a.modes)) != (b.key, b.point, b.domain, b.equilibrium, b.stable, b.unstable,
+                              b.center, len(b.modes)):
         return False
     scale = max([1.0] + [abs(m.s) for m in a.modes + b.modes if math.isfinite(abs(m.s))])
 
@@ -206,6 +211,7 @@ class Baseline:
         self.path = path
         self._lines: Mapping[Key, int] = lines if lines is not None else {}
         self.unreadable: Mapping[str, str] = dict(unreadable or {})
+        self._points: dict[tuple[str, str], list[Entry]] | None = None
 
     @classmethod
     def load(cls, path: str | os.PathLike[str]) -> "Baseline":
@@ -223,6 +229,25 @@ class Baseline:
 
     def entry(self, source: str, title: str) -> Entry | None:
         return self._entries.get((source, title))
+
+    def match(self, source: str, title: str, point: str | None,
+              taken: "set[Key] | frozenset[Key]" = frozenset()) -> Entry | None:
+        """The entry a model compares with: the one of its title; else, when the model is an
+        operating point (``point``), the entry of the same file with the same point identity
+        whose key is not in ``taken`` (titles that current models claim themselves, and
+        entries already matched): a point whose label changed keeps its baseline."""
+        found = self._entries.get((source, title))
+        if found is not None or point is None:
+            return found
+        if self._points is None:
+            self._points = {}
+            for e in self._entries.values():
+                if e.point is not None:
+                    self._points.setdefault((e.source, e.point), []).append(e)
+        for e in self._points.get((source, point), ()):
+            if e.key not in taken:
+                return e
+        return None
 
     def keys(self) -> list[Key]:
         return sorted(self._entries)

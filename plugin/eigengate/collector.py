@@ -270,7 +270,8 @@ class BaselineRun:
             return result, {"status": "unbaselined"}
         from .baseline_check import compare_result
 
-        entry = baseline.entry(result.model.source, result.model.title)
+        entry = baseline.match(result.model.source, result.model.title,
+                               getattr(result.model, "point_id", None))
         result, comparison = compare_result(result, self.policy, baseline)
         return result, {
             "status": "new" if entry is None else "compared",

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import dataclasses
 import os
+import re
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Callable, Mapping
@@ -25,7 +26,7 @@ FORMAT_VERSIONS = (1,)
 TOP_KEYS = ("model_format", "name", "description", "domain", "sample_period", "plant",
             "feedback", "requirements", "known_modes", "on_uncertain", "operating_points",
             "waivers", "loop", "vector_field", "allowed_drift")
-POINT_KEYS = ("label", "plant", "feedback", "requirements", "known_modes", "on_uncertain",
+POINT_KEYS = ("label", "id", "plant", "feedback", "requirements", "known_modes", "on_uncertain",
               "loop", "allowed_drift")
 SS_KEYS = ("A", "B", "C", "D", "E", "states", "inputs", "outputs")
 TF_KEYS = ("num", "den", "states", "inputs", "outputs")
@@ -248,6 +249,7 @@ def _load(data: dict[str, Any], *, source: str, root: Path | None, base_dir: Pat
                       f"{_kind(points) if points != [] else 'an empty list'}")
     models: list[Model] = []
     seen: dict[str, int] = {}
+    ids: dict[str, int] = {}
     for i, point in enumerate(points):
         where = f"operating_points.{i}"
         pctx = dataclasses.replace(ctx, prefix=f"operating_points[{i}].")
@@ -268,8 +270,10 @@ def _load(data: dict[str, Any], *, source: str, root: Path | None, base_dir: Pat
         seen[label] = i
         pctx.prefix = f"operating_points[{i}] (label {label!r})."
         _check_keys(point, POINT_KEYS, pctx, "", "an operating point")
-        merged = _merge(base, {k: v for k, v in point.items() if k != "label"})
-        models.append(build_model(merged, pctx, name, label))
+        ident = point_identity(point, i, pctx, ids) or f"#{i}:{label_shape(label)}"
+        merged = _merge(base, {k: v for k, v in point.items() if k not in ("label", "id")})
+        models.append(dataclasses.replace(build_model(merged, pctx, name, label),
+                                          point_id=ident))
     for i, w in enumerate(ctx.waivers):
         if w.label is not None and w.label not in seen:
             close = suggest(w.label, list(seen))
@@ -277,6 +281,39 @@ def _load(data: dict[str, Any], *, source: str, root: Path | None, base_dir: Pat
                           f"did you mean {close!r}?" if close else
                           "labels: " + ", ".join(seen))
     return models
+
+
+_POINT_ID = re.compile(r"^[A-Za-z0-9_][A-Za-z0-9_.:=+-]{0,63}$")
+
+
+_NUMBER = re.compile(r"(?<![A-Za-z_\d.])[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?")
+
+
+def label_shape(label: str) -> str:
+    """A label with every number (not part of a name) replaced by ``#`` and blanks collapsed:
+    ``'v=30, k2=2.5'`` → ``'v=#, k2=#'``; a retune that changes only the numbers keeps the
+    shape."""
+    return " ".join(_NUMBER.sub("#", label).split())
+
+
+def point_identity(point: Mapping[str, Any], index: int, ctx: _Ctx, ids: dict[str, int]
+                   ) -> str | None:
+    """The ``id`` of the operating point at ``index`` (checked: unique, letters, digits and
+    ``_.:=+-``, at most 64 characters), or None when it has none (its identity is then its
+    position and the shape of its label, see :func:`label_shape`)."""
+    if "id" not in point:
+        return None
+    ident = point["id"]
+    if isinstance(ident, bool) or not isinstance(ident, (str, int)) \
+            or not _POINT_ID.match(str(ident)):
+        raise ctx.err("id", f"must be a short name of letters, digits and _.:=+- (not starting "
+                      f"with one of .:=+-), got {ident!r:.60}", "for example id: cruise-high")
+    ident = str(ident)
+    if ident in ids:
+        raise ctx.err("id", f"is {ident!r}, already used by point {ids[ident]}",
+                      "ids must be unique in the file")
+    ids[ident] = index
+    return ident
 
 
 def _merge(base: Any, over: Any) -> Any:

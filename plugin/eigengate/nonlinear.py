@@ -33,7 +33,7 @@ __all__ = ["VectorField", "FoundEquilibrium", "EquilibriumSearch", "FieldPoint",
 
 VECTOR_FIELD_KEYS = ("function", "jacobian", "parameters", "states", "inputs", "at",
                      "equilibria", "sweep")
-AT_KEYS = ("label", "x", "u", "requirements")
+AT_KEYS = ("label", "id", "x", "u", "requirements")
 EQUILIBRIA_KEYS = ("box", "starts", "u", "tolerance")
 _REF = re.compile(r"^[A-Za-z_][\w]*(\.[A-Za-z_][\w]*)*:[A-Za-z_]\w*$")
 _EPS = float(np.finfo(float).eps)
@@ -325,7 +325,7 @@ def _numbers(value: Any, ctx: Any, path: str, size: int | None) -> tuple[float, 
 def load_vector_field(data: Mapping[str, Any], ctx: Any, name: str,
                       parse_requirements: Callable[..., tuple]) -> list[Model]:
     """Models of a model file with a ``vector_field`` block (called by the loader)."""
-    from .loader import _check_keys, _mapping
+    from .loader import _check_keys, _mapping, label_shape
     from .loop_requirements import LOOP_RULES, POINT_RULES, SET_RULES
     from .requirements import apply_layers
 
@@ -401,7 +401,11 @@ def load_vector_field(data: Mapping[str, Any], ctx: Any, name: str,
         raise ctx.err("vector_field.equilibria", "is missing, but the requirements count or "
                       "classify the equilibria in a box", "add equilibria: {box: {...}}")
     at: list[tuple[str, tuple, tuple, tuple, tuple]] = []
+    idents: list[str | None] = []
     if points is not None:
+        from .loader import point_identity
+
+        ids: dict[str, int] = {}  # explicit ids, checked unique
         if not isinstance(points, list) or not points:
             raise ctx.err("vector_field.at", "must be a non-empty list of operating points")
         seen: set[str] = set()
@@ -413,12 +417,15 @@ def load_vector_field(data: Mapping[str, Any], ctx: Any, name: str,
                 raise ctx.err(f"{path}.label", f"must be a unique non-empty string, got {label!r}")
             seen.add(label)
             pctx = dataclasses.replace(ctx, prefix=ctx.prefix + f"{path} (label {label!r}).")
+            idents.append(point_identity(p, i, pctx, ids))
             own = parse_requirements({"requirements": p.get("requirements", {})}, pctx, states)
             at.append((label, _numbers(p.get("x"), ctx, f"{path}.x", n),
                        _numbers(p.get("u", [0.0] * m), ctx, f"{path}.u", m), *own[:2]))
     models: list[Model] = []  # product() of no grids is one empty combination: no sweep
-    for combo in itertools.product(*grids.values()):
+    for where in itertools.product(*(range(len(g)) for g in grids.values())):
+        combo = tuple(g[i] for g, i in zip(grids.values(), where))
         tag = ", ".join(f"{k}={v:g}" for k, v in zip(grids, combo))
+        at_sweep = "@" + ",".join(map(str, where)) + "/" if grids else ""
         vf = dataclasses.replace(base, parameters={**params, **dict(zip(grids, combo))})
         shared: dict = {}  # the search, once per parameter set
         rows = list(at)
@@ -445,5 +452,9 @@ def load_vector_field(data: Mapping[str, Any], ctx: Any, name: str,
                               on_uncertain=data.get("on_uncertain"), waivers=ctx.waivers,
                               lines=ctx.prefixed_lines())
             info = FieldPoint(vf, tuple(x), tuple(u), j == 0, carrier, box, shared)
-            models.append(dataclasses.replace(model, lines=dict(ctx.lines), nonlinear=info))
+            # identity: the at point's id, else its position (or the equilibrium's rank by
+            # location) with the shape of its label
+            row = (idents[j] if points is not None else None) or f"#{j}:{label_shape(full)}"
+            models.append(dataclasses.replace(model, lines=dict(ctx.lines), nonlinear=info,
+                                              point_id=at_sweep + row))
     return models
