@@ -193,3 +193,4 @@ def test_label_shape(label, shape):
     from eigengate.loader import label_shape
 
     assert label_shape(label) == shape
+

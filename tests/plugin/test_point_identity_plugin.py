@@ -1,0 +1,35 @@
+"""The plugin's model items compare a relabelled operating point with its baseline entry, by
+the same identity rule as the command line (docs/baselines.md), and do not call it stale."""
+
+import textwrap
+
+
+# Double integrator with u = -4 x - k2 x': s^2 + k2 s + 4, zeta = k2 / 4 (second-order
+# standard form, common in control textbooks).
+def cruise(*rows):
+    body = "".join(f"  - {{label: '{label}', feedback: {{state_gain: [[4, {k2}]]}}}}\n"
+                   for label, k2 in rows)
+    return textwrap.dedent("""\
+        model_format: 1
+        name: cruise
+        plant:
+          states: [pos, vel]
+          A: [[0, 1], [0, 0]]
+          B: [[0], [1]]
+        requirements:
+          stable: true
+        operating_points:
+        """) + body
+
+
+def test_relabelled_point_is_compared_not_new(project):
+    project.pyproject('include = ["models/**/*.yaml"]\n')
+    project.write("models/cruise.yaml", cruise(("v=30", 2.0), ("v=45", 2.0)))   # zeta 0.5
+    project.pytester.runpytest("--eigengate-accept").assert_outcomes(passed=2)
+    project.write("models/cruise.yaml", cruise(("v=30", 2.0), ("v=50", 0.4)))   # zeta 0.1
+    result = project.pytester.runpytest()
+    result.assert_outcomes(passed=1, failed=1)
+    result.stdout.fnmatch_lines([
+        "*EG203*(compared with baseline entry 'cruise[[]v=45[]]': the same operating point*",
+        "baseline .eigengate/baseline.json: 2 models compared: 1 regressed, 0 new (no baseline "
+        "entry), 0 stale entries, 0 improvements"])
