@@ -6,31 +6,19 @@ depend on it; with and without a result cache."""
 import io
 import re
 import shutil
-import subprocess
-import textwrap
 from pathlib import Path
 
 import numpy as np
 import pytest
 import yaml
 
-from support import run_cli
+from support import ROLL, boom_files, git, run_cli, write
 
 pytestmark = pytest.mark.skipif(shutil.which("git") is None, reason="git is not installed")
 
 HOOKS = Path(__file__).resolve().parents[1] / ".pre-commit-hooks.yaml"
-ID = ["-c", "user.name=Test Author", "-c", "user.email=author@example.invalid",
-      "-c", "commit.gpgsign=false", "-c", "init.defaultBranch=main"]
 
 
-def git(repo, *args):
-    return subprocess.run(["git", *ID, *args], cwd=repo, check=True, capture_output=True,
-                          text=True).stdout
-
-
-def write(path: Path, text: str) -> None:
-    path.parent.mkdir(parents=True, exist_ok=True)
-    path.write_text(textwrap.dedent(text), encoding="utf-8")
 
 
 def npz(path: Path, a) -> None:
@@ -71,35 +59,6 @@ MAST = """\
     requirements:
       min_damping: 0.1
     """
-ROLL = """\
-    model_format: 1
-    name: roll
-    plant:
-      A: [[-2, 0], [0, -6]]
-    requirements:
-      stable: true
-    """
-# x' = [x1, -4 x0 - c x1]: zeta = c / 4 (standard form); c = 0.2 gives zeta 0.05.
-FIELD = """\
-    import numpy as np
-
-    from plantdyn.coefficients import DAMPING
-
-
-    def boom(x, u):
-        return np.array([x[1], -4.0 * x[0] - DAMPING * x[1]])
-    """
-BOOM = """\
-    model_format: 1
-    name: boom
-    vector_field:
-      function: plantdyn.arm:boom
-      states: [angle, rate]
-      at:
-        - {label: rest, x: [0.0, 0.0]}
-    requirements:
-      min_damping: 0.1
-    """
 
 
 @pytest.fixture
@@ -110,11 +69,8 @@ def repo(tmp_path):
     write(r / "pyproject.toml", "[tool.eigengate]\nallow_python = true\n")
     write(r / "models" / "mast.yaml", MAST)
     write(r / "models" / "roll.yaml", ROLL)
-    write(r / "models" / "boom.yaml", BOOM)
     npz(r / "matrices" / "mast.npz", mast(0.2))
-    write(r / "plantdyn" / "__init__.py", "")
-    write(r / "plantdyn" / "arm.py", FIELD)
-    write(r / "plantdyn" / "coefficients.py", "DAMPING = 2.0\n")
+    boom_files(r, 2.0)  # zeta 0.5 (support.BOOM_FIELD: zeta = damping / 4)
     write(r / "README.md", "notes\n")
     git(r, "add", "-A")
     git(r, "commit", "-q", "-m", "start")
@@ -144,12 +100,13 @@ def test_changed_matrix_file_checks_the_model_that_reads_it(repo, cache):
 
 def test_changed_module_checks_vector_field_models(repo):
     # the module changed is imported by the vector field's module, not named by the model
-    write(repo / "plantdyn" / "coefficients.py", "DAMPING = 0.2\n")
+    write(repo / "plantdyn" / "coefficients.py", "DAMPING = 0.2\n")  # zeta 0.05 < 0.08
     git(repo, "add", "-A")
     chosen, proc = run_hook(repo, "--no-cache")
     assert chosen == ["plantdyn/coefficients.py"]
     assert proc.returncode == 1, proc.stdout + proc.stderr
     assert "models/boom.yaml" in proc.stdout and "EG103" in proc.stdout
+    assert "models/mast.yaml" not in proc.stdout
 
 
 def test_policy_change_checks_everything(repo):
@@ -190,7 +147,7 @@ def test_cache_records_the_references_the_hook_maps(repo):
         return cache.references(rel, (repo / rel).read_bytes())
 
     assert refs("models/mast.yaml") == ("matrices/mast.npz",)
-    assert refs("models/boom.yaml") == ("plantdyn/arm.py",)
+    assert refs("models/boom.yaml") == ("plantdyn/arm.py",)  # the module named, not its imports
     assert refs("models/roll.yaml") == ()
     assert cache.references("models/roll.yaml", b"model_format: 1\n") is None
 

@@ -4,7 +4,7 @@ model files were not part of it. The CLI as a subprocess."""
 
 import pytest
 
-from support import oscillator, run_cli, write
+from support import ROLL, oscillator, run_cli, write
 
 POLICY = """\
     [tool.eigengate]
@@ -15,16 +15,6 @@ POLICY = """\
     reason = "mast retune scheduled"
     paths = ["models/mast/*.yaml"]
     """
-# roll: two real poles -2 and -6 (diagonal), stable and with no oscillatory mode
-ROLL = """\
-    model_format: 1
-    name: roll
-    plant:
-      A: [[-2, 0], [0, -6]]
-    requirements:
-      stable: true
-    """
-
 
 @pytest.fixture
 def repo(tmp_path):

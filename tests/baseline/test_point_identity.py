@@ -11,31 +11,11 @@ import pytest
 
 from eigengate.baseline import Baseline
 from eigengate.baseline import BaselineError
-from support import run_cli
+from support import cruise_points, run_cli, write
 
 
-def write(path: Path, text: str) -> None:
-    path.parent.mkdir(parents=True, exist_ok=True)
-    path.write_text(textwrap.dedent(text), encoding="utf-8")
 
-
-# Double integrator with state feedback u = -k1 x - k2 x': s^2 + k2 s + k1, so wn = sqrt(k1)
-# and zeta = k2 / (2 sqrt(k1)) (second-order standard form, common in control textbooks).
-# k1 = 4: zeta = k2 / 4.
-def points(*rows):
-    body = "".join(f"  - {{{ident}label: '{label}', feedback: {{state_gain: [[4, {k2}]]}}}}\n"
-                   for ident, label, k2 in rows)
-    return textwrap.dedent("""\
-        model_format: 1
-        name: cruise
-        plant:
-          states: [pos, vel]
-          A: [[0, 1], [0, 0]]
-          B: [[0], [1]]
-        requirements:
-          stable: true
-        operating_points:
-        """) + body
+points = cruise_points  # zeta = k2 / 4, see support.cruise_points
 
 
 def rules(repo, *args):

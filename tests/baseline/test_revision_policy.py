@@ -5,54 +5,18 @@ a "new model"."""
 
 import json
 import shutil
-import subprocess
 import sys
-import textwrap
-from pathlib import Path
 
 import pytest
 
-from support import run_cli
+from support import boom_files, git, run_cli, write
 
 pytestmark = pytest.mark.skipif(shutil.which("git") is None, reason="git is not installed")
 
-ID = ["-c", "user.name=Test Author", "-c", "user.email=author@example.invalid",
-      "-c", "commit.gpgsign=false", "-c", "init.defaultBranch=main"]
 
 
-def git(repo, *args):
-    return subprocess.run(["git", *ID, *args], cwd=repo, check=True, capture_output=True,
-                          text=True).stdout
 
 
-def write(path: Path, text: str) -> None:
-    path.parent.mkdir(parents=True, exist_ok=True)
-    path.write_text(textwrap.dedent(text), encoding="utf-8")
-
-
-# x' = [x1, -4 x0 - c x1]: s^2 + c s + 4, so wn = 2 and zeta = c / 4 (second-order standard
-# form, common in control textbooks). The damping coefficient lives in the module, so only a
-# module read from the revision gives the old zeta.
-MODULE = """\
-    import numpy as np
-
-    DAMPING = {c}
-
-
-    def boom(x, u):
-        return np.array([x[1], -4.0 * x[0] - DAMPING * x[1]])
-    """
-FIELD_MODEL = """\
-    model_format: 1
-    name: boom
-    vector_field:
-      function: plantdyn.arm:boom
-      states: [angle, rate]
-      at:
-        - {label: rest, x: [0.0, 0.0]}
-    requirements:
-      stable: true
-    """
 POLICY = '[tool.eigengate]\ninclude = ["models/**/*.yaml"]\nallow_python = true\n'
 
 
@@ -62,13 +26,13 @@ def repo(tmp_path):
     r.mkdir()
     git(r, "init", "-q")
     write(r / "pyproject.toml", POLICY)
-    write(r / "plantdyn" / "__init__.py", "")
-    write(r / "plantdyn" / "arm.py", MODULE.format(c=2.0))           # zeta 0.5
-    write(r / "models" / "boom.yaml", FIELD_MODEL)
+    # zeta = c / 4 (support.BOOM_FIELD); the coefficient lives in a module the field's module
+    # imports, so only the revision's modules give the old zeta
+    boom_files(r, 2.0)                                                 # zeta 0.5
     git(r, "add", "-A")
     git(r, "commit", "-q", "-m", "accepted boom")
     git(r, "tag", "accepted")
-    write(r / "plantdyn" / "arm.py", MODULE.format(c=0.4))           # zeta 0.1
+    write(r / "plantdyn" / "coefficients.py", "DAMPING = 0.4\n")     # zeta 0.1
     git(r, "commit", "-q", "-am", "softer boom")
     return r
 
@@ -141,14 +105,14 @@ def test_revision_import_leaves_the_working_tree_modules_alone(repo):
     config = load_config(repo / "pyproject.toml")
     sys.path.insert(0, str(repo))
     try:
-        import plantdyn.arm as today
+        import plantdyn.coefficients as today
         snapshot = revision_baseline("accepted", repo, config=config)
         assert not snapshot.errors
         (entry,) = snapshot.baseline.entries()
         # the old module (c = 2): zeta = 0.5 (standard form, as above)
         assert entry.min_damping == pytest.approx(0.5, rel=1e-9)
-        assert sys.modules["plantdyn.arm"] is today and today.DAMPING == 0.4
+        assert sys.modules["plantdyn.coefficients"] is today and today.DAMPING == 0.4
     finally:
         sys.path.remove(str(repo))
-        for name in ("plantdyn.arm", "plantdyn"):
+        for name in ("plantdyn.coefficients", "plantdyn"):
             sys.modules.pop(name, None)

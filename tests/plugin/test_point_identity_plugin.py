@@ -1,25 +1,12 @@
 """The plugin's model items compare a relabelled operating point with its baseline entry, by
 the same identity rule as the command line (docs/baselines.md), and do not call it stale."""
 
-import textwrap
+from support import cruise_points
 
 
-# Double integrator with u = -4 x - k2 x': s^2 + k2 s + 4, zeta = k2 / 4 (second-order
-# standard form, common in control textbooks).
 def cruise(*rows):
-    body = "".join(f"  - {{label: '{label}', feedback: {{state_gain: [[4, {k2}]]}}}}\n"
-                   for label, k2 in rows)
-    return textwrap.dedent("""\
-        model_format: 1
-        name: cruise
-        plant:
-          states: [pos, vel]
-          A: [[0, 1], [0, 0]]
-          B: [[0], [1]]
-        requirements:
-          stable: true
-        operating_points:
-        """) + body
+    """zeta = k2 / 4 at each point (see support.cruise_points)."""
+    return cruise_points(*(("", label, k2) for label, k2 in rows))
 
 
 def test_relabelled_point_is_compared_not_new(project):
