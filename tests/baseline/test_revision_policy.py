@@ -87,7 +87,7 @@ def test_model_unreadable_at_the_revision_is_its_own_finding(repo):
     assert tail[0]["severity"] == "error" and proc.returncode == 1
 
 
-def test_python_off_refusal_at_the_revision_names_the_model(repo):
+def test_python_turned_off_fails_loudly_not_as_a_new_model(repo):
     # The policy allowed project code at REV but not now: the current side fails to load (its
     # own EG001), and a second model file that loads today is still compared; a refusal is
     # never a silent "new model".
