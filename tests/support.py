@@ -16,6 +16,17 @@ def run_cli(*args, cwd=None, env=None, timeout=180):
                           text=True, cwd=cwd, env=full, timeout=timeout)
 
 
+#: A fixed identity and defaults for git in temporary repositories.
+GIT_ID = ["-c", "user.name=Test Author", "-c", "user.email=author@example.invalid",
+          "-c", "commit.gpgsign=false", "-c", "init.defaultBranch=main"]
+
+
+def git(repo, *args) -> str:
+    """Run git in ``repo`` (a real temporary repository); its standard output."""
+    return subprocess.run(["git", *GIT_ID, *args], cwd=repo, check=True, capture_output=True,
+                          text=True).stdout
+
+
 def write(path: Path, text: str) -> Path:
     """Write dedented ``text`` to ``path``, making its folders."""
     path.parent.mkdir(parents=True, exist_ok=True)
@@ -58,3 +69,64 @@ def lift_axis(gain_rate: float) -> str:
         requirements:
           stable: true
         """)
+
+
+def cruise_points(*rows) -> str:
+    """A double integrator with state feedback u = -4 x - k2 x' at operating points
+    ``(id_text, label, k2)``: s^2 + k2 s + 4, so wn = 2 and zeta = k2 / 4 (second-order
+    standard form, common in control textbooks). ``id_text`` is ``""`` or ``"id: NAME, "``."""
+    body = "".join(f"  - {{{ident}label: '{label}', feedback: {{state_gain: [[4, {k2}]]}}}}\n"
+                   for ident, label, k2 in rows)
+    return textwrap.dedent("""\
+        model_format: 1
+        name: cruise
+        plant:
+          states: [pos, vel]
+          A: [[0, 1], [0, 0]]
+          B: [[0], [1]]
+        requirements:
+          stable: true
+        operating_points:
+        """) + body
+
+
+# A vector field whose damping coefficient lives in a second module that the field's module
+# imports: x' = [x1, -4 x0 - c x1], so s^2 + c s + 4, wn = 2 and zeta = c / 4 (second-order
+# standard form, common in control textbooks). Modules go to plantdyn/ (see boom_repo).
+BOOM_FIELD = """\
+    import numpy as np
+
+    from plantdyn.coefficients import DAMPING
+
+
+    def boom(x, u):
+        return np.array([x[1], -4.0 * x[0] - DAMPING * x[1]])
+    """
+BOOM_MODEL = """\
+    model_format: 1
+    name: boom
+    vector_field:
+      function: plantdyn.arm:boom
+      states: [angle, rate]
+      at:
+        - {label: rest, x: [0.0, 0.0]}
+    requirements:
+      min_damping: 0.08
+    """
+# Two real poles -2 and -6 (diagonal): stable, no oscillatory mode.
+ROLL = """\
+    model_format: 1
+    name: roll
+    plant:
+      A: [[-2, 0], [0, -6]]
+    requirements:
+      stable: true
+    """
+
+
+def boom_files(root: Path, damping: float) -> None:
+    """The vector-field model and its two modules (zeta = damping / 4) below ``root``."""
+    write(root / "plantdyn" / "__init__.py", "")
+    write(root / "plantdyn" / "arm.py", BOOM_FIELD)
+    write(root / "plantdyn" / "coefficients.py", f"DAMPING = {damping}\n")
+    write(root / "models" / "boom.yaml", BOOM_MODEL)

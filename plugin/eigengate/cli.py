@@ -75,6 +75,10 @@ def _parser() -> argparse.ArgumentParser:
     check.add_argument("--only-model-files", action="store_true",
                        help="skip named files that are not model files (for hooks that pass "
                             "every changed file)")
+    check.add_argument("--changed-files", action="store_true",
+                       help="the PATHs are files a commit changed (for hooks): check the model "
+                            "files among them and the models that use the others (matrix "
+                            "files, vector-field modules); a policy change checks everything")
     check.add_argument("--against", metavar="REV", default=None,
                        help="compare with the models as they were at git revision REV (for "
                             "example the merge base of a pull request) instead of the stored "
@@ -255,14 +259,22 @@ def _check(args) -> int:
 
     outputs = _outputs(args.output)
     missing = [p for p in args.paths if not Path(p).exists()]
-    if missing:
+    if missing and not args.changed_files:  # a deleted file is a change like any other
         raise UsageError(f"no such file or folder: {', '.join(missing)}")
     if args.jobs is not None and args.jobs < 1:
         raise UsageError(f"--jobs must be at least 1, got {args.jobs}")
     config = _load_config(args, Path(args.paths[0]) if args.paths else Path.cwd())
-    paths = args.paths or [config.root]
+    paths, complete = args.paths or [config.root], not args.paths
+    if args.changed_files and args.paths:
+        from .scan.dependents import changed_scope
+
+        scope = changed_scope(args.paths, config, use_cache=not args.no_cache)
+        paths, complete = list(scope.paths), scope.everything
+        if not paths:
+            return Exit.CLEAN  # nothing the commit changed is used by a model
     result = scan(paths, config, jobs=args.jobs, use_cache=not args.no_cache,
-                  progress=terminal_progress(), filter_named=args.only_model_files)
+                  progress=terminal_progress(), filter_named=args.only_model_files,
+                  complete=complete)
     files = list(result.files)
     notes = []
     failed = result.failed
@@ -273,7 +285,7 @@ def _check(args) -> int:
         baseline = _reference(config, args.against)
         if baseline is not None:
             poles = _baseline_poles(baseline)
-            outcome = compare_files(files, config, baseline, complete=not args.paths)
+            outcome = compare_files(files, config, baseline, complete=complete)
             files = with_regressions(files, outcome, config)
             failed = failed or outcome.failed
             notes += [f"improved: {i.title} ({i.source}): {i.message}"

@@ -2,8 +2,6 @@
 
 import io
 import shutil
-import subprocess
-import textwrap
 from pathlib import Path
 
 import numpy as np
@@ -14,21 +12,12 @@ from eigengate.scan.config import load_config
 from eigengate.scan.engine import check_paths
 from eigengate.scan.gitrev import GitError, renames_since, resolve_revision, revision_baseline
 from eigengate.baseline.regressions import compare_all
+from support import git, write
 
 pytestmark = pytest.mark.skipif(shutil.which("git") is None, reason="git is not installed")
 
-ID = ["-c", "user.name=Test Author", "-c", "user.email=author@example.invalid",
-      "-c", "commit.gpgsign=false", "-c", "init.defaultBranch=main"]
 
 
-def git(repo, *args):
-    return subprocess.run(["git", *ID, *args], cwd=repo, check=True, capture_output=True,
-                          text=True).stdout
-
-
-def write(path: Path, text: str) -> None:
-    path.parent.mkdir(parents=True, exist_ok=True)
-    path.write_text(textwrap.dedent(text), encoding="utf-8")
 
 
 def npz(path: Path, **arrays) -> None:

@@ -58,6 +58,9 @@ class Entry:
     unstable: int
     center: int
     written_by: str
+    #: The operating point's identity in its file (``Model.point_id``), None for a file of
+    #: one model or an entry written before identities were stored.
+    point: str | None = None
 
     @property
     def key(self) -> Key:

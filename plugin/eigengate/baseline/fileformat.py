@@ -33,7 +33,9 @@ FIGURES = ("spectral_abscissa", "spectral_radius", "min_damping", "equilibrium",
            "unstable", "center")
 MODE_FIELDS = ("eigenvalue", "s", "multiplicity", "pair", "defective", "damping_ratio",
                "natural_frequency", "time_constant", "uncertainty", "condition", "states")
-ENTRY_FIELDS = ("domain", "figures", "modes", "sample_period", "written_by")
+ENTRY_FIELDS = ("domain", "figures", "modes", "point", "sample_period", "written_by")
+#: Fields an entry may leave out (written only when set; older files lack them).
+OPTIONAL_FIELDS = ("point",)
 TOP_FIELDS = ("format_version", "models")
 _README = """\
 This folder holds eigengate's baseline: the modes of every model as they were last accepted.
@@ -91,6 +93,8 @@ def _entry_lines(e: "Entry", pad: str) -> list[str]:
         out.append(f"{pad}],")
     else:
         out.append(f'{pad}"modes": [],')
+    if e.point is not None:
+        out.append(f'{pad}"point": {_compact(e.point)},')
     return out + [f'{pad}"sample_period": {_compact(e.sample_period)},',
                   f'{pad}"written_by": {_compact(e.written_by)}']
 
@@ -192,7 +196,8 @@ class _Reader:
         return BaselineError(self.path, what, line=self.line(where), hint=hint or
                              "restore the file from version control, or accept again")
 
-    def obj(self, v: Any, where: tuple, required: tuple[str, ...]) -> dict:
+    def obj(self, v: Any, where: tuple, required: tuple[str, ...],
+            optional: tuple[str, ...] = ()) -> dict:
         if not isinstance(v, dict):
             raise self.fail(where, f"must be an object, got {_kind(v)}")
         for k in v:
@@ -202,7 +207,7 @@ class _Reader:
                                    else "figure set" if where[-1] == "figures" else "mode"),
                                 "known fields: " + ", ".join(required))
         for k in required:
-            if k not in v:
+            if k not in v and k not in optional:
                 raise self.fail(where, f"is missing the field {k!r}")
         return v
 
@@ -281,7 +286,11 @@ def parse(text: str, path: str) -> tuple[list["Entry"], Mapping[tuple[str, str],
             raise r.fail(w, "must be a non-empty object of model titles")
         for title, e in titles.items():
             we = w + (title,)
-            r.obj(e, we, ENTRY_FIELDS)
+            r.obj(e, we, ENTRY_FIELDS, OPTIONAL_FIELDS)
+            point = e.get("point")
+            if point is not None and (not isinstance(point, str) or not point):
+                raise r.fail(we + ("point",), f"must be a point identity (a string), got "
+                             f"{_kind(point)} {point!r:.40}")
             fig = r.obj(e["figures"], we + ("figures",), FIGURES)
             wf = we + ("figures",)
             if not isinstance(e["modes"], list):
@@ -323,7 +332,7 @@ def parse(text: str, path: str) -> tuple[list["Entry"], Mapping[tuple[str, str],
                                      EQUILIBRIUM_TYPES, "an equilibrium type ("
                                      + ", ".join(EQUILIBRIUM_TYPES) + ")"),
                 **{k: r.num(fig[k], wf + (k,), integer=True) for k in FIGURES[4:]},
-                written_by=e["written_by"]))
+                written_by=e["written_by"], point=point))
     return entries, _EntryLines(r, [e.key for e in entries])
 
 

@@ -40,7 +40,7 @@ __all__ = ["Tolerance", "Tolerances", "parse_tolerances", "compare", "compare_al
 DEFAULT_SEVERITY: dict[str, str] = {
     "EG201": "error", "EG202": "error", "EG203": "error", "EG204": "error",
     "EG205": "warning", "EG206": "warning", "EG207": "warning", "EG208": "warning",
-    "EG209": "warning"}
+    "EG209": "warning", "EG210": "error"}
 #: Keys of an ``allowed_drift`` block, and of each figure's mapping in it.
 TOLERANCE_KEYS = ("decay_rate", "damping", "frequency", "match_gate")
 FIGURE_KEYS = ("abs", "rel", "worse")
@@ -216,6 +216,7 @@ class _Judge:
         self.sev = {**DEFAULT_SEVERITY, **(severities or {})}
         self.findings: list[Finding] = []
         self.better: list[Improvement] = []
+        self.was = ""  # which entry a relabelled operating point was compared with
         m = self.model
         self.line = (m.line_of("feedback") or m.line_of("plant")) if m.lines else None
 
@@ -228,7 +229,7 @@ class _Judge:
         m, info = self.model, RULES[rule]
         self.findings.append(Finding(
             rule=rule, name=info.name, severity=severity, source=m.source, line=self.line,
-            model=m.name, label=m.label, message=message, requirement="baseline",
+            model=m.name, label=m.label, message=message + self.was, requirement="baseline",
             measured=measured, threshold=threshold, margin=margin, unit=info.unit,
             modes=tuple(after), before=tuple(before),
             suggestion="if the change is intended, accept it into the baseline"))
@@ -236,7 +237,7 @@ class _Judge:
     def improve(self, figure: str, message: str, after: Iterable[ModeRow] = (),
                 before: Iterable[ModeRow] = ()) -> None:
         m = self.model
-        self.better.append(Improvement(figure, m.source, m.name, m.label, message,
+        self.better.append(Improvement(figure, m.source, m.name, m.label, message + self.was,
                                        tuple(after), tuple(before)))
 
     def reported(self, rules: tuple[str, ...], mode: Any) -> bool:
@@ -281,21 +282,30 @@ def _equilibrium(j: _Judge, entry: "Entry", eq: Any, after_modes: list) -> None:
 
 
 def compare(result: Any, entry: "Entry | None", tolerances: Tolerances | None = None, *,
-            severities: Mapping[str, str] | None = None) -> Comparison:
+            severities: Mapping[str, str] | None = None, unreadable: str | None = None
+            ) -> Comparison:
     """Compare an analysed model (:class:`~eigengate.scan.engine.ModelResult`) with its entry.
 
-    ``entry`` None gives one EG208 new-model finding. ``severities`` overrides
-    :data:`DEFAULT_SEVERITY` per rule (``"off"`` drops the rule).
+    ``entry`` None gives one EG208 new-model finding, or, with ``unreadable`` (where and why
+    the model file could not be loaded, "at REV (commit): reason"), one EG210 finding.
+    ``severities`` overrides :data:`DEFAULT_SEVERITY` per rule (``"off"`` drops the rule).
     """
     from ..analysis.matching import match_modes
 
     tol = tolerances or Tolerances()
     j = _Judge(result, severities)
     m = result.model
+    if entry is None and unreadable is not None:
+        j.add("EG210", f"{m.title} was not compared: its model file could not be loaded "
+              f"{unreadable}")
+        return Comparison(m.source, m.title, tuple(j.findings))
     if entry is None:
         j.add("EG208", f"{m.title} has no baseline entry: accept it to start comparing its "
               "modes with later changes")
         return Comparison(m.source, m.title, tuple(j.findings))
+    if entry.title != m.title:  # the same operating point under a new label
+        j.was = f" (compared with baseline entry {entry.title!r}: the same operating point, " \
+            f"{entry.point})"
     after = list(result.spectrum.modes)
     matches = match_modes(entry.modes, after, gate=tol.match_gate)
     eq = result.equilibrium
@@ -375,7 +385,13 @@ def compare_all(file_results: Iterable[Any], baseline: "Baseline",
     seen: set[tuple[str, str]] = set()
     checked: set[str] = set()
     broken: set[str] = set()
-    for fr in file_results:
+    files = list(file_results)
+    # titles the current models claim: an operating point matched by its identity (its label
+    # changed) never takes an entry that a current model has by its own title
+    taken = {(r.model.source, r.model.title) for fr in files if fr.error is None
+             for r in fr.results}
+    new_list = []
+    for fr in files:
         if fr.error is not None:
             broken.add(fr.source)
             continue
@@ -383,10 +399,16 @@ def compare_all(file_results: Iterable[Any], baseline: "Baseline",
         for r in fr.results:
             key = (r.model.source, r.model.title)
             checked.add(key[0])
-            seen.add(key)
+            entry = baseline.match(*key, getattr(r.model, "point_id", None), taken)
+            if entry is not None:
+                seen.add(entry.key)
+                taken.add(entry.key)
+            elif key[0] not in baseline.unreadable:
+                new_list.append(key)
             tol = tolerances_for(r) if callable(tolerances_for) else tolerances_for
-            comparisons.append(compare(r, baseline.entry(*key), tol, severities=severities))
-    new = tuple(sorted(k for k in seen if k not in baseline))
+            comparisons.append(compare(r, entry, tol, severities=severities,
+                                       unreadable=baseline.unreadable.get(key[0])))
+    new = tuple(sorted(new_list))
     stale = tuple(k for k in baseline.keys() if k not in seen and k[0] not in broken
                   and (complete or k[0] in checked))
     findings = [f for c in comparisons for f in c.regressions]

@@ -84,13 +84,15 @@ def baseline_entry_from(result: Any, source: str | None = None,
                  spectral_abscissa=_r(sp.spectral_abscissa),
                  spectral_radius=_r(sp.spectral_radius), min_damping=_r(sp.min_damping),
                  equilibrium=eq.type, stable=eq.stable, unstable=eq.unstable, center=eq.center,
-                 written_by=written_by or f"eigengate {__version__}")
+                 written_by=written_by or f"eigengate {__version__}",
+                 point=getattr(model, "point_id", None))
 
 
 def _same(a: Entry, b: Entry) -> bool:
     """Equal up to round-off: figures within 1e-9 relative, diagnostics within 1e-3."""
-    if (a.key, a.domain, a.equilibrium, a.stable, a.unstable, a.center, len(a.modes)) != \
-            (b.key, b.domain, b.equilibrium, b.stable, b.unstable, b.center, len(b.modes)):
+    if (a.key, a.point, a.domain, a.equilibrium, a.stable, a.unstable, a.center,
+            len(a.modes)) != (b.key, b.point, b.domain, b.equilibrium, b.stable, b.unstable,
+                              b.center, len(b.modes)):
         return False
     scale = max([1.0] + [abs(m.s) for m in a.modes + b.modes if math.isfinite(abs(m.s))])
 
@@ -130,13 +132,20 @@ class MergeSummary:
 
 
 class Baseline:
-    """An immutable set of entries; ``path`` names the file (or revision) it came from."""
+    """An immutable set of entries; ``path`` names the file (or revision) it came from.
+
+    ``unreadable`` maps model files (by today's path) that could not be loaded where the
+    entries came from (a git revision) to the reason: their models are not "new", they could
+    not be compared (EG210)."""
 
     def __init__(self, entries: Iterable[Entry] = (), path: str | None = None,
-                 lines: Mapping[Key, int] | None = None) -> None:
+                 lines: Mapping[Key, int] | None = None,
+                 unreadable: Mapping[str, str] | None = None) -> None:
         self._entries: dict[Key, Entry] = {e.key: e for e in entries}
         self.path = path
         self._lines: Mapping[Key, int] = lines if lines is not None else {}
+        self.unreadable: Mapping[str, str] = dict(unreadable or {})
+        self._points: dict[tuple[str, str], list[Entry]] | None = None
 
     @classmethod
     def load(cls, path: str | os.PathLike[str]) -> "Baseline":
@@ -154,6 +163,25 @@ class Baseline:
 
     def entry(self, source: str, title: str) -> Entry | None:
         return self._entries.get((source, title))
+
+    def match(self, source: str, title: str, point: str | None,
+              taken: "set[Key] | frozenset[Key]" = frozenset()) -> Entry | None:
+        """The entry a model compares with: the one of its title; else, when the model is an
+        operating point (``point``), the entry of the same file with the same point identity
+        whose key is not in ``taken`` (titles that current models claim themselves, and
+        entries already matched): a point whose label changed keeps its baseline."""
+        found = self._entries.get((source, title))
+        if found is not None or point is None:
+            return found
+        if self._points is None:
+            self._points = {}
+            for e in self._entries.values():
+                if e.point is not None:
+                    self._points.setdefault((e.source, e.point), []).append(e)
+        for e in self._points.get((source, point), ()):
+            if e.key not in taken:
+                return e
+        return None
 
     def keys(self) -> list[Key]:
         return sorted(self._entries)

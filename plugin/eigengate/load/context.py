@@ -4,6 +4,7 @@ context (source, lines, domain, collected references), key and mapping checks, a
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Callable, Mapping
@@ -16,7 +17,7 @@ FORMAT_VERSIONS = (1,)
 TOP_KEYS = ("model_format", "name", "description", "domain", "sample_period", "plant",
             "feedback", "requirements", "known_modes", "on_uncertain", "operating_points",
             "waivers", "loop", "vector_field", "allowed_drift")
-POINT_KEYS = ("label", "plant", "feedback", "requirements", "known_modes", "on_uncertain",
+POINT_KEYS = ("label", "id", "plant", "feedback", "requirements", "known_modes", "on_uncertain",
               "loop", "allowed_drift")
 SS_KEYS = ("A", "B", "C", "D", "E", "states", "inputs", "outputs")
 TF_KEYS = ("num", "den", "states", "inputs", "outputs")
@@ -42,6 +43,7 @@ class _Ctx:
     waivers: tuple = ()
     read: Callable[[str], bytes] | None = None  # matrix files through this, not the filesystem
     allow_python: bool = False  # may a vector_field block import project code
+    python_root: Path | None = None  # import it from here instead of root (a revision's tree)
 
     def line(self, path: str) -> int | None:
         parts = path.split(".")
@@ -99,3 +101,36 @@ def _requirements(doc: Mapping[str, Any], ctx: _Ctx, states: list[str]
         known = _reqparse.parse_known_modes(doc["known_modes"], ctx.source,
                                             ctx.prefix + "known_modes", lines, states)
     return requirements, disabled, known
+
+
+_POINT_ID = re.compile(r"^[A-Za-z0-9_][A-Za-z0-9_.:=+-]{0,63}$")
+
+
+_NUMBER = re.compile(r"(?<![A-Za-z_\d.])[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?")
+
+
+def label_shape(label: str) -> str:
+    """A label with every number (not part of a name) replaced by ``#`` and blanks collapsed:
+    ``'v=30, k2=2.5'`` → ``'v=#, k2=#'``; a retune that changes only the numbers keeps the
+    shape."""
+    return " ".join(_NUMBER.sub("#", label).split())
+
+
+def point_identity(point: Mapping[str, Any], index: int, ctx: _Ctx, ids: dict[str, int]
+                   ) -> str | None:
+    """The ``id`` of the operating point at ``index`` (checked: unique, letters, digits and
+    ``_.:=+-``, at most 64 characters), or None when it has none (its identity is then its
+    position and the shape of its label, see :func:`label_shape`)."""
+    if "id" not in point:
+        return None
+    ident = point["id"]
+    if isinstance(ident, bool) or not isinstance(ident, (str, int)) \
+            or not _POINT_ID.match(str(ident)):
+        raise ctx.err("id", f"must be a short name of letters, digits and _.:=+- (not starting "
+                      f"with one of .:=+-), got {ident!r:.60}", "for example id: cruise-high")
+    ident = str(ident)
+    if ident in ids:
+        raise ctx.err("id", f"is {ident!r}, already used by point {ids[ident]}",
+                      "ids must be unique in the file")
+    ids[ident] = index
+    return ident

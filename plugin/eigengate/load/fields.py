@@ -12,13 +12,13 @@ from typing import Any, Callable, Mapping
 
 from ..analysis.nonlinear import FieldPoint, VectorField, _vec, import_function, linearise
 from ..model.core import Model
-from .context import _check_keys, _mapping
+from .context import _check_keys, _mapping, label_shape, point_identity
 
 __all__ = ["load_vector_field", "VECTOR_FIELD_KEYS"]
 
 VECTOR_FIELD_KEYS = ("function", "jacobian", "parameters", "states", "inputs", "at",
                      "equilibria", "sweep")
-AT_KEYS = ("label", "x", "u", "requirements")
+AT_KEYS = ("label", "id", "x", "u", "requirements")
 EQUILIBRIA_KEYS = ("box", "starts", "u", "tolerance")
 
 
@@ -57,7 +57,7 @@ def load_vector_field(data: Mapping[str, Any], ctx: Any, name: str,
         raise ctx.err("vector_field.function", f"imports project code ({block['function']}), "
                       "which is off unless allowed", "set allow_python = true under "
                       "[tool.eigengate] in pyproject.toml, or pass allow_python=True")
-    root = Path(ctx.root or ctx.base_dir or ".")
+    root = Path(ctx.python_root or ctx.root or ctx.base_dir or ".")
     fns = {}
     for key in ("function", "jacobian"):
         if key in block:
@@ -116,7 +116,9 @@ def load_vector_field(data: Mapping[str, Any], ctx: Any, name: str,
                       "counts or classifies the equilibria in a box",
                       "add equilibria: {box: {...}}")
     at: list[tuple[str, tuple, tuple, tuple, tuple]] = []
+    idents: list[str | None] = []
     if points is not None:
+        ids: dict[str, int] = {}  # explicit ids, checked unique
         if not isinstance(points, list) or not points:
             raise ctx.err("vector_field.at", "must be a non-empty list of operating points")
         seen: set[str] = set()
@@ -128,14 +130,17 @@ def load_vector_field(data: Mapping[str, Any], ctx: Any, name: str,
                 raise ctx.err(f"{path}.label", f"must be a unique non-empty string, got {label!r}")
             seen.add(label)
             pctx = dataclasses.replace(ctx, prefix=ctx.prefix + f"{path} (label {label!r}).")
+            idents.append(point_identity(p, i, pctx, ids))
             own = parse_requirements({"requirements": p.get("requirements", {})}, pctx, states)
             refuse_unmet(own[0], ("vector field",) + (("equilibria box",) if box else ()),
                          pctx.err, hints={"loop": _NO_LOOP})
             at.append((label, _numbers(p.get("x"), ctx, f"{path}.x", n),
                        _numbers(p.get("u", [0.0] * m), ctx, f"{path}.u", m), *own[:2]))
     models: list[Model] = []  # product() of no grids is one empty combination: no sweep
-    for combo in itertools.product(*grids.values()):
+    for where in itertools.product(*(range(len(g)) for g in grids.values())):
+        combo = tuple(g[i] for g, i in zip(grids.values(), where))
         tag = ", ".join(f"{k}={v:g}" for k, v in zip(grids, combo))
+        at_sweep = "@" + ",".join(map(str, where)) + "/" if grids else ""
         vf = dataclasses.replace(base, parameters={**params, **dict(zip(grids, combo))})
         shared: dict = {}  # the search, once per parameter set
         rows = list(at)
@@ -164,5 +169,9 @@ def load_vector_field(data: Mapping[str, Any], ctx: Any, name: str,
                               on_uncertain=data.get("on_uncertain"), waivers=ctx.waivers,
                               lines=ctx.prefixed_lines())
             info = FieldPoint(vf, tuple(x), tuple(u), j == 0, carrier, box, shared)
-            models.append(dataclasses.replace(model, lines=dict(ctx.lines), nonlinear=info))
+            # identity: the at point's id, else its position (or the equilibrium's rank by
+            # location) with the shape of its label
+            row = (idents[j] if points is not None else None) or f"#{j}:{label_shape(full)}"
+            models.append(dataclasses.replace(model, lines=dict(ctx.lines), nonlinear=info,
+                                              point_id=at_sweep + row))
     return models

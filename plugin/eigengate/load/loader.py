@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import dataclasses
 import os
+import re
 from pathlib import Path
 from typing import Any, Callable, Mapping
 
@@ -19,6 +20,7 @@ from ..model.core import Model, sample_period_problem
 __all__ = ["FORMAT_VERSIONS", "TOP_KEYS", "load_models", "load_models_with_refs",
            "load_models_from_bytes", "load_document", "find_root"]
 
+from .context import label_shape, point_identity
 from .context import (  # noqa: F401 (re-exported: the loader's schema and helpers)
     FORMAT_VERSIONS, TOP_KEYS, POINT_KEYS, SS_KEYS, TF_KEYS, FEEDBACK_KEYS,
     FEEDBACK_KINDS, CONTROLLER_SS_KEYS, CONTROLLER_TF_KEYS, DOMAINS, _Ctx,
@@ -77,7 +79,8 @@ def load_models_with_refs(path: str | os.PathLike[str],
 
 
 def load_models_from_bytes(raw: bytes, source: str, read: Callable[[str], bytes], *,
-                           stem: str | None = None) -> tuple[list[Model], list[str]]:
+                           stem: str | None = None, python_root: Path | None = None
+                           ) -> tuple[list[Model], list[str]]:
     """Load a model file given as bytes, reading its matrix files through ``read``.
 
     For model files that are not in the working tree (a git revision, say). ``source`` is the
@@ -85,8 +88,10 @@ def load_models_from_bytes(raw: bytes, source: str, read: Callable[[str], bytes]
     references are resolved (lexically, confined to the repository) and ``read(rel)`` returns
     the bytes of the repository-relative file ``rel`` (``FileNotFoundError`` when missing).
     ``stem`` replaces the file-name stem as the default model name (a renamed file keeps the
-    name its new path gives it). Returns the models and the referenced paths, as
-    :func:`load_models_with_refs` does.
+    name its new path gives it). ``python_root``, when given, allows a ``vector_field`` block
+    and is the folder its module is imported from (a revision's Python files, materialised by
+    :mod:`eigengate.scan.gitrev`); without it such a block is refused. Returns the models and the
+    referenced paths, as :func:`load_models_with_refs` does.
     """
     import posixpath
     from pathlib import PurePosixPath
@@ -96,9 +101,9 @@ def load_models_from_bytes(raw: bytes, source: str, read: Callable[[str], bytes]
     data, lines = parse_bytes(raw, posixpath.splitext(source)[1], source)
     refs: list[str] = []
     base_dir = PurePosixPath(posixpath.dirname(source) or ".")
-    models = _load(data, source=source, root=None, base_dir=base_dir,  # type: ignore[arg-type]
-                   lines=lines, refs=refs,  # base_dir: a PurePosixPath, only joined (files come from read)
-                   stem=stem or PurePosixPath(source).stem, read=read)  # type: ignore[arg-type]
+    models = _load(data, source=source, root=None, base_dir=base_dir, lines=lines, refs=refs,
+                   stem=stem or PurePosixPath(source).stem, read=read,  # type: ignore[arg-type]
+                   allow_python=python_root is not None, python_root=python_root)
     return models, sorted(set(refs))
 
 
@@ -130,8 +135,9 @@ def load_document(data: Mapping[str, Any], *, source: str = "<document>",
 def _load(data: dict[str, Any], *, source: str, root: Path | None, base_dir: Path | None,
           lines: dict[str, int], refs: list[str], stem: str,
           read: Callable[[str], bytes] | None = None,
-          allow_python: bool = False) -> list[Model]:
-    ctx = _Ctx(source, root, base_dir, lines, refs, read=read, allow_python=allow_python)
+          allow_python: bool = False, python_root: Path | None = None) -> list[Model]:
+    ctx = _Ctx(source, root, base_dir, lines, refs, read=read, allow_python=allow_python,
+               python_root=python_root)
     if "model_format" not in data:
         raise ctx.err("model_format", "is missing",
                       f"start the file with 'model_format: {FORMAT_VERSIONS[-1]}'")
@@ -175,6 +181,7 @@ def _load(data: dict[str, Any], *, source: str, root: Path | None, base_dir: Pat
                       f"{_kind(points) if points != [] else 'an empty list'}")
     models: list[Model] = []
     seen: dict[str, int] = {}
+    ids: dict[str, int] = {}
     for i, point in enumerate(points):
         where = f"operating_points.{i}"
         pctx = dataclasses.replace(ctx, prefix=f"operating_points[{i}].")
@@ -195,8 +202,10 @@ def _load(data: dict[str, Any], *, source: str, root: Path | None, base_dir: Pat
         seen[label] = i
         pctx.prefix = f"operating_points[{i}] (label {label!r})."
         _check_keys(point, POINT_KEYS, pctx, "", "an operating point")
-        merged = _merge(base, {k: v for k, v in point.items() if k != "label"})
-        models.append(build_model(merged, pctx, name, label))
+        ident = point_identity(point, i, pctx, ids) or f"#{i}:{label_shape(label)}"
+        merged = _merge(base, {k: v for k, v in point.items() if k not in ("label", "id")})
+        models.append(dataclasses.replace(build_model(merged, pctx, name, label),
+                                          point_id=ident))
     for i, w in enumerate(ctx.waivers):
         if w.label is not None and w.label not in seen:
             close = suggest(w.label, list(seen))

@@ -72,6 +72,10 @@ class Model:
     loop_parts: Any = None
     #: The vector field behind a linearised model (:class:`eigengate.analysis.nonlinear.FieldPoint`).
     nonlinear: Any = None
+    #: Stable identity of an operating point within its file, kept when its label changes:
+    #: the point's ``id``, else its position (``#2``), with the sweep position in front for a
+    #: swept vector field (``@1,0/#0``); None for a file of one model. See docs/baselines.md.
+    point_id: str | None = None
 
     @property
     def discrete(self) -> bool:

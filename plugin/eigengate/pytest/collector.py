@@ -272,10 +272,12 @@ class BaselineRun:
             return result, {"status": "unbaselined"}
         from ..scan.baseline_check import compare_result
 
-        entry = baseline.entry(result.model.source, result.model.title)
+        entry = baseline.match(result.model.source, result.model.title,
+                               getattr(result.model, "point_id", None))
         result, comparison = compare_result(result, self.policy, baseline)
         return result, {
             "status": "new" if entry is None else "compared",
+            "matched": None if entry is None else list(entry.key),
             "regressed": sorted({f.rule for f in comparison.regressions
                                  if f.severity == "error"}),
             "improvements": [f"{i.title} ({i.source}): {i.message}"
@@ -333,6 +335,8 @@ class BaselineTally:
         for r in self.records:
             if r.get("file_models"):
                 models.setdefault(r["key"][0], set()).update(r["file_models"])
+            if r.get("matched"):  # an operating point compared under its old title
+                models.setdefault(r["matched"][0], set()).add(r["matched"][1])
         return stale_entries(baseline, models, root)
 
     def lines(self, baseline: "Baseline | None", policy: "Config", *, paths: Sequence[str],

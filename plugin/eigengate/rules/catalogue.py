@@ -130,6 +130,9 @@ RULES: dict[str, Rule] = {r.id: r for r in (
     Rule("EG209", "stale-baseline-entry", "", "",
          "A baseline entry names a model that no longer exists (file deleted or renamed, "
          "operating point removed); accepting again removes it."),
+    Rule("EG210", "baseline-unreadable", "", "",
+         "The model file could not be loaded where the baseline comes from (the git revision "
+         "of --against), so its models were not compared; the finding says why."),
 )}
 
 

@@ -13,7 +13,7 @@ from __future__ import annotations
 import datetime as _dt
 import os
 from dataclasses import dataclass, replace
-from typing import TYPE_CHECKING, Any, Iterable, Mapping, Sequence
+from typing import TYPE_CHECKING, Any, Callable, Iterable, Mapping, Sequence
 
 from .patterns import glob_match
 from ..errors import ModelError
@@ -22,7 +22,7 @@ if TYPE_CHECKING:  # pragma: no cover
     from .findings import Finding
 
 __all__ = ["Waiver", "parse_waivers", "today", "split_waived", "waiver_findings",
-           "WAIVER_KEYS", "CONFIG_WAIVER_KEYS"]
+           "scope_checked", "WAIVER_KEYS", "CONFIG_WAIVER_KEYS"]
 
 WAIVER_KEYS = ("rule", "reason", "expires", "label")
 CONFIG_WAIVER_KEYS = ("rule", "reason", "expires", "label", "paths", "model")
@@ -159,9 +159,32 @@ def split_waived(findings: Iterable["Finding"], waivers: Sequence[Waiver], on: _
     return kept, waived
 
 
+def scope_checked(waiver: Waiver, checked: Iterable[str], complete: bool,
+                  repository: Callable[[], Iterable[str]]) -> bool:
+    """Whether a run judged everything a policy waiver can cover, so that "it matched no
+    finding" means something.
+
+    The scope of a waiver is the model files of the repository that its ``paths`` globs
+    match. It was fully checked when the run covered the whole repository (``complete``), or
+    when at least one file of the scope was checked and every model file the repository holds
+    in the scope (``repository()``, listed only when needed) was checked and loaded
+    (``checked``: the sources of the files that loaded). A model file's own waivers are always
+    fully checked with their file.
+    """
+    if complete or not waiver.paths:
+        return True
+    done = set(checked)
+    if not any(glob_match(rel, p) for rel in done for p in waiver.paths):
+        return False
+    return all(rel in done for rel in repository()
+               if any(glob_match(rel, p) for p in waiver.paths))
+
+
 def waiver_findings(waivers: Sequence[Waiver], used: Iterable[Waiver], on: _dt.date,
-                    model: str = "") -> list["Finding"]:
-    """EG002 for every expired waiver, EG003 for every live waiver that covered nothing."""
+                    model: str = "", judged: Callable[[Waiver], bool] | None = None
+                    ) -> list["Finding"]:
+    """EG002 for every expired waiver, EG003 for every live waiver that covered nothing;
+    with ``judged``, EG003 only for waivers it accepts (see :func:`scope_checked`)."""
     from .findings import Finding
     from .catalogue import RULES
 
@@ -173,7 +196,7 @@ def waiver_findings(waivers: Sequence[Waiver], used: Iterable[Waiver], on: _dt.d
             message = (f"waiver of {w.rule} expired on {w.expires.isoformat()} "
                        f"(reason given: {w.reason}); the finding it covered is reported again")
             sev = "error"
-        elif id(w) not in used_ids:
+        elif id(w) not in used_ids and (judged is None or judged(w)):
             rule = RULES["EG003"]
             message = (f"waiver of {w.rule} matched no finding (reason given: {w.reason}); "
                        "remove it if the problem is gone")

@@ -54,9 +54,11 @@ def compare_result(result: "ModelResult", config: "Config", baseline: "Baseline"
     dropped."""
     from ..baseline.regressions import compare
 
-    entry = baseline.entry(result.model.source, result.model.title)
+    entry = baseline.match(result.model.source, result.model.title,
+                           getattr(result.model, "point_id", None))
     comparison = compare(result, entry, config.tolerances_for(result),
-                         severities=dict(config.severity))
+                         severities=dict(config.severity),
+                         unreadable=baseline.unreadable.get(result.model.source))
     kept = tuple(f for f in comparison.regressions if config.rule_enabled(f.rule))
     comparison = replace(comparison, regressions=kept)
     return (replace(result, findings=result.findings + kept) if kept else result), comparison

@@ -261,6 +261,14 @@ class ResultCache:
         """Record the status of model file ``rel`` (taken before it was read) with its key."""
         self._note("files", rel, st, key)
 
+    def references(self, rel: str, content: bytes) -> tuple[str, ...] | None:
+        """The files (matrix files, vector-field modules) that model file ``rel`` with these
+        bytes referenced when it was last analysed, or None when the pack has no entry for it
+        (for a hook mapping changed files to the models that depend on them)."""
+        entry = self._entries().get(self.key(rel, content))
+        refs = entry.get("refs") if isinstance(entry, dict) else None
+        return tuple(refs) if isinstance(refs, dict) else None
+
     def _entries(self) -> dict[str, Any]:
         if self._old is None:
             try:

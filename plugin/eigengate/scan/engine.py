@@ -126,9 +126,23 @@ def check_paths(paths: Iterable[str | Path], root: str | Path | None = None,
 
 
 def policy_findings(config: "Config", results: Sequence[FileResult],
-                    on: "datetime.date | None" = None) -> list[Finding]:
-    """Expired and unused waivers of the repository policy, judged over a whole run."""
-    from ..rules.waivers import today, waiver_findings
+                    on: "datetime.date | None" = None, *, complete: bool = True
+                    ) -> list[Finding]:
+    """Expired and unused waivers of the repository policy, judged over a run; a run of part
+    of the repository (not ``complete``) judges as unused only the waivers whose scope it
+    fully checked (:func:`eigengate.rules.waivers.scope_checked`)."""
+    from ..rules.waivers import scope_checked, today, waiver_findings
 
     used = [w for fr in results for w in fr.used_waivers]
-    return waiver_findings(config.waivers, used, on or today())
+    checked = [fr.source for fr in results if fr.error is None]
+    listed: list[str] = []
+
+    def repository() -> list[str]:
+        if not listed:
+            from .discovery import find_model_files
+
+            listed.extend(f.rel for f in find_model_files([config.root], config))
+        return listed
+
+    return waiver_findings(config.waivers, used, on or today(),
+                           judged=lambda w: scope_checked(w, checked, complete, repository))

@@ -14,6 +14,15 @@ working tree is never consulted, and references stay confined to the repository)
 them and returns a :class:`~eigengate.baseline.store.Baseline` of entries in the same shape as the
 stored baseline, so :func:`eigengate.baseline.regressions.compare_all` works the same on either.
 
+Model files are loaded under the current policy. With ``allow_python`` on, a vector-field
+model is linearised with its module *as it was at the revision*: the revision's ``.py`` files
+below the configuration root are written from git objects (regular files only, never links,
+at most :data:`PYTHON_TREE_LIMIT` bytes) into a private temporary folder, imported from
+there, and taken out of ``sys.modules`` again afterwards, with the working tree's modules of
+the same names put back (see ``docs/baselines.md``). A model file that cannot be loaded at
+the revision is recorded in ``Baseline.unreadable`` (and ``errors``), so the comparison
+reports it (EG210) instead of calling its models new.
+
 Renames between the revision and the working tree (or ``against``, a second revision) come
 from ``git diff --find-renames --name-status``: a renamed model file's entries are keyed by
 its new path, and a model whose name came from its file name takes the new file's name, so
@@ -40,6 +49,8 @@ __all__ = ["GitError", "Renames", "RevisionSnapshot", "revision_baseline", "rena
            "resolve_revision"]
 
 _SYMLINK, _BLOB_MODES = "120000", ("100644", "100755")
+#: Most bytes of Python source materialised from a revision for its vector-field models.
+PYTHON_TREE_LIMIT = 32 << 20
 
 
 class GitError(EigengateError, ValueError):
@@ -170,6 +181,60 @@ class _Blobs:
             self.proc = None
 
 
+class _PythonTree:
+    """The revision's ``.py`` files below the configuration root, written on first use into a
+    private temporary folder that vector-field modules are imported from. While it is open,
+    the modules of the same top-level names are out of ``sys.modules`` (the working tree's
+    are put back on closing, the revision's dropped), so neither side sees the other's."""
+
+    def __init__(self, files: dict[str, tuple[str, str, int]], blobs: _Blobs, where: str
+                 ) -> None:
+        self.files, self.blobs, self.where = files, blobs, where
+        self.folder: Path | None = None
+        self.names: set[str] = set()
+        self.stash: dict[str, object] = {}
+
+    def root(self) -> Path:
+        """The folder to import from, materialised on the first call; ModelError-free: a
+        problem raises :class:`OSError` with its reason."""
+        if self.folder is not None:
+            return self.folder
+        import sys
+        import tempfile
+
+        wanted = {rel: meta for rel, meta in self.files.items() if rel.endswith(".py")
+                  and meta[0] in _BLOB_MODES and not any(
+                      p in ("", ".", "..") or p.startswith(".") for p in rel.split("/"))}
+        size = sum(meta[2] for meta in wanted.values())
+        if size > PYTHON_TREE_LIMIT:
+            raise OSError(f"the Python files of {self.where} total {size} bytes, over the "
+                          f"{PYTHON_TREE_LIMIT} bytes eigengate materialises")
+        folder = Path(tempfile.mkdtemp(prefix="eigengate-rev-"))
+        self.folder = folder
+        for rel, (_, oid, _) in sorted(wanted.items()):
+            target = folder.joinpath(*rel.split("/"))
+            target.parent.mkdir(parents=True, exist_ok=True)
+            target.write_bytes(self.blobs.read(oid))
+        self.names = {rel.split("/")[0].removesuffix(".py") for rel in wanted}
+        for name in [n for n in sys.modules if n.split(".")[0] in self.names]:
+            self.stash[name] = sys.modules.pop(name)
+        return folder
+
+    def close(self) -> None:
+        if self.folder is None:
+            return
+        import importlib
+        import shutil
+        import sys
+
+        for name in [n for n in sys.modules if n.split(".")[0] in self.names]:
+            del sys.modules[name]
+        sys.modules.update(self.stash)  # type: ignore[arg-type]
+        shutil.rmtree(self.folder, ignore_errors=True)
+        importlib.invalidate_caches()
+        self.folder = None
+
+
 def renames_since(rev: str, root: str | os.PathLike[str], *, against: str | None = None
                   ) -> Renames:
     """Model-file renames and deletions from ``rev`` to the working tree (or ``against``),
@@ -206,7 +271,9 @@ def _local(path: str, prefix: str) -> str | None:
     return path[len(prefix) + 1:] if path.startswith(prefix + "/") else None
 
 
-def _is_model(rel: str, oid: str, config: "Config | None", blobs: _Blobs) -> bool:
+def _is_model(rel: str, oid: str | None, config: "Config | None", blobs: _Blobs) -> bool:
+    """Whether the revision's file ``rel`` is a model file as a scan would pick it (a link,
+    ``oid`` None, counts when the configuration selects its path)."""
     from .engine import MODEL_SUFFIXES
 
     parts = PurePosixPath(rel).parts
@@ -218,7 +285,7 @@ def _is_model(rel: str, oid: str, config: "Config | None", blobs: _Blobs) -> boo
             return False
         if config.include:
             return True
-    return b"model_format" in blobs.read(oid)[:65536]
+    return oid is not None and b"model_format" in blobs.read(oid)[:65536]
 
 
 def revision_baseline(rev: str, root: str | os.PathLike[str], *,
@@ -259,6 +326,8 @@ def revision_baseline(rev: str, root: str | os.PathLike[str], *,
             files[rel] = meta
     blobs = _Blobs(top)
     short = commit[:12]
+    python = _PythonTree(files, blobs, f"{rev} ({short})") \
+        if config is not None and config.allow_python else None
 
     def read(rel: str) -> bytes:
         meta = files.get(rel)
@@ -269,22 +338,40 @@ def revision_baseline(rev: str, root: str | os.PathLike[str], *,
                           "in history")
         return blobs.read(meta[1])
 
-    entries, errors = [], []
+    entries, errors, unreadable = [], [], {}
     try:
         for rel in sorted(files):
             mode, oid, _ = files[rel]
+            new = moves.renamed.get(rel, rel)
+            if mode == _SYMLINK and _is_model(rel, None, config, blobs):
+                exc = ModelError(rel, "", f"is a symbolic link in {rev} ({short}); links are "
+                                 "not followed in history, so its models were not compared")
+                errors.append(exc)
+                unreadable[new] = f"at {rev} ({short}): {exc.render()}"
+                continue
             if mode not in _BLOB_MODES or not _is_model(rel, oid, config, blobs):
                 continue
-            new = moves.renamed.get(rel, rel)
             try:
-                models, _ = load_models_from_bytes(blobs.read(oid), rel, read,
-                                                   stem=PurePosixPath(new).stem)
-                entries += [baseline_entry_from(analyse_model(m), source=new,
+                raw = blobs.read(oid)
+                where = None
+                if python is not None and b"vector_field" in raw:
+                    try:
+                        where = python.root()
+                    except OSError as exc:
+                        raise ModelError(rel, "vector_field.function", f"cannot be imported "
+                                         f"as it was in {rev} ({short}): {exc}") from None
+                models, _ = load_models_from_bytes(raw, rel, read, stem=PurePosixPath(new).stem,
+                                                   python_root=where)
+                entries += [baseline_entry_from(analyse_model(m, config), source=new,
                                                 written_by=f"git {short}") for m in models]
             except ModelError as exc:
                 errors.append(exc)
+                unreadable[new] = f"at {rev} ({short}): {exc.render()}"
     finally:
+        if python is not None:
+            python.close()
         blobs.close()
     return RevisionSnapshot(revision=rev, commit=commit,
-                            baseline=Baseline(entries, path=f"{rev} ({short})"),
+                            baseline=Baseline(entries, path=f"{rev} ({short})",
+                                              unreadable=unreadable),
                             renamed=moves.renamed, deleted=moves.deleted, errors=tuple(errors))

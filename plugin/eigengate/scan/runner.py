@@ -83,13 +83,18 @@ def _work(path: str) -> tuple[dict, list, list[str], bool]:
 
 def scan(paths: Sequence[str | Path], config: Config, *, jobs: int | None = None,
          use_cache: bool = True, progress: Callable[[int, int], None] | None = None,
-         on=None, filter_named: bool = False) -> Scan:
-    """Check every model file below ``paths`` under ``config``."""
+         on=None, filter_named: bool = False, complete: bool | None = None) -> Scan:
+    """Check every model file below ``paths`` under ``config``. ``complete`` says the run
+    covers the whole repository (policy waivers are judged unused only within what was
+    checked); None: when one of ``paths`` is the configuration root."""
     from ..rules.waivers import today
 
+    if complete is None:
+        root = os.path.realpath(config.root)
+        complete = any(os.path.realpath(p) == root for p in paths)
     with _gc_paused():
         return _scan(paths, config, jobs=jobs, use_cache=use_cache, progress=progress,
-                     on=on or today(), filter_named=filter_named)
+                     on=on or today(), filter_named=filter_named, complete=complete)
 
 
 @contextlib.contextmanager
@@ -110,7 +115,8 @@ def _gc_paused():
             gc.unfreeze()
 
 
-def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named) -> Scan:
+def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
+          complete) -> Scan:
     from .serial import Blobs, results_from_data, results_to_data
     from .cache import ResultCache
 
@@ -181,7 +187,8 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named)
     if cache is not None:
         cache.save()
     out = tuple(file_result(s, r, e, config, on) for s, r, e in slots)  # type: ignore[misc]
-    return Scan(files=out, policy=tuple(policy_findings(config, out, on)), cache_hits=hits,
+    return Scan(files=out, policy=tuple(policy_findings(config, out, on, complete=complete)),
+                cache_hits=hits,
                 analysed=len(todo))
 
 

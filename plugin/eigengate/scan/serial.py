@@ -31,7 +31,7 @@ from ..rules.waivers import Waiver
 
 __all__ = ["results_to_data", "results_from_data", "CachedSpectrum", "Blobs", "FORMAT"]
 
-FORMAT = 3
+FORMAT = 4
 
 
 class Blobs:
@@ -236,7 +236,7 @@ def _model_data(m, blobs: Blobs) -> dict:
         "known_modes": [record(k) for k in m.known_modes],
         "waivers": [record(w) for w in m.waivers],
         "allowed_drift": m.allowed_drift,
-        "nonlinear": _field_data(m.nonlinear),
+        "nonlinear": _field_data(m.nonlinear), "point_id": m.point_id,
     })
     return out
 
@@ -331,7 +331,7 @@ def _model_from(d: dict, blobs, shapes: list) -> CachedModel:
         on_uncertain=d["on_uncertain"], disabled=tuple(d["disabled"]),
         waivers=tuple(unrecord(Waiver, w) for w in d["waivers"]),
         allowed_drift=d["allowed_drift"], loop_parts=None,
-        nonlinear=_field_from(d["nonlinear"]))
+        nonlinear=_field_from(d["nonlinear"]), point_id=d.get("point_id"))
     return m
 
 
