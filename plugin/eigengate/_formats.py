@@ -144,9 +144,66 @@ def _check_nesting(text: str, source: str) -> None:
 
 # --------------------------------------------------------------------------- YAML
 
-# Numbers whose meaning is the same for Python's float()/int() and for YAML 1.1.
-_PLAIN_FLOAT = re.compile(r"^[-+]?(?:[0-9]+\.[0-9]*|\.[0-9]+|[0-9]+)(?:[eE][-+]?[0-9]+)?$")
-_PLAIN_INT = re.compile(r"^[-+]?(?:0|[1-9][0-9]*)$")
+# YAML 1.2.2 spec, 10.3.2 Tag Resolution: the core schema's plain scalars. PyYAML resolves by
+# YAML 1.1, where 4.0e9 is a string while 1_000, 0b1, 1:20 and yes/no/on/off are numbers and
+# booleans; engineers write the former and mean nothing by the latter.
+_CORE = {
+    "bool": r"true|True|TRUE|false|False|FALSE",
+    "int": r"[-+]?[0-9]+|0o[0-7]+|0x[0-9a-fA-F]+",
+    "float": r"[-+]?(?:\.[0-9]+|[0-9]+(?:\.[0-9]*)?)(?:[eE][-+]?[0-9]+)?"
+             r"|[-+]?\.(?:inf|Inf|INF)|\.(?:nan|NaN|NAN)",
+}
+_CORE_RE = {_YAML + k: re.compile(f"(?:{v})\\Z") for k, v in _CORE.items()}
+_CORE_FIRST = {"bool": "tTfF", "int": "-+0123456789", "float": "-+.0123456789"}
+#: Integers longer than this (in digits) are checked against the largest float (about 1.8e308):
+#: the ints of a model file become floats. Python refuses strings of more than 4300 digits.
+MAX_INT_DIGITS = 308
+
+
+def _int_too_long(digits: int) -> str:
+    return (f"is an integer with {digits} digits, too large for a floating-point number "
+            "(the largest is about 1.8e308)")
+
+
+def _scalar_problem(tag: str, value: str) -> str | None:
+    """Why a scalar tagged int, float or bool is not one under the YAML 1.2 core schema (an
+    explicit ``!!int 1_000``, say), or why an integer is too large; None when it is fine."""
+    if not _CORE_RE[tag].match(value):
+        kind = tag.replace(_YAML, "")
+        return (f"is {value!r} with the tag !!{kind}, which is not a {kind} under YAML 1.2 "
+                "(core schema)")
+    if tag == _YAML + "int" and len(value) > MAX_INT_DIGITS:
+        return _int_problem(_int_value(value), len(value.lstrip("+-")))
+    return None
+
+
+def _int_problem(value: int | None, digits: int) -> str | None:
+    """Why an integer cannot become a float (None: it can); ``value`` None when too long to
+    convert at all."""
+    if value is None or abs(value) > _FLOAT_MAX:
+        return (f"is an integer with {digits} digits, too large for a floating-point number "
+                "(the largest is about 1.8e308)")
+    return None
+
+
+_FLOAT_MAX = 1.7976931348623157e308
+
+
+def _int_value(value: str) -> int | None:
+    """A core-schema int's value; None when it has more digits than any float could hold."""
+    body = value.lstrip("+-")
+    if len(body) > 2 * MAX_INT_DIGITS:
+        return None
+    if body.startswith(("0o", "0x")):
+        return int(body[2:], 8 if body[1] == "o" else 16)
+    return int(value)
+
+
+def _core_int(loader: Any, node: Any) -> int:
+    value = _int_value(loader.construct_scalar(node))
+    assert value is not None  # _YamlWalk refused longer ones
+    return value
+
 
 @functools.lru_cache(maxsize=None)
 def _yaml_loader_class() -> type:
@@ -159,28 +216,34 @@ def _yaml_loader_class() -> type:
     float_tag, int_tag = _YAML + "float", _YAML + "int"
 
     class _Loader(base):  # type: ignore[misc, valid-type]
-        """Safe loader that keeps dates as text and reads ``1e3`` as a number."""
+        """Safe loader with the YAML 1.2 core schema that keeps dates as text."""
 
         def construct_sequence(self, node, deep=False):
             # Matrix rows are long runs of plain numbers: convert those directly instead of
-            # through construct_object (about ten times faster); anything unusual (YAML 1.1
-            # octal or sexagesimal forms, underscores, .inf, anchors) takes the normal path.
+            # through construct_object (about ten times faster). _YamlWalk has checked every
+            # int and float against the core schema, so float() and int() read them as YAML
+            # 1.2 does; 0o/0x ints, .inf, .nan and anchors take the normal path.
             out = []
             for child in node.value:
                 if type(child) is scalar_node:
                     v = child.value
-                    if child.tag == float_tag and _PLAIN_FLOAT.match(v):
+                    if child.tag == float_tag and (v[-1:].isdigit() or v[-1:] == "."):
                         out.append(float(v))
                         continue
-                    if child.tag == int_tag and _PLAIN_INT.match(v):
+                    if child.tag == int_tag and v[1:2] not in ("o", "x"):
                         out.append(int(v))
                         continue
                 out.append(self.construct_object(child, deep=deep))
             return out
 
-    # YAML 1.1 wants a dot in floats; engineers write 1e-3, so accept exponent-only floats.
-    _Loader.add_implicit_resolver(
-        _YAML + "float", re.compile(r"^[-+]?[0-9][0-9_]*[eE][-+]?[0-9]+$"), list("-+0123456789"))
+    replaced = {_YAML + k for k in _CORE}
+    _Loader.yaml_implicit_resolvers = {
+        first: [(tag, rx) for tag, rx in resolvers if tag not in replaced]
+        for first, resolvers in base.yaml_implicit_resolvers.items()}
+    for kind in ("bool", "int", "float"):  # int before float: 12 is an int
+        _Loader.add_implicit_resolver(_YAML + kind, _CORE_RE[_YAML + kind],
+                                      list(_CORE_FIRST[kind]))
+    _Loader.add_constructor(_YAML + "int", _core_int)
     # A date in a description stays the text the author wrote.
     _Loader.add_constructor(_YAML + "timestamp", base.construct_yaml_str)
     return _Loader
@@ -234,6 +297,10 @@ class _YamlWalk:
             tag = node.tag.replace(_YAML, "!!")
             raise self.fail(node, path, f"uses the YAML tag {tag}, which eigengate refuses",
                             "model files hold plain numbers, strings, lists and mappings only")
+        if node.tag in _CORE_RE:
+            problem = _scalar_problem(node.tag, node.value)
+            if problem is not None:
+                raise self.fail(node, path, problem)
         key = id(node)
         if key in self.sizes:  # an alias of a node already walked: count it, record no lines
             self.total += self.sizes[key]
@@ -266,6 +333,11 @@ class _YamlWalk:
             scalar = yaml.ScalarNode
             for i, item in enumerate(node.value):
                 if type(item) is scalar and item.tag in _PLAIN_TAGS:
+                    core = _CORE_RE.get(item.tag)
+                    if core is not None and (not core.match(item.value)
+                                             or len(item.value) > MAX_INT_DIGITS):
+                        count += self.size(item, f"{path}.{i}" if path else str(i), depth + 1)
+                        continue
                     count += 1  # fast path for matrix rows: nothing to record below a number
                     self.total += 1
                     continue
@@ -290,14 +362,25 @@ def _parse_json(text: str, source: str) -> tuple[Any, dict[str, int]]:
     def no_constant(name: str) -> float:
         raise _BadConstant(name)
 
+    def checked_int(digits: str) -> int:
+        value = _int_value(digits) if len(digits) > MAX_INT_DIGITS else int(digits)
+        problem = _int_problem(value, len(digits.lstrip("-")))
+        if problem is not None:
+            raise _BadNumber(problem, text.count("\n", 0, text.find(digits)) + 1)
+        return value  # type: ignore[return-value]
+
     try:
-        data = json.loads(text, object_pairs_hook=unique_pairs, parse_constant=no_constant)
+        data = json.loads(text, object_pairs_hook=unique_pairs, parse_constant=no_constant,
+                          parse_int=checked_int)
     except json.JSONDecodeError as exc:
         raise ModelError(source, "", f"is not valid JSON: {exc.msg} at line {exc.lineno}, "
                          f"column {exc.colno}", line=exc.lineno) from None
     except _BadConstant as exc:
         raise ModelError(source, "", f"is not valid JSON: {exc.args[0]} is not a JSON number",
                          hint="model files hold finite numbers") from None
+    except _BadNumber as exc:
+        raise ModelError(source, "", f"holds a number that {exc.args[0]}", line=exc.args[1]
+                         ) from None
     except RecursionError:
         raise ModelError(source, "", "nests lists or mappings too deeply") from None
     except DuplicateKey as exc:
@@ -324,6 +407,10 @@ class DuplicateKey(Exception):
 
 
 class _BadConstant(Exception):
+    pass
+
+
+class _BadNumber(Exception):
     pass
 
 
@@ -379,29 +466,63 @@ def _parse_toml(text: str, source: str) -> tuple[Any, dict[str, int]]:
     except ModuleNotFoundError:  # pragma: no cover - exercised on Python 3.10 only
         import tomli as tomllib  # type: ignore[no-redef]
 
+    for number, raw in enumerate(text.splitlines(), start=1):
+        # tomllib's work grows with the square of a dotted key's length: refuse long keys
+        # before parsing (dots in quoted keys count too; _plain_toml applies the exact limit).
+        key = raw.partition("=")[0]
+        if key.count(".") >= MAX_NESTING:
+            raise ModelError(source, "", f"nests tables deeper than {MAX_NESTING} levels through "
+                             "a dotted key", line=number)
     try:
         data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        # tomllib puts "(at line L, column C)" in the message, duplicate keys included.
-        found = re.search(r"line (\d+)", str(exc))
-        raise ModelError(source, "", f"is not valid TOML: {exc}",
-                         line=int(found.group(1)) if found else None) from None
+    except ValueError as exc:  # an int of more than 4300 digits (not a TOMLDecodeError)
+        if isinstance(exc, tomllib.TOMLDecodeError):
+            raise _toml_error(source, exc) from None
+        found = re.search(r"has (\d+) digits", str(exc))
+        raise ModelError(source, "", "holds a number that " + _int_problem(
+            None, int(found.group(1)) if found else 4300)) from None
     except RecursionError:
         raise ModelError(source, "", "nests lists or mappings too deeply") from None
-    return _plain_toml(data), _toml_lines(text)
+    lines = _toml_lines(text)
+    return _plain_toml(data, source, "", 0, lines), lines
 
 
-def _plain_toml(value: Any) -> Any:
+def _toml_error(source: str, exc: Exception) -> ModelError:
+    # tomllib puts "(at line L, column C)" in the message, duplicate keys included.
+    found = re.search(r"line (\d+)", str(exc))
+    return ModelError(source, "", f"is not valid TOML: {exc}",
+                      line=int(found.group(1)) if found else None)
+
+
+def _plain_toml(value: Any, source: str, path: str, depth: int, lines: dict[str, int]) -> Any:
     # TOML dates and times are not plain data here; keep them as the text they were written as.
+    # Dotted keys and table headers nest without brackets, so the nesting limit is applied
+    # here, and integers that no float can hold are refused as in YAML and JSON.
     import datetime
 
-    if isinstance(value, dict):
-        return {k: _plain_toml(v) for k, v in value.items()}
-    if isinstance(value, list):
-        return [_plain_toml(v) for v in value]
+    if isinstance(value, (dict, list)):
+        if depth >= MAX_NESTING:
+            raise ModelError(source, path, f"nests deeper than {MAX_NESTING} levels",
+                             line=_nearest_line(lines, path))
+        items = value.items() if isinstance(value, dict) else enumerate(value)
+        out = [v if type(v) in (float, str, bool) or type(v) is int and abs(v) <= _FLOAT_MAX
+               else _plain_toml(v, source, f"{path}.{k}" if path else str(k), depth + 1, lines)
+               for k, v in items]  # plain numbers (matrix rows) pass without a path
+        return dict(zip(value, out)) if isinstance(value, dict) else out
     if isinstance(value, (datetime.date, datetime.time)):
         return value.isoformat()
+    if type(value) is int and abs(value) > _FLOAT_MAX:
+        raise ModelError(source, path, _int_problem(None, len(str(abs(value)))),  # type: ignore
+                         line=_nearest_line(lines, path))
     return value
+
+
+def _nearest_line(lines: dict[str, int], path: str) -> int | None:
+    while path:
+        if path in lines:
+            return lines[path]
+        path = path.rpartition(".")[0]
+    return None
 
 
 _TOML_TABLE = re.compile(r"^\s*(\[\[?)\s*([^\]]+?)\s*\]\]?\s*(#.*)?$")
