@@ -287,7 +287,7 @@ def test_reference_in_memory_document():
 def test_bad_csv_reference(repo):
     (repo / "models" / "a.csv").write_text("1, 2\n3, x\n")
     fails(repo, "model_format: 1\nplant: {A: {file: a.csv}}\n", "plant.A", "line 2, column 2",
-          "'x', not a number")
+          "'x', not a plain finite number")
 
 
 def test_oversized_model_file(repo, monkeypatch):
