@@ -20,7 +20,7 @@ from typing import Any, Iterable
 from .errors import ModelError
 
 __all__ = ["MAX_MODEL_FILE_BYTES", "MAX_NESTING", "MAX_VALUES", "SUFFIXES", "read_document",
-           "parse_bytes", "parse_text", "suggest"]
+           "read_regular", "printable_name", "parse_bytes", "parse_text", "suggest"]
 
 #: Largest model file read, in bytes. Real models that big keep their matrices in .npz files.
 MAX_MODEL_FILE_BYTES = 8 * 1024 * 1024
@@ -36,6 +36,16 @@ _YAML = "tag:yaml.org,2002:"
 # is refused: a model file describes numbers and names, nothing that runs or needs a class.
 _PLAIN_TAGS = {_YAML + t for t in ("str", "int", "float", "bool", "null", "seq", "map",
                                    "timestamp", "merge")}
+
+
+def printable_name(name: str) -> str:
+    """A file name as it can be shown and stored: bytes that are not UTF-8 (kept by the file
+    system's surrogateescape decoding) become ``\\xff`` escapes."""
+    try:
+        name.encode("utf-8")
+        return name
+    except UnicodeEncodeError:
+        return name.encode("utf-8", "surrogateescape").decode("utf-8", "backslashreplace")
 
 
 def suggest(word: str, choices: Iterable[str]) -> str | None:
@@ -70,25 +80,59 @@ def read_document(path: Path, source: str) -> tuple[dict[str, Any], dict[str, in
     if suffix not in SUFFIXES:
         raise ModelError(source, "", f"has an unknown file type {path.suffix or '(none)'!r}",
                          hint="model files end in " + ", ".join(SUFFIXES))
-    try:
-        size = path.stat().st_size
-        if size > MAX_MODEL_FILE_BYTES:
-            raise ModelError(source, "", f"is {size} bytes, larger than the limit of "
-                             f"{MAX_MODEL_FILE_BYTES} bytes",
-                             hint="keep large matrices in .npz files referenced with {file: ...}")
-        raw = path.read_bytes()
-    except OSError as exc:
-        raise ModelError(source, "", f"cannot be read: {exc.strerror or exc}") from None
+    raw = read_regular(path, source, MAX_MODEL_FILE_BYTES,
+                       "keep large matrices in .npz files referenced with {file: ...}")
     # parse_bytes checks the size again: the file may have grown between stat and read.
     return parse_bytes(raw, suffix, source)
+
+
+def read_regular(path: "str | Path", source: str, limit: int, hint: str | None = None) -> bytes:
+    """The bytes of the regular file at ``path``, at most ``limit`` of them.
+
+    A FIFO, socket or device file would block or never end: its status is taken first and the
+    file opened without blocking (O_NONBLOCK, O_NOCTTY), so only a regular file is ever read.
+    """
+    import os
+    import stat
+
+    what = {stat.S_IFIFO: "a FIFO", stat.S_IFSOCK: "a socket", stat.S_IFCHR: "a device",
+            stat.S_IFBLK: "a device", stat.S_IFDIR: "a folder"}
+    flags = os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_NOCTTY", 0) \
+        | getattr(os, "O_BINARY", 0)
+    try:
+        st = os.stat(path)
+        if not stat.S_ISREG(st.st_mode):
+            raise _not_regular(source, what.get(stat.S_IFMT(st.st_mode), "not a file"))
+        if st.st_size > limit:
+            raise _too_big(source, st.st_size, limit, hint)
+        fd = os.open(path, flags)
+        with os.fdopen(fd, "rb") as fh:
+            st = os.fstat(fh.fileno())  # what was opened, in case it changed since
+            if not stat.S_ISREG(st.st_mode):
+                raise _not_regular(source, what.get(stat.S_IFMT(st.st_mode), "not a file"))
+            raw = fh.read(limit + 1)
+    except OSError as exc:
+        raise ModelError(source, "", f"cannot be read: {exc.strerror or exc}") from None
+    if len(raw) > limit:
+        raise _too_big(source, len(raw), limit, hint)
+    return raw
+
+
+def _not_regular(source: str, kind: str) -> ModelError:
+    return ModelError(source, "", f"is {kind}, not a regular file; it was not read",
+                      hint="model files are ordinary files")
+
+
+def _too_big(source: str, size: int, limit: int, hint: str | None) -> ModelError:
+    return ModelError(source, "", f"is {size} bytes, larger than the limit of {limit} bytes",
+                      hint=hint)
 
 
 def parse_bytes(raw: bytes, suffix: str, source: str) -> tuple[dict[str, Any], dict[str, int]]:
     """Parse a model file's bytes (read from a file or from git history, say); the same
     size, text and format checks as :func:`read_document`."""
     if len(raw) > MAX_MODEL_FILE_BYTES:
-        raise ModelError(source, "", f"is {len(raw)} bytes, larger than the limit of "
-                         f"{MAX_MODEL_FILE_BYTES} bytes")
+        raise _too_big(source, len(raw), MAX_MODEL_FILE_BYTES, None)
     nul = raw.find(b"\x00")
     if nul >= 0:
         raise ModelError(source, "", f"looks binary: NUL byte at byte offset {nul}",
@@ -158,6 +202,7 @@ _CORE_FIRST = {"bool": "tTfF", "int": "-+0123456789", "float": "-+.0123456789"}
 #: Integers longer than this (in digits) are checked against the largest float (about 1.8e308):
 #: the ints of a model file become floats. Python refuses strings of more than 4300 digits.
 MAX_INT_DIGITS = 308
+_SHORT_INT = 16  # no int of this many characters (hex included) is near the float limit
 
 
 def _int_too_long(digits: int) -> str:
@@ -172,7 +217,7 @@ def _scalar_problem(tag: str, value: str) -> str | None:
         kind = tag.replace(_YAML, "")
         return (f"is {value!r} with the tag !!{kind}, which is not a {kind} under YAML 1.2 "
                 "(core schema)")
-    if tag == _YAML + "int" and len(value) > MAX_INT_DIGITS:
+    if tag == _YAML + "int" and len(value) > _SHORT_INT:
         return _int_problem(_int_value(value), len(value.lstrip("+-")))
     return None
 
@@ -192,7 +237,7 @@ _FLOAT_MAX = 1.7976931348623157e308
 def _int_value(value: str) -> int | None:
     """A core-schema int's value; None when it has more digits than any float could hold."""
     body = value.lstrip("+-")
-    if len(body) > 2 * MAX_INT_DIGITS:
+    if len(body) > MAX_INT_DIGITS + 2:
         return None
     if body.startswith(("0o", "0x")):
         return int(body[2:], 8 if body[1] == "o" else 16)
@@ -334,8 +379,8 @@ class _YamlWalk:
             for i, item in enumerate(node.value):
                 if type(item) is scalar and item.tag in _PLAIN_TAGS:
                     core = _CORE_RE.get(item.tag)
-                    if core is not None and (not core.match(item.value)
-                                             or len(item.value) > MAX_INT_DIGITS):
+                    if core is not None and (not core.match(item.value) or len(
+                            item.value) > _SHORT_INT and item.tag == _YAML + "int"):
                         count += self.size(item, f"{path}.{i}" if path else str(i), depth + 1)
                         continue
                     count += 1  # fast path for matrix rows: nothing to record below a number
