@@ -4,8 +4,9 @@ Model names, labels, state names, file names and the values quoted in messages c
 files in a pull request. Written raw into a terminal or a CI log they could carry escape
 sequences (recolouring, retitling, hiding lines) or a line break followed by ``::``, which CI
 services read as a workflow command. :func:`printable` is applied to every such string where
-the text, Markdown and JUnit reports interpolate it (in the shared line builders of
-``report_text`` and ``_render``); JSON, SARIF and the annotations escape by their own syntax.
+the text, Markdown, JUnit and annotation reports interpolate it (the JUnit report reuses the
+text report's line builders); JSON, SARIF and HTML keep the strings and escape them by their
+own syntax.
 """
 
 from __future__ import annotations
@@ -30,10 +31,14 @@ def _escape(found: re.Match) -> str:
     return _SHORT.get(char) or (f"\\x{code:02x}" if code < 0x100 else f"\\u{code:04x}")
 
 
-def printable(text: object) -> str:
+def printable(text: object, *, lines: bool = False) -> str:
     """``text`` on one line with every control character written as an escape (``\\n``,
-    ``\\x1b``, ``\\u202e``); ordinary text (accents, Greek letters, CJK) is kept."""
+    ``\\x1b``, ``\\u202e``); ordinary text (accents, Greek letters, CJK) is kept. With
+    ``lines``, line feeds are kept, for a writer whose syntax escapes them itself (the
+    annotations' ``%0A``)."""
     s = str(text)
     if s.isprintable():
         return s
+    if lines:
+        return "\n".join(_UNSAFE.sub(_escape, part) for part in s.split("\n"))
     return _UNSAFE.sub(_escape, s)

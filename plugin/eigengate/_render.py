@@ -15,7 +15,6 @@ import math
 from numbers import Integral
 from typing import Any, Iterable, Iterator
 
-from ._escape import printable
 from .findings import UNCERTAIN_NOTE, Finding, ModeRow
 from .report_text import format_eigenvalue
 
@@ -107,7 +106,7 @@ def mode_cells(row: ModeRow) -> list[str]:
     ev = format_eigenvalue(row.eigenvalue, row.pair)
     if row.multiplicity > 1:
         ev += f" ×{row.multiplicity}" + (" (defective)" if row.defective else "")
-    states = ", ".join(f"{printable(name)} {p:.2f}" for name, p in row.top_states)
+    states = ", ".join(f"{name} {p:.2f}" for name, p in row.top_states)
     return [f"#{row.index}", ev, text_number(row.damping_ratio, 3),
             text_number(row.natural_frequency), text_number(row.time_constant), states]
 
@@ -121,15 +120,15 @@ def mode_summary(row: ModeRow) -> str:
 def finding_summary(f: Finding, *, with_title: bool = True) -> list[str]:
     """The lines of a compact finding: message, offending modes (and their baseline
     counterparts, for a regression), hint."""
-    message = printable(f.message)
-    lines = [f"{printable(f.title)}: {message}" if with_title and f.title else message]
+    head = f"{f.title}: {f.message}" if with_title and f.title else f.message
+    lines = [head]
     if f.modes:
         lines.append("offending modes: " + "; ".join(mode_summary(m) for m in f.modes))
     before = getattr(f, "before", ())
     if before:
         lines.append("in the baseline: " + "; ".join(mode_summary(m) for m in before))
     if f.suggestion:
-        lines.append(f"hint: {printable(f.suggestion)}")
+        lines.append(f"hint: {f.suggestion}")
     return lines
 
 

@@ -36,7 +36,7 @@ def annotation(f: Any) -> str:
         props.append(f"line={int(f.line)}")
     props.append(f"title={escape_property(f'{f.rule} {f.name}')}")
     command = "error" if f.severity == "error" else "warning"
-    message = "\n".join(finding_summary(f))
+    message = "\n".join(printable(line, lines=True) for line in finding_summary(f))
     return f"::{command} {','.join(props)}::{escape_data(message)}"
 
 

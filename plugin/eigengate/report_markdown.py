@@ -22,9 +22,9 @@ _SPECIAL = re.compile(r"([\\`*_{}\[\]<>|#~$&])")
 
 
 def escape(text: str) -> str:
-    """``text`` on one line (control characters as escapes, see ``_escape``) with markup
-    characters backslash-escaped."""
-    return _SPECIAL.sub(r"\\\1", printable(text))
+    """``text`` on one line (line breaks made spaces, other control characters escapes, see
+    ``_escape``) with markup characters backslash-escaped."""
+    return _SPECIAL.sub(r"\\\1", printable(" ".join(str(text).splitlines())))
 
 
 def _row(cells: Sequence[str]) -> str:
