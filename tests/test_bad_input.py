@@ -11,7 +11,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from eigengate.model import formats as _formats, matrixfiles as _matrixfiles
+from eigengate.model import formats as _formats, limits as _limits, matrixfiles as _matrixfiles
 from eigengate.errors import ModelError
 from eigengate.load.loader import load_document, load_models
 
@@ -230,7 +230,7 @@ def test_yaml_object_tags_refused(repo, tag):
 
 
 def test_yaml_alias_bomb_refused(repo, monkeypatch):
-    monkeypatch.setattr(_formats, "MAX_VALUES", 1000)
+    monkeypatch.setattr(_limits, "MAX_VALUES", 1000)
     rows = ["a0: &a0 [1, 1, 1, 1, 1, 1, 1, 1, 1, 1]"]
     rows += [f"a{i}: &a{i} [*a{i-1}, *a{i-1}, *a{i-1}, *a{i-1}, *a{i-1}]" for i in range(1, 6)]
     fails(repo, "model_format: 1\n" + "\n".join(rows) + "\n", "expands to more than 1000")
@@ -287,7 +287,7 @@ def test_reference_in_memory_document():
 def test_bad_csv_reference(repo):
     (repo / "models" / "a.csv").write_text("1, 2\n3, x\n")
     fails(repo, "model_format: 1\nplant: {A: {file: a.csv}}\n", "plant.A", "line 2, column 2",
-          "'x', not a number")
+          "'x', not a plain finite number")
 
 
 def test_oversized_model_file(repo, monkeypatch):

@@ -321,17 +321,16 @@ def test_schema_refuses_what_the_loader_refuses():
 
 
 @pytest.mark.parametrize("row", [
-    "[1.5, -2, 0, +3, 1e3, 2.5E-2, .5, 5., -0.0]",
-    "[012, 0x1F, 0o17, 1_000, 1:30, 0b101]",       # YAML 1.1 int forms
-    "[.inf, -.inf, 1_000.5, 6.8523015e+5, 190:20:30.15]",  # YAML 1.1 float forms
+    "[1.5, -2, 0, +3, 1.0e+3, 2.5E-2, .5, 5., -0.0]",
+    "[.inf, -.inf, 6.8523015e+5, 0x1F]",
     "[&a 1.0, *a, 2]",
 ])
 def test_fast_number_path_reads_yaml_like_pyyaml(row):
-    # PyYAML's SafeLoader as the reference library for YAML 1.1 number semantics (our loader
-    # adds only exponent-only floats such as 1e3, written here with a dot elsewhere).
+    # PyYAML's SafeLoader as the reference library on the spellings where YAML 1.1 and the
+    # YAML 1.2 core schema agree (tests/test_yaml_numbers.py covers those where they differ).
     import yaml
 
     ours, _ = parse_text(f"m: [{row}]\n", ".yaml", "m.yaml")
-    ref = yaml.safe_load(f"m: [{row}]\n".replace("1e3", "1.0e+3"))
+    ref = yaml.safe_load(f"m: [{row}]\n")
     assert ours == ref
     assert [type(x) for x in ours["m"][0]] == [type(x) for x in ref["m"][0]]

@@ -8,6 +8,7 @@ internal error.
 from __future__ import annotations
 
 import argparse
+import contextlib
 import enum
 import os
 import sys
@@ -37,6 +38,16 @@ class Exit(enum.IntEnum):
 
 class UsageError(Exception):
     """A command-line mistake: printed as one line, exit status 2."""
+
+
+class OutputError(UsageError):
+    """A report that cannot be written (folder missing or outside the repository, no
+    permission, disk full): one line, exit status 2."""
+
+
+#: Exit status when standard output is closed by its reader (``| head``): what a shell
+#: reports for a program stopped by SIGPIPE (128 + 13); never 0, as the report was cut off.
+CLOSED_PIPE = 141
 
 
 def _parser() -> argparse.ArgumentParser:
@@ -136,15 +147,11 @@ def main(argv: Sequence[str] | None = None) -> int:
     except SystemExit as exc:  # argparse: --help/--version (0) and usage errors (2)
         return int(exc.code or 0)
     try:
-        if args.command == "rules":
-            return _rules()
-        if args.command == "explain":
-            return _explain(args.rule)
-        if args.command == "show":
-            return _show(args)
-        if args.command == "baseline":
-            return _accept(args)
-        return _check(args)
+        status = _command(args)
+        sys.stdout.flush()  # here, where a closed pipe can still be handled
+        return status
+    except BrokenPipeError:
+        return _closed_pipe()
     except UsageError as exc:
         print(f"eigengate: error: {exc}", file=sys.stderr)
         return Exit.USAGE
@@ -157,6 +164,46 @@ def main(argv: Sequence[str] | None = None) -> int:
         print(f"eigengate: internal error: {type(exc).__name__}: {exc} (set EIGENGATE_DEBUG=1 "
               "for the traceback, and please report it)", file=sys.stderr)
         return Exit.USAGE
+
+
+def _command(args) -> int:
+    if args.command == "rules":
+        return _rules()
+    if args.command == "explain":
+        return _explain(args.rule)
+    if args.command == "show":
+        return _show(args)
+    if args.command == "baseline":
+        return _accept(args)
+    return _check(args)
+
+
+def _closed_pipe() -> int:
+    """Standard output's reader has gone: point stdout at devnull so that the interpreter's
+    final flush does not fail again, and stop without a word."""
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        os.close(devnull)
+    except (OSError, ValueError):  # pragma: no cover - stdout without a file descriptor
+        pass
+    return CLOSED_PIPE
+
+
+def _config_start(paths: Sequence[str]) -> Path:
+    """Where to look for the configuration: the first named folder, or the folder of the
+    first named file (a link is not followed: its repository is the one it lies in)."""
+    if not paths:
+        return Path.cwd()
+    first = Path(paths[0])
+    return first if first.is_dir() else first.absolute().parent
+
+
+def _missing(paths: Sequence[str]) -> None:
+    # lexists: a broken or looping link is still a named file, reported as a finding
+    gone = [p for p in paths if not os.path.lexists(p)]
+    if gone:
+        raise UsageError(f"no such file or folder: {', '.join(gone)}")
 
 
 def _load_config(args, start: Path):
@@ -213,13 +260,18 @@ def _baseline_poles(baseline) -> dict:
     return out
 
 
-def _write_pole_maps(folder: Path, files: list, baseline_poles) -> int:
+def _write_pole_maps(folder: Path, files: list, baseline_poles, root: Path | None = None
+                     ) -> int:
     """PNG and SVG pole maps of every model with findings, named after file and model."""
     import re
 
     from .reports.plots import pole_map_png, pole_map_svg
 
-    folder.mkdir(parents=True, exist_ok=True)
+    try:
+        _make_folder(folder, root, f"pole maps to {os.fspath(folder)!r}")
+    except OSError as exc:
+        raise OutputError(f"cannot write pole maps to {os.fspath(folder)!r}: "
+                          f"{exc.strerror or exc}") from None
     count = 0
     for fr in files:
         for r in fr.results:
@@ -228,23 +280,50 @@ def _write_pole_maps(folder: Path, files: list, baseline_poles) -> int:
             key = (r.model.source, r.model.title)
             stem = re.sub(r"[^A-Za-z0-9._-]+", "-", f"{r.model.source}--{r.model.title}").strip("-")
             poles = (baseline_poles or {}).get(key)
-            (folder / f"{stem}.png").write_bytes(pole_map_png(r, baseline_poles=poles))
+            try:
+                (folder / f"{stem}.png").write_bytes(pole_map_png(r, baseline_poles=poles))
+            except OSError as exc:
+                raise OutputError(f"cannot write pole maps to {os.fspath(folder)!r}: "
+                                  f"{exc.strerror or exc}") from None
             _write_atomic(folder / f"{stem}.svg", pole_map_svg(r, baseline_poles=poles))
             count += 1
     return count
 
 
-def _write_atomic(path: Path, text: str) -> None:
+def _make_folder(folder: Path, root: Path | None, what: str) -> None:
+    """Create ``folder`` for an output, refusing to create folders outside the repository."""
+    if folder.is_dir():
+        return
+    if root is not None:
+        # The folders that would be made, each resolved as far as it exists.
+        new = Path(os.path.realpath(folder.absolute()))
+        if not new.is_relative_to(os.path.realpath(root)):
+            raise OutputError(f"cannot write {what}: folder {os.fspath(folder)!r} does not "
+                              "exist, and eigengate creates folders only inside the "
+                              "repository")
+    folder.mkdir(parents=True, exist_ok=True)
+
+
+def _write_atomic(path: Path, text: str, root: Path | None = None, what: str = "") -> None:
     import tempfile
 
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", dir=path.parent)
-    with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as fh:
-        fh.write(text)
-    umask = os.umask(0)
-    os.umask(umask)
-    os.chmod(tmp, 0o666 & ~umask)  # a report is an ordinary file, not mkstemp's private one
-    os.replace(tmp, path)
+    what = what or f"to {os.fspath(path)!r}"
+    try:
+        _make_folder(path.parent, root, what)
+        fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", dir=path.parent)
+        try:
+            with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as fh:
+                fh.write(text)
+            umask = os.umask(0)
+            os.umask(umask)
+            os.chmod(tmp, 0o666 & ~umask)  # a report is an ordinary file, not mkstemp's
+            os.replace(tmp, path)
+        except BaseException:
+            with contextlib.suppress(OSError):
+                os.unlink(tmp)
+            raise
+    except OSError as exc:
+        raise OutputError(f"cannot write {what}: {exc.strerror or exc}") from None
 
 
 def _use_color(choice: str) -> bool:
@@ -258,12 +337,11 @@ def _check(args) -> int:
     from .scan.runner import scan, terminal_progress
 
     outputs = _outputs(args.output)
-    missing = [p for p in args.paths if not Path(p).exists()]
-    if missing and not args.changed_files:  # a deleted file is a change like any other
-        raise UsageError(f"no such file or folder: {', '.join(missing)}")
+    if not args.changed_files:  # a deleted file is a change like any other
+        _missing(args.paths)
     if args.jobs is not None and args.jobs < 1:
         raise UsageError(f"--jobs must be at least 1, got {args.jobs}")
-    config = _load_config(args, Path(args.paths[0]) if args.paths else Path.cwd())
+    config = _load_config(args, _config_start(args.paths))
     paths, complete = args.paths or [config.root], not args.paths
     if args.changed_files and args.paths:
         from .scan.dependents import changed_scope
@@ -315,9 +393,10 @@ def _check(args) -> int:
 
     try:
         for fmt, path in outputs:
-            _write_atomic(path, render(fmt, files, baseline_poles=poles))
+            _write_atomic(path, render(fmt, files, baseline_poles=poles), config.root,
+                          f"the {fmt} report to {os.fspath(path)!r}")
         if args.pole_maps:
-            _write_pole_maps(Path(args.pole_maps), files, poles)
+            _write_pole_maps(Path(args.pole_maps), files, poles, config.root)
         text = render(args.format, files, color=_use_color(args.color), quiet=args.quiet,
                       baseline_poles=poles)
     except ReportDependencyError as exc:
@@ -344,10 +423,8 @@ def _accept(args) -> int:
     from .scan.baseline_check import accept
     from .scan.runner import scan
 
-    missing = [p for p in args.paths if not Path(p).exists()]
-    if missing:
-        raise UsageError(f"no such file or folder: {', '.join(missing)}")
-    config = _load_config(args, Path(args.paths[0]) if args.paths else Path.cwd())
+    _missing(args.paths)
+    config = _load_config(args, _config_start(args.paths))
     result = scan(args.paths or [config.root], config, jobs=args.jobs)
     broken = [fr for fr in result.files if fr.error is not None]
     try:
@@ -369,7 +446,7 @@ def _show(args) -> int:
     path = Path(args.path)
     if not path.is_file():
         raise UsageError(f"no such model file: {args.path}")
-    config = _load_config(args, path)
+    config = _load_config(args, _config_start([args.path]))
     fr = check_file(path, config=config)
     if fr.error is not None:
         print(fr.error.render())

@@ -96,7 +96,9 @@ def test_text_that_xml_cannot_hold_is_replaced():
     case = ET.fromstring(text.encode("utf-8")).find(".//testcase")
     assert case.get("classname") == "pyproject.toml"
     message = case.find("failure").get("message")
-    assert message == "EG003 unused-waiver: bell \ufffd and <tag> & more"
+    # control characters are shown as escapes (eigengate.reports.escape), markup is XML-escaped
+    assert message == "EG003 unused-waiver: bell \\x07 and <tag> & more"
+    assert "bell \\x07" in case.find("failure").text
 
 
 def test_empty_and_deterministic(results):

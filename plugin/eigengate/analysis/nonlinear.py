@@ -14,6 +14,9 @@ from __future__ import annotations
 import contextlib
 import dataclasses
 import importlib
+import itertools
+import math
+import os
 import re
 import sys
 from dataclasses import dataclass, field
@@ -288,6 +291,49 @@ def _on_path(root: Path) -> Iterator[None]:
             sys.path.remove(str(root))
 
 
+def _module_origin(mod_name: str, root: Path, source: str, fld: str, line: int | None) -> str:
+    """The file module ``mod_name`` would be loaded from, found below ``root`` without
+    importing or running anything (``PathFinder`` searches the given folders only), checked to
+    be a regular file inside the repository, links resolved; the standard library's names are
+    refused (the interpreter has them already, so the repository's file would not be used)."""
+    import importlib.machinery
+    import stat
+
+    def refuse(problem: str) -> ModelError:
+        return ModelError(source, fld, f"names module {mod_name!r}, {problem}", line=line,
+                          hint="vector fields are imported only from modules whose file lies "
+                               "inside the repository")
+
+    top = mod_name.split(".")[0]
+    if top in sys.stdlib_module_names or top in sys.builtin_module_names:
+        raise refuse("a module of the Python standard library, not one inside the repository")
+    parts = mod_name.split(".")
+    search = [str(root)]
+    spec = None
+    for i in range(len(parts)):
+        spec = importlib.machinery.PathFinder.find_spec(".".join(parts[:i + 1]), search)
+        if spec is None:
+            raise refuse("which cannot be imported from the repository root: it is not found "
+                         "inside the repository")
+        places = [spec.origin] if spec.has_location and spec.origin else []
+        places += list(spec.submodule_search_locations or [])
+        for place in places:
+            if not Path(os.path.realpath(place)).is_relative_to(root):
+                raise refuse("whose file lies outside the repository, not inside the "
+                             "repository")
+        search = list(spec.submodule_search_locations or [])
+    if spec is None or not spec.has_location or not spec.origin:
+        raise refuse("which is a folder without code, not a module file inside the repository")
+    origin = os.path.realpath(spec.origin)
+    try:
+        regular = stat.S_ISREG(os.stat(origin).st_mode)
+    except OSError:
+        regular = False
+    if not regular:
+        raise refuse("whose file is not a regular file inside the repository")
+    return origin
+
+
 def import_function(ref: str, root: Path, source: str, fld: str, line: int | None = None
                     ) -> tuple[Callable[..., Any], Path | None]:
     """Import ``module:function`` relative to ``root``; return it and its module's file."""
@@ -296,6 +342,7 @@ def import_function(ref: str, root: Path, source: str, fld: str, line: int | Non
                          line=line)
     mod_name, func = ref.split(":")
     root = Path(root).resolve()
+    origin = _module_origin(mod_name, root, source, fld, line)
     for name in [n for n in sys.modules if n == mod_name or mod_name.startswith(n + ".")]:
         file = getattr(sys.modules[name], "__file__", None)  # a same-named module of another
         if file and root not in Path(file).resolve().parents:  # repository is not reused
@@ -308,6 +355,10 @@ def import_function(ref: str, root: Path, source: str, fld: str, line: int | Non
         raise ModelError(source, fld, f"names module {mod_name!r}, which cannot be imported "
                          f"from the repository root: {type(exc).__name__}: {exc}",
                          line=line) from None
+    file = getattr(module, "__file__", None)
+    if not file or os.path.realpath(file) != origin:  # pragma: no cover - a racing import
+        raise ModelError(source, fld, f"names module {mod_name!r}, which was imported from "
+                         "elsewhere than the repository's file", line=line)
     fn = getattr(module, func, None)
     if not callable(fn):
         raise ModelError(source, fld, f"names {func!r}, which is not a function of module "

@@ -30,7 +30,9 @@ from .context import (  # noqa: F401 (re-exported: the loader's schema and helpe
 def find_root(path: Path) -> Path:
     """Nearest folder at or above ``path``'s folder holding ``.git`` or ``pyproject.toml``;
     the file's own folder when there is none."""
-    start = Path(path).resolve().parent
+    # The folder the path is in, links above it followed; a linked file itself is not
+    # followed, so a link's repository is the one it lies in, not the one it points into.
+    start = Path(os.path.realpath(os.path.dirname(os.path.abspath(path))))
     for folder in (start, *start.parents):
         if (folder / ".git").exists() or (folder / "pyproject.toml").is_file():
             return folder
@@ -67,15 +69,37 @@ def load_models_with_refs(path: str | os.PathLike[str],
     matrix files the model references, sorted and without repeats, so a cache can hash them."""
     file = Path(path)
     base = Path(root) if root is not None else find_root(file)
-    try:
-        source = file.resolve().relative_to(base.resolve()).as_posix()
-    except ValueError:  # a file outside the given root still gets a usable name
-        source = file.as_posix()
+    source = model_source(file, base)
     data, lines = read_document(file, source)
     refs: list[str] = []
     models = _load(data, source=source, root=base, base_dir=file.parent, lines=lines, refs=refs,
                    stem=file.stem, allow_python=allow_python)
     return models, sorted(set(refs))
+
+
+def model_source(file: Path, root: Path) -> str:
+    """The repository-relative name of model file ``file``, after checking that it may be read:
+    a link in the repository that points outside it is refused (like a matrix file's link,
+    before anything of the target is read), as is a name that is not valid UTF-8 (shown with
+    escapes). A file outside ``root`` that is not such a link keeps the path it was given."""
+    from ..model.formats import printable_name
+
+    root_real = Path(os.path.realpath(root))
+    real = Path(os.path.realpath(file))
+    here = Path(os.path.realpath(os.path.dirname(os.path.abspath(file)))) / file.name
+    if real.is_relative_to(root_real):
+        source = real.relative_to(root_real).as_posix()
+    elif here.is_relative_to(root_real):
+        raise ModelError(printable_name(here.relative_to(root_real).as_posix()), "",
+                         "is a link that points outside the repository; it was not read",
+                         hint="keep model files inside the repository")
+    else:
+        source = file.as_posix()
+    shown = printable_name(source)
+    if shown != source:
+        raise ModelError(shown, "", "has a file name that is not valid UTF-8; it was not read",
+                         hint="rename the file")
+    return source
 
 
 def load_models_from_bytes(raw: bytes, source: str, read: Callable[[str], bytes], *,

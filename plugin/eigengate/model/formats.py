@@ -11,31 +11,33 @@ loader's business.
 from __future__ import annotations
 
 import difflib
-import functools
 import json
 import re
 from pathlib import Path
 from typing import Any, Iterable
 
 from ..errors import ModelError
+from .limits import (  # noqa: F401 (the limits and number checks, re-exported)
+    FLOAT_MAX, MAX_INT_DIGITS, MAX_NESTING, MAX_VALUES, int_problem, int_value)
 
 __all__ = ["MAX_MODEL_FILE_BYTES", "MAX_NESTING", "MAX_VALUES", "SUFFIXES", "read_document",
-           "parse_bytes", "parse_text", "suggest"]
+           "read_regular", "printable_name", "parse_bytes", "parse_text", "suggest"]
 
 #: Largest model file read, in bytes. Real models that big keep their matrices in .npz files.
 MAX_MODEL_FILE_BYTES = 8 * 1024 * 1024
-#: Deepest nesting of lists and mappings accepted; parsers recurse, so this bounds the stack.
-MAX_NESTING = 64
-#: Most values a YAML document may expand to through aliases (stops "billion laughs" files).
-MAX_VALUES = 10_000_000
 #: File name endings this module reads, mapped to the format name used in messages.
 SUFFIXES = {".yaml": "YAML", ".yml": "YAML", ".toml": "TOML", ".json": "JSON"}
 
-_YAML = "tag:yaml.org,2002:"
-# Tags whose constructors build plain data. Everything else (python/object, binary, set, ...)
-# is refused: a model file describes numbers and names, nothing that runs or needs a class.
-_PLAIN_TAGS = {_YAML + t for t in ("str", "int", "float", "bool", "null", "seq", "map",
-                                   "timestamp", "merge")}
+
+
+def printable_name(name: str) -> str:
+    """A file name as it can be shown and stored: bytes that are not UTF-8 (kept by the file
+    system's surrogateescape decoding) become ``\\xff`` escapes."""
+    try:
+        name.encode("utf-8")
+        return name
+    except UnicodeEncodeError:
+        return name.encode("utf-8", "surrogateescape").decode("utf-8", "backslashreplace")
 
 
 def suggest(word: str, choices: Iterable[str]) -> str | None:
@@ -70,25 +72,59 @@ def read_document(path: Path, source: str) -> tuple[dict[str, Any], dict[str, in
     if suffix not in SUFFIXES:
         raise ModelError(source, "", f"has an unknown file type {path.suffix or '(none)'!r}",
                          hint="model files end in " + ", ".join(SUFFIXES))
-    try:
-        size = path.stat().st_size
-        if size > MAX_MODEL_FILE_BYTES:
-            raise ModelError(source, "", f"is {size} bytes, larger than the limit of "
-                             f"{MAX_MODEL_FILE_BYTES} bytes",
-                             hint="keep large matrices in .npz files referenced with {file: ...}")
-        raw = path.read_bytes()
-    except OSError as exc:
-        raise ModelError(source, "", f"cannot be read: {exc.strerror or exc}") from None
+    raw = read_regular(path, source, MAX_MODEL_FILE_BYTES,
+                       "keep large matrices in .npz files referenced with {file: ...}")
     # parse_bytes checks the size again: the file may have grown between stat and read.
     return parse_bytes(raw, suffix, source)
+
+
+def read_regular(path: "str | Path", source: str, limit: int, hint: str | None = None) -> bytes:
+    """The bytes of the regular file at ``path``, at most ``limit`` of them.
+
+    A FIFO, socket or device file would block or never end: its status is taken first and the
+    file opened without blocking (O_NONBLOCK, O_NOCTTY), so only a regular file is ever read.
+    """
+    import os
+    import stat
+
+    what = {stat.S_IFIFO: "a FIFO", stat.S_IFSOCK: "a socket", stat.S_IFCHR: "a device",
+            stat.S_IFBLK: "a device", stat.S_IFDIR: "a folder"}
+    flags = os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_NOCTTY", 0) \
+        | getattr(os, "O_BINARY", 0)
+    try:
+        st = os.stat(path)
+        if not stat.S_ISREG(st.st_mode):
+            raise _not_regular(source, what.get(stat.S_IFMT(st.st_mode), "not a file"))
+        if st.st_size > limit:
+            raise _too_big(source, st.st_size, limit, hint)
+        fd = os.open(path, flags)
+        with os.fdopen(fd, "rb") as fh:
+            st = os.fstat(fh.fileno())  # what was opened, in case it changed since
+            if not stat.S_ISREG(st.st_mode):
+                raise _not_regular(source, what.get(stat.S_IFMT(st.st_mode), "not a file"))
+            raw = fh.read(limit + 1)
+    except OSError as exc:
+        raise ModelError(source, "", f"cannot be read: {exc.strerror or exc}") from None
+    if len(raw) > limit:
+        raise _too_big(source, len(raw), limit, hint)
+    return raw
+
+
+def _not_regular(source: str, kind: str) -> ModelError:
+    return ModelError(source, "", f"cannot be read: it is {kind}, not a regular file",
+                      hint="model files are ordinary files")
+
+
+def _too_big(source: str, size: int, limit: int, hint: str | None) -> ModelError:
+    return ModelError(source, "", f"is {size} bytes, larger than the limit of {limit} bytes",
+                      hint=hint)
 
 
 def parse_bytes(raw: bytes, suffix: str, source: str) -> tuple[dict[str, Any], dict[str, int]]:
     """Parse a model file's bytes (read from a file or from git history, say); the same
     size, text and format checks as :func:`read_document`."""
     if len(raw) > MAX_MODEL_FILE_BYTES:
-        raise ModelError(source, "", f"is {len(raw)} bytes, larger than the limit of "
-                         f"{MAX_MODEL_FILE_BYTES} bytes")
+        raise _too_big(source, len(raw), MAX_MODEL_FILE_BYTES, None)
     nul = raw.find(b"\x00")
     if nul >= 0:
         raise ModelError(source, "", f"looks binary: NUL byte at byte offset {nul}",
@@ -109,7 +145,9 @@ def parse_text(text: str, suffix: str, source: str) -> tuple[dict[str, Any], dic
     _check_nesting(text, source)
     fmt = SUFFIXES.get(suffix.lower())
     if fmt == "YAML":
-        data, lines = _parse_yaml(text, source)
+        from .yaml_core import parse_yaml
+
+        data, lines = parse_yaml(text, source)
     elif fmt == "JSON":
         data, lines = _parse_json(text, source)
     elif fmt == "TOML":
@@ -142,162 +180,7 @@ def _check_nesting(text: str, source: str) -> None:
         raise ModelError(source, "", f"nests lists or mappings deeper than {MAX_NESTING} levels")
 
 
-# --------------------------------------------------------------------------- YAML
-
-# Numbers whose meaning is the same for Python's float()/int() and for YAML 1.1.
-_PLAIN_FLOAT = re.compile(r"^[-+]?(?:[0-9]+\.[0-9]*|\.[0-9]+|[0-9]+)(?:[eE][-+]?[0-9]+)?$")
-_PLAIN_INT = re.compile(r"^[-+]?(?:0|[1-9][0-9]*)$")
-
-@functools.lru_cache(maxsize=None)
-def _yaml_loader_class() -> type:
-    """Built once per process: adding resolvers copies PyYAML's resolver tables."""
-    import yaml
-
-    base = getattr(yaml, "CSafeLoader", None) or yaml.SafeLoader
-
-    scalar_node = yaml.ScalarNode
-    float_tag, int_tag = _YAML + "float", _YAML + "int"
-
-    class _Loader(base):  # type: ignore[misc, valid-type]
-        """Safe loader that keeps dates as text and reads ``1e3`` as a number."""
-
-        def construct_sequence(self, node, deep=False):
-            # Matrix rows are long runs of plain numbers: convert those directly instead of
-            # through construct_object (about ten times faster); anything unusual (YAML 1.1
-            # octal or sexagesimal forms, underscores, .inf, anchors) takes the normal path.
-            out = []
-            for child in node.value:
-                if type(child) is scalar_node:
-                    v = child.value
-                    if child.tag == float_tag and _PLAIN_FLOAT.match(v):
-                        out.append(float(v))
-                        continue
-                    if child.tag == int_tag and _PLAIN_INT.match(v):
-                        out.append(int(v))
-                        continue
-                out.append(self.construct_object(child, deep=deep))
-            return out
-
-    # YAML 1.1 wants a dot in floats; engineers write 1e-3, so accept exponent-only floats.
-    _Loader.add_implicit_resolver(
-        _YAML + "float", re.compile(r"^[-+]?[0-9][0-9_]*[eE][-+]?[0-9]+$"), list("-+0123456789"))
-    # A date in a description stays the text the author wrote.
-    _Loader.add_constructor(_YAML + "timestamp", base.construct_yaml_str)
-    return _Loader
-
-
-def _parse_yaml(text: str, source: str) -> tuple[Any, dict[str, int]]:
-    import yaml
-
-    try:  # the pure-Python reader checks the characters already here
-        loader = _yaml_loader_class()(text)
-    except yaml.reader.ReaderError as exc:
-        raise _unprintable(exc, text, source) from None
-    try:
-        try:
-            node = loader.get_single_node()
-        except yaml.reader.ReaderError as exc:  # libyaml's reader, while parsing
-            raise _unprintable(exc, text, source) from None
-        except yaml.MarkedYAMLError as exc:
-            mark = exc.problem_mark or exc.context_mark
-            where = f" at line {mark.line + 1}, column {mark.column + 1}" if mark else ""
-            raise ModelError(source, "", f"is not valid YAML: {exc.problem or exc.context}{where}",
-                             line=mark.line + 1 if mark else None) from None
-        except yaml.YAMLError as exc:
-            raise ModelError(source, "", f"is not valid YAML: {exc}") from None
-        if node is None:
-            raise ModelError(source, "", "holds no data (only comments or blank lines)")
-        lines: dict[str, int] = {}
-        _YamlWalk(source, lines).size(node, "", 0)
-        try:
-            return loader.construct_document(node), lines
-        except yaml.YAMLError as exc:  # e.g. a merge key on something that is not a mapping
-            mark = getattr(exc, "problem_mark", None)
-            raise ModelError(source, "", f"is not valid YAML: {getattr(exc, 'problem', exc)}",
-                             line=mark.line + 1 if mark else None) from None
-    finally:
-        loader.dispose()
-
-
-def _unprintable(exc: Any, text: str, source: str) -> ModelError:
-    # ReaderError renders over two lines; say the same in one, with the line of the character.
-    position = min(max(int(exc.position), 0), len(text))
-    line = text.count("\n", 0, position) + 1
-    char = exc.character if isinstance(exc.character, str) else chr(exc.character)
-    return ModelError(source, "", f"is not valid YAML: the character U+{ord(char):04X} at line "
-                      f"{line} is not allowed ({exc.reason})", line=line,
-                      hint="model files are printable UTF-8 text")
-
-
-class _YamlWalk:
-    """One pass over the node graph: tags, keys, duplicates, lines, expanded size."""
-
-    def __init__(self, source: str, lines: dict[str, int]) -> None:
-        self.source = source
-        self.lines = lines
-        self.sizes: dict[int, int] = {}
-        self.open: set[int] = set()
-        self.total = 0
-
-    def fail(self, node: Any, field: str, problem: str, hint: str | None = None) -> ModelError:
-        return ModelError(self.source, field, problem, line=node.start_mark.line + 1, hint=hint)
-
-    def size(self, node: Any, path: str, depth: int) -> int:
-        import yaml
-
-        if node.tag not in _PLAIN_TAGS:
-            tag = node.tag.replace(_YAML, "!!")
-            raise self.fail(node, path, f"uses the YAML tag {tag}, which eigengate refuses",
-                            "model files hold plain numbers, strings, lists and mappings only")
-        key = id(node)
-        if key in self.sizes:  # an alias of a node already walked: count it, record no lines
-            self.total += self.sizes[key]
-            self._check_total(node)
-            return self.sizes[key]
-        if key in self.open:
-            raise self.fail(node, path, "refers to itself through a YAML alias")
-        if depth > MAX_NESTING:
-            raise self.fail(node, path, f"nests deeper than {MAX_NESTING} levels")
-        self.open.add(key)
-        count = 1
-        if isinstance(node, yaml.MappingNode):
-            seen: dict[str, int] = {}
-            for k, v in node.value:
-                if k.tag == _YAML + "merge":
-                    count += self.size(v, path, depth + 1)
-                    continue
-                if not isinstance(k, yaml.ScalarNode) or k.tag != _YAML + "str":
-                    shown = k.value if isinstance(k, yaml.ScalarNode) else "a list or mapping"
-                    raise self.fail(k, path, f"has a key {shown!r} that is not a string",
-                                    "quote the key")
-                child = f"{path}.{k.value}" if path else k.value
-                if k.value in seen:
-                    raise self.fail(k, child, f"is given twice, on lines {seen[k.value]} and "
-                                    f"{k.start_mark.line + 1}", "remove one of them")
-                seen[k.value] = k.start_mark.line + 1
-                self.lines[child] = k.start_mark.line + 1
-                count += self.size(v, child, depth + 1)
-        elif isinstance(node, yaml.SequenceNode):
-            scalar = yaml.ScalarNode
-            for i, item in enumerate(node.value):
-                if type(item) is scalar and item.tag in _PLAIN_TAGS:
-                    count += 1  # fast path for matrix rows: nothing to record below a number
-                    self.total += 1
-                    continue
-                child = f"{path}.{i}" if path else str(i)
-                if not isinstance(item, yaml.ScalarNode):
-                    self.lines.setdefault(child, item.start_mark.line + 1)
-                count += self.size(item, child, depth + 1)
-        self.open.discard(key)
-        self.sizes[key] = count
-        self.total += 1
-        self._check_total(node)
-        return count
-
-    def _check_total(self, node: Any) -> None:
-        if self.total > MAX_VALUES:
-            raise self.fail(node, "", f"expands to more than {MAX_VALUES} values through aliases")
-
+# --------------------------------------------------------------------------- numbers
 
 # --------------------------------------------------------------------------- JSON
 
@@ -305,14 +188,25 @@ def _parse_json(text: str, source: str) -> tuple[Any, dict[str, int]]:
     def no_constant(name: str) -> float:
         raise _BadConstant(name)
 
+    def checked_int(digits: str) -> int:
+        value = int_value(digits) if len(digits) > MAX_INT_DIGITS else int(digits)
+        problem = int_problem(value, len(digits.lstrip("-")))
+        if problem is not None:
+            raise _BadNumber(problem, text.count("\n", 0, text.find(digits)) + 1)
+        return value  # type: ignore[return-value]
+
     try:
-        data = json.loads(text, object_pairs_hook=unique_pairs, parse_constant=no_constant)
+        data = json.loads(text, object_pairs_hook=unique_pairs, parse_constant=no_constant,
+                          parse_int=checked_int)
     except json.JSONDecodeError as exc:
         raise ModelError(source, "", f"is not valid JSON: {exc.msg} at line {exc.lineno}, "
                          f"column {exc.colno}", line=exc.lineno) from None
     except _BadConstant as exc:
         raise ModelError(source, "", f"is not valid JSON: {exc.args[0]} is not a JSON number",
                          hint="model files hold finite numbers") from None
+    except _BadNumber as exc:
+        raise ModelError(source, "", f"holds a number that {exc.args[0]}", line=exc.args[1]
+                         ) from None
     except RecursionError:
         raise ModelError(source, "", "nests lists or mappings too deeply") from None
     except DuplicateKey as exc:
@@ -354,6 +248,10 @@ class DuplicateKey(Exception):
 
 
 class _BadConstant(Exception):
+    pass
+
+
+class _BadNumber(Exception):
     pass
 
 
@@ -409,29 +307,63 @@ def _parse_toml(text: str, source: str) -> tuple[Any, dict[str, int]]:
     except ModuleNotFoundError:  # pragma: no cover - exercised on Python 3.10 only
         import tomli as tomllib  # type: ignore[no-redef]
 
+    for number, raw in enumerate(text.splitlines(), start=1):
+        # tomllib's work grows with the square of a dotted key's length: refuse long keys
+        # before parsing (dots in quoted keys count too; _plain_toml applies the exact limit).
+        key = raw.partition("=")[0]
+        if key.count(".") >= MAX_NESTING:
+            raise ModelError(source, "", f"nests tables deeper than {MAX_NESTING} levels through "
+                             "a dotted key", line=number)
     try:
         data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        # tomllib puts "(at line L, column C)" in the message, duplicate keys included.
-        found = re.search(r"line (\d+)", str(exc))
-        raise ModelError(source, "", f"is not valid TOML: {exc}",
-                         line=int(found.group(1)) if found else None) from None
+    except ValueError as exc:  # an int of more than 4300 digits (not a TOMLDecodeError)
+        if isinstance(exc, tomllib.TOMLDecodeError):
+            raise _toml_error(source, exc) from None
+        found = re.search(r"has (\d+) digits", str(exc))
+        raise ModelError(source, "", "holds a number that " + int_problem(
+            None, int(found.group(1)) if found else 4300)) from None
     except RecursionError:
         raise ModelError(source, "", "nests lists or mappings too deeply") from None
-    return _plain_toml(data), _toml_lines(text)
+    lines = _toml_lines(text)
+    return _plain_toml(data, source, "", 0, lines), lines
 
 
-def _plain_toml(value: Any) -> Any:
+def _toml_error(source: str, exc: Exception) -> ModelError:
+    # tomllib puts "(at line L, column C)" in the message, duplicate keys included.
+    found = re.search(r"line (\d+)", str(exc))
+    return ModelError(source, "", f"is not valid TOML: {exc}",
+                      line=int(found.group(1)) if found else None)
+
+
+def _plain_toml(value: Any, source: str, path: str, depth: int, lines: dict[str, int]) -> Any:
     # TOML dates and times are not plain data here; keep them as the text they were written as.
+    # Dotted keys and table headers nest without brackets, so the nesting limit is applied
+    # here, and integers that no float can hold are refused as in YAML and JSON.
     import datetime
 
-    if isinstance(value, dict):
-        return {k: _plain_toml(v) for k, v in value.items()}
-    if isinstance(value, list):
-        return [_plain_toml(v) for v in value]
+    if isinstance(value, (dict, list)):
+        if depth >= MAX_NESTING:
+            raise ModelError(source, path, f"nests deeper than {MAX_NESTING} levels",
+                             line=_nearest_line(lines, path))
+        items = value.items() if isinstance(value, dict) else enumerate(value)
+        out = [v if type(v) in (float, str, bool) or type(v) is int and abs(v) <= FLOAT_MAX
+               else _plain_toml(v, source, f"{path}.{k}" if path else str(k), depth + 1, lines)
+               for k, v in items]  # plain numbers (matrix rows) pass without a path
+        return dict(zip(value, out)) if isinstance(value, dict) else out
     if isinstance(value, (datetime.date, datetime.time)):
         return value.isoformat()
+    if type(value) is int and abs(value) > FLOAT_MAX:
+        raise ModelError(source, path, int_problem(None, len(str(abs(value)))),  # type: ignore
+                         line=_nearest_line(lines, path))
     return value
+
+
+def _nearest_line(lines: dict[str, int], path: str) -> int | None:
+    while path:
+        if path in lines:
+            return lines[path]
+        path = path.rpartition(".")[0]
+    return None
 
 
 _TOML_TABLE = re.compile(r"^\s*(\[\[?)\s*([^\]]+?)\s*\]\]?\s*(#.*)?$")

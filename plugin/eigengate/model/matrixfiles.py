@@ -23,11 +23,17 @@ from ..errors import ModelError
 if TYPE_CHECKING:  # pragma: no cover
     import numpy as np
 
-__all__ = ["MAX_MATRIX_FILE_BYTES", "MATRIX_SUFFIXES", "REFERENCE_KEYS", "is_reference",
-           "load_reference"]
+__all__ = ["MAX_MATRIX_ENTRIES", "MAX_MATRIX_FILE_BYTES", "MATRIX_SUFFIXES", "REFERENCE_KEYS",
+           "is_reference", "load_reference"]
 
 #: Largest referenced matrix file read, in bytes (a dense 4000×4000 float64 matrix is 128 MB).
 MAX_MATRIX_FILE_BYTES = 256 * 1024 * 1024
+#: Most entries a referenced matrix may hold: the largest state matrix a model may have
+#: (model.MAX_STATES squared). Checked from file headers before any data is read.
+MAX_MATRIX_ENTRIES = 4000 * 4000
+#: A plain CSV number: what Python's float() reads minus underscores, non-ASCII digits,
+#: inf/nan spellings and inner blanks.
+_CSV_NUMBER = r"[ \t]*[-+]?(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][-+]?[0-9]+)?[ \t]*"
 #: Endings of matrix files that can be referenced.
 MATRIX_SUFFIXES = (".npz", ".mat", ".csv")
 #: Keys of a reference mapping.
@@ -173,6 +179,7 @@ def _pick(names: list[str], key: str | None, rel: str, bad: Any) -> str:
 
 def _read_npz(path: "Path | Any", rel: str, key: str | None, bad: Any) -> "np.ndarray":
     import zipfile
+    import zlib
 
     import numpy as np
 
@@ -184,6 +191,7 @@ def _read_npz(path: "Path | Any", rel: str, key: str | None, bad: Any) -> "np.nd
             if not isinstance(archive, np.lib.npyio.NpzFile):
                 raise bad(f"refers to {rel!r}, which is not a .npz archive", sub=".file")
             name = _pick(list(archive.files), key, rel, bad)
+            _check_npy_header(archive.zip, name, rel, bad)
             try:
                 return np.asarray(archive[name])
             except ValueError:
@@ -192,9 +200,49 @@ def _read_npz(path: "Path | Any", rel: str, key: str | None, bad: Any) -> "np.nd
                           "save plain float arrays with numpy.savez") from None
     except ModelError:  # a ValueError too: let our own message through unchanged
         raise
-    except (OSError, zipfile.BadZipFile, EOFError, ValueError) as exc:
+    except (OSError, zipfile.BadZipFile, EOFError, ValueError, zlib.error) as exc:
         raise bad(f"refers to {rel!r}, which is not a readable .npz archive ({exc})",
                   sub=".file") from None
+
+
+def _check_npy_header(zf: Any, name: str, rel: str, bad: Any) -> None:
+    """Refuse an array of the archive by its zip entry and .npy header alone: declared size,
+    dtype and shape, before a byte of its data is decompressed."""
+    import numpy as np
+
+    member = name if name in zf.namelist() else name + ".npy"
+    info = zf.getinfo(member)
+    if info.file_size > MAX_MATRIX_FILE_BYTES:
+        raise bad(f"refers to the array {name!r} in {rel!r}, which declares {info.file_size} "
+                  f"bytes uncompressed, more than the limit of {MAX_MATRIX_FILE_BYTES} bytes",
+                  sub=".file")
+    with zf.open(member) as fh:
+        version = np.lib.format.read_magic(fh)
+        if version == (1, 0):
+            shape, _, dtype = np.lib.format.read_array_header_1_0(fh)
+        elif version == (2, 0):
+            shape, _, dtype = np.lib.format.read_array_header_2_0(fh)
+        else:
+            raise bad(f"refers to the array {name!r} in {rel!r}, stored in .npy format "
+                      f"{version[0]}.{version[1]}, which is not read",
+                      "save it with numpy.savez (format 1.0 or 2.0)", ".file")
+    if dtype.hasobject:
+        raise bad(f"refers to the array {name!r} in {rel!r}, which holds pickled object data; "
+                  "eigengate never unpickles files", "save plain float arrays with numpy.savez")
+    _check_shape(tuple(shape), name, rel, bad)
+
+
+def _check_shape(shape: tuple, name: str, rel: str, bad: Any) -> None:
+    import math
+
+    if len(shape) > 2:
+        raise bad(f"refers to the array {name!r} in {rel!r}, which has {len(shape)} dimensions; "
+                  "a matrix has at most 2")
+    entries = math.prod(shape)
+    if entries > MAX_MATRIX_ENTRIES:
+        raise bad(f"refers to the array {name!r} in {rel!r}, shaped "
+                  f"{'×'.join(str(d) for d in shape)}, more than the limit of "
+                  f"{MAX_MATRIX_ENTRIES} entries", "a model has at most 4000 states")
 
 
 def _read_mat(path: "Path | Any", rel: str, key: str | None, bad: Any) -> "np.ndarray":
@@ -209,15 +257,24 @@ def _read_mat(path: "Path | Any", rel: str, key: str | None, bad: Any) -> "np.nd
             # scipy warns about odd headers; the numbers are what matters and -W error must not
             # turn a readable file into a crash.
             warnings.simplefilter("ignore")
-            content = scipy.io.loadmat(path)
+            # Names and shapes from the headers first: a sparse matrix is made dense below,
+            # and a compressed one can be far larger than its file.
+            shapes = {n: s for n, s, _ in scipy.io.whosmat(path)}
+            name = _pick(list(shapes), key, rel, bad)
+            _check_shape(tuple(shapes[name]), name, rel, bad)
+            if hasattr(path, "seek"):
+                path.seek(0)
+            content = scipy.io.loadmat(path, variable_names=[name])
+    except ModelError:
+        raise
     except NotImplementedError:
         raise bad(f"refers to {rel!r}, a MATLAB v7.3 (HDF5) file, which is not supported",
                   "save it with save(..., '-v7')", ".file") from None
     except (OSError, ValueError, TypeError, scipy.io.matlab.MatReadError) as exc:
         raise bad(f"refers to {rel!r}, which is not a readable .mat file ({exc})",
                   sub=".file") from None
-    names = [k for k in content if not k.startswith("__")]
-    name = _pick(names, key, rel, bad)
+    if name not in content:
+        raise bad(f"refers to {rel!r}, whose variable {name!r} cannot be read", sub=".file")
     value = content[name]
     if scipy.sparse.issparse(value):
         value = value.toarray()
@@ -225,36 +282,61 @@ def _read_mat(path: "Path | Any", rel: str, key: str | None, bad: Any) -> "np.nd
 
 
 def _read_csv(path: "Path | Any", rel: str, key: str | None, bad: Any) -> "np.ndarray":
+    import array
+    import codecs
+    import re
+
     import numpy as np
 
     if key is not None:
         raise bad(f"is {key!r}, but a .csv file holds a single matrix",
                   "remove key from the reference", ".key")
+    row_re = re.compile(f"{_CSV_NUMBER}(?:,{_CSV_NUMBER})*")
+    cell_re = re.compile(_CSV_NUMBER)
+    values = array.array("d")  # 8 bytes an entry: no list of Python floats
+    width = rows = 0
+    number = 0
     try:
-        raw = path.getvalue() if hasattr(path, "getvalue") else path.read_bytes()
-        text = raw.decode("utf-8")
+        # Read line by line (a file on disk is never held whole), decoding strictly.
+        raw = io_lines(path)
+        for number, line in enumerate(codecs.iterdecode(raw, "utf-8"), start=1):
+            body = line.split("#", 1)[0]
+            if number == 1:
+                body = body.removeprefix("\ufeff")
+            if not body.strip():
+                continue
+            body = body.strip("\r\n")
+            cells = body.split(",")
+            if not row_re.fullmatch(body):
+                column, cell = next((c, v) for c, v in enumerate(cells, start=1)
+                                    if not cell_re.fullmatch(v))
+                raise bad(f"refers to {rel!r}, whose line {number}, column {column} (row "
+                          f"{rows + 1}) is {cell.strip()!r}, not a plain finite number",
+                          "write numbers like 0.5, -2 or 1e-3; underscores, inf and nan are refused")
+            if rows and len(cells) != width:
+                raise bad(f"refers to {rel!r}, whose line {number} has {len(cells)} numbers "
+                          f"while the first row has {width}")
+            width = len(cells)
+            rows += 1
+            if rows * width > MAX_MATRIX_ENTRIES:
+                raise bad(f"refers to {rel!r}, which holds more than {MAX_MATRIX_ENTRIES} "
+                          f"entries by row {rows}", "a model has at most 4000 states")
+            values.extend(map(float, cells))
     except UnicodeDecodeError as exc:
-        raise bad(f"refers to {rel!r}, which is not UTF-8 text (byte offset {exc.start})",
-                  sub=".file") from None
+        raise bad(f"refers to {rel!r}, which is not UTF-8 text (line {number + 1}, byte "
+                  f"{exc.start} of that line)", sub=".file") from None
     except OSError as exc:
         raise bad(f"refers to {rel!r}, which cannot be read ({exc.strerror or exc})",
                   sub=".file") from None
-    rows: list[list[float]] = []
-    for number, raw in enumerate(text.removeprefix("\ufeff").splitlines(), start=1):
-        body = raw.split("#", 1)[0].strip()
-        if not body:
-            continue
-        row = []
-        for column, cell in enumerate(body.split(","), start=1):
-            try:
-                row.append(float(cell))
-            except ValueError:
-                raise bad(f"refers to {rel!r}, whose line {number}, column {column} is "
-                          f"{cell.strip()!r}, not a number") from None
-        if rows and len(row) != len(rows[0]):
-            raise bad(f"refers to {rel!r}, whose line {number} has {len(row)} numbers while "
-                      f"the first row has {len(rows[0])}")
-        rows.append(row)
     if not rows:
         raise bad(f"refers to {rel!r}, which holds no numbers")
-    return np.array(rows, dtype=float)
+    return np.frombuffer(values, dtype=float).reshape(rows, width).copy()
+
+
+def io_lines(path: "Path | Any"):
+    """The byte lines of a file on disk or of an in-memory buffer (keeps line endings)."""
+    if hasattr(path, "getvalue"):
+        yield from path.getvalue().splitlines(keepends=True)
+        return
+    with open(path, "rb") as fh:
+        yield from fh

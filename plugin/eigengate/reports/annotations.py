@@ -4,7 +4,8 @@ turn into annotations on the changed file.
 ``::error file=models/osc.yaml,line=8,title=EG103 damping-ratio::osc: 1 mode violates ...``
 (``::warning`` for warnings). The message holds the model title, the finding's message, the
 offending modes and the hint, one per line. The command syntax needs ``%``, carriage return
-and line feed escaped in the message, and in property values also ``:`` and ``,``. Waived
+and line feed escaped in the message, and in property values also ``:`` and ``,``; other
+control characters from model files are written as escapes before that (``_escape``). Waived
 findings are left out: a waiver is a reviewed decision, not something to point at again.
 """
 
@@ -12,6 +13,7 @@ from __future__ import annotations
 
 from typing import Any, Iterable
 
+from .escape import printable
 from .render import all_findings, finding_summary
 
 __all__ = ["render_annotations", "annotation", "escape_data", "escape_property"]
@@ -29,12 +31,12 @@ def escape_property(text: str) -> str:
 
 def annotation(f: Any) -> str:
     """The workflow-command line of one finding (without line end)."""
-    props = [f"file={escape_property(f.source)}"]
+    props = [f"file={escape_property(printable(f.source))}"]
     if f.line:
         props.append(f"line={int(f.line)}")
     props.append(f"title={escape_property(f'{f.rule} {f.name}')}")
     command = "error" if f.severity == "error" else "warning"
-    message = "\n".join(finding_summary(f))
+    message = "\n".join(printable(line, lines=True) for line in finding_summary(f))
     return f"::{command} {','.join(props)}::{escape_data(message)}"
 
 

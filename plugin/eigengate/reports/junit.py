@@ -19,6 +19,7 @@ import xml.etree.ElementTree as ET
 from pathlib import PurePosixPath
 from typing import Any, Iterable, Sequence
 
+from .escape import printable
 from .render import own_findings
 from .text import finding_lines, model_lines
 
@@ -42,7 +43,7 @@ def _finding_text(findings: Sequence[Any], discrete: bool) -> str:
 
 
 def _first_line(f: Any) -> str:
-    return _clean(f"{f.rule} {f.name}: {f.message.splitlines()[0] if f.message else ''}")
+    return printable(f"{f.rule} {f.name}: {f.message.splitlines()[0] if f.message else ''}")
 
 
 class _Suite:
@@ -54,8 +55,8 @@ class _Suite:
 
     def case(self, classname: str, name: str, failing: Sequence[Any], discrete: bool,
              out: str, *, error: bool = False) -> None:
-        case = ET.SubElement(self.suite, "testcase", classname=_clean(classname),
-                             name=_clean(name), time="0.000")
+        case = ET.SubElement(self.suite, "testcase", classname=printable(classname),
+                             name=printable(name), time="0.000")
         self.tests += 1
         if failing:
             kind = "error" if error else "failure"

@@ -11,6 +11,7 @@ from __future__ import annotations
 import re
 from typing import Any, Iterable, Sequence
 
+from .escape import printable
 from .render import (CAUTION, mode_cells, own_findings, plural, status_of, tally, UNCERTAIN_NOTE,
                       text_number)
 
@@ -21,8 +22,9 @@ _SPECIAL = re.compile(r"([\\`*_{}\[\]<>|#~$&])")
 
 
 def escape(text: str) -> str:
-    """``text`` with markup characters backslash-escaped and line breaks made spaces."""
-    return _SPECIAL.sub(r"\\\1", " ".join(str(text).splitlines()))
+    """``text`` on one line (line breaks made spaces, other control characters escapes, see
+    ``_escape``) with markup characters backslash-escaped."""
+    return _SPECIAL.sub(r"\\\1", printable(" ".join(str(text).splitlines())))
 
 
 def _row(cells: Sequence[str]) -> str:

@@ -6,6 +6,7 @@ import math
 from typing import TYPE_CHECKING, Iterable, Sequence
 
 from ..rules.findings import UNCERTAIN_NOTE, Finding, ModeRow
+from .escape import printable as _p
 from .render import format_eigenvalue  # shared by every writer; re-exported
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -42,7 +43,7 @@ def mode_table(rows: Sequence[ModeRow], discrete: bool = False, indent: str = " 
         ev = format_eigenvalue(r.eigenvalue, r.pair)
         if r.multiplicity > 1:
             ev += f" ×{r.multiplicity}" + (" (defective)" if r.defective else "")
-        states = ", ".join([f"{n} {p:.2f}" for n, p in r.top_states])
+        states = ", ".join([f"{_p(n)} {p:.2f}" for n, p in r.top_states])
         row = [f"#{r.index}", ev, f"{r.damping_ratio:.3g}", _num(r.natural_frequency),
                _num(r.time_constant), states]
         if detail:
@@ -61,14 +62,14 @@ def finding_lines(f: Finding, discrete: bool, color: bool = False) -> list[str]:
     where = f"line {f.line}" if f.line else ""
     head = f"  {mark}  {f.rule} {f.name}"
     if f.requirement and f.rule != "EG001":
-        head += f"  [{f.requirement}]"
+        head += f"  [{_p(f.requirement)}]"
     if where:
         head += f"  ({where})"
-    out = [head, f"        {f.message}"]
+    out = [head, f"        {_p(f.message)}"]
     if f.uncertain:
         out.append(f"        note: {UNCERTAIN_NOTE}")
     if f.suggestion:
-        out.append(f"        hint: {f.suggestion}")
+        out.append(f"        hint: {_p(f.suggestion)}")
     if f.modes:
         out.extend(mode_table(f.modes, discrete, indent="        "))
     return out
@@ -87,20 +88,20 @@ def model_lines(r: ModelResult, *, verbose: bool = True, color: bool = False) ->
               f"spectral abscissa {sp.spectral_abscissa:.6g} 1/s")
     extra = f", {sp.infinite} infinite" if sp.infinite else ""
     nm = len(sp.modes)
-    lines = [f"  {m.title}: {status} — {sp.n_eigenvalues} eigenvalues in {nm} "
+    lines = [f"  {_p(m.title)}: {status} — {sp.n_eigenvalues} eigenvalues in {nm} "
              f"mode{'' if nm == 1 else 's'}{extra}, {figure}, "
              f"min ζ {sp.min_damping:.3g}; origin: {r.equilibrium.type}"]
     if verbose:
         for v in r.verdicts:
             if v.passed and not v.uncertain:
-                margin = f" ({v.message})" if v.margin is None else \
+                margin = f" ({_p(v.message)})" if v.margin is None else \
                     f" (margin {v.margin:.4g})"
                 lines.append(f"    {_paint('pass', color)}  {v.rule} {v.name}  "
-                             f"[{v.requirement}]{margin}")
+                             f"[{_p(v.requirement)}]{margin}")
     for f in r.findings:
         lines.extend(finding_lines(f, m.discrete, color))
     for f in getattr(r, "waived", ()):
-        lines.append(f"    waived  {f.rule} {f.name}  [{f.requirement}]: {f.waived}")
+        lines.append(f"    waived  {f.rule} {f.name}  [{_p(f.requirement)}]: {_p(f.waived)}")
     return lines
 
 
@@ -117,7 +118,7 @@ def render_results(results: Iterable[FileResult], *, verbose: bool = True,
         quiet_file = not verbose and not fr.findings and not any(
             getattr(r, "waived", ()) for r in fr.results)
         if not quiet_file:
-            lines.append(fr.source)
+            lines.append(_p(fr.source))
         shown: set[int] = set()
         for r in fr.results:
             models += 1
@@ -146,7 +147,7 @@ def render_model(result: ModelResult) -> str:
 
     m, sp = result.model, result.spectrum
     kind = f"discrete, T = {m.sample_period:g} s" if m.discrete else "continuous"
-    lines = [f"{m.source} — {m.title}",
+    lines = [f"{_p(m.source)} — {_p(m.title)}",
              f"  {m.structure}, {kind}, {m.n_states} states"
              + (f", {sp.infinite} infinite eigenvalues (descriptor)" if sp.infinite else ""),
              f"  origin: {result.equilibrium.describe()}",
@@ -159,8 +160,8 @@ def render_model(result: ModelResult) -> str:
         mark = "pass" if v.passed else "FAIL"
         margin = "" if v.margin is None else f", margin {v.margin:.4g}"
         note = " (numerically uncertain)" if v.uncertain else ""
-        lines.append(f"    {mark}  {v.rule} {v.name}  [{v.requirement}]{margin}{note}")
-        lines.append(f"          {v.message}")
+        lines.append(f"    {mark}  {v.rule} {v.name}  [{_p(v.requirement)}]{margin}{note}")
+        lines.append(f"          {_p(v.message)}")
     for f in result.waived:
-        lines.append(f"    waived  {f.rule} {f.name}: {f.waived}")
+        lines.append(f"    waived  {f.rule} {f.name}: {_p(f.waived)}")
     return "\n".join(lines) + "\n"

@@ -10,9 +10,11 @@ folder, and a file read to tell whether it is a model file is kept for the cache
 from __future__ import annotations
 
 import os
+import stat
 from pathlib import Path
 from typing import TYPE_CHECKING, Callable, NamedTuple, Sequence
 
+from ..model.formats import printable_name
 
 if TYPE_CHECKING:  # pragma: no cover
     from .config import Config
@@ -41,7 +43,10 @@ class FoundFile(NamedTuple):
 
 def _sniff(path: str) -> tuple[bool, bytes | None]:
     """Whether a file looks like a model file (has a ``model_format`` key near its start),
-    and its bytes when it does and is small enough to keep."""
+    and its bytes when it does and is small enough to keep. A FIFO or device file is not
+    opened (it could block for ever): it is passed on with no bytes for the loader to refuse."""
+    if _not_regular(path):
+        return True, b""
     try:
         with open(path, "rb") as fh:
             head = fh.read(_SNIFF_BYTES)
@@ -73,13 +78,15 @@ def find_model_files(paths: Sequence[str | Path], config: "Config | None" = None
         p = Path(p)
         if not p.is_dir():
             full = os.fspath(p)
-            rel = _rel(os.path.realpath(full), root)
+            rel, content = _named(full, root)
             if filter_named:
-                found = _select(full, os.path.basename(full), rel, config, known, None)
+                found = _select(full, os.path.basename(full), rel, config, known, None,
+                                content)
                 if found is not None:
                     out.append(found)
             else:
-                out.append(FoundFile(full, rel, stat=_stat(full) if known is not None else None))
+                out.append(FoundFile(full, rel, content,
+                                     stat=_stat(full) if known is not None else None))
             continue
         below: list[FoundFile] = []
         stack = [os.fspath(p)]
@@ -97,15 +104,17 @@ def find_model_files(paths: Sequence[str | Path], config: "Config | None" = None
                     if e.is_dir(follow_symlinks=False):
                         stack.append(e.path)
                         continue
+                    content = None
                     if e.is_symlink():
                         if os.path.isdir(e.path):
                             continue
-                        rel = _rel(os.path.realpath(e.path), root)
+                        rel, content = _named(e.path, root)
                     else:
                         rel = e.name if real_folder == "." else f"{real_folder}/{e.name}"
+                        rel = printable_name(rel)
                 except OSError:
                     continue
-                found = _select(e.path, e.name, rel, config, known, e)
+                found = _select(e.path, e.name, rel, config, known, e, content)
                 if found is not None:
                     below.append(found)
         below.sort(key=lambda f: f.path)
@@ -114,7 +123,27 @@ def find_model_files(paths: Sequence[str | Path], config: "Config | None" = None
 
 
 def _rel(real: str, root: str) -> str:
-    return os.path.relpath(real, root).replace(os.sep, "/")
+    return printable_name(os.path.relpath(real, root).replace(os.sep, "/"))
+
+
+def _not_regular(path: str) -> bool:
+    try:
+        return not stat.S_ISREG(os.stat(path).st_mode)
+    except OSError:
+        return False  # missing, a link loop, unreadable: the loader says which
+
+
+def _named(full: str, root: str) -> tuple[str, bytes | None]:
+    """The identity of a file named or found as a link: its resolved path relative to the
+    root, or, for a link out of the repository, the link's own path, with no bytes (nothing
+    outside is read; the loader refuses it). A FIFO or device file gets no bytes either."""
+    real = os.path.realpath(full)
+    rel = _rel(real, root)
+    if rel == ".." or rel.startswith("../") or os.path.isabs(rel):
+        here = os.path.join(os.path.realpath(os.path.dirname(os.path.abspath(full))),
+                            os.path.basename(full))
+        return _rel(here, root), b""
+    return rel, (b"" if _not_regular(full) else None)
 
 
 def _stat(path: str, entry: os.DirEntry | None = None) -> os.stat_result | None:
@@ -124,12 +153,14 @@ def _stat(path: str, entry: os.DirEntry | None = None) -> os.stat_result | None:
         return None
 
 
-def _select(full: str, name: str, rel: str, config: "Config | None", known, entry
-            ) -> FoundFile | None:
+def _select(full: str, name: str, rel: str, config: "Config | None", known, entry,
+            content: bytes | None = None) -> FoundFile | None:
     if name == "pyproject.toml" or os.path.splitext(name)[1] not in MODEL_SUFFIXES:
         return None
     if config is not None and not config.is_model_path(rel):
         return None
+    if content is not None:  # a link out of the repository, or not a regular file: not read
+        return FoundFile(full, rel, content)
     st = _stat(full, entry) if known is not None else None  # before any read of the file
     if st is not None and known(rel, st):
         return FoundFile(full, rel, stat=st)
