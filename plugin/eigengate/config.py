@@ -229,11 +229,18 @@ def load_config(path: Path | None = None, *, start: Path | None = None) -> Confi
 
 
 def _strings(value: Any, source: str, key: str) -> tuple[str, ...]:
-    if isinstance(value, str):
-        value = [value]
+    if isinstance(value, str):  # `include = "models/*.yaml"`: a list was meant
+        raise ConfigError(source, key, f"must be a list of strings, got the string {value!r}",
+                          f"write {key.rsplit('.', 1)[-1]} = [{_quoted(value)}]")
     if not isinstance(value, list) or not all(isinstance(v, str) and v for v in value):
         raise ConfigError(source, key, f"must be a list of non-empty strings, got {value!r}")
     return tuple(value)
+
+
+def _quoted(value: str) -> str:
+    import json
+
+    return json.dumps(value, ensure_ascii=False)
 
 
 def _unknown(key: str, allowed: Sequence[str], source: str, where: str) -> ConfigError:
@@ -345,6 +352,9 @@ def parse_config(table: Mapping[str, Any], *, root: Path, source: str = "pyproje
         from .errors import ModelError
         from .waivers import parse_waivers
 
+        for i, item in enumerate(table["waivers"] if isinstance(table["waivers"], list) else ()):
+            if isinstance(item, Mapping) and isinstance(item.get("paths"), str):
+                _strings(item["paths"], source, f"waivers[{i}].paths")
         try:
             kw["waivers"] = parse_waivers(table["waivers"], source, "waivers", in_config=True)
         except ModelError as exc:
