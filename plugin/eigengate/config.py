@@ -105,7 +105,7 @@ class Config:
     # ------------------------------------------------------------------ selection
     def is_model_path(self, rel: str) -> bool:
         """Whether repository-relative ``rel`` is configured as a model file."""
-        if any(glob_match(rel, p) for p in self.exclude):
+        if self.is_excluded(rel):
             return False
         if self.include:
             return any(glob_match(rel, p) for p in self.include)
@@ -119,7 +119,28 @@ class Config:
         return not self.select or any(rule.startswith(p) for p in self.select)
 
     def severity_of(self, rule: str) -> str:
-        return self.severity.get(rule, "error")
+        from .rules import RULES
+
+        known = RULES.get(rule)
+        return self.severity.get(rule, known.severity if known is not None else "error")
+
+    def is_excluded(self, rel: str) -> bool:
+        """Whether repository-relative ``rel`` is left out on purpose (an exclude glob)."""
+        return any(glob_match(rel, p) for p in self.exclude)
+
+    def suggest_include(self, rel: str) -> str:
+        """A glob that would select model file ``rel``: an include pattern with the file's
+        suffix (``models/**/*.yaml`` → ``models/**/*.yml``), else its folder's files of its
+        suffix, else its own path."""
+        import posixpath
+
+        folder, name = posixpath.split(rel)
+        suffix = posixpath.splitext(name)[1]
+        for pattern in self.include:
+            stem, dot, ext = pattern.rpartition(".")
+            if dot and "/" not in ext and glob_match(rel, stem + suffix):
+                return stem + suffix
+        return f"{folder}/*{suffix}" if folder else rel
 
     @property
     def baseline_path(self) -> Path:
@@ -362,6 +383,7 @@ def parse_config(table: Mapping[str, Any], *, root: Path, source: str = "pyproje
     import hashlib
     import json
 
-    kw["digest"] = hashlib.sha256(json.dumps(table, sort_keys=True, default=str)
-                                  .encode()).hexdigest()
+    # the rule table is part of the key: results cached before a rule was added are not reused
+    kw["digest"] = hashlib.sha256(json.dumps([table, sorted(RULES)], sort_keys=True,
+                                             default=str).encode()).hexdigest()
     return Config(root=root, source=source, **kw)

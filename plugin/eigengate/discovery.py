@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import os
 from pathlib import Path
-from typing import TYPE_CHECKING, Callable, NamedTuple, Sequence
+from typing import TYPE_CHECKING, Callable, NamedTuple, Protocol, Sequence
 
 from .engine import MODEL_SUFFIXES
 
@@ -38,7 +38,7 @@ class FoundFile(NamedTuple):
     stat: os.stat_result | None = None
 
 
-def _sniff(path: str) -> tuple[bool, bytes | None]:
+def _sniff(path: str) -> tuple[bool | None, bytes | None]:
     """Whether a file looks like a model file (has a ``model_format`` key near its start),
     and its bytes when it does and is small enough to keep."""
     try:
@@ -51,12 +51,13 @@ def _sniff(path: str) -> tuple[bool, bytes | None]:
             rest = fh.read(_KEEP_BYTES)
             return True, (head + rest if len(rest) < _KEEP_BYTES else None)
     except OSError:
-        return True, None  # let the loader report why it cannot be read
+        return None, None  # cannot tell: as a selected file, the loader reports why
 
 
 def find_model_files(paths: Sequence[str | Path], config: "Config | None" = None, *,
                      filter_named: bool = False,
-                     known: Callable[[str, os.stat_result], bool] | None = None
+                     known: Callable[[str, os.stat_result], bool] | None = None,
+                     unselected: list[str] | None = None, sniffs: "Sniffs | None" = None
                      ) -> list[FoundFile]:
     """The model files below ``paths`` (folders are expanded, sorted; named files pass
     through, or are tested too with ``filter_named``: a pre-commit hook is handed every
@@ -65,7 +66,13 @@ def find_model_files(paths: Sequence[str | Path], config: "Config | None" = None
     With ``known``, every candidate's status is taken (before any read), and a file for which
     ``known(rel, stat)`` is true is taken as a model file without reading it (the result
     cache knows it, unchanged since it last read it).
+
+    With ``unselected`` (a list), the model files that the include globs miss (neither
+    included nor excluded, told by content) are appended to it as relative paths; ``sniffs``
+    (the result cache) remembers, by file status, what a file's content said, so an
+    unchanged file is not read again to tell.
     """
+    look = _Look(known, unselected, sniffs)
     root = os.path.realpath(config.root) if config is not None else os.path.realpath(".")
     out: list[FoundFile] = []
     for p in paths:
@@ -74,7 +81,7 @@ def find_model_files(paths: Sequence[str | Path], config: "Config | None" = None
             full = os.fspath(p)
             rel = _rel(os.path.realpath(full), root)
             if filter_named:
-                found = _select(full, os.path.basename(full), rel, config, known, None)
+                found = _select(full, os.path.basename(full), rel, config, look, None)
                 if found is not None:
                     out.append(found)
             else:
@@ -104,7 +111,7 @@ def find_model_files(paths: Sequence[str | Path], config: "Config | None" = None
                         rel = e.name if real_folder == "." else f"{real_folder}/{e.name}"
                 except OSError:
                     continue
-                found = _select(e.path, e.name, rel, config, known, e)
+                found = _select(e.path, e.name, rel, config, look, e)
                 if found is not None:
                     below.append(found)
         below.sort(key=lambda f: f.path)
@@ -123,16 +130,48 @@ def _stat(path: str, entry: os.DirEntry | None = None) -> os.stat_result | None:
         return None
 
 
-def _select(full: str, name: str, rel: str, config: "Config | None", known, entry
+class Sniffs(Protocol):
+    def sniffed(self, rel: str, st: os.stat_result) -> bool | None: ...
+
+    def note_sniff(self, rel: str, st: os.stat_result | None, is_model: bool) -> None: ...
+
+
+class _Look(NamedTuple):
+    known: Callable[[str, os.stat_result], bool] | None
+    unselected: list[str] | None
+    sniffs: "Sniffs | None"
+
+
+def _has_key(full: str, rel: str, st: os.stat_result | None, sniffs) -> bool:
+    """Whether the file has a ``model_format`` key, from the status record when unchanged."""
+    said = sniffs.sniffed(rel, st) if sniffs is not None and st is not None else None
+    if said is None:
+        said = _sniff(full)[0]
+        if said is None:  # unreadable: nothing to say about it
+            return False
+        if sniffs is not None:
+            sniffs.note_sniff(rel, st, said)
+    return said
+
+
+def _select(full: str, name: str, rel: str, config: "Config | None", look: _Look, entry
             ) -> FoundFile | None:
     if name == "pyproject.toml" or os.path.splitext(name)[1] not in MODEL_SUFFIXES:
         return None
+    known = look.known
     if config is not None and not config.is_model_path(rel):
+        if look.unselected is not None and config.include and not config.is_excluded(rel):
+            if _has_key(full, rel, _stat(full, entry) if look.sniffs else None, look.sniffs):
+                look.unselected.append(rel)
         return None
     st = _stat(full, entry) if known is not None else None  # before any read of the file
     if st is not None and known(rel, st):
         return FoundFile(full, rel, stat=st)
     if config is not None and config.include:  # selected by name: no need to look inside
         return FoundFile(full, rel, stat=st)
+    if look.sniffs is not None and st is not None and look.sniffs.sniffed(rel, st) is False:
+        return None  # unchanged since its content said it is no model file
     is_model, content = _sniff(full)
-    return FoundFile(full, rel, content, st) if is_model else None
+    if is_model is False and look.sniffs is not None:
+        look.sniffs.note_sniff(rel, st, False)
+    return None if is_model is False else FoundFile(full, rel, content, st)

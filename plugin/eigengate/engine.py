@@ -17,7 +17,7 @@ if TYPE_CHECKING:  # pragma: no cover
 
 __all__ = ["ModelResult", "FileResult", "analyse_model", "apply_waivers", "check_model",
            "analyse_file", "file_result", "check_file", "check_paths",
-           "discover_model_files", "policy_findings", "MODEL_SUFFIXES"]
+           "discover_model_files", "policy_findings", "unselected_findings", "MODEL_SUFFIXES"]
 
 MODEL_SUFFIXES = (".yaml", ".yml", ".toml", ".json")
 
@@ -72,10 +72,24 @@ def analyse_model(model: Model, config: "Config | None" = None) -> ModelResult:
     if config is not None:
         model = config.effective(model)
     spectrum = analyse(model)
-    verdicts = evaluate(spectrum)
+    verdicts = evaluate(spectrum) or (_nothing_checked(),)
     remaining, _ = split_known_modes(spectrum, model.known_modes)
     return ModelResult(model=model, spectrum=spectrum, equilibrium=classify(remaining),
                        verdicts=verdicts, findings=tuple(findings_of(model, verdicts, config)))
+
+
+def _nothing_checked():
+    """The verdict of a model that no requirement applies to: it is not a pass (EG005)."""
+    from .rules import RULES, Verdict
+
+    return Verdict(
+        rule="EG005", name=RULES["EG005"].name, requirement="requirements", passed=False,
+        uncertain=False, measured="none", threshold="at least one requirement", margin=None,
+        unit="", offending=(),
+        message="no requirement applies to this model (none in the file, none from the "
+                "policy): nothing was checked",
+        suggestion="add requirements: {stable: true} to the model file, or "
+                   "[tool.eigengate.requirements] stable = true to the policy")
 
 
 def apply_waivers(result: ModelResult, config: "Config | None" = None,
@@ -163,6 +177,24 @@ def check_paths(paths: Iterable[str | Path], root: str | Path | None = None,
     """Check every model file under ``paths``; one bad file never stops the others."""
     return [check_file(f, root=root, config=config, on=on)
             for f in discover_model_files(list(paths), config)]
+
+
+def unselected_findings(config: "Config", rels: Sequence[str]) -> list[Finding]:
+    """One EG004 finding per model file (found by its ``model_format`` key) that the include
+    patterns do not select, with a pattern that would."""
+    from .rules import RULES
+
+    rule = "EG004"
+    if not config.rule_enabled(rule):
+        return []
+    where = config.source or "pyproject.toml"
+    return [Finding(rule=rule, name=RULES[rule].name, severity=config.severity_of(rule),
+                    source=rel, line=None, model="", label=None, requirement="include",
+                    message=f"{rel} declares model_format but no include pattern of {where} "
+                            f"selects it: it is not checked",
+                    suggestion=f"add \"{config.suggest_include(rel)}\" to include, or the file "
+                               f"to exclude to leave it out on purpose")
+            for rel in rels]
 
 
 def policy_findings(config: "Config", results: Sequence[FileResult],

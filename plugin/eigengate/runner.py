@@ -20,7 +20,8 @@ from typing import Callable, Sequence
 
 from .config import Config
 from .discovery import find_model_files
-from .engine import FileResult, analyse_file, file_result, policy_findings
+from .engine import (FileResult, analyse_file, file_result, policy_findings,
+                     unselected_findings)
 from .findings import Finding
 
 __all__ = ["Scan", "scan", "default_jobs"]
@@ -115,8 +116,9 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named)
     from .cache import ResultCache
 
     cache = ResultCache(config.root, config.digest) if use_cache else None
+    unselected: list[str] = []
     files = find_model_files(
-        list(paths), config, filter_named=filter_named,
+        list(paths), config, filter_named=filter_named, unselected=unselected, sniffs=cache,
         known=None if cache is None else lambda rel, st: cache.known_key(rel, st) is not None)
     slots: list[tuple | None] = [None] * len(files)
     todo: list[tuple[int, str, str | None]] = []
@@ -181,8 +183,8 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named)
     if cache is not None:
         cache.save()
     out = tuple(file_result(s, r, e, config, on) for s, r, e in slots)  # type: ignore[misc]
-    return Scan(files=out, policy=tuple(policy_findings(config, out, on)), cache_hits=hits,
-                analysed=len(todo))
+    policy = unselected_findings(config, sorted(unselected)) + policy_findings(config, out, on)
+    return Scan(files=out, policy=tuple(policy), cache_hits=hits, analysed=len(todo))
 
 
 def _chunk_work(paths: list[str]) -> list[tuple[dict, list, list[str], bool]]:
