@@ -159,6 +159,8 @@ def _select(full: str, name: str, rel: str, config: "Config | None", look: _Look
     if name == "pyproject.toml" or os.path.splitext(name)[1] not in MODEL_SUFFIXES:
         return None
     known = look.known
+    if config is not None:
+        config = config.policy_for(rel)  # the nearest policy selects the files of its folder
     if config is not None and not config.is_model_path(rel):
         if look.unselected is not None and config.include and not config.is_excluded(rel):
             if _has_key(full, rel, _stat(full, entry) if look.sniffs else None, look.sniffs):

@@ -70,6 +70,7 @@ def analyse_model(model: Model, config: "Config | None" = None) -> ModelResult:
     from .requirements import evaluate, split_known_modes
 
     if config is not None:
+        config = config.policy_for(model.source)  # a nested policy judges its own folder
         model = config.effective(model)
     spectrum = analyse(model)
     verdicts = evaluate(spectrum) or (_nothing_checked(),)
@@ -96,6 +97,7 @@ def apply_waivers(result: ModelResult, config: "Config | None" = None,
                   on: "datetime.date | None" = None) -> ModelResult:
     """Set aside the findings that a live waiver of the model file or the policy accepts."""
     model = result.model
+    config = config.policy_for(model.source) if config is not None else None
     waivers = model.waivers + (config.waivers_for(model.source) if config else ())
     if not waivers:
         return result
@@ -144,9 +146,14 @@ def analyse_file(path: str | Path, root: str | Path | None = None,
 
     if root is None and config is not None:
         root = config.root
+    allow = False
+    if config is not None:
+        import os
+
+        rel = os.path.relpath(os.path.realpath(path), os.path.realpath(config.root))
+        allow = config.policy_for(rel.replace(os.sep, "/")).allow_python
     try:
-        models, refs = load_models_with_refs(
-            path, root=root, allow_python=bool(getattr(config, "allow_python", False)))
+        models, refs = load_models_with_refs(path, root=root, allow_python=allow)
         return models[0].source, tuple(analyse_model(m, config) for m in models), None, refs
     except ModelError as exc:
         return exc.source, (), exc, []
@@ -185,16 +192,20 @@ def unselected_findings(config: "Config", rels: Sequence[str]) -> list[Finding]:
     from .rules import RULES
 
     rule = "EG004"
-    if not config.rule_enabled(rule):
-        return []
-    where = config.source or "pyproject.toml"
-    return [Finding(rule=rule, name=RULES[rule].name, severity=config.severity_of(rule),
-                    source=rel, line=None, model="", label=None, requirement="include",
-                    message=f"{rel} declares model_format but no include pattern of {where} "
-                            f"selects it: it is not checked",
-                    suggestion=f"add \"{config.suggest_include(rel)}\" to include, or the file "
-                               f"to exclude to leave it out on purpose")
-            for rel in rels]
+    out = []
+    for rel in rels:
+        policy = config.policy_for(rel)
+        if not policy.rule_enabled(rule):
+            continue
+        where = policy.source or "pyproject.toml"
+        out.append(Finding(
+            rule=rule, name=RULES[rule].name, severity=policy.severity_of(rule), source=rel,
+            line=None, model="", label=None, requirement="include",
+            message=f"{rel} declares model_format but no include pattern of {where} selects "
+                    f"it: it is not checked",
+            suggestion=f"add \"{policy.suggest_include(rel)}\" to include, or the file to "
+                       f"exclude to leave it out on purpose"))
+    return out
 
 
 def policy_findings(config: "Config", results: Sequence[FileResult],
@@ -203,4 +214,6 @@ def policy_findings(config: "Config", results: Sequence[FileResult],
     from .waivers import today, waiver_findings
 
     used = [w for fr in results for w in fr.used_waivers]
-    return waiver_findings(config.waivers, used, on or today())
+    # each policy's own waivers (a nested policy's are resolved within its folder)
+    return [f for policy in config.policies()
+            for f in waiver_findings(policy.waivers, used, on or today())]

@@ -123,8 +123,11 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named)
     slots: list[tuple | None] = [None] * len(files)
     todo: list[tuple[int, str, str | None]] = []
     hits = 0
+    nested: dict[int, list[str]] = {}  # a nested policy's files: references of the entries
     for i, f in enumerate(files):
         files[i] = None  # type: ignore[call-overload]  # its bytes are not kept past here
+        if config._folders and config.policy_for(f.rel).policy_files:
+            nested[i] = list(config.policy_for(f.rel).policy_files)
         key = None
         if cache is not None:
             key = None if f.stat is None else cache.known_key(f.rel, f.stat)
@@ -159,13 +162,13 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named)
         source, results, error, refs = analyse_file(path, config.root, config)
         if cache is not None and key is not None and error is None:
             data, blobs = results_to_data(source, results, error)
-            cache.put(key, data, blobs.items, refs)
+            cache.put(key, data, blobs.items, refs + nested.get(i, []))
         slots[i] = (source, results, error)
 
     def remote(items, outcome) -> None:
         for (i, _, key), (data, blobs, refs, ok) in zip(items, outcome):
             if cache is not None and key is not None and ok:
-                cache.put(key, data, blobs, refs)
+                cache.put(key, data, blobs, refs + nested.get(i, []))
             slots[i] = results_from_data(data, Blobs(blobs))
 
     def step(n: int) -> None:
