@@ -125,3 +125,33 @@ def test_pytest_accepts_into_each_policys_baseline(pytester):
                            ("teamA/sub", "teamA/sub/m.yaml")):
         data = json.loads((pytester.path / folder / ".eigengate" / "baseline.json").read_text())
         assert sorted(data["models"]) == [source]
+
+
+def test_a_bad_nested_policy_is_a_usage_error_naming_its_file(mono, pytester):
+    write(mono / "teamA" / "pyproject.toml", '[tool.eigengate]\nextend = "yes"\n')
+    out = run_cli("check", cwd=mono)
+    assert out.returncode == 2
+    assert out.stderr.strip() == (
+        "eigengate: error: teamA/pyproject.toml: [tool.eigengate] extend must be true or "
+        "false, got 'yes' (true layers this policy on the one of the folder above)")
+    build(pytester.path)
+    write(pytester.path / "teamA" / "pyproject.toml", '[tool.eigengate]\nextend = "yes"\n')
+    result = pytester.runpytest("-p", "no:cacheprovider")
+    assert result.ret == pytest.ExitCode.INTERRUPTED  # collection stops, naming the policy
+    assert "eigengate: teamA/pyproject.toml: [tool.eigengate] extend must be true or false" \
+        in result.stdout.str()
+
+
+def test_a_changed_nested_policy_is_not_served_from_the_cache(mono, monkeypatch):
+    import eigengate.cache as cache_mod
+    from eigengate.config import load_config
+    from eigengate.runner import scan
+
+    monkeypatch.setattr(cache_mod, "_RACY_NS", 0)  # the files were written just now
+    first = scan([mono], load_config(start=mono), jobs=1)
+    assert first.analysed == 3
+    # team A's requirement relaxed to ζ ≥ 0.05: the oscillator's ζ = 0.1 now passes it
+    write(mono / "teamA" / "pyproject.toml", TEAM_POLICY.replace("0.3", "0.05"))
+    again = scan([mono], load_config(start=mono), jobs=1)
+    a = next(f for f in again.files if f.source == "teamA/models/a.yaml")
+    assert a.findings == () and again.cache_hits == 1  # only the root's model was reused

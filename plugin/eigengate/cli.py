@@ -126,6 +126,8 @@ def _normalise(argv: list[str]) -> list[str]:
 
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line; return the exit status."""
+    from .config import ConfigError
+
     parser = _parser()
     try:
         args = parser.parse_args(_normalise(list(sys.argv[1:] if argv is None else argv)))
@@ -142,6 +144,9 @@ def main(argv: Sequence[str] | None = None) -> int:
             return _accept(args)
         return _check(args)
     except UsageError as exc:
+        print(f"eigengate: error: {exc}", file=sys.stderr)
+        return Exit.USAGE
+    except ConfigError as exc:  # a nested policy, met during the scan
         print(f"eigengate: error: {exc}", file=sys.stderr)
         return Exit.USAGE
     except KeyboardInterrupt:  # pragma: no cover - interactive

@@ -60,8 +60,13 @@ class Selection:
             return False
         if any(part.startswith(".") for part in rel.split("/")):
             return False
-        if not self.config.is_model_path(rel):
-            return False
+        from .config import ConfigError
+
+        try:
+            if not self.config.is_model_path(rel):  # by the nearest policy
+                return False
+        except ConfigError as exc:  # a nested policy is wrong: stop, as for the root's
+            raise pytest.UsageError(f"eigengate: {exc}") from None
         return not self.globs or any(glob_match(rel, g) for g in self.globs)
 
 
