@@ -30,6 +30,11 @@ verdict. Keys::
 Requirement layers apply in order: repository defaults, each matching override, the model
 file's own ``requirements:``; each layer replaces rules of the same id and may switch one off
 with ``false``.
+
+Nested policies (a sub-folder's own policy file) judge the files of their folder
+(:meth:`Config.policy_for`, nearest wins); ``extend = true`` layers one on its parent. Their
+globs are stored relative to the outermost policy's folder, which model sources are relative
+to, and each keeps its own baseline next to it.
 """
 
 from __future__ import annotations
