@@ -40,12 +40,12 @@ to, and each keeps its own baseline next to it.
 from __future__ import annotations
 
 import difflib
-import sys
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Mapping, Sequence
 
 from ._glob import glob_match
+from ._policyfiles import find_config, find_top_config, policy_file, read_table
 from .errors import EigengateError
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -135,7 +135,7 @@ class Config:
         if folder in ("", ".") or folder == ".." or folder.startswith(("../", "/")):
             return memo.get("", self)
         parent = self._folder_policy(posixpath.dirname(folder))
-        found = _policy_file(self.root / folder)
+        found = policy_file(self.root / folder)
         got = parent if found is None else _load_nested(found, self.root, folder, parent, memo)
         memo[folder] = got
         return got
@@ -259,50 +259,6 @@ class Config:
                        on_uncertain=model.on_uncertain or self.on_uncertain_for(model.source))
 
 
-def find_config(start: Path) -> Path | None:
-    """Nearest pyproject.toml with a ``[tool.eigengate]`` table, or eigengate.toml, at or above
-    ``start``."""
-    start = start.resolve()
-    for folder in (start, *start.parents) if start.is_dir() else (start.parent,
-                                                                  *start.parent.parents):
-        found = _policy_file(folder)
-        if found is not None:
-            return found
-    return None
-
-
-def find_top_config(start: Path) -> Path | None:
-    """The outermost policy file at or above ``start``, up to the folder holding ``.git``:
-    the one whose folder every model source is relative to (nested policies below it judge
-    their own folders)."""
-    found = find_config(start)
-    top = found
-    while top is not None and not (top.parent / ".git").exists() and \
-            top.parent.parent != top.parent:
-        outer = find_config(top.parent.parent)
-        if outer is None:
-            break
-        top = outer
-    return top
-
-
-def _policy_file(folder: Path) -> Path | None:
-    """The policy file of ``folder``: eigengate.toml, or a pyproject.toml that has a
-    [tool.eigengate] table."""
-    own = folder / "eigengate.toml"
-    if own.is_file():
-        return own
-    py = folder / "pyproject.toml"
-    if py.is_file():
-        try:
-            text = py.read_text(encoding="utf-8")
-        except (OSError, UnicodeDecodeError):
-            return None
-        if "tool.eigengate" in text:
-            return py
-    return None
-
-
 def _rebase(pattern: str, base: str) -> str:
     """A glob of a nested policy (relative to its folder ``base``) relative to the root."""
     if not base:
@@ -318,17 +274,9 @@ def _local(pattern: str, base: str) -> str:
 
 
 def _load_nested(path: Path, root: Path, base: str, parent: "Config", memo: dict) -> "Config":
-    table = _read_table(path, f"{base}/{path.name}")
+    table = read_table(path, f"{base}/{path.name}")
     return parse_config(table, root=root, source=f"{base}/{path.name}", base=base,
                         parent=parent, folders=memo)
-
-
-def _toml_loads(text: str):
-    if sys.version_info >= (3, 11):
-        import tomllib
-    else:  # pragma: no cover - exercised on Python 3.10
-        import tomli as tomllib
-    return tomllib.loads(text)
 
 
 def load_config(path: Path | None = None, *, start: Path | None = None) -> Config:
@@ -345,22 +293,8 @@ def load_config(path: Path | None = None, *, start: Path | None = None) -> Confi
         base = (start or Path.cwd()).resolve()
         return Config(root=find_root(base / "_") if base.is_dir() else find_root(base))
     path = Path(path)
-    return parse_config(_read_table(path, str(path)), root=path.resolve().parent,
+    return parse_config(read_table(path, str(path)), root=path.resolve().parent,
                         source=path.name)
-
-
-def _read_table(path: Path, shown: str) -> Any:
-    try:
-        table = _toml_loads(path.read_text(encoding="utf-8"))
-    except FileNotFoundError:
-        raise ConfigError(shown, "", "does not exist") from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise ConfigError(shown, "", f"cannot be read: {exc}") from None
-    except ValueError as exc:  # tomllib.TOMLDecodeError
-        raise ConfigError(shown, "", f"is not valid TOML: {exc}") from None
-    if path.name == "pyproject.toml":
-        table = table.get("tool", {}).get("eigengate", {})
-    return table
 
 
 def _strings(value: Any, source: str, key: str) -> tuple[str, ...]:

@@ -1,0 +1,78 @@
+"""Policy files: where they are (``eigengate.toml``, or a ``pyproject.toml`` with a
+``[tool.eigengate]`` table), the outermost one at or above a folder, and reading their table."""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+from typing import Any
+
+__all__ = ["find_config", "find_top_config", "policy_file", "read_table"]
+
+
+def find_config(start: Path) -> Path | None:
+    """Nearest pyproject.toml with a ``[tool.eigengate]`` table, or eigengate.toml, at or above
+    ``start``."""
+    start = start.resolve()
+    for folder in (start, *start.parents) if start.is_dir() else (start.parent,
+                                                                  *start.parent.parents):
+        found = policy_file(folder)
+        if found is not None:
+            return found
+    return None
+
+
+def find_top_config(start: Path) -> Path | None:
+    """The outermost policy file at or above ``start``, up to the folder holding ``.git``:
+    the one whose folder every model source is relative to (nested policies below it judge
+    their own folders)."""
+    found = find_config(start)
+    top = found
+    while top is not None and not (top.parent / ".git").exists() and \
+            top.parent.parent != top.parent:
+        outer = find_config(top.parent.parent)
+        if outer is None:
+            break
+        top = outer
+    return top
+
+
+def policy_file(folder: Path) -> Path | None:
+    """The policy file of ``folder``: eigengate.toml, or a pyproject.toml that has a
+    [tool.eigengate] table."""
+    own = folder / "eigengate.toml"
+    if own.is_file():
+        return own
+    py = folder / "pyproject.toml"
+    if py.is_file():
+        try:
+            text = py.read_text(encoding="utf-8")
+        except (OSError, UnicodeDecodeError):
+            return None
+        if "tool.eigengate" in text:
+            return py
+    return None
+
+
+def _toml_loads(text: str):
+    if sys.version_info >= (3, 11):
+        import tomllib
+    else:  # pragma: no cover - exercised on Python 3.10
+        import tomli as tomllib
+    return tomllib.loads(text)
+
+
+def read_table(path: Path, shown: str) -> Any:
+    from .config import ConfigError
+
+    try:
+        table = _toml_loads(path.read_text(encoding="utf-8"))
+    except FileNotFoundError:
+        raise ConfigError(shown, "", "does not exist") from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise ConfigError(shown, "", f"cannot be read: {exc}") from None
+    except ValueError as exc:  # tomllib.TOMLDecodeError
+        raise ConfigError(shown, "", f"is not valid TOML: {exc}") from None
+    if path.name == "pyproject.toml":
+        table = table.get("tool", {}).get("eigengate", {})
+    return table
