@@ -155,3 +155,20 @@ def test_a_changed_nested_policy_is_not_served_from_the_cache(mono, monkeypatch)
     again = scan([mono], load_config(start=mono), jobs=1)
     a = next(f for f in again.files if f.source == "teamA/models/a.yaml")
     assert a.findings == () and again.cache_hits == 1  # only the root's model was reused
+
+
+def test_a_nested_policy_added_later_judges_its_folder_at_once(mono, monkeypatch):
+    import eigengate.cache as cache_mod
+    from eigengate.config import load_config
+    from eigengate.runner import scan
+
+    monkeypatch.setattr(cache_mod, "_RACY_NS", 0)  # the files were written just now
+    (mono / "teamA" / "pyproject.toml").unlink()
+    (mono / "teamA" / "sub" / "pyproject.toml").unlink()
+    first = scan([mono], load_config(start=mono), jobs=1)
+    assert all(f.findings == () for f in first.files)  # the root's stable = true passes all
+    write(mono / "teamA" / "pyproject.toml", TEAM_POLICY)
+    again = scan([mono], load_config(start=mono), jobs=1)
+    found = {f.source: sorted(x.rule for x in f.findings) for f in again.files}
+    assert found == {"models/r.yaml": [], "teamA/models/a.yaml": ["EG103"],
+                     "teamA/sub/m.yaml": ["EG103"]}

@@ -26,14 +26,11 @@ def find_top_config(start: Path) -> Path | None:
     """The outermost policy file at or above ``start``, up to the folder holding ``.git``:
     the one whose folder every model source is relative to (nested policies below it judge
     their own folders)."""
-    found = find_config(start)
-    top = found
-    while top is not None and not (top.parent / ".git").exists() and \
-            top.parent.parent != top.parent:
-        outer = find_config(top.parent.parent)
-        if outer is None:
-            break
-        top = outer
+    top = find_config(start)
+    folder = None if top is None else top.parent
+    while folder is not None and not (folder / ".git").exists() and folder.parent != folder:
+        folder = folder.parent
+        top = policy_file(folder) or top
     return top
 
 

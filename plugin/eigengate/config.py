@@ -111,8 +111,6 @@ class Config:
     #: model sources are relative to); its globs are stored relative to ``root``.
     base: str = ""
     inherited: tuple[Layer, ...] = ()  # requirement layers of the policies it extends
-    #: Root-relative policy files a nested policy's verdicts depend on (cache references).
-    policy_files: tuple[str, ...] = ()
     #: folder (relative to root) → the policy that governs it; shared by a tree of policies
     _folders: dict = field(default_factory=dict, compare=False, repr=False)
 
@@ -462,7 +460,7 @@ def _nest(kw: dict[str, Any], base: str, source: str) -> None:
     kw["waivers"] = tuple(replace(w, paths=tuple(_rebase(p, base) for p in w.paths))
                           for w in kw.get("waivers", ()))
     kw["baseline"] = f"{base}/{kw.get('baseline', Config.baseline)}"
-    kw["base"], kw["policy_files"] = base, (source,)
+    kw["base"] = base
 
 
 def _inherit(kw: dict[str, Any], parent: Config) -> None:
@@ -473,4 +471,3 @@ def _inherit(kw: dict[str, Any], parent: Config) -> None:
     kw["severity"] = {**parent.severity, **kw.get("severity", {})}
     kw["overrides"] = parent.overrides + tuple(kw.get("overrides", ()))
     kw["inherited"] = parent.inherited + (parent.requirements,)
-    kw["policy_files"] = parent.policy_files + tuple(kw.get("policy_files", ()))

@@ -119,18 +119,17 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named)
     unselected: list[str] = []
     files = find_model_files(
         list(paths), config, filter_named=filter_named, unselected=unselected, sniffs=cache,
-        known=None if cache is None else lambda rel, st: cache.known_key(rel, st) is not None)
+        known=None if cache is None else
+        lambda rel, st: cache.known_key(_cache_name(config, rel), st) is not None)
     slots: list[tuple | None] = [None] * len(files)
     todo: list[tuple[int, str, str | None]] = []
     hits = 0
-    nested: dict[int, list[str]] = {}  # a nested policy's files: references of the entries
     for i, f in enumerate(files):
         files[i] = None  # type: ignore[call-overload]  # its bytes are not kept past here
-        if config._folders and config.policy_for(f.rel).policy_files:
-            nested[i] = list(config.policy_for(f.rel).policy_files)
         key = None
         if cache is not None:
-            key = None if f.stat is None else cache.known_key(f.rel, f.stat)
+            name = _cache_name(config, f.rel)
+            key = None if f.stat is None else cache.known_key(name, f.stat)
             if key is None:
                 content = f.content
                 if content is None:
@@ -140,8 +139,8 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named)
                     except OSError:
                         content = None
                 if content is not None:
-                    key = cache.key(f.rel, content)
-                    cache.note_key(f.rel, f.stat, key)
+                    key = cache.key(name, content)
+                    cache.note_key(name, f.stat, key)
             if key is not None:
                 hit = cache.get(key)
                 if hit is not None:
@@ -162,13 +161,13 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named)
         source, results, error, refs = analyse_file(path, config.root, config)
         if cache is not None and key is not None and error is None:
             data, blobs = results_to_data(source, results, error)
-            cache.put(key, data, blobs.items, refs + nested.get(i, []))
+            cache.put(key, data, blobs.items, refs)
         slots[i] = (source, results, error)
 
     def remote(items, outcome) -> None:
         for (i, _, key), (data, blobs, refs, ok) in zip(items, outcome):
             if cache is not None and key is not None and ok:
-                cache.put(key, data, blobs, refs + nested.get(i, []))
+                cache.put(key, data, blobs, refs)
             slots[i] = results_from_data(data, Blobs(blobs))
 
     def step(n: int) -> None:
@@ -188,6 +187,13 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named)
     out = tuple(file_result(s, r, e, config, on) for s, r, e in slots)  # type: ignore[misc]
     policy = unselected_findings(config, sorted(unselected)) + policy_findings(config, out, on)
     return Scan(files=out, policy=tuple(policy), cache_hits=hits, analysed=len(todo))
+
+
+def _cache_name(config: Config, rel: str) -> str:
+    """A model file's name in the cache: its path, qualified by the digest of the nested
+    policy that judges it (so adding, changing or removing one is never served stale)."""
+    policy = config.policy_for(rel)
+    return rel if policy is config else f"{rel}\0{policy.digest}"
 
 
 def _chunk_work(paths: list[str]) -> list[tuple[dict, list, list[str], bool]]:
