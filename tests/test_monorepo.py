@@ -172,3 +172,13 @@ def test_a_nested_policy_added_later_judges_its_folder_at_once(mono, monkeypatch
     found = {f.source: sorted(x.rule for x in f.findings) for f in again.files}
     assert found == {"models/r.yaml": [], "teamA/models/a.yaml": ["EG103"],
                      "teamA/sub/m.yaml": ["EG103"]}
+
+
+def test_pytest_run_inside_the_sub_folder_agrees(pytester, monkeypatch):
+    build(pytester.path)
+    monkeypatch.chdir(pytester.path / "teamA" / "sub")
+    result = pytester.runpytest("-p", "no:cacheprovider", "--rootdir", ".", "m.yaml")
+    result.assert_outcomes(failed=1)
+    text = result.stdout.str()
+    # the same source as from the root, and the same verdicts as EXPECTED
+    assert "teamA/sub/m.yaml:" in text and "FAIL  EG102" in text and "warn  EG103" in text
