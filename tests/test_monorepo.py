@@ -182,3 +182,25 @@ def test_pytest_run_inside_the_sub_folder_agrees(pytester, monkeypatch):
     text = result.stdout.str()
     # the same source as from the root, and the same verdicts as EXPECTED
     assert "teamA/sub/m.yaml:" in text and "FAIL  EG102" in text and "warn  EG103" in text
+
+
+def test_waivers_and_overrides_of_a_nested_policy_are_relative_to_its_folder(mono):
+    write(mono / "teamA" / "pyproject.toml", TEAM_POLICY + """\
+        [[tool.eigengate.overrides]]
+        paths = ["sub/**"]
+        requirements = { min_damping = 0.05 }
+        [[tool.eigengate.waivers]]
+        rule = "EG103"
+        paths = ["models/a.yaml"]
+        reason = "retune in review"
+        """)
+    for where, args in (("", []), ("teamA/models", ["a.yaml"])):
+        out = run_cli("check", "--format", "json", "--no-baseline", *args, cwd=mono / where)
+        data = json.loads(out.stdout)
+        models = {fr["source"]: m for fr in data["files"] for m in fr["models"]}
+        a = models["teamA/models/a.yaml"]
+        assert a["findings"] == [] and [w["rule"] for w in a["waived"]] == ["EG103"]
+        if not args:
+            # sub extends team A: the override (ζ ≥ 0.05) passes ζ = 0.1; EG102 still fails
+            sub = models["teamA/sub/m.yaml"]
+            assert sorted(f["rule"] for f in sub["findings"]) == ["EG102"]
