@@ -289,7 +289,8 @@ def load_config(path: Path | None = None, *, start: Path | None = None) -> Confi
         from .loader import find_root
 
         base = (start or Path.cwd()).resolve()
-        return Config(root=find_root(base / "_") if base.is_dir() else find_root(base))
+        return parse_config({}, root=find_root(base / "_") if base.is_dir() else
+                            find_root(base), source=None)  # the defaults, with their digest
     path = Path(path)
     return parse_config(read_table(path, str(path)), root=path.resolve().parent,
                         source=path.name)
@@ -342,7 +343,7 @@ def _drift(value: Any, source: str, key: str) -> None:
         raise ConfigError(source, exc.field, exc.problem, exc.hint) from None
 
 
-def parse_config(table: Mapping[str, Any], *, root: Path, source: str = "pyproject.toml",
+def parse_config(table: Mapping[str, Any], *, root: Path, source: str | None = "pyproject.toml",
                  base: str = "", parent: Config | None = None,
                  folders: dict | None = None) -> Config:
     """Validate a ``[tool.eigengate]`` table (already parsed); a nested policy names its
