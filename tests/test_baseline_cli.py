@@ -23,7 +23,8 @@ def repo(tmp_path):
     (tmp_path / "models").mkdir()
     (tmp_path / "models" / "lift.yaml").write_text(lift(2.08), encoding="utf-8")
     (tmp_path / "models" / "spare.yaml").write_text(
-        "model_format: 1\nname: spare\nplant:\n  A: [[-3]]\n", encoding="utf-8")
+        "model_format: 1\nname: spare\nplant:\n  A: [[-3]]\nrequirements:\n  stable: true\n",
+        encoding="utf-8")  # one pole at -3: stable (Hurwitz)
     return tmp_path
 
 

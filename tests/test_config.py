@@ -79,7 +79,7 @@ def test_select_and_ignore_filter_rules(tmp_path):
 
 @pytest.mark.parametrize("table, needle", [
     ({"inclde": ["*.yaml"]}, "inclde is not a known key (did you mean 'include'?)"),
-    ({"include": "*.yaml", "exclude": [3]}, "exclude must be a list of non-empty strings, got [3]"),
+    ({"include": ["*.yaml"], "exclude": [3]}, "exclude must be a list of non-empty strings, got [3]"),
     ({"on_uncertain": "maybe"}, "on_uncertain must be 'fail' or 'pass', got 'maybe'"),
     ({"severity": {"EG103": "loud"}}, "severity.EG103 must be one of error, warning, off, got 'loud'"),
     ({"severity": {"EG999": "off"}}, "severity.EG999 is not a known key"),
@@ -109,3 +109,35 @@ def test_include_and_exclude_drive_discovery(tmp_path):
     cfg = load_config(start=tmp_path)
     found = [p.relative_to(tmp_path).as_posix() for p in discover_model_files([tmp_path], cfg)]
     assert found == ["models/a.yaml"]
+
+
+@pytest.mark.parametrize("table, key", [
+    ({"include": "models/*.yaml"}, "include"),
+    ({"exclude": "models/attic/**"}, "exclude"),
+    ({"select": "EG1"}, "select"),
+    ({"ignore": "EG104"}, "ignore"),
+    ({"overrides": [{"paths": "models/mast/**"}]}, "overrides[0].paths"),
+    ({"waivers": [{"rule": "EG103", "reason": "r", "paths": "models/x.yaml"}]},
+     "waivers[0].paths"),
+])
+def test_a_single_string_where_a_list_is_expected_is_refused(tmp_path, table, key):
+    """``include = "models/*.yaml"`` is a common slip: refused, naming pyproject.toml, the
+    key, the string found and the list expected (every list-valued key alike)."""
+    with pytest.raises(ConfigError) as info:
+        parse_config(table, root=tmp_path, source="pyproject.toml")
+    text = str(info.value)
+    assert text.startswith(f"pyproject.toml: [tool.eigengate] {key} must be a list")
+    value = next(iter(table.values()))
+    found = value if isinstance(value, str) else value[0]["paths"]
+    assert f"got the string {found!r}" in text
+    assert f'["{found}"]' in text  # the spelling that works
+
+
+def test_a_string_include_is_refused_when_read_from_the_file(tmp_path):
+    pyproject(tmp_path, """\
+        [tool.eigengate]
+        include = "models/*.yaml"
+        """)
+    with pytest.raises(ConfigError, match=r"pyproject.toml: \[tool.eigengate\] include must "
+                                          r"be a list"):
+        load_config(start=tmp_path)

@@ -10,6 +10,9 @@ POLICY = """\
     [tool.eigengate]
     include = ["models/**/*.yaml"]
 
+    [tool.eigengate.requirements]
+    stable = true
+
     [[tool.eigengate.waivers]]
     rule = "EG103"
     reason = "mast retune scheduled"

@@ -141,6 +141,8 @@ def _normalise(argv: list[str]) -> list[str]:
 
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line; return the exit status."""
+    from .scan.config import ConfigError
+
     parser = _parser()
     try:
         args = parser.parse_args(_normalise(list(sys.argv[1:] if argv is None else argv)))
@@ -153,6 +155,9 @@ def main(argv: Sequence[str] | None = None) -> int:
     except BrokenPipeError:
         return _closed_pipe()
     except UsageError as exc:
+        print(f"eigengate: error: {exc}", file=sys.stderr)
+        return Exit.USAGE
+    except ConfigError as exc:  # a nested policy, met during the scan
         print(f"eigengate: error: {exc}", file=sys.stderr)
         return Exit.USAGE
     except KeyboardInterrupt:  # pragma: no cover - interactive

@@ -78,6 +78,8 @@ def test_model_unreadable_at_the_revision_is_its_own_finding(repo):
         name: tail
         plant:
           A: [[-1, 0], [0, -2]]
+        requirements:
+          stable: true
         """)
     proc = run_cli("check", "--against", "broken", "--format", "json", "--no-cache", cwd=repo)
     found = findings(proc)

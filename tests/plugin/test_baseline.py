@@ -26,7 +26,8 @@ def first_order(name: str, poles: dict[str, float]) -> str:
            f"operating_points:\n{points}"
 
 
-SPARE = "model_format: 1\nname: spare\nplant:\n  A: [[-3]]\n"  # one pole at -3
+SPARE = ("model_format: 1\nname: spare\nplant:\n  A: [[-3]]\n"  # one pole at -3 (Hurwitz)
+         "requirements:\n  stable: true\n")
 
 
 def build(project):

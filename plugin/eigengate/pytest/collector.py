@@ -60,8 +60,13 @@ class Selection:
             return False
         if any(part.startswith(".") for part in rel.split("/")):
             return False
-        if not self.config.is_model_path(rel):
-            return False
+        from ..scan.config import ConfigError
+
+        try:
+            if not self.config.is_model_path(rel):  # by the nearest policy
+                return False
+        except ConfigError as exc:  # a nested policy is wrong: stop, as for the root's
+            raise pytest.UsageError(f"eigengate: {exc}") from None
         return not self.globs or any(glob_match(rel, g) for g in self.globs)
 
 
@@ -231,6 +236,9 @@ class BaselineRun:
         self._baseline: "Baseline | None" = None
         self._error: Exception | None = None  # a BaselineError, once met
         self._loaded = False
+        #: nested policies' baselines, by file (each policy keeps its own, next to it)
+        self._nested: dict[Path, "Baseline | None"] = {}
+        self._nested_entries: dict[Path, list["Entry"]] = {}
 
     @property
     def policy(self) -> "Config":
@@ -258,16 +266,29 @@ class BaselineRun:
             self._loaded = True
         return self._baseline
 
+    def _nested_baseline(self, policy: "Config") -> "Baseline | None":
+        path = policy.baseline_path
+        if path not in self._nested:
+            from ..baseline.store import Baseline
+
+            self._nested[path] = Baseline.load(path) if path.is_file() else None
+        return self._nested[path]
+
     def judge(self, result: "ModelResult") -> tuple["ModelResult", dict[str, Any]]:
         """The result with its regression findings, and what the baseline said as plain data
         (``status``: ``accepted``, ``unbaselined`` (no baseline file), ``new`` or
         ``compared``; ``regressed``; ``improvements``)."""
+        own = self.policy.policy_for(result.model.source)
         if self.accept:
             from ..baseline.store import baseline_entry_from
 
-            self.entries.append(baseline_entry_from(result))
+            entry = baseline_entry_from(result)
+            if own is self.policy:
+                self.entries.append(entry)
+            else:
+                self._nested_entries.setdefault(own.baseline_path, []).append(entry)
             return result, {"status": "accepted"}
-        baseline = self.baseline()
+        baseline = self.baseline() if own is self.policy else self._nested_baseline(own)
         if baseline is None:
             return result, {"status": "unbaselined"}
         from ..scan.baseline_check import compare_result
@@ -291,14 +312,20 @@ class BaselineRun:
         BaselineError
             The baseline cannot be locked, read or written; the file is left as it was.
         """
-        if not self.entries:
+        if not self.entries and not self._nested_entries:
             return None
         from ..baseline.store import merge_write
 
-        summary = merge_write(self.policy.baseline_path, self.entries)
-        self.entries = []
-        return {"added": len(summary.added), "changed": len(summary.changed),
-                "unchanged": len(summary.unchanged), "written": summary.written}
+        batches = ([(self.policy.baseline_path, self.entries)] if self.entries else []) + \
+            sorted(self._nested_entries.items())
+        self.entries, self._nested_entries = [], {}
+        counts = {"added": 0, "changed": 0, "unchanged": 0, "written": False}
+        for path, entries in batches:
+            summary = merge_write(path, entries)
+            for key in ("added", "changed", "unchanged"):
+                counts[key] += len(getattr(summary, key))
+            counts["written"] = counts["written"] or summary.written
+        return counts
 
 
 class BaselineTally:

@@ -166,7 +166,7 @@ def _load_policy(path: Path | None, start: Path) -> "Config":
 
 
 def _settings(config: pytest.Config) -> Settings:
-    from ..scan.config import find_config
+    from ..scan.config import find_top_config
 
     collect = _ini(config, "eigengate_collect")
     ini_models = _ini(config, "eigengate_models")
@@ -188,8 +188,8 @@ def _settings(config: pytest.Config) -> Settings:
     if path is not None and not path.is_file():
         raise pytest.UsageError(f"eigengate: {where}: no such file (expected a pyproject.toml "
                                 "with [tool.eigengate] or an eigengate.toml)")
-    if path is None:
-        path = find_config(config.rootpath)
+    if path is None:  # the outermost policy: nested ones judge their own folders
+        path = find_top_config(config.rootpath)
     collect = bool(collect) and not config.option.eigengate_no_collect
     accept = bool(config.option.eigengate_accept)
     if accept and not collect:

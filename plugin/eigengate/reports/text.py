@@ -83,7 +83,8 @@ def model_lines(r: ModelResult, *, verbose: bool = True, color: bool = False) ->
     eigenvalue count, spectral abscissa or radius, min ζ, type of the origin), the passing
     requirements when ``verbose``, then each finding and each waived finding."""
     sp, m = r.spectrum, r.model
-    status = _paint("ok" if r.passed else "FAILED", color)
+    status = _paint("FAILED" if not r.passed else "unchecked" if any(
+        f.rule == "EG005" for f in r.findings) else "ok", color)
     figure = (f"spectral radius {sp.spectral_radius:.6g}" if m.discrete else
               f"spectral abscissa {sp.spectral_abscissa:.6g} 1/s")
     extra = f", {sp.infinite} infinite" if sp.infinite else ""
@@ -112,8 +113,11 @@ def render_results(results: Iterable[FileResult], *, verbose: bool = True,
     lines: list[str] = []
     files = models = failing = 0
     errors = warnings = 0
+    checked = unselected = 0  # model files checked, model files no include glob selects
     for fr in results:
         files += 1
+        checked += 1 if fr.results or fr.error is not None else 0
+        unselected += sum(1 for f in fr.findings if f.rule == "EG004")
         failing += 1 if fr.error is not None else 0
         quiet_file = not verbose and not fr.findings and not any(
             getattr(r, "waived", ()) for r in fr.results)
@@ -137,7 +141,9 @@ def render_results(results: Iterable[FileResult], *, verbose: bool = True,
             lines.append("")
     lines.append(f"{files} file{'s' if files != 1 else ''}, {models} model"
                  f"{'s' if models != 1 else ''} checked: {failing} failing, {errors} error"
-                 f"{'s' if errors != 1 else ''}, {warnings} warning{'s' if warnings != 1 else ''}")
+                 f"{'s' if errors != 1 else ''}, {warnings} warning{'s' if warnings != 1 else ''}"
+                 + (f"; {checked + unselected} model files found, {checked} checked"
+                    if unselected else ""))
     return "\n".join(lines) + "\n"
 
 

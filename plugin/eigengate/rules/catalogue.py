@@ -43,6 +43,7 @@ class Rule:
     key: str
     unit: str
     summary: str
+    severity: str = "error"  # the default; [tool.eigengate.severity] changes it
 
 
 RULES: dict[str, Rule] = {r.id: r for r in (
@@ -73,6 +74,13 @@ RULES: dict[str, Rule] = {r.id: r for r in (
     Rule("EG003", "unused-waiver", "waivers", "",
          "A waiver matched no finding: the problem it was written for is gone, or the waiver "
          "names the wrong rule, model or operating point."),
+    Rule("EG004", "unselected-model-file", "include", "",
+         "A file declares model_format but the include patterns do not select it, so it is "
+         "never checked; the message gives a pattern that would select it (add it to include, "
+         "or the file to exclude to leave it out on purpose).", severity="warning"),
+    Rule("EG005", "no-requirement", "requirements", "",
+         "No requirement applies to the model (none in the file, none from the policy), so "
+         "nothing was checked: it is reported instead of passing."),
     Rule("EG109", "known-modes", "known_modes", "",
          "Every declared known mode (integrator, rigid-body mode, conserved quantity) is present "
          "exactly as declared; known modes are left out of every other requirement."),
@@ -159,6 +167,8 @@ _EXAMPLES = {
     "EG109": "known_modes:\n  - {eigenvalue: 0, count: 2, reason: rigid-body translation}",
     "EG002": "waivers:\n  - {rule: EG103, reason: 'retune in review', expires: 2027-03-31}",
     "EG003": "waivers:\n  - {rule: EG103, reason: 'retune in review'}",
+    "EG004": "[tool.eigengate]\ninclude = [\"models/**/*.yaml\", \"models/**/*.yml\"]",
+    "EG005": "requirements:\n  stable: true   # or [tool.eigengate.requirements] for every model",
     "EG001": "model_format: 1\nplant:\n  A: [[-1.0]]",
     "EG301": "loop: {at: plant_input}\nrequirements:\n  min_gain_margin_db: 6",
     "EG302": "requirements:\n  min_phase_margin_deg: 45",
@@ -182,6 +192,7 @@ def explain_rule(rule: Rule) -> str:
     if rule.key:
         lines.append(f"model-file key: {rule.key}" + (f" (unit: {rule.unit})" if rule.unit else ""))
     lines += ["", "example:", *("  " + x for x in _EXAMPLES.get(rule.id, "").splitlines()), "",
-              "A failing rule is an error by default; [tool.eigengate.severity] can make it a "
+              f"A failing rule is {'a warning' if rule.severity == 'warning' else 'an error'} "
+              "by default; [tool.eigengate.severity] can make it a "
               "warning or switch it off, and a waiver (with a reason) can accept one finding."]
     return "\n".join(lines)

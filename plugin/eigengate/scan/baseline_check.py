@@ -30,20 +30,53 @@ def reference_baseline(config: "Config", against: str | None = None) -> "Baselin
         return revision_baseline(against, config.root, config=config).baseline
     path = config.baseline_path
     if not path.is_file():
+        # a nested policy with a baseline of its own: compare (the others' models are new)
+        if any(p.baseline_path.is_file() for p in config.policies()[1:]):
+            return Baseline(path=str(path))
         return None
     return Baseline.load(path)
+
+
+def _by_policy(files: Sequence["FileResult"], config: "Config"
+               ) -> list[tuple["Config", list["FileResult"]]]:
+    """``files`` grouped by the policy that judges them (each has its own baseline)."""
+    groups: dict[int, tuple["Config", list["FileResult"]]] = {}
+    for fr in files:
+        policy = config.policy_for(fr.source)
+        groups.setdefault(id(policy), (policy, []))[1].append(fr)
+    return list(groups.values())
+
+
+def _policy_baseline(policy: "Config", config: "Config", baseline: "Baseline") -> "Baseline":
+    from ..baseline.store import Baseline
+
+    if policy is config:
+        return baseline
+    path = policy.baseline_path
+    return Baseline.load(path) if path.is_file() else Baseline(path=str(path))
 
 
 def compare_files(files: Sequence["FileResult"], config: "Config", baseline: "Baseline", *,
                   complete: bool) -> "Outcome":
     """Compare every checked model with ``baseline`` under the policy's tolerances and
     severities; findings of rules the policy switches off are dropped."""
-    from ..baseline.regressions import compare_all
+    from ..baseline.regressions import Outcome, compare_all
 
-    outcome = compare_all(files, baseline, config.tolerances_for, complete=complete,
-                          severities=dict(config.severity))
-    kept = tuple(f for f in outcome.findings if config.rule_enabled(f.rule))
-    return replace(outcome, findings=kept)
+    # the stored baselines are per policy; a git revision's models are one baseline
+    stored = baseline.path is None or Path(baseline.path) == config.baseline_path
+    groups = _by_policy(files, config) if stored else [(config, list(files))]
+    parts = []
+    for policy, group in groups:
+        ref = _policy_baseline(policy, config, baseline) if stored else baseline
+        outcome = compare_all(group, ref, config.tolerances_for, complete=complete,
+                              severities=dict(policy.severity))
+        kept = tuple(f for f in outcome.findings if policy.rule_enabled(f.rule))
+        parts.append(replace(outcome, findings=kept))
+    if len(parts) == 1:
+        return parts[0]
+    return Outcome(**{name: tuple(x for o in parts for x in getattr(o, name))
+                      for name in ("findings", "improvements", "stale_keys", "new_keys",
+                                   "comparisons")})
 
 
 def compare_result(result: "ModelResult", config: "Config", baseline: "Baseline"
@@ -56,10 +89,11 @@ def compare_result(result: "ModelResult", config: "Config", baseline: "Baseline"
 
     entry = baseline.match(result.model.source, result.model.title,
                            getattr(result.model, "point_id", None))
+    policy = config.policy_for(result.model.source)
     comparison = compare(result, entry, config.tolerances_for(result),
-                         severities=dict(config.severity),
+                         severities=dict(policy.severity),
                          unreadable=baseline.unreadable.get(result.model.source))
-    kept = tuple(f for f in comparison.regressions if config.rule_enabled(f.rule))
+    kept = tuple(f for f in comparison.regressions if policy.rule_enabled(f.rule))
     comparison = replace(comparison, regressions=kept)
     return (replace(result, findings=result.findings + kept) if kept else result), comparison
 
@@ -118,16 +152,25 @@ def accept(files: Sequence["FileResult"], config: "Config", *, complete: bool
     what is there). With ``complete`` (the whole repository was checked), entries of models
     that no longer exist are removed; otherwise only entries of the checked files that lost a
     model are. Files that failed to load keep their entries."""
-    from ..baseline.store import Baseline, baseline_entry_from, merge_write
+    from ..baseline.store import Baseline, MergeSummary, baseline_entry_from, merge_write
 
-    entries = [baseline_entry_from(r) for fr in files if fr.error is None for r in fr.results]
-    current = Baseline.load(config.baseline_path) if config.baseline_path.is_file() else Baseline()
-    seen = {e.key for e in entries}
-    checked = {fr.source for fr in files if fr.error is None}
-    broken = {fr.source for fr in files if fr.error is not None}
-    stale = [k for k in current.keys() if k not in seen and k[0] not in broken
-             and (complete or k[0] in checked)]
-    return merge_write(config.baseline_path, entries, removed_keys=stale)
+    parts = []
+    for policy, group in _by_policy(files, config) or [(config, [])]:
+        entries = [baseline_entry_from(r) for fr in group if fr.error is None
+                   for r in fr.results]
+        path = policy.baseline_path
+        current = Baseline.load(path) if path.is_file() else Baseline()
+        seen = {e.key for e in entries}
+        checked = {fr.source for fr in group if fr.error is None}
+        broken = {fr.source for fr in group if fr.error is not None}
+        stale = [k for k in current.keys() if k not in seen and k[0] not in broken
+                 and (complete or k[0] in checked)]
+        parts.append(merge_write(path, entries, removed_keys=stale))
+    if len(parts) == 1:
+        return parts[0]
+    return MergeSummary(*(tuple(k for p in parts for k in getattr(p, name))
+                          for name in ("added", "changed", "removed", "unchanged")),
+                        written=any(p.written for p in parts))
 
 
 def accept_command(paths: Sequence[str], config_flag: str | None = None) -> str:

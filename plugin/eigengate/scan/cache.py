@@ -213,12 +213,13 @@ class ResultCache:
         self._pack = self.folder / f"v{FORMAT}" / f"{_sha(self._salt_bytes)[:24]}.pack"
         self._old: dict[str, Any] | None = None
         self._read: Pack | None = None
-        self._tables: dict[str, dict] = {"files": {}, "refs": {}}
+        self._tables: dict[str, dict] = {"files": {}, "refs": {}, "sniff": {}}
         self._new: dict[str, tuple[dict, list]] = {}
         self._used: dict[str, None] = {}  # ordered: the pack keeps the scan's order
         self._started = time.time_ns()
-        #: Status records to add: "files" (model file → key), "refs" (matrix file → hash).
-        self._noted: dict[str, dict[str, list]] = {"files": {}, "refs": {}}
+        #: Status records to add: "files" (model file → key), "refs" (matrix file → hash),
+        #: "sniff" (file → whether its content has a model_format key).
+        self._noted: dict[str, dict[str, list]] = {"files": {}, "refs": {}, "sniff": {}}
 
     def key(self, source: str, content: bytes) -> str:
         return _sha(self._salt_bytes + source.encode() + b"\0" + content)
@@ -268,6 +269,13 @@ class ResultCache:
         entry = self._entries().get(self.key(rel, content))
         refs = entry.get("refs") if isinstance(entry, dict) else None
         return tuple(refs) if isinstance(refs, dict) else None
+    def sniffed(self, rel: str, st: os.stat_result) -> bool | None:
+        """Whether file ``rel`` had a model_format key when last read with this status."""
+        said = self._recorded("sniff", rel, st)
+        return None if said is None else said == "model"
+
+    def note_sniff(self, rel: str, st: os.stat_result | None, is_model: bool) -> None:
+        self._note("sniff", rel, st, "model" if is_model else "plain")
 
     def _entries(self) -> dict[str, Any]:
         if self._old is None:
@@ -341,6 +349,8 @@ class ResultCache:
             rows = {**self._tables[table], **self._noted[table]}
             head[table] = {rel: row for rel, row in rows.items()
                            if type(row) is list and len(row) == 5 and row[4] in wanted}
+        sniff = {**self._tables["sniff"], **self._noted["sniff"]}
+        head["sniff"] = dict(list(sniff.items())[-self.MAX_ENTRIES:])
         raw = write_pack(head, blobs)
         try:
             self._ensure_folder()
@@ -352,7 +362,7 @@ class ResultCache:
         except OSError:
             return
         self._old, self._new = None, {}
-        self._noted = {"files": {}, "refs": {}}
+        self._noted = {"files": {}, "refs": {}, "sniff": {}}
 
     def _ensure_folder(self) -> None:
         if (self.folder / "CACHEDIR.TAG").is_file():

@@ -30,17 +30,23 @@ verdict. Keys::
 Requirement layers apply in order: repository defaults, each matching override, the model
 file's own ``requirements:``; each layer replaces rules of the same id and may switch one off
 with ``false``.
+
+Nested policies (a sub-folder's own policy file) judge the files of their folder
+(:meth:`Config.policy_for`, nearest wins); ``extend = true`` layers one on its parent. Their
+globs are stored relative to the outermost policy's folder, which model sources are relative
+to, and each keeps its own baseline next to it.
 """
 
 from __future__ import annotations
 
 import difflib
-import sys
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Mapping, Sequence
 
 from ..rules.patterns import glob_match
+from .policyfiles import (  # noqa: F401 (ConfigError re-exported)
+    ConfigError, find_config, find_top_config, policy_file, read_table)
 from ..errors import EigengateError
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -51,19 +57,10 @@ if TYPE_CHECKING:  # pragma: no cover
 __all__ = ["Config", "ConfigError", "Override", "load_config", "find_config", "CONFIG_KEYS"]
 
 CONFIG_KEYS = ("include", "exclude", "on_uncertain", "select", "ignore", "requirements",
-               "severity", "overrides", "waivers", "allow_python", "baseline", "allowed_drift")
+               "severity", "overrides", "waivers", "allow_python", "baseline", "allowed_drift",
+               "extend")
 OVERRIDE_KEYS = ("paths", "requirements", "on_uncertain", "allowed_drift")
 SEVERITIES = ("error", "warning", "off")
-
-
-class ConfigError(EigengateError, ValueError):
-    """A configuration value is wrong: names the file, the key, the value and what is expected."""
-
-    def __init__(self, source: str, key: str, problem: str, hint: str | None = None) -> None:
-        self.source, self.key, self.problem, self.hint = source, key, problem, hint
-        text = f"{source}: [tool.eigengate] {key} {problem}" if source.endswith(
-            "pyproject.toml") else f"{source}: {key} {problem}"
-        super().__init__(text + (f" ({hint})" if hint else ""))
 
 
 Layer = tuple[tuple["Requirement", ...], tuple[str, ...]]
@@ -101,11 +98,55 @@ class Config:
     baseline: str = ".eigengate/baseline.json"  # repository-relative path of the baseline
     allowed_drift: Mapping[str, Any] | None = None
     digest: str = ""  # hash of the configuration table, part of every cache key
+    #: A nested policy: its folder relative to ``root`` (the outermost policy's folder, which
+    #: model sources are relative to); its globs are stored relative to ``root``.
+    base: str = ""
+    inherited: tuple[Layer, ...] = ()  # requirement layers of the policies it extends
+    #: folder (relative to root) → the policy that governs it; shared by a tree of policies
+    _folders: dict = field(default_factory=dict, compare=False, repr=False)
+
+    # ------------------------------------------------------------------ nested policies
+    def policy_for(self, rel: str) -> "Config":
+        """The policy that judges repository-relative ``rel``: the nearest one at or above its
+        folder (a folder with an eigengate.toml, or a pyproject.toml with [tool.eigengate])."""
+        import posixpath
+
+        return self._folder_policy(posixpath.dirname(rel.strip("/")))
+
+    def _folder_policy(self, folder: str) -> "Config":
+        import posixpath
+
+        memo = self._folders
+        memo.setdefault(self.base, self)
+        got = memo.get(folder)
+        if got is not None:
+            return got
+        if folder in ("", ".") or folder == ".." or folder.startswith(("../", "/")):
+            return memo.get("", self)
+        parent = self._folder_policy(posixpath.dirname(folder))
+        found = policy_file(self.root / folder)
+        got = parent if found is None else _load_nested(found, self.root, folder, parent, memo)
+        memo[folder] = got
+        return got
+
+    def policies(self) -> list["Config"]:
+        """This policy and every nested one met so far, outermost first."""
+        out = {id(self): self}
+        for folder in sorted(self._folders):
+            out.setdefault(id(self._folders[folder]), self._folders[folder])
+        return list(out.values())
+
+    def _own(self, rel: str) -> "Config | None":
+        """The nested policy that judges ``rel`` when it is not this one."""
+        cfg = self.policy_for(rel)
+        return None if cfg is self else cfg
 
     # ------------------------------------------------------------------ selection
     def is_model_path(self, rel: str) -> bool:
         """Whether repository-relative ``rel`` is configured as a model file."""
-        if any(glob_match(rel, p) for p in self.exclude):
+        if (own := self._own(rel)) is not None:
+            return own.is_model_path(rel)
+        if self.is_excluded(rel):
             return False
         if self.include:
             return any(glob_match(rel, p) for p in self.include)
@@ -119,7 +160,32 @@ class Config:
         return not self.select or any(rule.startswith(p) for p in self.select)
 
     def severity_of(self, rule: str) -> str:
-        return self.severity.get(rule, "error")
+        from ..rules.catalogue import RULES
+
+        known = RULES.get(rule)
+        return self.severity.get(rule, known.severity if known is not None else "error")
+
+    def is_excluded(self, rel: str) -> bool:
+        """Whether repository-relative ``rel`` is left out on purpose (an exclude glob)."""
+        if (own := self._own(rel)) is not None:
+            return own.is_excluded(rel)
+        return any(glob_match(rel, p) for p in self.exclude)
+
+    def suggest_include(self, rel: str) -> str:
+        """A glob that would select model file ``rel``: an include pattern with the file's
+        suffix (``models/**/*.yaml`` → ``models/**/*.yml``), else its folder's files of its
+        suffix, else its own path."""
+        import posixpath
+
+        if (own := self._own(rel)) is not None:
+            return own.suggest_include(rel)
+        folder, name = posixpath.split(rel)
+        suffix = posixpath.splitext(name)[1]
+        for pattern in self.include:
+            stem, dot, ext = pattern.rpartition(".")
+            if dot and "/" not in ext and glob_match(rel, stem + suffix):
+                return _local(stem + suffix, self.base)
+        return _local(f"{folder}/*{suffix}" if folder else rel, self.base)
 
     @property
     def baseline_path(self) -> Path:
@@ -131,6 +197,8 @@ class Config:
         from ..baseline.regressions import parse_tolerances
 
         model = result.model
+        if (own := self._own(model.source)) is not None:
+            return own.tolerances_for(result)
         tol = None
         layers = [(self.source or "pyproject.toml", "allowed_drift.", self.allowed_drift)]
         layers += [(self.source or "pyproject.toml", f"overrides[{i}].allowed_drift.",
@@ -143,6 +211,8 @@ class Config:
         return tol
 
     def waivers_for(self, rel: str) -> tuple["Waiver", ...]:
+        if (own := self._own(rel)) is not None:
+            return own.waivers_for(rel)
         if not self.waivers:
             return ()
         from ..rules.patterns import glob_match as match
@@ -151,9 +221,13 @@ class Config:
 
     # ------------------------------------------------------------------ requirements
     def layers_for(self, rel: str) -> list[Layer]:
-        return [self.requirements] + [o.requirements for o in self.overrides if o.applies(rel)]
+        if (own := self._own(rel)) is not None:
+            return own.layers_for(rel)
+        return [*self.inherited, self.requirements] + [o.requirements for o in self.overrides if o.applies(rel)]
 
     def on_uncertain_for(self, rel: str) -> str | None:
+        if (own := self._own(rel)) is not None:
+            return own.on_uncertain_for(rel)
         value = self.on_uncertain
         for o in self.overrides:
             if o.on_uncertain is not None and o.applies(rel):
@@ -166,38 +240,32 @@ class Config:
 
         from ..rules.requirements import apply_layers
 
+        if (own := self._own(model.source)) is not None:
+            return own.effective(model)
         layers = self.layers_for(model.source) + [(model.requirements, model.disabled)]
         reqs = tuple(r for r in apply_layers(layers) if self.rule_enabled(r.rule))
         return replace(model, requirements=reqs, disabled=(),
                        on_uncertain=model.on_uncertain or self.on_uncertain_for(model.source))
 
 
-def find_config(start: Path) -> Path | None:
-    """Nearest pyproject.toml with a ``[tool.eigengate]`` table, or eigengate.toml, at or above
-    ``start``."""
-    start = start.resolve()
-    for folder in (start, *start.parents) if start.is_dir() else (start.parent,
-                                                                  *start.parent.parents):
-        own = folder / "eigengate.toml"
-        if own.is_file():
-            return own
-        py = folder / "pyproject.toml"
-        if py.is_file():
-            try:
-                raw = py.read_bytes()
-            except OSError:
-                continue
-            if b"tool.eigengate" in raw:  # even when not UTF-8: load_config says what is wrong,
-                return py                 # rather than the policy being ignored without a word
-    return None
+def _rebase(pattern: str, base: str) -> str:
+    """A glob of a nested policy (relative to its folder ``base``) relative to the root."""
+    if not base:
+        return pattern
+    pattern = pattern.strip("/")
+    if "/" not in pattern:  # a bare name matches in any folder below the policy's
+        pattern = "**/" + pattern
+    return f"{base}/{pattern}"
 
 
-def _toml_loads(text: str):
-    if sys.version_info >= (3, 11):
-        import tomllib
-    else:  # pragma: no cover - exercised on Python 3.10
-        import tomli as tomllib
-    return tomllib.loads(text)
+def _local(pattern: str, base: str) -> str:
+    return pattern[len(base) + 1:] if base and pattern.startswith(base + "/") else pattern
+
+
+def _load_nested(path: Path, root: Path, base: str, parent: "Config", memo: dict) -> "Config":
+    table = read_table(path, f"{base}/{path.name}")
+    return parse_config(table, root=root, source=f"{base}/{path.name}", base=base,
+                        parent=parent, folders=memo)
 
 
 def load_config(path: Path | None = None, *, start: Path | None = None) -> Config:
@@ -207,33 +275,31 @@ def load_config(path: Path | None = None, *, start: Path | None = None) -> Confi
     and every default applies.
     """
     if path is None:
-        path = find_config(start or Path.cwd())
+        path = find_top_config(start or Path.cwd())
     if path is None:
         from ..load.loader import find_root
 
         base = (start or Path.cwd()).resolve()
-        return Config(root=find_root(base / "_") if base.is_dir() else find_root(base))
+        return parse_config({}, root=find_root(base / "_") if base.is_dir() else
+                            find_root(base), source=None)  # the defaults, with their digest
     path = Path(path)
-    shown = path.name
-    try:
-        table = _toml_loads(path.read_text(encoding="utf-8"))
-    except FileNotFoundError:
-        raise ConfigError(str(path), "", "does not exist") from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise ConfigError(str(path), "", f"cannot be read: {exc}") from None
-    except ValueError as exc:  # tomllib.TOMLDecodeError
-        raise ConfigError(str(path), "", f"is not valid TOML: {exc}") from None
-    if path.name == "pyproject.toml":
-        table = table.get("tool", {}).get("eigengate", {})
-    return parse_config(table, root=path.resolve().parent, source=shown)
+    return parse_config(read_table(path, str(path)), root=path.resolve().parent,
+                        source=path.name)
 
 
 def _strings(value: Any, source: str, key: str) -> tuple[str, ...]:
-    if isinstance(value, str):
-        value = [value]
+    if isinstance(value, str):  # `include = "models/*.yaml"`: a list was meant
+        raise ConfigError(source, key, f"must be a list of strings, got the string {value!r}",
+                          f"write {key.rsplit('.', 1)[-1]} = [{_quoted(value)}]")
     if not isinstance(value, list) or not all(isinstance(v, str) and v for v in value):
         raise ConfigError(source, key, f"must be a list of non-empty strings, got {value!r}")
     return tuple(value)
+
+
+def _quoted(value: str) -> str:
+    import json
+
+    return json.dumps(value, ensure_ascii=False)
 
 
 def _unknown(key: str, allowed: Sequence[str], source: str, where: str) -> ConfigError:
@@ -268,8 +334,12 @@ def _drift(value: Any, source: str, key: str) -> None:
         raise ConfigError(source, exc.field, exc.problem, exc.hint) from None
 
 
-def parse_config(table: Mapping[str, Any], *, root: Path, source: str = "pyproject.toml") -> Config:
-    """Validate a ``[tool.eigengate]`` table (already parsed)."""
+def parse_config(table: Mapping[str, Any], *, root: Path, source: str | None = "pyproject.toml",
+                 base: str = "", parent: Config | None = None,
+                 folders: dict | None = None) -> Config:
+    """Validate a ``[tool.eigengate]`` table (already parsed); a nested policy names its
+    folder ``base`` (relative to ``root``) and the ``parent`` policy above it, whose keys it
+    inherits with ``extend = true``."""
     from ..rules.catalogue import RULES
 
     if not isinstance(table, Mapping):
@@ -345,13 +415,51 @@ def parse_config(table: Mapping[str, Any], *, root: Path, source: str = "pyproje
         from ..errors import ModelError
         from ..rules.waivers import parse_waivers
 
+        for i, item in enumerate(table["waivers"] if isinstance(table["waivers"], list) else ()):
+            if isinstance(item, Mapping) and isinstance(item.get("paths"), str):
+                _strings(item["paths"], source, f"waivers[{i}].paths")
         try:
             kw["waivers"] = parse_waivers(table["waivers"], source, "waivers", in_config=True)
         except ModelError as exc:
             raise ConfigError(source, exc.field, exc.problem, exc.hint) from None
+    if "extend" in table and not isinstance(table["extend"], bool):
+        raise ConfigError(source, "extend", f"must be true or false, got {table['extend']!r}",
+                          "true layers this policy on the one of the folder above")
+    if base:
+        _nest(kw, base, source)
+    outer = ""
+    if table.get("extend") and parent is not None:
+        _inherit(kw, parent)
+        outer = parent.digest
     import hashlib
     import json
 
-    kw["digest"] = hashlib.sha256(json.dumps(table, sort_keys=True, default=str)
-                                  .encode()).hexdigest()
-    return Config(root=root, source=source, **kw)
+    # the rule table is part of the key: results cached before a rule was added are not reused
+    kw["digest"] = hashlib.sha256(json.dumps([table, sorted(RULES), base, outer],
+                                             sort_keys=True, default=str).encode()).hexdigest()
+    return Config(root=root, source=source, _folders={} if folders is None else folders, **kw)
+
+
+def _nest(kw: dict[str, Any], base: str, source: str) -> None:
+    """A nested policy's globs and baseline, made relative to the root."""
+    from dataclasses import replace
+
+    for key in ("include", "exclude"):
+        if key in kw:
+            kw[key] = tuple(_rebase(p, base) for p in kw[key])
+    kw["overrides"] = tuple(replace(o, paths=tuple(_rebase(p, base) for p in o.paths))
+                            for o in kw.get("overrides", ()))
+    kw["waivers"] = tuple(replace(w, paths=tuple(_rebase(p, base) for p in w.paths))
+                          for w in kw.get("waivers", ()))
+    kw["baseline"] = f"{base}/{kw.get('baseline', Config.baseline)}"
+    kw["base"] = base
+
+
+def _inherit(kw: dict[str, Any], parent: Config) -> None:
+    """``extend = true``: what the policy does not set comes from its parent; requirements
+    and overrides layer on the parent's; include, exclude, waivers and baseline stay its own."""
+    for key in ("on_uncertain", "select", "ignore", "allow_python", "allowed_drift"):
+        kw.setdefault(key, getattr(parent, key))
+    kw["severity"] = {**parent.severity, **kw.get("severity", {})}
+    kw["overrides"] = parent.overrides + tuple(kw.get("overrides", ()))
+    kw["inherited"] = parent.inherited + (parent.requirements,)

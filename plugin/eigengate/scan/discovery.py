@@ -12,7 +12,7 @@ from __future__ import annotations
 import os
 import stat
 from pathlib import Path
-from typing import TYPE_CHECKING, Callable, NamedTuple, Sequence
+from typing import TYPE_CHECKING, Callable, NamedTuple, Protocol, Sequence
 
 from ..model.formats import printable_name
 
@@ -41,7 +41,7 @@ class FoundFile(NamedTuple):
     stat: os.stat_result | None = None
 
 
-def _sniff(path: str) -> tuple[bool, bytes | None]:
+def _sniff(path: str) -> tuple[bool | None, bytes | None]:
     """Whether a file looks like a model file (has a ``model_format`` key near its start),
     and its bytes when it does and is small enough to keep. A FIFO or device file is not
     opened (it could block for ever): it is passed on with no bytes for the loader to refuse."""
@@ -57,12 +57,13 @@ def _sniff(path: str) -> tuple[bool, bytes | None]:
             rest = fh.read(_KEEP_BYTES)
             return True, (head + rest if len(rest) < _KEEP_BYTES else None)
     except OSError:
-        return True, None  # let the loader report why it cannot be read
+        return None, None  # cannot tell: as a selected file, the loader reports why
 
 
 def find_model_files(paths: Sequence[str | Path], config: "Config | None" = None, *,
                      filter_named: bool = False,
-                     known: Callable[[str, os.stat_result], bool] | None = None
+                     known: Callable[[str, os.stat_result], bool] | None = None,
+                     unselected: list[str] | None = None, sniffs: "Sniffs | None" = None
                      ) -> list[FoundFile]:
     """The model files below ``paths`` (folders are expanded, sorted; named files pass
     through, or are tested too with ``filter_named``: a pre-commit hook is handed every
@@ -71,7 +72,13 @@ def find_model_files(paths: Sequence[str | Path], config: "Config | None" = None
     With ``known``, every candidate's status is taken (before any read), and a file for which
     ``known(rel, stat)`` is true is taken as a model file without reading it (the result
     cache knows it, unchanged since it last read it).
+
+    With ``unselected`` (a list), the model files that the include globs miss (neither
+    included nor excluded, told by content) are appended to it as relative paths; ``sniffs``
+    (the result cache) remembers, by file status, what a file's content said, so an
+    unchanged file is not read again to tell.
     """
+    look = _Look(known, unselected, sniffs)
     root = os.path.realpath(config.root) if config is not None else os.path.realpath(".")
     out: list[FoundFile] = []
     for p in paths:
@@ -80,7 +87,7 @@ def find_model_files(paths: Sequence[str | Path], config: "Config | None" = None
             full = os.fspath(p)
             rel, content = _named(full, root)
             if filter_named:
-                found = _select(full, os.path.basename(full), rel, config, known, None,
+                found = _select(full, os.path.basename(full), rel, config, look, None,
                                 content)
                 if found is not None:
                     out.append(found)
@@ -114,7 +121,7 @@ def find_model_files(paths: Sequence[str | Path], config: "Config | None" = None
                         rel = printable_name(rel)
                 except OSError:
                     continue
-                found = _select(e.path, e.name, rel, config, known, e, content)
+                found = _select(e.path, e.name, rel, config, look, e, content)
                 if found is not None:
                     below.append(found)
         below.sort(key=lambda f: f.path)
@@ -153,11 +160,45 @@ def _stat(path: str, entry: os.DirEntry | None = None) -> os.stat_result | None:
         return None
 
 
-def _select(full: str, name: str, rel: str, config: "Config | None", known, entry,
+class Sniffs(Protocol):
+    def sniffed(self, rel: str, st: os.stat_result) -> bool | None: ...
+
+    def note_sniff(self, rel: str, st: os.stat_result | None, is_model: bool) -> None: ...
+
+
+class _Look(NamedTuple):
+    known: Callable[[str, os.stat_result], bool] | None
+    unselected: list[str] | None
+    sniffs: "Sniffs | None"
+
+
+def _has_key(full: str, rel: str, st: os.stat_result | None, sniffs) -> bool:
+    """Whether the file has a ``model_format`` key, from the status record when unchanged."""
+    if _not_regular(full):  # a FIFO or device file is never opened
+        return False
+    said = sniffs.sniffed(rel, st) if sniffs is not None and st is not None else None
+    if said is None:
+        said = _sniff(full)[0]
+        if said is None:  # unreadable: nothing to say about it
+            return False
+        if sniffs is not None:
+            sniffs.note_sniff(rel, st, said)
+    return said
+
+
+def _select(full: str, name: str, rel: str, config: "Config | None", look: _Look, entry,
             content: bytes | None = None) -> FoundFile | None:
     if name == "pyproject.toml" or os.path.splitext(name)[1] not in MODEL_SUFFIXES:
         return None
+    known = look.known
+    if config is not None:
+        config = config.policy_for(rel)  # the nearest policy selects the files of its folder
     if config is not None and not config.is_model_path(rel):
+        # content given: a link out of the repository or not a regular file, never read
+        if look.unselected is not None and content is None and config.include \
+                and not config.is_excluded(rel):
+            if _has_key(full, rel, _stat(full, entry) if look.sniffs else None, look.sniffs):
+                look.unselected.append(rel)
         return None
     if content is not None:  # a link out of the repository, or not a regular file: not read
         return FoundFile(full, rel, content)
@@ -166,5 +207,9 @@ def _select(full: str, name: str, rel: str, config: "Config | None", known, entr
         return FoundFile(full, rel, stat=st)
     if config is not None and config.include:  # selected by name: no need to look inside
         return FoundFile(full, rel, stat=st)
+    if look.sniffs is not None and st is not None and look.sniffs.sniffed(rel, st) is False:
+        return None  # unchanged since its content said it is no model file
     is_model, content = _sniff(full)
-    return FoundFile(full, rel, content, st) if is_model else None
+    if is_model is False and look.sniffs is not None:
+        look.sniffs.note_sniff(rel, st, False)
+    return None if is_model is False else FoundFile(full, rel, content, st)

@@ -19,7 +19,7 @@ if TYPE_CHECKING:  # pragma: no cover
 
 __all__ = ["ModelResult", "FileResult", "analyse_model", "apply_waivers", "check_model",
            "analyse_file", "file_result", "check_file", "check_paths",
-           "discover_model_files", "policy_findings", "MODEL_SUFFIXES"]
+           "discover_model_files", "policy_findings", "unselected_findings", "MODEL_SUFFIXES"]
 
 
 
@@ -30,18 +30,34 @@ def analyse_model(model: Model, config: "Config | None" = None) -> ModelResult:
     from ..rules.requirements import evaluate, origin, split_known_modes
 
     if config is not None:
+        config = config.policy_for(model.source)  # a nested policy judges its own folder
         model = config.effective(model)
     spectrum = analyse(model)
-    verdicts = evaluate(spectrum)
+    verdicts = evaluate(spectrum) or (_nothing_checked(),)
     remaining, _ = split_known_modes(spectrum, model.known_modes)
     return ModelResult(model=model, spectrum=spectrum, equilibrium=origin(remaining, spectrum)[0],
                        verdicts=verdicts, findings=tuple(findings_of(model, verdicts, config)))
+
+
+def _nothing_checked():
+    """The verdict of a model that no requirement applies to: it is not a pass (EG005)."""
+    from ..rules.catalogue import RULES, Verdict
+
+    return Verdict(
+        rule="EG005", name=RULES["EG005"].name, requirement="requirements", passed=False,
+        uncertain=False, measured="none", threshold="at least one requirement", margin=None,
+        unit="", offending=(),
+        message="no requirement applies to this model (none in the file, none from the "
+                "policy): nothing was checked",
+        suggestion="add requirements: {stable: true} to the model file, or "
+                   "[tool.eigengate.requirements] stable = true to the policy")
 
 
 def apply_waivers(result: ModelResult, config: "Config | None" = None,
                   on: "datetime.date | None" = None) -> ModelResult:
     """Set aside the findings that a live waiver of the model file or the policy accepts."""
     model = result.model
+    config = config.policy_for(model.source) if config is not None else None
     waivers = model.waivers + (config.waivers_for(model.source) if config else ())
     if not waivers:
         return result
@@ -90,9 +106,14 @@ def analyse_file(path: str | Path, root: str | Path | None = None,
 
     if root is None and config is not None:
         root = config.root
+    allow = False
+    if config is not None:
+        import os
+
+        rel = os.path.relpath(os.path.realpath(path), os.path.realpath(config.root))
+        allow = config.policy_for(rel.replace(os.sep, "/")).allow_python
     try:
-        models, refs = load_models_with_refs(
-            path, root=root, allow_python=bool(getattr(config, "allow_python", False)))
+        models, refs = load_models_with_refs(path, root=root, allow_python=allow)
         return models[0].source, tuple(analyse_model(m, config) for m in models), None, refs
     except ModelError as exc:
         return exc.source, (), exc, []
@@ -125,6 +146,28 @@ def check_paths(paths: Iterable[str | Path], root: str | Path | None = None,
             for f in discover_model_files(list(paths), config)]
 
 
+def unselected_findings(config: "Config", rels: Sequence[str]) -> list[Finding]:
+    """One EG004 finding per model file (found by its ``model_format`` key) that the include
+    patterns do not select, with a pattern that would."""
+    from ..rules.catalogue import RULES
+
+    rule = "EG004"
+    out = []
+    for rel in rels:
+        policy = config.policy_for(rel)
+        if not policy.rule_enabled(rule):
+            continue
+        where = policy.source or "pyproject.toml"
+        out.append(Finding(
+            rule=rule, name=RULES[rule].name, severity=policy.severity_of(rule), source=rel,
+            line=None, model="", label=None, requirement="include",
+            message=f"{rel} declares model_format but no include pattern of {where} selects "
+                    f"it: it is not checked",
+            suggestion=f"add \"{policy.suggest_include(rel)}\" to include, or the file to "
+                       f"exclude to leave it out on purpose"))
+    return out
+
+
 def policy_findings(config: "Config", results: Sequence[FileResult],
                     on: "datetime.date | None" = None, *, complete: bool = True
                     ) -> list[Finding]:
@@ -144,5 +187,9 @@ def policy_findings(config: "Config", results: Sequence[FileResult],
             listed.extend(f.rel for f in find_model_files([config.root], config))
         return listed
 
-    return waiver_findings(config.waivers, used, on or today(),
-                           judged=lambda w: scope_checked(w, checked, complete, repository))
+    def judged(w) -> bool:
+        return scope_checked(w, checked, complete, repository)
+
+    # each policy's own waivers (a nested policy's are resolved within its folder)
+    return [f for policy in config.policies()
+            for f in waiver_findings(policy.waivers, used, on or today(), judged=judged)]

@@ -20,7 +20,8 @@ from typing import Callable, Sequence
 
 from .config import Config
 from .discovery import find_model_files
-from .engine import FileResult, analyse_file, file_result, policy_findings
+from .engine import (FileResult, analyse_file, file_result, policy_findings,
+                     unselected_findings)
 from ..rules.findings import Finding
 
 __all__ = ["Scan", "scan", "default_jobs"]
@@ -121,9 +122,11 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
     from .cache import ResultCache
 
     cache = ResultCache(config.root, config.digest) if use_cache else None
+    unselected: list[str] = []
     files = find_model_files(
-        list(paths), config, filter_named=filter_named,
-        known=None if cache is None else lambda rel, st: cache.known_key(rel, st) is not None)
+        list(paths), config, filter_named=filter_named, unselected=unselected, sniffs=cache,
+        known=None if cache is None else
+        lambda rel, st: cache.known_key(_cache_name(config, rel), st) is not None)
     slots: list[tuple | None] = [None] * len(files)
     todo: list[tuple[int, str, str | None]] = []
     hits = 0
@@ -131,7 +134,8 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
         files[i] = None  # type: ignore[call-overload]  # its bytes are not kept past here
         key = None
         if cache is not None:
-            key = None if f.stat is None else cache.known_key(f.rel, f.stat)
+            name = _cache_name(config, f.rel)
+            key = None if f.stat is None else cache.known_key(name, f.stat)
             if key is None:
                 content = f.content
                 if content is None:
@@ -141,8 +145,8 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
                     except OSError:
                         content = None
                 if content is not None:
-                    key = cache.key(f.rel, content)
-                    cache.note_key(f.rel, f.stat, key)
+                    key = cache.key(name, content)
+                    cache.note_key(name, f.stat, key)
             if key is not None:
                 hit = cache.get(key)
                 if hit is not None:
@@ -187,9 +191,16 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
     if cache is not None:
         cache.save()
     out = tuple(file_result(s, r, e, config, on) for s, r, e in slots)  # type: ignore[misc]
-    return Scan(files=out, policy=tuple(policy_findings(config, out, on, complete=complete)),
-                cache_hits=hits,
-                analysed=len(todo))
+    policy = (unselected_findings(config, sorted(unselected))
+              + policy_findings(config, out, on, complete=complete))
+    return Scan(files=out, policy=tuple(policy), cache_hits=hits, analysed=len(todo))
+
+
+def _cache_name(config: Config, rel: str) -> str:
+    """A model file's name in the cache: its path, qualified by the digest of the nested
+    policy that judges it (so adding, changing or removing one is never served stale)."""
+    policy = config.policy_for(rel)
+    return rel if policy is config else f"{rel}\0{policy.digest}"
 
 
 def _chunk_work(paths: list[str]) -> list[tuple[dict, list, list[str], bool]]:
