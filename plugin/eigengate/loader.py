@@ -23,9 +23,9 @@ __all__ = ["FORMAT_VERSIONS", "TOP_KEYS", "load_models", "load_models_with_refs"
 #: Versions of ``model_format`` this loader reads.
 FORMAT_VERSIONS = (1,)
 TOP_KEYS = ("model_format", "name", "description", "domain", "sample_period", "plant",
-            "feedback", "requirements", "known_modes", "on_uncertain", "operating_points",
+            "feedback", "requirements", "known_modes", "on_uncertain", "require", "operating_points",
             "waivers", "loop", "vector_field", "allowed_drift")
-POINT_KEYS = ("label", "plant", "feedback", "requirements", "known_modes", "on_uncertain",
+POINT_KEYS = ("label", "plant", "feedback", "requirements", "known_modes", "on_uncertain", "require",
               "loop", "allowed_drift")
 SS_KEYS = ("A", "B", "C", "D", "E", "states", "inputs", "outputs")
 TF_KEYS = ("num", "den", "states", "inputs", "outputs")
