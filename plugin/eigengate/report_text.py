@@ -5,7 +5,7 @@ from __future__ import annotations
 import math
 from typing import Iterable, Sequence
 
-from .findings import UNCERTAIN_NOTE, Finding, ModeRow
+from .findings import DECIDED_NOTES, UNCERTAIN_NOTE, Finding, ModeRow
 
 __all__ = ["render_results", "render_model", "model_lines", "finding_lines", "mode_table",
            "format_eigenvalue"]
@@ -70,6 +70,8 @@ def finding_lines(f: Finding, discrete: bool, color: bool = False) -> list[str]:
     out = [head, f"        {f.message}"]
     if f.uncertain:
         out.append(f"        note: {UNCERTAIN_NOTE}")
+    if getattr(f, "decided_by", ""):
+        out.append(f"        decided: {f.decided_by} ({DECIDED_NOTES[f.decided_by]})")
     if f.suggestion:
         out.append(f"        hint: {f.suggestion}")
     if f.modes:
@@ -162,7 +164,8 @@ def render_model(result: "object") -> str:
         mark = "pass" if v.passed else "FAIL"
         margin = "" if v.margin is None else f", margin {v.margin:.4g}"
         note = " (numerically uncertain)" if v.uncertain else ""
-        lines.append(f"    {mark}  {v.rule} {v.name}  [{v.requirement}]{margin}{note}")
+        lines.append(f"    {mark}  {v.rule} {v.name}  [{v.requirement}]{margin}{note}"
+                     f"  · {v.decided_by}")
         lines.append(f"          {v.message}")
     for f in result.waived:
         lines.append(f"    waived  {f.rule} {f.name}: {f.waived}")
