@@ -31,7 +31,8 @@ from typing import TYPE_CHECKING, Sequence
 if TYPE_CHECKING:  # pragma: no cover
     import numpy as np
 
-__all__ = ["estimate", "enclose", "cap_defective", "hoelder", "map_to_s", "ENCLOSE_LIMIT"]
+__all__ = ["estimate", "enclose", "components", "touching", "cluster_radius", "cap_defective",
+           "hoelder", "map_to_s", "ENCLOSE_LIMIT"]
 
 #: Factor on the first-order residual bound: covers a second-order remainder as large as the
 #: first-order term itself (see DEVELOPERS.md, "Numerical decisions").
@@ -167,6 +168,12 @@ def enclose(A: "np.ndarray", lam: "np.ndarray", vr: "np.ndarray", vl: "np.ndarra
 
 def components(lam: "np.ndarray", rho: "np.ndarray") -> list[int]:
     """Label of the connected component of each disc (discs that overlap or touch share one)."""
+    return touching(lam, rho, 1.0 + 4.0 * _U)
+
+
+def touching(lam: "np.ndarray", radius: "np.ndarray", factor: float) -> list[int]:
+    """Connected components of the relation ``|λi − λj| ≤ factor·(ri + rj)``: the smallest
+    index of each point's component, by union-find over a sweep along the real axis."""
     import numpy as np
 
     n = lam.shape[0]
@@ -180,13 +187,18 @@ def components(lam: "np.ndarray", rho: "np.ndarray") -> list[int]:
 
     order = np.argsort(lam.real, kind="stable")
     re = lam.real[order]
-    rmax = float(rho.max()) if n else 0.0
-    for a in range(n):
+    rmax = float(radius.max()) if n else 0.0
+    # Only points whose real parts lie within reach of the next one can touch; in the usual
+    # spectrum there are none and the sweep below is skipped.
+    reach_all = factor * (radius[order] + rmax)
+    close = np.nonzero(np.diff(re) <= reach_all[:-1])[0] if n > 1 else ()
+    for a in sorted(set(int(a) for a in close)):
         i = order[a]
+        reach = factor * (radius[i] + rmax)
         b = a + 1
-        while b < n and re[b] - re[a] <= rho[i] + rmax:
+        while b < n and re[b] - re[a] <= reach:
             j = order[b]
-            if abs(lam[i] - lam[j]) <= (rho[i] + rho[j]) * (1.0 + 4.0 * _U):
+            if abs(lam[i] - lam[j]) <= factor * (radius[i] + radius[j]):
                 ri, rj = find(i), find(j)
                 if ri != rj:
                     parent[max(ri, rj)] = min(ri, rj)

@@ -317,39 +317,11 @@ def analyse(model: Model) -> Spectrum:
 
 def _clusters(lam: "np.ndarray", delta: "np.ndarray") -> list[list[int]]:
     """Group eigenvalues closer than CLUSTER_FACTOR·(δi+δj), by sweeping along the real axis."""
-    import numpy as np
+    from .bounds import touching
 
-    n = lam.shape[0]
-    parent = list(range(n))
-
-    def find(i: int) -> int:
-        while parent[i] != i:
-            parent[i] = parent[parent[i]]
-            i = parent[i]
-        return i
-
-    order = np.argsort(lam.real, kind="stable")
-    re = lam.real[order]
-    dmax = float(delta.max()) if n else 0.0
-    # Only eigenvalues whose real parts lie within reach of the next one can cluster; in the
-    # usual spectrum there are none and the sweep below is skipped.
-    reach_all = CLUSTER_FACTOR * (delta[order] + dmax)
-    close = np.nonzero(np.diff(re) <= reach_all[:-1])[0] if n > 1 else ()
-    starts = set(int(a) for a in close)
-    for a in sorted(starts):
-        i = order[a]
-        reach = CLUSTER_FACTOR * (delta[i] + dmax)
-        b = a + 1
-        while b < n and re[b] - re[a] <= reach:
-            j = order[b]
-            if abs(lam[i] - lam[j]) <= CLUSTER_FACTOR * (delta[i] + delta[j]):
-                ri, rj = find(i), find(j)
-                if ri != rj:
-                    parent[max(ri, rj)] = min(ri, rj)
-            b += 1
     groups: dict[int, list[int]] = {}
-    for i in range(n):
-        groups.setdefault(find(i), []).append(i)
+    for i, root in enumerate(touching(lam, delta, CLUSTER_FACTOR)):
+        groups.setdefault(root, []).append(i)
     return [sorted(g) for _, g in sorted(groups.items())]
 
 
