@@ -97,15 +97,6 @@ class Mode(ModeFigures):
     states: tuple[str, ...]
     enclosure: float = math.inf
 
-    def decided_by(self, distance: float) -> str:
-        """How a value at ``distance`` (in units of ``s``) from a threshold is decided:
-        ``certified`` (beyond the enclosure), ``estimated`` (beyond the first-order bound) or
-        ``uncertain``."""
-        d = abs(distance)
-        if d > self.enclosure and d > self.uncertainty:
-            return "certified"
-        return "estimated" if d > self.uncertainty else "uncertain"
-
     @property
     def defective(self) -> bool:
         return self.geometric_multiplicity < self.multiplicity
