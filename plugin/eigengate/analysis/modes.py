@@ -5,8 +5,9 @@ objects built here, so every verdict sees the same cleaned spectrum:
 
 * the matrix is diagonally balanced when that lowers its norm (eigenvalues unchanged,
   accuracy better);
-* each eigenvalue gets a first-order error bound ``δ = 4·max(κ, 1)·n·eps·‖A‖`` from its
-  condition number κ (left/right eigenvectors);
+* each eigenvalue gets an a posteriori error bound from its residual and left vector, and,
+  for standard models up to :data:`~eigengate.analysis.bounds.ENCLOSE_LIMIT` states, a certified
+  enclosure (see :mod:`eigengate.analysis.bounds`);
 * eigenvalues closer than their bounds are one *cluster*: a double or defective eigenvalue that
   LAPACK splits by about √eps (or into a spurious complex pair) is reported once, with its
   multiplicity, at the cluster mean, and a cluster whose imaginary part is within its bound is
@@ -27,16 +28,16 @@ from typing import TYPE_CHECKING
 
 from ..errors import ModelError
 from ..model.core import Model
+from .bounds import MAX_BLOCK, cap_defective, hoelder
 
 if TYPE_CHECKING:  # pragma: no cover
     import numpy as np
 
 __all__ = ["Mode", "ModeFigures", "Spectrum", "analyse"]
 
-#: Safety factor on the backward-error scale n·eps·‖A‖ of the eigenvalue error bounds.
+#: Safety factor on the backward-error scale n·eps·‖A‖ of the Hölder-type bounds of defective
+#: eigenvalues (the first-order bounds come from residuals: :mod:`eigengate.analysis.bounds`).
 BOUND_FACTOR = 4.0
-#: Largest Jordan block size the defective-eigenvalue bound considers.
-MAX_BLOCK = 16
 #: Eigenvalues within this many times the sum of their error bounds are one cluster.
 CLUSTER_FACTOR = 4.0
 #: Above this order, geometric multiplicity is read from the eigenvectors instead of an SVD.
@@ -75,7 +76,10 @@ class Mode(ModeFigures):
     equivalent. ``time_constant`` is ``-1/Re(s)``: negative for a growing mode (its
     e-folding growth time), infinite on the boundary. ``damping_ratio`` is ``-Re(s)/|s|``
     (1 for a stable real mode, -1 for an unstable one, 0 for ``s = 0``).
-    ``uncertainty`` bounds the error of ``s`` (rad/s).
+    ``uncertainty`` bounds the error of ``s`` (rad/s): the smaller of the first-order
+    estimate and the certified ``enclosure`` (the radius of an s-plane disc about ``s`` that
+    holds exactly this mode's eigenvalues; inf where none was computed or it could not
+    separate them).
     """
 
     index: int
@@ -91,6 +95,7 @@ class Mode(ModeFigures):
     condition: float
     participation: "np.ndarray"
     states: tuple[str, ...]
+    enclosure: float = math.inf
 
     @property
     def defective(self) -> bool:
@@ -177,8 +182,8 @@ def _round_sig(x: float, digits: int = 10) -> float:
 
 def _decompose(model: Model):
     """Return eigenvalues, right vectors, left vectors (as columns), E-weighted left vectors,
-    the norm the bounds scale with, the number of infinite eigenvalues, and whether the matrix
-    was balanced."""
+    the norm the bounds scale with, the number of infinite eigenvalues, whether the matrix
+    was balanced, and the matrix (or finite pencil part) the eigenpairs belong to."""
     import numpy as np
     import scipy.linalg as la
 
@@ -195,7 +200,7 @@ def _decompose(model: Model):
         lam, vl, vr = la.eig(work, left=True, right=True, check_finite=False)
         # Participation factors are invariant under diagonal scaling, and the error bounds
         # belong to the matrix LAPACK actually saw, so everything stays in balanced coordinates.
-        return lam, vr, vl, vl, float(np.linalg.norm(work, "fro")), 0, balanced
+        return lam, vr, vl, vl, float(np.linalg.norm(work, "fro")), 0, balanced, work
     norm_a = float(np.linalg.norm(A, "fro"))
     norm_e = float(np.linalg.norm(E, "fro"))
     ab, vl, vr = la.eig(A, E, left=True, right=True, homogeneous_eigvals=True,
@@ -221,7 +226,7 @@ def _decompose(model: Model):
     lam = alpha[finite] / beta[finite]
     vr, vl = vr[:, finite], vl[:, finite]
     ew = E.conj().T @ vl  # E^H w: with it, w^H E v plays the role of w^H v
-    return lam, vr, vl, ew, norm_a + norm_e, int((~finite).sum()), False
+    return lam, vr, vl, ew, norm_a + norm_e, int((~finite).sum()), False, A
 
 
 def analyse(model: Model) -> Spectrum:
@@ -241,25 +246,25 @@ def analyse(model: Model) -> Spectrum:
     """
     import numpy as np
 
+    from .bounds import ENCLOSE_LIMIT, cluster_radius, components, enclose, estimate
+
     n = model.n_states
-    lam, vr, vl, ew, norm, infinite, balanced = _decompose(model)
+    lam, vr, vl, ew, norm, infinite, balanced, work = _decompose(model)
     if not (np.isfinite(lam).all() and math.isfinite(norm)):  # never a verdict from inf/nan
         raise ModelError(model.source, "plant.A", "has eigenvalues beyond the range of double "
                          "precision", line=model.line_of("plant.A"), hint="rescale the units")
     eps = float(np.finfo(float).eps)
 
-    # Condition numbers κ_i = ‖w‖‖v‖/|w^H v| (w^H E v for descriptor models).
-    dots = np.einsum("ij,ij->j", ew.conj(), vr)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        kappa = np.linalg.norm(vl, axis=0) * np.linalg.norm(vr, axis=0) / np.abs(dots)
-    kappa = np.where(np.isfinite(kappa), kappa, 1.0 / eps)
-    # Backward error of the QR/QZ algorithm: a modest multiple of n·eps·‖A‖ (the factor keeps
-    # the bound above the observed error on classic ill-conditioned test matrices).
+    # A posteriori bounds from the residuals A v - λ v (descriptor: A v - λ E v) and the left
+    # vectors; κ_i = ‖w‖‖v‖/|w^H v| (w^H E v for descriptor models) is reported alongside.
+    delta, kappa, residual = estimate(work, model.E, lam, vr, vl, ew)
+    # Defective eigenvalues: the Hölder-type scale of the QR/QZ backward error n·eps·‖A‖.
     base = BOUND_FACTOR * n * eps * max(norm, np.finfo(float).tiny)
-    delta = np.maximum(kappa, 1.0) * base
-    _cap_defective(lam, delta, base, norm, n)
-    if model.E is not None:
-        delta = delta * (1.0 + np.abs(lam))
+    cap_defective(lam, delta, base, norm, n)
+    rho = labels = None
+    if model.E is None and n <= ENCLOSE_LIMIT:
+        rho = enclose(work, lam, vr, vl, residual)
+        labels = None if rho is None else components(lam, rho)
 
     # Participation p_ki = |v_ki · conj((E^H w)_ki)|, normalised to sum 1 per eigenvalue.
     raw = np.abs(vr * ew.conj())
@@ -284,14 +289,16 @@ def analyse(model: Model) -> Spectrum:
             err = max(float(np.max(np.abs(vals - centre))), float(delta[members].max()))
             if geometric < len(members):
                 block = min(len(members) - geometric + 1, MAX_BLOCK)
-                err = max(err, _hoelder(base, norm, block)
+                err = max(err, hoelder(base, norm, block)
                           * (1.0 if model.E is None else 1.0 + abs(centre)))
             kap, weights = float(kappa[members].max()), part[:, members].mean(axis=1)
         if abs(centre.imag) <= err:
             centre = complex(centre.real, 0.0)
         elif centre.imag < 0:
             continue  # the conjugate cluster stands for this one
-        rows.append(_mode_fields(model, centre, err, len(members), geometric, kap, weights))
+        ring = cluster_radius(lam, rho, labels, members, centre)
+        rows.append(_mode_fields(model, centre, err, len(members), geometric, kap, weights,
+                                 ring))
     # Least stable (largest Re s) first, on rounded keys so round-off cannot reorder ties.
     rows.sort(key=lambda r: (-_round_sig(r["s"].real), _round_sig(abs(r["s"].imag)),
                              int(np.argmax(r["participation"]))))
@@ -299,72 +306,13 @@ def analyse(model: Model) -> Spectrum:
     return Spectrum(model=model, modes=modes, infinite=infinite, norm=norm, balanced=balanced)
 
 
-def _cap_defective(lam: "np.ndarray", delta: "np.ndarray", base: float, norm: float,
-                   n: int) -> None:
-    """Replace meaningless first-order bounds of (nearly) defective eigenvalues in place.
-
-    For an eigenvalue of a Jordan block of size m the first-order bound κ·eps·‖A‖ is useless
-    (κ → ∞ for an exact block), while the perturbation is of order h_m = ‖A‖·(c·n·eps)^(1/m)
-    (Hölder-type bound). m is taken as the largest m ≤ MAX_BLOCK with at least m computed
-    eigenvalues within 2·h_m; the bound is capped at h_m. Only eigenvalues whose first-order
-    bound exceeds h_2 are examined, so ordinary spectra cost nothing here.
-    """
-    import numpy as np
-
-    def h(m: int) -> float:
-        return _hoelder(base, norm, m)
-
-    for i in np.nonzero(delta > h(2))[0]:
-        d = np.abs(lam - lam[i])
-        block = 2
-        for m in range(3, min(n, MAX_BLOCK) + 1):
-            if np.count_nonzero(d <= 2.0 * h(m)) >= m:
-                block = m
-        delta[i] = min(delta[i], h(block))
-
-
-def _hoelder(base: float, norm: float, m: int) -> float:
-    """Hölder-type error scale ``‖A‖·(c·n·eps)^(1/m)`` of an eigenvalue of a Jordan block of
-    size m (Golub & Van Loan, ch. 7), with ``base = c·n·eps·‖A‖``."""
-    scale = max(norm, 2.2250738585072014e-308)
-    return scale * (base / scale) ** (1.0 / m)
-
-
 def _clusters(lam: "np.ndarray", delta: "np.ndarray") -> list[list[int]]:
     """Group eigenvalues closer than CLUSTER_FACTOR·(δi+δj), by sweeping along the real axis."""
-    import numpy as np
+    from .bounds import touching
 
-    n = lam.shape[0]
-    parent = list(range(n))
-
-    def find(i: int) -> int:
-        while parent[i] != i:
-            parent[i] = parent[parent[i]]
-            i = parent[i]
-        return i
-
-    order = np.argsort(lam.real, kind="stable")
-    re = lam.real[order]
-    dmax = float(delta.max()) if n else 0.0
-    # Only eigenvalues whose real parts lie within reach of the next one can cluster; in the
-    # usual spectrum there are none and the sweep below is skipped.
-    reach_all = CLUSTER_FACTOR * (delta[order] + dmax)
-    close = np.nonzero(np.diff(re) <= reach_all[:-1])[0] if n > 1 else ()
-    starts = set(int(a) for a in close)
-    for a in sorted(starts):
-        i = order[a]
-        reach = CLUSTER_FACTOR * (delta[i] + dmax)
-        b = a + 1
-        while b < n and re[b] - re[a] <= reach:
-            j = order[b]
-            if abs(lam[i] - lam[j]) <= CLUSTER_FACTOR * (delta[i] + delta[j]):
-                ri, rj = find(i), find(j)
-                if ri != rj:
-                    parent[max(ri, rj)] = min(ri, rj)
-            b += 1
     groups: dict[int, list[int]] = {}
-    for i in range(n):
-        groups.setdefault(find(i), []).append(i)
+    for i, root in enumerate(touching(lam, delta, CLUSTER_FACTOR)):
+        groups.setdefault(root, []).append(i)
     return [sorted(g) for _, g in sorted(groups.items())]
 
 
@@ -387,20 +335,26 @@ def _geometric(model: Model, centre: complex, vectors: "np.ndarray", size: int,
 
 
 def _mode_fields(model: Model, centre: complex, err: float, multiplicity: int, geometric: int,
-                 kappa: float, participation: "np.ndarray") -> dict:
+                 kappa: float, participation: "np.ndarray", ring: float = math.inf) -> dict:
+    from .bounds import FIGURE_FLOOR, map_to_s
+
     pair = centre.imag != 0.0
     if model.sample_period is None:
-        s, err_s = centre, err
+        s, err_s, ring_s = centre, err, ring
     else:
         T = model.sample_period
         r = abs(centre)
+        ring_s = map_to_s(ring, centre, T)
         if r <= err:  # deadbeat: z = 0 decays in one step
-            centre, s, err_s = 0j, complex(-math.inf, 0.0), 0.0
+            centre, s, err_s, ring_s = 0j, complex(-math.inf, 0.0), 0.0, math.inf
         else:
             s = complex(math.log(r) / T, math.atan2(centre.imag, centre.real) / T)
             if centre.imag == 0.0 and centre.real < 0:
                 s = complex(s.real, math.pi / T)
             err_s = err / r / T  # not err/(r·T): r·T may underflow
+    if math.isfinite(s.real):  # rounding of s itself (and of the figures derived from it)
+        floor = FIGURE_FLOOR * 2.0 ** -52 * abs(s)
+        err_s, ring_s = max(err_s, floor), ring_s + floor
     wn = abs(s)
     if math.isinf(s.real):
         zeta, tau = 1.0, 0.0
@@ -411,5 +365,5 @@ def _mode_fields(model: Model, centre: complex, err: float, multiplicity: int, g
         tau = math.inf if s.real == 0.0 else -1.0 / s.real
     return dict(eigenvalue=centre, s=s, multiplicity=multiplicity,
                 geometric_multiplicity=geometric, pair=pair, natural_frequency=wn,
-                damping_ratio=zeta, time_constant=tau, uncertainty=err_s, condition=kappa,
-                participation=participation)
+                damping_ratio=zeta, time_constant=tau, uncertainty=min(err_s, ring_s),
+                condition=kappa, participation=participation, enclosure=ring_s)

@@ -60,6 +60,9 @@ def build_model(doc: Mapping[str, Any], ctx: _Ctx, name: str, label: str | None)
     on_uncertain = doc.get("on_uncertain")
     if on_uncertain not in (None, "fail", "pass"):
         raise ctx.err("on_uncertain", f"must be 'fail' or 'pass', got {on_uncertain!r}")
+    require = doc.get("require")
+    if require not in (None, "certified", "estimated"):
+        raise ctx.err("require", f"must be 'certified' or 'estimated', got {require!r}")
     model = from_arrays(*matrices, e, sample_period=ctx.sample_period, name=name,
                         states=states, inputs=plant.inputs, outputs=plant.outputs, label=label,
                         source=ctx.source, structure=structure, requirements=requirements,
@@ -73,7 +76,7 @@ def build_model(doc: Mapping[str, Any], ctx: _Ctx, name: str, label: str | None)
         parse_tolerances(drift, ctx.source, ctx.prefix + "allowed_drift.", ctx.prefixed_lines())
     return dataclasses.replace(model, lines=dict(ctx.lines), loop_parts=_loop(doc, ctx, parts,
                                                                               requirements),
-                               allowed_drift=drift)
+                               allowed_drift=drift, require=require)
 
 
 def _loop(doc: Mapping[str, Any], ctx: _Ctx, parts: list[dict[str, Any]],

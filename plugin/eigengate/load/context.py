@@ -15,10 +15,11 @@ from ..errors import ModelError
 #: Versions of ``model_format`` this loader reads.
 FORMAT_VERSIONS = (1,)
 TOP_KEYS = ("model_format", "name", "description", "domain", "sample_period", "plant",
-            "feedback", "requirements", "known_modes", "on_uncertain", "operating_points",
+            "feedback", "requirements", "known_modes", "on_uncertain", "require",
+            "operating_points",
             "waivers", "loop", "vector_field", "allowed_drift")
 POINT_KEYS = ("label", "id", "plant", "feedback", "requirements", "known_modes", "on_uncertain",
-              "loop", "allowed_drift")
+              "require", "loop", "allowed_drift")
 SS_KEYS = ("A", "B", "C", "D", "E", "states", "inputs", "outputs")
 TF_KEYS = ("num", "den", "states", "inputs", "outputs")
 FEEDBACK_KEYS = ("state_gain", "output_gain", "controller", "inputs", "outputs")

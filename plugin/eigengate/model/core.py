@@ -43,7 +43,8 @@ class Model:
     A closed loop formed by the loader is stored as its closed-loop matrices; ``structure``
     says how it was formed. ``requirements`` are the model's own; ``disabled`` lists rule ids
     the model switches off (``stable: false``) so a repository default does not apply to it;
-    ``on_uncertain`` is None when the model leaves it to the repository policy.
+    ``on_uncertain`` is None when the model leaves it to the repository policy, and so is
+    ``require`` (``"certified"``: a verdict only estimated counts as uncertain).
     ``loop_parts`` and ``nonlinear`` carry what margin and equilibrium requirements need.
     """
 
@@ -63,6 +64,7 @@ class Model:
     requirements: tuple[Any, ...] = ()
     known_modes: tuple[Any, ...] = ()
     on_uncertain: str | None = None
+    require: str | None = None
     disabled: tuple[str, ...] = ()
     waivers: tuple[Any, ...] = ()
     lines: Mapping[str, int] = field(default_factory=dict)

@@ -219,7 +219,8 @@ def _verdicts(r: "ModelResult") -> list[str]:
     if not r.verdicts:
         return []
     out = ["<h4>Requirements checked</h4>", "<table><thead><tr><th>rule</th><th>requirement"
-           "</th><th>result</th><th>measured</th><th>threshold</th><th>margin</th></tr></thead>"
+           "</th><th>result</th><th>measured</th><th>threshold</th><th>margin</th>"
+           "<th>decided</th></tr></thead>"
            "<tbody>"]
     for v in r.verdicts:
         status = "pass" if v.passed else "fail"
@@ -229,7 +230,8 @@ def _verdicts(r: "ModelResult") -> list[str]:
                    f"{_e(v.requirement)}</td><td><span class=\"eg-badge {status}\">{word}</span>"
                    f"</td><td class=\"num\">{_e(_num(v.measured) + unit)}</td>"
                    f"<td class=\"num\">{_e(_num(v.threshold))}</td>"
-                   f"<td class=\"num\">{_e(_num(v.margin))}</td></tr>")
+                   f"<td class=\"num\">{_e(_num(v.margin))}</td>"
+                   f"<td>{_e(v.decided_by)}</td></tr>")
     out.append("</tbody></table>")
     if any(v.uncertain for v in r.verdicts):
         out.append('<p class="eg-note">?: the outcome is numerically uncertain; the model\'s '

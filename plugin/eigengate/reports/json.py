@@ -49,7 +49,8 @@ def _model_data(r: Any) -> dict[str, Any]:
             {"rule": v.rule, "name": v.name, "requirement": v.requirement,
              "passed": bool(v.passed), "uncertain": bool(v.uncertain),
              "measured": json_value(v.measured), "threshold": json_value(v.threshold),
-             "margin": json_number(v.margin), "unit": v.unit, "message": v.message}
+             "margin": json_number(v.margin), "unit": v.unit, "message": v.message,
+             "decided_by": v.decided_by}
             for v in r.verdicts],
         "findings": [finding_data(f) for f in r.findings],
         "waived": [finding_data(f) for f in getattr(r, "waived", ())],

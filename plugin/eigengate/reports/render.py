@@ -15,9 +15,9 @@ import math
 from numbers import Integral
 from typing import Any, Iterable, Iterator
 
-from ..rules.findings import UNCERTAIN_NOTE, Finding, ModeRow
+from ..rules.findings import DECIDED_NOTES, UNCERTAIN_NOTE, Finding, ModeRow
 
-__all__ = ["UNCERTAIN_NOTE", "json_number", "json_value", "json_complex", "mode_data", "finding_data",
+__all__ = ["UNCERTAIN_NOTE", "DECIDED_NOTES", "json_number", "json_value", "json_complex", "mode_data", "finding_data",
            "text_number", "mode_cells", "mode_summary", "finding_summary", "own_findings",
            "model_findings", "all_findings", "status_of", "tally", "plural", "CAUTION"]
 
@@ -86,7 +86,7 @@ def finding_data(f: Finding) -> dict[str, Any]:
         "message": f.message, "requirement": f.requirement,
         "measured": json_value(f.measured), "threshold": json_value(f.threshold),
         "margin": json_number(f.margin), "unit": f.unit, "uncertain": bool(f.uncertain),
-        "suggestion": f.suggestion, "waived": getattr(f, "waived", None),
+        "decided_by": getattr(f, "decided_by", "") or None, "suggestion": f.suggestion, "waived": getattr(f, "waived", None),
         "modes": [mode_data(m) for m in f.modes],
         "before": [mode_data(m) for m in getattr(f, "before", ())],
     }

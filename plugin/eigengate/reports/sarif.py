@@ -90,6 +90,7 @@ def _result(f: Any, index: dict[str, int]) -> dict[str, Any]:
             "model": f.model, "label": f.label, "requirement": f.requirement,
             "measured": json_value(f.measured), "threshold": json_value(f.threshold),
             "margin": json_number(f.margin), "unit": f.unit, "uncertain": bool(f.uncertain),
+            "decidedBy": getattr(f, "decided_by", "") or None,
             "modes": [mode_data(m) for m in f.modes],
             "before": [mode_data(m) for m in getattr(f, "before", ())],
         },

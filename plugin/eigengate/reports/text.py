@@ -5,7 +5,7 @@ from __future__ import annotations
 import math
 from typing import TYPE_CHECKING, Iterable, Sequence
 
-from ..rules.findings import UNCERTAIN_NOTE, Finding, ModeRow
+from ..rules.findings import DECIDED_NOTES, UNCERTAIN_NOTE, Finding, ModeRow
 from .escape import printable as _p
 from .render import format_eigenvalue  # shared by every writer; re-exported
 
@@ -68,6 +68,8 @@ def finding_lines(f: Finding, discrete: bool, color: bool = False) -> list[str]:
     out = [head, f"        {_p(f.message)}"]
     if f.uncertain:
         out.append(f"        note: {UNCERTAIN_NOTE}")
+    if getattr(f, "decided_by", ""):
+        out.append(f"        decided: {f.decided_by} ({DECIDED_NOTES[f.decided_by]})")
     if f.suggestion:
         out.append(f"        hint: {_p(f.suggestion)}")
     if f.modes:
@@ -166,7 +168,8 @@ def render_model(result: ModelResult) -> str:
         mark = "pass" if v.passed else "FAIL"
         margin = "" if v.margin is None else f", margin {v.margin:.4g}"
         note = " (numerically uncertain)" if v.uncertain else ""
-        lines.append(f"    {mark}  {v.rule} {v.name}  [{_p(v.requirement)}]{margin}{note}")
+        lines.append(f"    {mark}  {v.rule} {v.name}  [{_p(v.requirement)}]{margin}{note}"
+                     f"  · {v.decided_by}")
         lines.append(f"          {_p(v.message)}")
     for f in result.waived:
         lines.append(f"    waived  {f.rule} {f.name}: {_p(f.waived)}")

@@ -13,12 +13,21 @@ from ..analysis.equilibrium import EQUILIBRIUM_TYPES
 if TYPE_CHECKING:  # pragma: no cover
     from ..analysis.modes import Mode
 
-__all__ = ["Rule", "RULES", "Verdict", "rule_by_key"]
+__all__ = ["Rule", "RULES", "Verdict", "rule_by_key", "DECIDED_BY"]
+
+#: How a verdict was decided: by a certified enclosure, by the first-order estimate, or not.
+DECIDED_BY = ("certified", "estimated", "uncertain")
 
 
 @dataclass(frozen=True, eq=False)
 class Verdict:
-    """Outcome of one requirement on one model (and operating point)."""
+    """Outcome of one requirement on one model (and operating point).
+
+    ``decided_by`` says what decided the outcome (:data:`DECIDED_BY`): ``certified`` when
+    enclosures that hold in exact arithmetic decide it, ``estimated`` when only the
+    first-order error bounds do (the default of verdicts that do not say), ``uncertain``
+    when neither does and the on_uncertain policy gave the outcome.
+    """
 
     rule: str
     name: str
@@ -32,6 +41,11 @@ class Verdict:
     offending: tuple["Mode", ...]
     message: str
     suggestion: str | None = None
+    decided_by: str = ""
+
+    def __post_init__(self) -> None:
+        if not self.decided_by:
+            object.__setattr__(self, "decided_by", "uncertain" if self.uncertain else "estimated")
 
 
 @dataclass(frozen=True)

@@ -28,6 +28,13 @@ class RulePolicy(Protocol):
 #: The note every report gives a finding whose value is within its error bound of the threshold.
 UNCERTAIN_NOTE = "numerically uncertain: a value lies within its error bound of the threshold"
 
+#: What each value of a finding's ``decided_by`` means, for the reports' notes.
+DECIDED_NOTES = {
+    "certified": "decided by enclosures that hold in exact arithmetic",
+    "estimated": "decided by first-order error bounds",
+    "uncertain": "not decided by the error bounds; the on_uncertain policy gave the outcome",
+}
+
 #: Rule of a model source that could not be loaded or analysed.
 INVALID_RULE = ("EG001", "invalid-model")
 
@@ -82,6 +89,9 @@ class Finding:
     #: Regressions: the offending modes as the baseline has them, aligned with ``modes``
     #: (a disappeared mode is in ``modes``, as the baseline has it, and ``before`` is empty).
     before: tuple[ModeRow, ...] = ()
+    #: How the verdict was decided (``certified``, ``estimated``, ``uncertain``); empty for
+    #: findings that come from no verdict (invalid models, waivers, regressions).
+    decided_by: str = ""
 
     @property
     def title(self) -> str:
@@ -109,7 +119,8 @@ def findings_of(model: "Model", verdicts: Iterable["Verdict"],
             source=model.source, line=line, model=model.name, label=model.label,
             message=v.message, requirement=v.requirement, measured=v.measured,
             threshold=v.threshold, margin=v.margin, unit=v.unit, uncertain=v.uncertain,
-            modes=tuple(ModeRow.of(m) for m in v.offending), suggestion=v.suggestion))
+            modes=tuple(ModeRow.of(m) for m in v.offending), suggestion=v.suggestion,
+            decided_by=v.decided_by))
     return out
 
 

@@ -56,25 +56,46 @@ def _fmt(x: float) -> str:
     return f"{x:.6g}"
 
 
-def _threshold_verdict(req: Requirement, rows: list[tuple[Mode, float, float]], threshold: float,
-                       at_least: bool, what: str, on_uncertain: str, *,
+def _weakest(levels: Iterable[str]) -> str:
+    """The weakest of several decisions (all must hold): uncertain < estimated < certified."""
+    levels = list(levels)
+    for level in ("uncertain", "estimated"):
+        if level in levels:
+            return level
+    return "certified"
+
+
+def _level(distance: float, u: float, c: float) -> str:
+    d = abs(distance)
+    return "certified" if d > c and d > u else "estimated" if d > u else "uncertain"
+
+
+def _threshold_verdict(req: Requirement, rows: list[tuple[Mode, float, float, float]],
+                       threshold: float, at_least: bool, what: str, on_uncertain: str, *,
                        empty: str, suggest: Callable[[float], str]) -> Verdict:
     """Shared logic of single-threshold requirements.
 
-    ``rows`` holds (mode, value, uncertainty of value). ``at_least``: value must be ≥ threshold,
-    else ≤ threshold.
+    ``rows`` holds (mode, value, first-order uncertainty of value, certified uncertainty of
+    value: inf without an enclosure). ``at_least``: value must be ≥ threshold, else ≤
+    threshold. A failure is decided as well as its best-decided violating mode; a pass as
+    well as its least-decided mode.
     """
     if not rows:
         return req._verdict(passed=True, uncertain=False, measured="n/a", threshold=threshold,
-                            margin=None, offending=(), message=empty)
+                            margin=None, offending=(), message=empty, decided_by="certified")
     sign = 1.0 if at_least else -1.0
-    margins = [(m, sign * (v - threshold), u, v) for m, v, u in rows]
-    failing = [m for m, g, u, _ in margins if g < -u]
-    unsure = [m for m, g, u, _ in margins if abs(g) <= u]
+    margins = [(m, sign * (v - threshold), u, v, c) for m, v, u, c in rows]
+    failing = [m for m, g, u, _, _ in margins if g < -u]
+    unsure = [m for m, g, u, _, _ in margins if abs(g) <= u]
     worst = min(margins, key=lambda t: (t[1], t[0].index))
     margin, worst_value = worst[1], worst[3]
     uncertain = bool(unsure)
     passed = not failing and (not unsure or on_uncertain == "pass")
+    if failing:
+        decided = "certified" if any(_level(g, u, c) == "certified" for _, g, u, _, c in margins
+                                     if g < -u) else "estimated"
+    else:
+        decided = _weakest(_level(g, u, c) for _, g, u, _, c in margins)
     rel = "≥" if at_least else "≤"
     if failing:
         verb = "modes violate" if len(failing) > 1 else "mode violates"
@@ -82,19 +103,19 @@ def _threshold_verdict(req: Requirement, rows: list[tuple[Mode, float, float]], 
                    f"{_fmt(threshold)}: worst {_fmt(worst_value)} (margin {_fmt(margin)})")
     elif unsure:
         message = (f"{what} {_fmt(worst_value)} is within its numerical uncertainty "
-                   f"(±{_fmt(max(u for m, g, u, _ in margins if m in unsure))}) of the threshold "
-                   f"{_fmt(threshold)}; verdict {'passed' if passed else 'failed'} by the "
-                   f"on_uncertain={on_uncertain} policy")
+                   f"(±{_fmt(max(u for m, g, u, _, _ in margins if m in unsure))}) of the "
+                   f"threshold {_fmt(threshold)}; verdict {'passed' if passed else 'failed'} by "
+                   f"the on_uncertain={on_uncertain} policy")
     else:
         message = f"{what} {_fmt(worst_value)} {rel} {_fmt(threshold)} (margin {_fmt(margin)})"
     offending = tuple(m for m, *_ in margins if m in failing or m in unsure)
     return req._verdict(passed=passed, uncertain=uncertain, measured=worst_value,
                         threshold=threshold, margin=margin, offending=offending, message=message,
-                        suggestion=None if passed else suggest(worst_value))
+                        suggestion=None if passed else suggest(worst_value), decided_by=decided)
 
 
-def _decay_rows(modes: Iterable[Mode]) -> list[tuple[Mode, float, float]]:
-    return [(m, m.decay_rate, m.uncertainty) for m in modes]
+def _decay_rows(modes: Iterable[Mode]) -> list[tuple[Mode, float, float, float]]:
+    return [(m, m.decay_rate, m.uncertainty, m.enclosure) for m in modes]
 
 
 @dataclass(frozen=True)
@@ -152,7 +173,14 @@ class Stability(Requirement):
                          f"slowest decay rate {_fmt(margin)} 1/s")
         if discrete:  # margin in the plane of the measured value: 1 - spectral radius
             margin = 1.0 - measured
+        if certain:  # an exact boundary mode is taken as exact: estimated, never certified
+            decided = "certified" if any(_side_level(m) == "certified" for m in unstable) \
+                else "estimated"
+        else:
+            decided = _weakest([_side_level(m) for m in modes if m not in exact]
+                               + ["estimated"] * bool(exact))
         return self._verdict(passed=passed, uncertain=uncertain, measured=measured,
+                             decided_by=decided,
                              threshold=1.0 if discrete else 0.0,
                              margin=margin if math.isfinite(margin) else None,
                              unit="" if discrete else "1/s", offending=tuple(bad),
@@ -189,7 +217,10 @@ class MinDamping(Requirement):
         return f"min_damping: {_fmt(self.zeta)}"
 
     def check(self, modes, spectrum, on_uncertain):
-        rows = [(m, m.damping_ratio, m.uncertainty / m.natural_frequency)
+        # cos is 1-Lipschitz and a disc of radius ρ about s turns the angle by ≤ asin(ρ/|s|).
+        rows = [(m, m.damping_ratio, m.uncertainty / m.natural_frequency,
+                 math.asin(min(1.0, m.enclosure / m.natural_frequency)) * (1.0 + 1e-15)
+                 if m.enclosure < m.natural_frequency else math.inf)
                 for m in modes if m.oscillatory and m.natural_frequency > 0]
         return _threshold_verdict(self, rows, self.zeta, True, "damping ratio", on_uncertain,
                                   empty="no oscillatory modes",
@@ -207,7 +238,7 @@ class MaxFrequency(Requirement):
         return f"max_frequency: {_fmt(self.omega)}"
 
     def check(self, modes, spectrum, on_uncertain):
-        rows = [(m, m.natural_frequency, m.uncertainty) for m in modes
+        rows = [(m, m.natural_frequency, m.uncertainty, m.enclosure) for m in modes
                 if math.isfinite(m.natural_frequency)]
         return _threshold_verdict(self, rows, self.omega, False, "natural frequency",
                                   on_uncertain, empty="no modes to check",
@@ -255,12 +286,30 @@ class PoleRegion(Requirement):
         return "pole_region: {" + ", ".join(parts) + "}"
 
     def check(self, modes, spectrum, on_uncertain):
-        rows = [(m, region_distance(m.s, self.alpha, self.zeta, self.omega), m.uncertainty)
-                for m in modes]
+        # The signed distance to the region's boundary is 1-Lipschitz in s.
+        rows = [(m, region_distance(m.s, self.alpha, self.zeta, self.omega), m.uncertainty,
+                 m.enclosure) for m in modes]
         return _threshold_verdict(self, rows, 0.0, True, "distance into the allowed region",
                                   on_uncertain, empty="no modes to check",
                                   suggest=lambda w: "move the listed modes into the region, or "
                                   "widen it")
+
+
+def _side_level(m: Mode) -> str:
+    """How the side of the stability boundary a mode lies on is decided."""
+    return _level(m.s.real, m.uncertainty, m.enclosure)
+
+
+def _type_level(eq, seen: Sequence[Mode]) -> str:
+    """How an equilibrium type (and its direction counts) is decided: certified when every
+    mode is a single eigenvalue (or pair) with its own enclosure off the boundary, which
+    also certifies it real or non-real (a real matrix: a disc holding one eigenvalue holds
+    its conjugate only when it is real)."""
+    if eq.uncertain:
+        return "uncertain"
+    ok = all(m.multiplicity == 1 and math.isfinite(m.enclosure)
+             and _side_level(m) == "certified" for m in seen)
+    return "certified" if ok and seen else "estimated"
 
 
 def origin(modes: Sequence[Mode], spectrum: Spectrum):
@@ -291,6 +340,7 @@ class EquilibriumType(Requirement):
         passed = ok and (not eq.uncertain or on_uncertain == "pass")
         message = f"expected {self.expected}, found {eq.describe()}"
         return self._verdict(passed=passed, uncertain=eq.uncertain, measured=eq.type,
+                             decided_by=_type_level(eq, seen),
                              threshold=self.expected, margin=None,
                              offending=() if ok else seen, message=message,
                              suggestion=None if passed else f"equilibrium: {eq.type} matches "
@@ -312,6 +362,7 @@ class NoSaddle(Requirement):
         passed = not saddle and (not eq.uncertain or on_uncertain == "pass")
         offending = tuple(m for m in seen if side(m) > 0) if saddle else ()
         return self._verdict(passed=passed, uncertain=eq.uncertain, measured=eq.type,
+                             decided_by=_type_level(eq, seen),
                              threshold="not saddle", margin=None, offending=offending,
                              message=("saddle: " if saddle else "no saddle: ") + eq.describe())
 
@@ -340,6 +391,7 @@ class DirectionCounts(Requirement):
         message = ("direction counts differ: " + ", ".join(wrong) if wrong else
                    "direction counts as expected") + f"; {eq.describe()}"
         return self._verdict(passed=passed, uncertain=eq.uncertain,
+                             decided_by=_type_level(eq, seen),
                              measured=f"{eq.stable}/{eq.unstable}/{eq.center}",
                              threshold=self.spec(), margin=None,
                              offending=seen if wrong else (), message=message)
@@ -347,12 +399,15 @@ class DirectionCounts(Requirement):
 
 def evaluate(spectrum: Spectrum, requirements: Sequence[Requirement] | None = None, *,
              known_modes: Sequence[KnownMode] | None = None,
-             on_uncertain: str | None = None) -> tuple[Verdict, ...]:
+             on_uncertain: str | None = None, require: str | None = None
+             ) -> tuple[Verdict, ...]:
     """Evaluate requirements (default: the model's own) on a spectrum.
 
     Known modes (default: the model's own) are taken out first; when any are declared, a
     known-modes verdict comes first in the result. A requirement the model cannot be judged
-    by (a margin without a loop, say) gets a failing verdict that says why.
+    by (a margin without a loop, say) gets a failing verdict that says why. With
+    ``require="certified"`` (default: the model's own policy) a verdict decided only by the
+    first-order estimate counts as uncertain and follows ``on_uncertain``.
     """
     model = spectrum.model
     reqs = model.requirements if requirements is None else tuple(requirements)
@@ -367,7 +422,26 @@ def evaluate(spectrum: Spectrum, requirements: Sequence[Requirement] | None = No
     refused = {id(r): why for r, why in unmet_for(model, reqs)}  # fail, never pass unseen
     out.extend(r.check(modes, spectrum, policy) if id(r) not in refused else
                not_evaluable(r, refused[id(r)]) for r in reqs)
+    need = require or model.require or "estimated"
+    if need not in ("certified", "estimated"):
+        raise ValueError(f"require must be 'certified' or 'estimated', got {need!r}")
+    if need == "certified":
+        out = [_only_certified(v, policy) for v in out]
     return tuple(out)
+
+
+def _only_certified(v: Verdict, policy: str) -> Verdict:
+    """``v`` as a policy that requires certified verdicts sees it."""
+    from dataclasses import replace
+
+    if v.decided_by != "estimated":
+        return v
+    passed = policy == "pass"
+    return replace(v, uncertain=True, decided_by="uncertain", passed=passed,
+                   message=f"{v.message}; decided only by the first-order estimate, not by an "
+                   f"enclosure, and require: certified makes that uncertain: verdict "
+                   f"{'passed' if passed else 'failed'} by the on_uncertain={policy} policy",
+                   suggestion=v.suggestion if passed == v.passed else None)
 
 
 

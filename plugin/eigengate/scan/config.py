@@ -7,6 +7,7 @@ verdict. Keys::
                                        #   file whose text has a model_format key)
     exclude = ["models/attic/**"]
     on_uncertain = "fail"              # default for models that do not say
+    require = "certified"              # optional: verdicts only estimated count as uncertain
     select = ["EG1"]                   # rule ids or id prefixes to report (default: all)
     ignore = ["EG104"]
     allow_python = false               # CLI: may model files import project code (nonlinear)
@@ -56,10 +57,10 @@ if TYPE_CHECKING:  # pragma: no cover
 
 __all__ = ["Config", "ConfigError", "Override", "load_config", "find_config", "CONFIG_KEYS"]
 
-CONFIG_KEYS = ("include", "exclude", "on_uncertain", "select", "ignore", "requirements",
-               "severity", "overrides", "waivers", "allow_python", "baseline", "allowed_drift",
-               "extend")
-OVERRIDE_KEYS = ("paths", "requirements", "on_uncertain", "allowed_drift")
+CONFIG_KEYS = ("include", "exclude", "on_uncertain", "require", "select", "ignore",
+               "requirements", "severity", "overrides", "waivers", "allow_python", "baseline",
+               "allowed_drift", "extend")
+OVERRIDE_KEYS = ("paths", "requirements", "on_uncertain", "require", "allowed_drift")
 SEVERITIES = ("error", "warning", "off")
 
 
@@ -74,6 +75,7 @@ class Override:
     requirements: Layer = ((), ())
     on_uncertain: str | None = None
     allowed_drift: Mapping[str, Any] | None = None
+    require: str | None = None
 
     def applies(self, rel: str) -> bool:
         return any(glob_match(rel, p) for p in self.paths)
@@ -88,6 +90,7 @@ class Config:
     include: tuple[str, ...] = ()
     exclude: tuple[str, ...] = ()
     on_uncertain: str | None = None
+    require: str | None = None
     select: tuple[str, ...] = ()
     ignore: tuple[str, ...] = ()
     requirements: Layer = ((), ())
@@ -226,12 +229,19 @@ class Config:
         return [*self.inherited, self.requirements] + [o.requirements for o in self.overrides if o.applies(rel)]
 
     def on_uncertain_for(self, rel: str) -> str | None:
+        return self._policy_for(rel, "on_uncertain")
+
+    def require_for(self, rel: str) -> str | None:
+        """``"certified"`` where the policy requires certified verdicts for ``rel``."""
+        return self._policy_for(rel, "require")
+
+    def _policy_for(self, rel: str, key: str) -> str | None:
         if (own := self._own(rel)) is not None:
-            return own.on_uncertain_for(rel)
-        value = self.on_uncertain
+            return own._policy_for(rel, key)
+        value = getattr(self, key)
         for o in self.overrides:
-            if o.on_uncertain is not None and o.applies(rel):
-                value = o.on_uncertain
+            if getattr(o, key) is not None and o.applies(rel):
+                value = getattr(o, key)
         return value
 
     def effective(self, model: "Model") -> "Model":
@@ -245,7 +255,8 @@ class Config:
         layers = self.layers_for(model.source) + [(model.requirements, model.disabled)]
         reqs = tuple(r for r in apply_layers(layers) if self.rule_enabled(r.rule))
         return replace(model, requirements=reqs, disabled=(),
-                       on_uncertain=model.on_uncertain or self.on_uncertain_for(model.source))
+                       on_uncertain=model.on_uncertain or self.on_uncertain_for(model.source),
+                       require=model.require or self.require_for(model.source))
 
 
 def _rebase(pattern: str, base: str) -> str:
@@ -309,8 +320,9 @@ def _unknown(key: str, allowed: Sequence[str], source: str, where: str) -> Confi
 
 
 def _policy(value: Any, source: str, key: str) -> str:
-    if value not in ("fail", "pass"):
-        raise ConfigError(source, key, f"must be 'fail' or 'pass', got {value!r}")
+    allowed = ("certified", "estimated") if key.endswith("require") else ("fail", "pass")
+    if value not in allowed:
+        raise ConfigError(source, key, f"must be '{allowed[0]}' or '{allowed[1]}', got {value!r}")
     return value
 
 
@@ -356,8 +368,9 @@ def parse_config(table: Mapping[str, Any], *, root: Path, source: str | None = "
             if not any(r.startswith(prefix) for r in RULES):
                 raise ConfigError(source, key, f"names no rule: {prefix!r}",
                                   "rule ids look like EG103; `eigengate rules` lists them")
-    if "on_uncertain" in table:
-        kw["on_uncertain"] = _policy(table["on_uncertain"], source, "on_uncertain")
+    for key in ("on_uncertain", "require"):
+        if key in table:
+            kw[key] = _policy(table[key], source, key)
     if "allow_python" in table:
         if not isinstance(table["allow_python"], bool):
             raise ConfigError(source, "allow_python",
@@ -399,7 +412,9 @@ def parse_config(table: Mapping[str, Any], *, root: Path, source: str | None = "
                 paths=_strings(item["paths"], source, f"{where}paths"),
                 requirements=_layer(item.get("requirements", {}), source, f"{where}requirements"),
                 on_uncertain=None if "on_uncertain" not in item else
-                _policy(item["on_uncertain"], source, f"{where}on_uncertain")))
+                _policy(item["on_uncertain"], source, f"{where}on_uncertain"),
+                require=None if "require" not in item else
+                _policy(item["require"], source, f"{where}require")))
         kw["overrides"] = tuple(out)
     if "baseline" in table:
         value = table["baseline"]
@@ -458,7 +473,7 @@ def _nest(kw: dict[str, Any], base: str, source: str) -> None:
 def _inherit(kw: dict[str, Any], parent: Config) -> None:
     """``extend = true``: what the policy does not set comes from its parent; requirements
     and overrides layer on the parent's; include, exclude, waivers and baseline stay its own."""
-    for key in ("on_uncertain", "select", "ignore", "allow_python", "allowed_drift"):
+    for key in ("on_uncertain", "require", "select", "ignore", "allow_python", "allowed_drift"):
         kw.setdefault(key, getattr(parent, key))
     kw["severity"] = {**parent.severity, **kw.get("severity", {})}
     kw["overrides"] = parent.overrides + tuple(kw.get("overrides", ()))

@@ -31,7 +31,7 @@ from ..rules.waivers import Waiver
 
 __all__ = ["results_to_data", "results_from_data", "CachedSpectrum", "Blobs", "FORMAT"]
 
-FORMAT = 4
+FORMAT = 5
 
 
 class Blobs:
@@ -72,7 +72,7 @@ class Blobs:
 # ------------------------------------------------------------------ modes, lazily
 
 _MODE_SCALARS = ("multiplicity", "geometric_multiplicity", "pair", "natural_frequency",
-                 "damping_ratio", "time_constant", "uncertainty", "condition")
+                 "damping_ratio", "time_constant", "uncertainty", "condition", "enclosure")
 #: A mode as a row of float64 (exact for every field): index, eigenvalue and s as real and
 #: imaginary parts, then the scalars above.
 _MODE_COLUMNS = 5 + len(_MODE_SCALARS)
@@ -109,6 +109,7 @@ class _LazyModes(Sequence):
                          multiplicity=int(r[5]), geometric_multiplicity=int(r[6]),
                          pair=bool(r[7]), natural_frequency=r[8], damping_ratio=r[9],
                          time_constant=r[10], uncertainty=r[11], condition=r[12],
+                         enclosure=r[13],
                          participation=part[:, k], states=self._states)
                     for k, r in enumerate(rows.tolist()))
         return self._built
@@ -230,7 +231,7 @@ def _model_data(m, blobs: Blobs) -> dict:
     out.update({
         "name": m.name, "label": m.label, "source": m.source, "structure": m.structure,
         "sample_period": m.sample_period, "states": list(m.states), "inputs": list(m.inputs),
-        "outputs": list(m.outputs), "on_uncertain": m.on_uncertain,
+        "outputs": list(m.outputs), "on_uncertain": m.on_uncertain, "require": m.require,
         "disabled": list(m.disabled), "lines": blobs.put_json(dict(m.lines)),
         "requirements": [[type(r).__name__, record(r)] for r in m.requirements],
         "known_modes": [record(k) for k in m.known_modes],
@@ -328,7 +329,7 @@ def _model_from(d: dict, blobs, shapes: list) -> CachedModel:
         _stored=stored, name=d["name"], label=d["label"], source=d["source"],
         structure=d["structure"], sample_period=d["sample_period"],
         states=tuple(d["states"]), inputs=tuple(d["inputs"]), outputs=tuple(d["outputs"]),
-        on_uncertain=d["on_uncertain"], disabled=tuple(d["disabled"]),
+        on_uncertain=d["on_uncertain"], require=d["require"], disabled=tuple(d["disabled"]),
         waivers=tuple(unrecord(Waiver, w) for w in d["waivers"]),
         allowed_drift=d["allowed_drift"], loop_parts=None,
         nonlinear=_field_from(d["nonlinear"]), point_id=d.get("point_id"))
