@@ -6,7 +6,7 @@ input that must load into correct models). Files are generated rather than commi
 corpus reads as a list of intentions. Matrix files a case references live under ``data/ID/``
 so that every case can share one repository.
 
-Cases that other branches fix at the same time are named in ``PENDING_ELSEWHERE``.
+The holes the gate-integrity review named are listed in ``NAMED_HOLES``.
 """
 
 from __future__ import annotations

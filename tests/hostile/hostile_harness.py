@@ -7,6 +7,7 @@ import signal
 from pathlib import Path
 
 from eigengate.errors import EigengateError, ModelError
+from eigengate.model.formats import printable_name
 from eigengate.load.loader import load_models
 
 #: Seconds one case may take in-process before it counts as a hang.
@@ -52,8 +53,11 @@ def outcome(case, repo: Path):
             models = load_models(file, repo, allow_python=True)
         except EigengateError as exc:
             return "error", exc
-        for m in models:  # a loaded model must also analyse without an exception
-            analyse_model(m)
+        try:  # a loaded model must also analyse, or be refused there with a clear error
+            for m in models:
+                analyse_model(m)
+        except EigengateError as exc:
+            return "error", exc
         return "model", models
 
 
@@ -70,7 +74,7 @@ def assert_outcome(case, repo: Path) -> None:
     assert kind == "error", f"{case.id}: accepted silently, gave {len(value)} model(s)"
     assert isinstance(value, ModelError), f"{case.id}: {type(value).__name__}: {value}"
     message = str(value)
-    name = Path(case.path).name
+    name = printable_name(Path(case.path).name)  # a name that is not UTF-8 is shown escaped
     assert name in message.split(":")[0] or message.startswith(case.path), (case.id, message)
     for part in case.fields:
         assert part in message, f"{case.id}: {part!r} not in {message!r}"

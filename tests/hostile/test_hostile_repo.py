@@ -12,11 +12,12 @@ from pathlib import Path
 
 import pytest
 
-from hostile_files import CASES, PENDING_ELSEWHERE
+from eigengate.model.formats import printable_name
+from hostile_files import CASES, NAMED_HOLES
 from hostile_harness import make_repo
-from hostile_policy import PENDING_POLICY, POLICIES
+from hostile_policy import POLICIES
 from support import oscillator, run_cli
-from test_hostile_corpus import ACTIVE, SKIP_PENDING
+from test_hostile_corpus import ACTIVE
 
 GOOD = {f"models/good/g{i}.yaml": oscillator(f"good-{i}", min_damping=0.05) for i in range(4)}
 GOOD["models/good/lift.toml"] = ("model_format = 1\nname = 'good-toml'\n[plant]\n"
@@ -56,13 +57,14 @@ def test_a_run_over_every_hostile_file_still_reports_every_good_model(tmp_path):
     titles = {m["name"] for rel in GOOD for m in files[rel]["models"]}
     assert titles == {"good-0", "good-1", "good-2", "good-3", "good-toml", "good-json"}
     for case in cases:
-        found = files.get(case.path)
-        assert found is not None, f"{case.id}: {case.path} not reported"
+        shown = printable_name(case.path)  # a name that is not UTF-8 is reported escaped
+        found = files.get(shown)
+        assert found is not None, f"{case.id}: {shown} not reported"
         if case.expect == "error":  # never "ok": one EG001 naming the file
             assert found["status"] == "invalid", (case.id, found["status"])
             assert not found["models"], case.id
             [finding] = [f for f in found["findings"] if f["rule"] == "EG001"]
-            assert finding["source"] == case.path and case.path in finding["message"], case.id
+            assert finding["source"] == shown and shown in finding["message"], case.id
         else:
             assert found["status"] != "invalid" and found["models"], (case.id, found)
 
@@ -70,8 +72,6 @@ def test_a_run_over_every_hostile_file_still_reports_every_good_model(tmp_path):
 @pytest.mark.parametrize("case", POLICIES, ids=[c.id for c in POLICIES])
 def test_a_hostile_policy_or_baseline_stops_the_run_with_one_line(case, tmp_path, monkeypatch,
                                                                      capsys):
-    if case.id in PENDING_POLICY and SKIP_PENDING:
-        pytest.skip("fixed on another branch")
     from eigengate.cli import main
 
     repo = _repo(tmp_path / "repo", [])
@@ -90,22 +90,7 @@ def test_a_hostile_policy_or_baseline_stops_the_run_with_one_line(case, tmp_path
     assert "internal error" not in err and "Traceback" not in err
 
 
-PENDING_REPO = {
-    "escape-in-name": "control characters and '::' lines stripped from text and Markdown",
-    "unselected": "a model file the include patterns miss is reported",
-    "no-requirement": "a model with no requirement is not called ok",
-    "output-unwritable": "an unwritable --output path is one line, exit 2",
-    "output-outside": "-o does not create folders outside the repository",
-}
-
-
-def _pending(key: str) -> None:
-    if SKIP_PENDING:
-        pytest.skip(f"fixed on another branch: {PENDING_REPO[key]}")
-
-
 def test_names_with_control_characters_reach_no_human_readable_output(tmp_path):
-    _pending("escape-in-name")
     pending = [c for c in CASES if c.id in ("escape-in-name", "json-escape-name")]
     repo = _repo(tmp_path / "repo", pending)
     for fmt in ("text", "markdown"):
@@ -116,7 +101,6 @@ def test_names_with_control_characters_reach_no_human_readable_output(tmp_path):
 
 
 def test_a_model_file_the_include_patterns_miss_is_reported(tmp_path):
-    _pending("unselected")
     repo = _repo(tmp_path / "repo", [])
     (repo / "pyproject.toml").write_text("[tool.eigengate]\ninclude = ['models/**/*.yaml']\n")
     (repo / "models/stray.yml").write_text(oscillator("stray"))
@@ -126,7 +110,6 @@ def test_a_model_file_the_include_patterns_miss_is_reported(tmp_path):
 
 
 def test_a_model_without_requirements_is_not_called_ok(tmp_path):
-    _pending("no-requirement")
     repo = tmp_path / "repo"
     repo.mkdir()
     (repo / "pyproject.toml").write_text("[project]\nname = 'p'\n")
@@ -138,7 +121,6 @@ def test_a_model_without_requirements_is_not_called_ok(tmp_path):
 
 @pytest.mark.parametrize("where", ["unwritable", "outside"])
 def test_output_errors_are_one_line(tmp_path, where):
-    _pending(f"output-{where}")
     repo = _repo(tmp_path / "repo", [])
     target = ("/proc/eigengate-no/report.json" if where == "unwritable"
               else str(tmp_path / "elsewhere" / "deep" / "report.json"))

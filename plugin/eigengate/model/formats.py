@@ -188,12 +188,15 @@ def _parse_json(text: str, source: str) -> tuple[Any, dict[str, int]]:
     def no_constant(name: str) -> float:
         raise _BadConstant(name)
 
-    def checked_int(digits: str) -> int:
+    too_big: list[_TooBig] = []
+
+    def checked_int(digits: str) -> Any:
         value = int_value(digits) if len(digits) > MAX_INT_DIGITS else int(digits)
         problem = int_problem(value, len(digits.lstrip("-")))
-        if problem is not None:
-            raise _BadNumber(problem, text.count("\n", 0, text.find(digits)) + 1)
-        return value  # type: ignore[return-value]
+        if problem is not None:  # kept as a marker, so the error can name its field
+            too_big.append(_TooBig(problem, text.count("\n", 0, text.find(digits)) + 1))
+            return too_big[-1]
+        return value
 
     try:
         data = json.loads(text, object_pairs_hook=unique_pairs, parse_constant=no_constant,
@@ -204,9 +207,6 @@ def _parse_json(text: str, source: str) -> tuple[Any, dict[str, int]]:
     except _BadConstant as exc:
         raise ModelError(source, "", f"is not valid JSON: {exc.args[0]} is not a JSON number",
                          hint="model files hold finite numbers") from None
-    except _BadNumber as exc:
-        raise ModelError(source, "", f"holds a number that {exc.args[0]}", line=exc.args[1]
-                         ) from None
     except RecursionError:
         raise ModelError(source, "", "nests lists or mappings too deeply") from None
     except DuplicateKey as exc:
@@ -225,7 +225,36 @@ def _parse_json(text: str, source: str) -> tuple[Any, dict[str, int]]:
                              "lone UTF-16 surrogate, which is not text", line=line,
                              hint="write the character itself or a complete surrogate pair"
                              ) from None
+    if too_big:
+        path = _path_of(data, too_big[0])
+        raise ModelError(source, path, f"holds a number that {too_big[0].problem}",
+                         line=too_big[0].line)
     return data, _json_scan(text)[0]
+
+
+class _TooBig:
+    """An integer of a JSON document too large for a float, left where it stood."""
+
+    def __init__(self, problem: str, line: int) -> None:
+        self.problem, self.line = problem, line
+
+
+def _path_of(data: Any, target: object, path: str = "") -> str:
+    """The dotted path of the mapping field that holds ``target`` (lists are not indexed:
+    the field holding the list is named, as matrix messages do); "" when not found."""
+    if isinstance(data, dict):
+        for key, value in data.items():
+            found = _path_of(value, target, f"{path}.{key}" if path else str(key))
+            if found:
+                return found
+    elif isinstance(data, list):
+        for value in data:
+            found = _path_of(value, target, path)
+            if found:
+                return found
+    elif data is target:
+        return path or "(document)"
+    return ""
 
 
 # A high surrogate escape without a low one after it, or a low one without a high one before.
@@ -248,10 +277,6 @@ class DuplicateKey(Exception):
 
 
 class _BadConstant(Exception):
-    pass
-
-
-class _BadNumber(Exception):
     pass
 
 
