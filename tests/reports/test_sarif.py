@@ -59,7 +59,8 @@ def test_rules_are_every_rule_sorted_by_stable_id(log):
     eg103 = next(r for r in rules if r["id"] == "EG103")
     assert eg103["name"] == "damping-ratio"
     assert eg103["fullDescription"]["text"] == RULES["EG103"].summary
-    assert eg103["shortDescription"]["text"]
+    # the first sentence of the summary
+    assert eg103["shortDescription"]["text"] == "Every oscillatory mode has damping ratio ζ = -Re(s)/|s| ≥ ζmin."
     assert eg103["defaultConfiguration"]["level"] == "error"
     for result in log["runs"][0]["results"]:
         assert rules[result["ruleIndex"]]["id"] == result["ruleId"]
