@@ -354,3 +354,138 @@ def test_compare_all_collects_improvements(tmp_path):
     out = compare_all([fr], bl)
     assert out.findings == () and [i.figure for i in out.improvements] == ["decay_rate"]
     assert out.comparisons[0].improvements == out.improvements
+
+
+# ------------------------------------------------------------------ allowed_drift errors
+
+def _tol_error(value, lines=None):
+    from eigengate.errors import ModelError
+    from eigengate.regressions import parse_tolerances
+
+    with pytest.raises(ModelError) as e:
+        parse_tolerances(value, "pyproject.toml", "tool.eigengate.allowed_drift.",
+                         lines if lines is not None else {"tool.eigengate.allowed_drift": 12})
+    err = e.value
+    return err.source, err.field, err.problem, err.line, err.hint
+
+
+P = "tool.eigengate.allowed_drift"
+
+
+@pytest.mark.parametrize("value, expected", [
+    ([1], (P, "must be a mapping of decay_rate, damping, frequency, match_gate, got [1]", 12,
+           None)),
+    ({"dacay_rate": {}}, (f"{P}.dacay_rate", "is not a tolerance", 12,
+                          "did you mean 'decay_rate'?")),
+    ({"zzz": {}}, (f"{P}.zzz", "is not a tolerance", 12,
+                   "known keys: decay_rate, damping, frequency, match_gate")),
+    ({"damping": 0.1}, (f"{P}.damping", "must be a mapping of abs, rel, worse, got 0.1", 12,
+                        "for example {abs: 0.01, rel: 0.05}")),
+    ({"damping": {"absolute": 0.1}}, (f"{P}.damping.absolute", "is not a tolerance field", 12,
+                                      "known: abs, rel, worse")),
+    ({"damping": {"worse": "down"}}, (f"{P}.damping.worse",
+                                      "must be one of lower, higher, either, got 'down'", 12,
+                                      None)),
+    ({"damping": {"rel": -1}}, (f"{P}.damping.rel", "must be a non-negative number, got -1",
+                                12, None)),
+    ({"match_gate": 0}, (f"{P}.match_gate", "must be a positive number, got 0", 12, None))])
+def test_allowed_drift_errors_in_full(value, expected):
+    assert _tol_error(value) == ("pyproject.toml", *expected)
+
+
+def test_allowed_drift_error_lines_prefer_the_field():
+    lines = {P: 12, f"{P}.damping.rel": 14}
+    assert _tol_error({"damping": {"rel": -1}}, lines)[3] == 14
+    assert _tol_error({"damping": {"abs": -1}}, lines)[3] == 12
+    assert _tol_error({"damping": {"abs": -1}}, {})[3] is None
+
+
+def test_allowed_drift_keys_after_the_gate_are_read():
+    from eigengate.regressions import parse_tolerances
+
+    t = parse_tolerances({"match_gate": 2.0, "damping": {"rel": 0.5, "worse": "either"}},
+                         "m.yaml")
+    assert t.match_gate == 2.0 and t.damping == Tolerance(abs=0.005, rel=0.5, worse="either")
+
+
+# ------------------------------------------------------------------ boundary modes and ties
+
+@pytest.mark.parametrize("before, after, rules, stable_now", [
+    # a mode on the boundary (s = 0: side 0) that becomes unstable crossed into instability
+    ((-1.0, 0.0), (-1.0, 0.3), ["EG201", "EG204"], False),
+    # an unstable mode that grows did not cross: it regressed
+    ((-1.0, 0.3), (-1.0, 0.5), ["EG202"], False),
+    # a stable mode that reaches the boundary did not cross either
+    ((-1.0, -0.3), (-1.0, 0.0), ["EG202", "EG204"], False),
+    # the boundary becoming stable, or the unstable reaching it, is not "stable now"
+    ((-1.0, 0.0), (-1.0, -0.3), [], False),
+    ((-1.0, 0.3), (-1.0, 0.0), [], False),
+    ((-1.0, 0.3), (-1.0, -0.1), [], True)])
+def test_crossings_are_judged_by_side(before, after, rules, stable_now):
+    c = check(diag(*before), diag(*after))
+    assert sorted(f.rule for f in c.regressions) == rules
+    assert ("stability" in {i.figure for i in c.improvements}) is stable_now
+
+
+def test_an_appearing_boundary_mode_is_no_crossing():
+    # 0.5 and 0 appear beside -1: one more unstable direction (EG201 for 0.5 only); the
+    # integrator at 0 is a new mode (EG206)
+    c = check(diag(-1.0), diag(-1.0, 0.0, 0.5))
+    rules = sorted(f.rule for f in c.regressions)
+    assert rules.count("EG201") == 1 and rules.count("EG206") == 1
+    assert next(f for f in c.regressions if f.rule == "EG206").modes[0].s == 0.0
+
+
+def test_a_mode_turning_oscillatory_is_reported_as_that_mode():
+    # -2.5 (ζ = 1) → -0.6 ± 1.90788j (ζ = 0.3): the mode's own damping finding, not only the
+    # whole model's
+    c = check(diag(-2.0, -2.5), result(osc(0.3, 2.0)))
+    msgs = [f.message for f in c.regressions if f.rule == "EG203"]
+    assert len(msgs) == 1 and msgs[0].startswith("mode ") and "damping ratio 1 → 0.3" in msgs[0]
+
+
+def test_the_slowest_mode_on_a_tie_is_the_first_listed():
+    # a real mode and a pair with the same real part -0.5 appear: modes are listed real first
+    # (smaller |Im s|), and the whole-model finding names that one
+    pair = np.array([[-0.5, 3.0], [-3.0, -0.5]])
+    c = check(diag(-1.0, -10.0), result([[-1.0]], [[-10.0]], [[-0.5]], pair))
+    f = next(f for f in c.regressions if f.rule == "EG202")
+    assert f.message.endswith("now from mode -0.5")
+
+
+def test_every_change_of_one_retune_is_reported():
+    # several kinds at once, so no kind of finding hides those after it: -1 → -0.5 (EG202),
+    # -70 gone (EG207), -4000 → +6000 crossed (EG201), and the origin became a saddle (EG204)
+    c = check(diag(-1.0, -70.0, -4000.0), diag(-0.5, 6000.0))
+    assert sorted(f.rule for f in c.regressions) == ["EG201", "EG202", "EG204", "EG207"]
+    c = check(diag(-1.0, -4.0), diag(-1.0, -4.0, -70.0, -900.0, 20.0))
+    rules = sorted(f.rule for f in c.regressions)
+    assert rules.count("EG206") == 2 and rules.count("EG201") == 1
+
+
+def test_compare_all_goes_on_after_a_broken_file(tmp_path):
+    bad = tmp_path / "broken.yaml"
+    bad.write_text("model_format: 1\nplant: {A: [[1, 2]]}\n", encoding="utf-8")
+    good = tmp_path / "good.yaml"
+    good.write_text("model_format: 1\nname: good\nplant:\n  A: [[-1.0]]\n", encoding="utf-8")
+    frs = [check_file(bad, root=tmp_path), check_file(good, root=tmp_path)]
+    out = compare_all(frs, Baseline())
+    assert out.new_keys == (("good.yaml", "good"),) and [f.rule for f in out.findings] == [
+        "EG208"]
+
+
+def test_a_stale_entry_without_a_line_is_reported_at_its_model_file():
+    ghost = baseline_entry_from(diag(-1.0, name="a", label="old", source="models/a.yaml"))
+    bl = Baseline([ghost], path=".eigengate/baseline.json")
+    assert bl.line_of(ghost.key) is None
+    (f,) = compare_all([], bl, complete=True).findings
+    assert (f.rule, f.source, f.line) == ("EG209", "models/a.yaml", None)
+
+
+def test_the_default_field_prefix_is_allowed_drift():
+    from eigengate.errors import ModelError
+    from eigengate.regressions import parse_tolerances
+
+    with pytest.raises(ModelError) as e:
+        parse_tolerances({"zzz": {}}, "m.yaml")
+    assert e.value.field == "allowed_drift.zzz"
