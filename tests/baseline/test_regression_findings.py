@@ -489,3 +489,11 @@ def test_the_default_field_prefix_is_allowed_drift():
     with pytest.raises(ModelError) as e:
         parse_tolerances({"zzz": {}}, "m.yaml")
     assert e.value.field == "allowed_drift.zzz"
+
+
+def test_every_mode_gone_and_every_mode_new_is_reported():
+    # matches list matched modes, then the gone, then the new ones: none may stop the rest.
+    # +60 is beyond the gate of -70 and -80 (scaled distances 130/70, 140/80 > 1.5): two
+    # gone, one unstable new (the slowest mode: its EG201 stands for the model's decay rate)
+    c = check(diag(-1.0, -70.0, -80.0), diag(-1.0, 60.0))
+    assert sorted(f.rule for f in c.regressions) == ["EG201", "EG204", "EG207", "EG207"]
