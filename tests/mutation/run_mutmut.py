@@ -29,10 +29,9 @@ SELECTION = {
     "waivers": ["tests/test_gate_boundaries.py", "tests/test_waivers.py"],
     "regressions": ["tests/baseline/test_regressions.py", "tests/baseline/test_regression_findings.py",
                     "tests/test_gate_boundaries.py"],
-    "modes": ["tests/test_modes_reference.py", "tests/test_numerical_honesty.py",
-              "tests/test_gate_boundaries.py"],
-    "margins": ["tests/margins/test_margins_reference.py", "tests/margins/test_margin_pitfalls.py",
-                "tests/margins/test_loop_requirements.py", "tests/test_gate_boundaries.py"],
+    "modes": ["tests/test_gate_boundaries.py", "tests/test_mode_records.py",
+              "tests/test_modes_reference.py"],
+    "margins": ["tests/test_gate_boundaries.py", "tests/margins/test_margins_reference.py"],
 }
 
 
