@@ -90,3 +90,21 @@ def test_spectrum_lists_every_eigenvalue():
     assert len(ev) == 5 == s.n_eigenvalues
     assert sorted(round(z.real, 9) for z in ev) == [-7.0, -3.0, -3.0, -0.2, -0.2]
     assert sorted(round(z.imag, 5) for z in ev) == [-1.98997, 0.0, 0.0, 0.0, 1.98997]
+
+
+def test_spectrum_record():
+    # modes are numbered from 1, least stable first; the norm the bounds scale with is the
+    # Frobenius norm of the matrix LAPACK saw; balancing is used only when it helps
+    s = analyse(from_arrays(np.diag([-3.0, -1.0, -2.0])))
+    assert [m.index for m in s.modes] == [1, 2, 3]
+    assert [m.eigenvalue for m in s.modes] == [-1.0, -2.0, -3.0]
+    assert s.norm == pytest.approx(math.sqrt(14.0)) and s.balanced is False
+    assert all(m.geometric_multiplicity == 1 and m.multiplicity == 1 for m in s.modes)
+    # balancing (scipy.linalg.matrix_balance, powers of 2) brings this one near [[-1, 1], [1, -2]]
+    from scipy.linalg import matrix_balance
+
+    badly_scaled = np.array([[-1.0, 1e6], [1e-6, -2.0]])
+    b = analyse(from_arrays(badly_scaled))
+    ref = np.linalg.norm(matrix_balance(badly_scaled, permute=False)[0], "fro")
+    assert b.balanced is True and b.norm == ref and ref < 3.0
+    assert s.infinite == 0 and s.spectral_abscissa == -1.0 and s.spectral_radius == 3.0
