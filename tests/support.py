@@ -8,10 +8,19 @@ import textwrap
 from pathlib import Path
 
 
+#: The date every test judges waivers on (``EIGENGATE_TODAY``), so that no test depends on the
+#: calendar: the example repository's policy waiver expires on 2027-06-30.
+FIXED_TODAY = "2026-12-01"
+
+
+def cli_env(**extra: str) -> dict:
+    """The environment of a subprocess under test: UTF-8 output, waivers judged on FIXED_TODAY."""
+    return {**os.environ, "PYTHONIOENCODING": "utf-8", "EIGENGATE_TODAY": FIXED_TODAY, **extra}
+
+
 def run_cli(*args, cwd=None, env=None, timeout=180):
     """``python -m eigengate ARGS`` in ``cwd``; waivers are judged on a fixed date."""
-    full = {**os.environ, "PYTHONIOENCODING": "utf-8", "EIGENGATE_TODAY": "2026-12-01",
-            **(env or {})}
+    full = cli_env(**(env or {}))
     return subprocess.run([sys.executable, "-m", "eigengate", *args], capture_output=True,
                           text=True, cwd=cwd, env=full, timeout=timeout)
 

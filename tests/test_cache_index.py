@@ -61,9 +61,33 @@ def test_a_file_rewritten_with_its_old_size_and_times_is_read_again(repo, monkey
     assert mast.passed and mast.results[0].spectrum.min_damping == pytest.approx(1.0, abs=1e-6)
 
 
-def test_a_file_changed_just_before_the_check_is_read_but_its_status_not_recorded(repo):
-    config = load_config(start=repo)  # the files changed less than two seconds ago
+def test_a_file_changed_just_before_the_check_is_read_but_its_status_not_recorded(repo,
+                                                                                 monkeypatch):
+    # a window far wider than the time since the fixture wrote the files, however slow the
+    # machine: they changed "just before" the check (the real 2 s is tested at its boundary)
+    monkeypatch.setattr(cache_mod, "_RACY_NS", 10**18)
+    config = load_config(start=repo)
     first = scan([repo], config, jobs=1)
     assert first.analysed == 3 and _recorded(repo) == {}
     again = scan([repo], config, jobs=1)  # served from the cache by their bytes
     assert again.cache_hits == 3 and again.analysed == 0
+
+
+@pytest.mark.parametrize("age_ns, recorded", [
+    (cache_mod._RACY_NS + 1, True),    # changed one ns more than the window before the start
+    (cache_mod._RACY_NS, False),       # exactly the window: still racy (strictly older only)
+    (cache_mod._RACY_NS - 1, False),
+    (0, False)])
+def test_the_racy_window_boundary(tmp_path, age_ns, recorded):
+    # The racy-timestamp rule of version-control indexes: a status is recorded only when the
+    # file's last change (the later of mtime and ctime) lies strictly more than _RACY_NS
+    # before the check began. A fake status pins the times, so no clock decides the test.
+    assert cache_mod._RACY_NS == 2_000_000_000
+    c = cache_mod.ResultCache(tmp_path, "digest")
+    changed = c._started - age_ns
+    for mtime, ctime in ((changed, changed - 5), (changed - 5, changed)):
+        st = os.stat_result((0o100644, 7, 0, 1, 0, 0, 10, 0, 0, 0),
+                            {"st_mtime_ns": mtime, "st_ctime_ns": ctime, "st_atime_ns": 0})
+        c.note_key("models/a.yaml", st, "k1")
+        assert (c.known_key("models/a.yaml", st) == "k1") is recorded
+        c._noted["files"].clear()

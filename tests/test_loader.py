@@ -235,7 +235,11 @@ def test_load_document_in_memory():
 def test_requirements_are_parsed(repo):
     (m,) = load_models(write(repo, "m.yaml", YAML + "requirements: {stable: true}\n"
                              "known_modes: [{eigenvalue: -30, reason: current loop}]\n"))
-    assert m.requirements and m.known_modes
+    from eigengate.rules.requirements import Stability
+
+    assert m.requirements == (Stability(),)
+    (k,) = m.known_modes
+    assert (k.count, k.eigenvalue, k.reason) == (1, -30, "current loop")
 
 
 # ------------------------------------------------------------------------- schema

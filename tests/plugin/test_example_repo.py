@@ -1,11 +1,12 @@
 """The example repository under pytest: its tests and model files run, and only the
 deliberate regression (the retuned mast damper) fails."""
 
-import os
 import shutil
 import subprocess
 import sys
 from pathlib import Path
+
+from support import cli_env
 
 EXAMPLE = Path(__file__).resolve().parents[2] / "example_repo"
 
@@ -14,7 +15,7 @@ def test_only_the_deliberate_regression_fails(tmp_path):
     repo = tmp_path / "example_repo"
     shutil.copytree(EXAMPLE, repo, ignore=shutil.ignore_patterns(".eigengate-cache",
                                                                 "__pycache__"))
-    env = {**os.environ, "PYTHONIOENCODING": "utf-8"}
+    env = cli_env()  # waivers judged on a fixed date, not the calendar
     out = subprocess.run([sys.executable, "-m", "pytest", "-q", "-p", "no:cacheprovider",
                           "-W", "error"], cwd=repo, capture_output=True, text=True, env=env,
                          timeout=300)

@@ -1,12 +1,12 @@
 """The reviewer's report of the example repository, made by the real command line."""
 
-import os
 import shutil
 import subprocess
 import sys
 from pathlib import Path
 
 import pytest
+from support import cli_env
 
 from test_html import Doc, decode_png  # the same HTML reader as the report tests
 
@@ -18,7 +18,7 @@ def test_example_repository_report(tmp_path):
     repo = tmp_path / "example_repo"
     shutil.copytree(EXAMPLE, repo, ignore=shutil.ignore_patterns(".eigengate-cache",
                                                                 "__pycache__"))
-    env = {**os.environ, "PYTHONIOENCODING": "utf-8"}
+    env = cli_env()  # waivers judged on a fixed date, not the calendar
     out = subprocess.run([sys.executable, "-m", "eigengate", "check", "-q", "--no-cache",
                           "-o", "html:report.html", "--pole-maps", "maps"], cwd=repo,
                          capture_output=True, text=True, env=env, timeout=600)
@@ -43,7 +43,7 @@ def test_color_only_when_asked_or_on_a_terminal(tmp_path):
     repo = tmp_path / "example_repo"
     shutil.copytree(EXAMPLE, repo, ignore=shutil.ignore_patterns(".eigengate-cache",
                                                                 "__pycache__"))
-    env = {**os.environ, "PYTHONIOENCODING": "utf-8"}
+    env = cli_env()  # waivers judged on a fixed date, not the calendar
     plain = subprocess.run([sys.executable, "-m", "eigengate", "check", "-q"], cwd=repo,
                            capture_output=True, text=True, env=env, timeout=300)
     assert "\x1b[" not in plain.stdout  # not a terminal

@@ -4,7 +4,6 @@ and a report that stays linear in the number of models."""
 
 import base64
 import struct
-import time
 from html.parser import HTMLParser
 from types import SimpleNamespace
 
@@ -137,7 +136,7 @@ def test_images_decode_with_sensible_sizes(html):
         w, h = decode_png(img["src"])
         assert (int(img["width"]), int(img["height"])) == (w, h)
         assert 300 <= w <= 500 and 240 <= h <= 400
-        assert img["alt"]
+        assert img["alt"].startswith(("Pole map of ", "Phase portrait of "))
     assert len(html) < 400_000
 
 
@@ -262,20 +261,12 @@ def _results(n: int):
 def test_large_repository_stays_linear(mpl):
     small, large = _results(50), _results(500)
 
-    def timed(results):
-        best = float("inf")
-        for _ in range(2):
-            t = time.perf_counter()
-            text = render_html(results, tool_version="0", max_images=0)
-            best = min(best, time.perf_counter() - t)
-        return text, best
-
-    text_s, t_s = timed(small)
-    text_l, t_l = timed(large)
+    # No clock here (timed figures belong to benchmarks/): the report's size is the measure.
+    text_s = render_html(small, tool_version="0", max_images=0)
+    text_l = render_html(large, tool_version="0", max_images=0)
     doc = Doc(text_l)
     assert len(doc.rows) == 500 and len(doc.sections) == 500
     assert {row[2] for row in doc.rows} == {f"axis-{k:03d}" for k in range(500)}
-    # Ten times the models: about ten times the time and size (generous slack), not a square.
-    assert t_l < 30 * t_s + 0.5
-    assert len(text_l) < 12 * len(text_s)
+    # Ten times the models: about ten times the size (slack for the fixed head), not a square.
+    assert 9 * len(text_s) < len(text_l) < 12 * len(text_s)
     assert len(text_l) / 500 < 8_000  # bytes per model without figures

@@ -200,13 +200,19 @@ _EXAMPLES = {
 }
 
 
+#: Keys of the repository policy alone (no model file has them).
+_POLICY_ONLY_KEYS = frozenset({"include"})
+
+
 def explain_rule(rule: Rule) -> str:
     """A rule's id, name, file key, unit, description and an example."""
     lines = [f"{rule.id} {rule.name}", "", rule.summary, ""]
     if rule.key:
-        lines.append(f"model-file key: {rule.key}" + (f" (unit: {rule.unit})" if rule.unit else ""))
+        where = "policy key" if rule.key in _POLICY_ONLY_KEYS else "model-file key"
+        lines.append(f"{where}: {rule.key}" + (f" (unit: {rule.unit})" if rule.unit else ""))
+    warning = rule.severity == "warning"
     lines += ["", "example:", *("  " + x for x in _EXAMPLES.get(rule.id, "").splitlines()), "",
-              f"A failing rule is {'a warning' if rule.severity == 'warning' else 'an error'} "
-              "by default; [tool.eigengate.severity] can make it a "
-              "warning or switch it off, and a waiver (with a reason) can accept one finding."]
+              f"A failing rule is {'a warning' if warning else 'an error'} by default; "
+              f"[tool.eigengate.severity] can make it {'an error' if warning else 'a warning'} "
+              "or switch it off, and a waiver (with a reason) can accept one finding."]
     return "\n".join(lines)
