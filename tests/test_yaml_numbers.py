@@ -163,3 +163,27 @@ def test_integer_that_fits_a_float_is_read(tmp_path):
     path.write_text("model_format: 1\nplant:\n  A: [[-" + "1" + "0" * 140 + "]]\n")
     (model,) = load_models(path, tmp_path)
     assert model.A[0, 0] == -1e140
+
+
+def test_float_first_resolver_resolves_as_the_core_schema_does():
+    # The loader tries floats first with the core float pattern less what a core int matches
+    # (one pattern match per matrix entry); the resolution must equal the YAML 1.2.2 core
+    # schema's, where an int-shaped scalar is an int (10.3.2 Tag Resolution). Seeded strings
+    # over the characters numbers are spelled with.
+    import random
+    import re
+
+    from eigengate.model import yaml_core
+
+    core_int = re.compile(r"(?:[-+]?[0-9]+|0o[0-7]+|0x[0-9a-fA-F]+)\Z")
+    core_float = re.compile(r"(?:[-+]?(?:\.[0-9]+|[0-9]+(?:\.[0-9]*)?)(?:[eE][-+]?[0-9]+)?"
+                            r"|[-+]?\.(?:inf|Inf|INF)|\.(?:nan|NaN|NAN))\Z")
+    rng = random.Random(20261202)
+    spellings = [".inf", "-.Inf", ".NaN", "1e3", "1.", ".5", "0x1e5", "0o17", "12", "-0"]
+    spellings += ["".join(rng.choice("0123456789.eE+-xo") for _ in range(rng.randint(1, 7)))
+                  for _ in range(20000)]
+    for s in spellings:
+        core = "int" if core_int.match(s) else "float" if core_float.match(s) else None
+        ours = "float" if yaml_core._FLOAT_NOT_INT.match(s) else "int" if core_int.match(s) \
+            else None
+        assert ours == core, s

@@ -8,6 +8,7 @@ below are the single list both are checked against.
 from __future__ import annotations
 
 import dataclasses
+import functools
 import os
 import re
 from pathlib import Path
@@ -77,6 +78,12 @@ def load_models_with_refs(path: str | os.PathLike[str],
     return models, sorted(set(refs))
 
 
+@functools.lru_cache(maxsize=256)
+def _real_folder(folder: str) -> str:
+    # the repository root and model folders are resolved once per run, not once per file
+    return os.path.realpath(folder)
+
+
 def model_source(file: Path, root: Path) -> str:
     """The repository-relative name of model file ``file``, after checking that it may be read:
     a link in the repository that points outside it is refused (like a matrix file's link,
@@ -84,16 +91,16 @@ def model_source(file: Path, root: Path) -> str:
     escapes). A file outside ``root`` that is not such a link keeps the path it was given."""
     from ..model.formats import printable_name
 
-    root_real = Path(os.path.realpath(root))
-    real = Path(os.path.realpath(file))
-    here = Path(os.path.realpath(os.path.dirname(os.path.abspath(file)))) / file.name
-    if real.is_relative_to(root_real):
-        source = real.relative_to(root_real).as_posix()
-    elif here.is_relative_to(root_real):
-        raise ModelError(printable_name(here.relative_to(root_real).as_posix()), "",
-                         "is a link that points outside the repository; it was not read",
-                         hint="keep model files inside the repository")
+    root_real = _real_folder(os.fspath(root))
+    real = os.path.realpath(file)
+    if real.startswith(root_real) and real[len(root_real):len(root_real) + 1] in ("", os.sep):
+        source = Path(os.path.relpath(real, root_real)).as_posix()
     else:
+        here = os.path.join(_real_folder(os.path.dirname(os.path.abspath(file))), file.name)
+        if here.startswith(root_real + os.sep):
+            raise ModelError(printable_name(Path(os.path.relpath(here, root_real)).as_posix()),
+                             "", "is a link that points outside the repository; it was not "
+                             "read", hint="keep model files inside the repository")
         source = file.as_posix()
     shown = printable_name(source)
     if shown != source:

@@ -33,6 +33,10 @@ _CORE = {
 }
 _CORE_RE = {_YAML + k: re.compile(f"(?:{v})\\Z") for k, v in _CORE.items()}
 _CORE_FIRST = {"bool": "tTfF", "int": "-+0123456789", "float": "-+.0123456789"}
+#: The core float pattern less the strings a core int matches (see the resolver order).
+_FLOAT_NOT_INT = re.compile(r"(?:[-+]?(?:\.[0-9]+|[0-9]+\.[0-9]*)(?:[eE][-+]?[0-9]+)?"
+                            r"|[-+]?[0-9]+[eE][-+]?[0-9]+"
+                            r"|[-+]?\.(?:inf|Inf|INF)|\.(?:nan|NaN|NAN))\Z")
 _SHORT_INT = 16  # no int of this many characters (hex included) is near the float limit
 
 
@@ -89,9 +93,14 @@ def _yaml_loader_class() -> type:
     _Loader.yaml_implicit_resolvers = {
         first: [(tag, rx) for tag, rx in resolvers if tag not in replaced]
         for first, resolvers in base.yaml_implicit_resolvers.items()}
-    for kind in ("bool", "int", "float"):  # int before float: 12 is an int
-        _Loader.add_implicit_resolver(_YAML + kind, _CORE_RE[_YAML + kind],
-                                      list(_CORE_FIRST[kind]))
+    # Matrix entries are mostly floats, so the float resolver goes first with the part of the
+    # core float pattern that no core int matches (a dot, an exponent, .inf or .nan): the
+    # same resolution as int-before-float (12 is an int), one pattern match per float.
+    _Loader.add_implicit_resolver(_YAML + "bool", _CORE_RE[_YAML + "bool"],
+                                  list(_CORE_FIRST["bool"]))
+    _Loader.add_implicit_resolver(_YAML + "float", _FLOAT_NOT_INT, list(_CORE_FIRST["float"]))
+    _Loader.add_implicit_resolver(_YAML + "int", _CORE_RE[_YAML + "int"],
+                                  list(_CORE_FIRST["int"]))
     _Loader.add_constructor(_YAML + "int", _core_int)
     # A date in a description stays the text the author wrote.
     _Loader.add_constructor(_YAML + "timestamp", base.construct_yaml_str)
@@ -120,7 +129,9 @@ def parse_yaml(text: str, source: str) -> tuple[Any, dict[str, int]]:
         if node is None:
             raise ModelError(source, "", "holds no data (only comments or blank lines)")
         lines: dict[str, int] = {}
-        _YamlWalk(source, lines).size(node, "", 0)
+        # every tag needs a "!": without one, int/float/bool tags come from the core-schema
+        # resolvers above and need no second match
+        _YamlWalk(source, lines, tagged="!" in text).size(node, "", 0)
         try:
             return loader.construct_document(node), lines
         except yaml.YAMLError as exc:  # e.g. a merge key on something that is not a mapping
@@ -144,9 +155,10 @@ def _unprintable(exc: Any, text: str, source: str) -> ModelError:
 class _YamlWalk:
     """One pass over the node graph: tags, keys, duplicates, lines, expanded size."""
 
-    def __init__(self, source: str, lines: dict[str, int]) -> None:
+    def __init__(self, source: str, lines: dict[str, int], tagged: bool = True) -> None:
         self.source = source
         self.lines = lines
+        self.tagged = tagged  # may the document hold explicit tags (!!int 1_000)?
         self.sizes: dict[int, int] = {}
         self.open: set[int] = set()
         self.total = 0
@@ -161,7 +173,8 @@ class _YamlWalk:
             tag = node.tag.replace(_YAML, "!!")
             raise self.fail(node, path, f"uses the YAML tag {tag}, which eigengate refuses",
                             "model files hold plain numbers, strings, lists and mappings only")
-        if node.tag in _CORE_RE:
+        if node.tag in _CORE_RE and (self.tagged or node.tag == _YAML + "int"
+                                     and len(node.value) > _SHORT_INT):
             problem = _scalar_problem(node.tag, node.value)
             if problem is not None:
                 raise self.fail(node, path, problem)
@@ -194,21 +207,25 @@ class _YamlWalk:
                 self.lines[child] = k.start_mark.line + 1
                 count += self.size(v, child, depth + 1)
         elif isinstance(node, yaml.SequenceNode):
-            scalar = yaml.ScalarNode
+            scalar, plain, int_tag = yaml.ScalarNode, _PLAIN_TAGS, _YAML + "int"
+            tagged, fast = self.tagged, 0
             for i, item in enumerate(node.value):
-                if type(item) is scalar and item.tag in _PLAIN_TAGS:
-                    core = _CORE_RE.get(item.tag)
-                    if core is not None and (not core.match(item.value) or len(
-                            item.value) > _SHORT_INT and item.tag == _YAML + "int"):
-                        count += self.size(item, f"{path}.{i}" if path else str(i), depth + 1)
+                if type(item) is scalar and item.tag in plain:
+                    # fast path for matrix rows: nothing to record below a number; a number
+                    # is checked again only when tags may be explicit, or for a long int
+                    if not (tagged and item.tag in _CORE_RE
+                            and not _CORE_RE[item.tag].match(item.value)
+                            or len(item.value) > _SHORT_INT and item.tag == int_tag):
+                        fast += 1
                         continue
-                    count += 1  # fast path for matrix rows: nothing to record below a number
-                    self.total += 1
+                    count += self.size(item, f"{path}.{i}" if path else str(i), depth + 1)
                     continue
                 child = f"{path}.{i}" if path else str(i)
                 if not isinstance(item, yaml.ScalarNode):
                     self.lines.setdefault(child, item.start_mark.line + 1)
                 count += self.size(item, child, depth + 1)
+            count += fast
+            self.total += fast
         self.open.discard(key)
         self.sizes[key] = count
         self.total += 1
