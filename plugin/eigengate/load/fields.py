@@ -137,10 +137,10 @@ def load_vector_field(data: Mapping[str, Any], ctx: Any, name: str,
             at.append((label, _numbers(p.get("x"), ctx, f"{path}.x", n),
                        _numbers(p.get("u", [0.0] * m), ctx, f"{path}.u", m), *own[:2]))
     models: list[Model] = []  # product() of no grids is one empty combination: no sweep
-    for where in itertools.product(*(range(len(g)) for g in grids.values())):
-        combo = tuple(g[i] for g, i in zip(grids.values(), where))
+    for place in itertools.product(*(range(len(g)) for g in grids.values())):
+        combo = tuple(g[i] for g, i in zip(grids.values(), place))
         tag = ", ".join(f"{k}={v:g}" for k, v in zip(grids, combo))
-        at_sweep = "@" + ",".join(map(str, where)) + "/" if grids else ""
+        at_sweep = "@" + ",".join(map(str, place)) + "/" if grids else ""
         vf = dataclasses.replace(base, parameters={**params, **dict(zip(grids, combo))})
         shared: dict = {}  # the search, once per parameter set
         rows = list(at)

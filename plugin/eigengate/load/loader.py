@@ -132,8 +132,9 @@ def load_models_from_bytes(raw: bytes, source: str, read: Callable[[str], bytes]
     data, lines = parse_bytes(raw, posixpath.splitext(source)[1], source)
     refs: list[str] = []
     base_dir = PurePosixPath(posixpath.dirname(source) or ".")
-    models = _load(data, source=source, root=None, base_dir=base_dir, lines=lines, refs=refs,
-                   stem=stem or PurePosixPath(source).stem, read=read,  # type: ignore[arg-type]
+    # base_dir: a PurePosixPath, only ever joined (the files come from read)
+    models = _load(data, source=source, root=None, base_dir=base_dir,  # type: ignore[arg-type]
+                   lines=lines, refs=refs, stem=stem or PurePosixPath(source).stem, read=read,
                    allow_python=python_root is not None, python_root=python_root)
     return models, sorted(set(refs))
 

@@ -345,8 +345,8 @@ def _parse_toml(text: str, source: str) -> tuple[Any, dict[str, int]]:
         if isinstance(exc, tomllib.TOMLDecodeError):
             raise _toml_error(source, exc) from None
         found = re.search(r"has (\d+) digits", str(exc))
-        raise ModelError(source, "", "holds a number that " + int_problem(
-            None, int(found.group(1)) if found else 4300)) from None
+        raise ModelError(source, "", "holds a number that " + (int_problem(
+            None, int(found.group(1)) if found else 4300) or "is too long")) from None
     except RecursionError:
         raise ModelError(source, "", "nests lists or mappings too deeply") from None
     lines = _toml_lines(text)

@@ -38,6 +38,8 @@ from .failure_report import Layer, failure_report, requirement_origins, result_r
 from ..errors import EigengateError, ModelError
 
 if TYPE_CHECKING:  # pragma: no cover
+    from types import FrameType
+
     from ..scan.config import Config
     from ..scan.engine import ModelResult
     from ..model.core import Model
@@ -360,7 +362,7 @@ class Subject:
 
 def _caller() -> str:
     """``file:line`` of the first frame outside eigengate (where the user called us)."""
-    frame = sys._getframe(1)
+    frame: "FrameType | None" = sys._getframe(1)
     while frame is not None and frame.f_globals.get("__name__", "").startswith("eigengate"):
         frame = frame.f_back
     if frame is None:

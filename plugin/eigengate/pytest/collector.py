@@ -293,12 +293,12 @@ class BaselineRun:
             return result, {"status": "unbaselined"}
         from ..scan.baseline_check import compare_result
 
-        entry = baseline.match(result.model.source, result.model.title,
-                               getattr(result.model, "point_id", None))
+        matched = baseline.match(result.model.source, result.model.title,
+                                 getattr(result.model, "point_id", None))
         result, comparison = compare_result(result, self.policy, baseline)
         return result, {
-            "status": "new" if entry is None else "compared",
-            "matched": None if entry is None else list(entry.key),
+            "status": "new" if matched is None else "compared",
+            "matched": None if matched is None else list(matched.key),
             "regressed": sorted({f.rule for f in comparison.regressions
                                  if f.severity == "error"}),
             "improvements": [f"{i.title} ({i.source}): {i.message}"

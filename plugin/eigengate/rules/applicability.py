@@ -28,12 +28,19 @@ class Needy(Protocol):
     """What this module reads of a requirement (``rules.requirements.Requirement`` has it;
     a protocol keeps this module below the requirements that call it)."""
 
-    needs: str
-    info: Any
+    @property
+    def needs(self) -> str: ...
+
+    @property
+    def rule(self) -> str: ...
+
+    @property
+    def info(self) -> Any: ...
 
     def spec(self) -> str: ...
 
-    def _verdict(self, **fields: Any) -> "Verdict": ...
+    @property
+    def _verdict(self) -> Callable[..., "Verdict"]: ...
 
 
 #: need → (what is missing, in words; how a model file supplies it)

@@ -168,8 +168,10 @@ def accept(files: Sequence["FileResult"], config: "Config", *, complete: bool
         parts.append(merge_write(path, entries, removed_keys=stale))
     if len(parts) == 1:
         return parts[0]
-    return MergeSummary(*(tuple(k for p in parts for k in getattr(p, name))
-                          for name in ("added", "changed", "removed", "unchanged")),
+    return MergeSummary(added=tuple(k for p in parts for k in p.added),
+                        changed=tuple(k for p in parts for k in p.changed),
+                        removed=tuple(k for p in parts for k in p.removed),
+                        unchanged=tuple(k for p in parts for k in p.unchanged),
                         written=any(p.written for p in parts))
 
 

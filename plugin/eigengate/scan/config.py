@@ -354,77 +354,79 @@ def parse_config(table: Mapping[str, Any], *, root: Path, source: str | None = "
     inherits with ``extend = true``."""
     from ..rules.catalogue import RULES
 
+    shown = source if source is not None else "pyproject.toml"  # None: the defaults
+
     if not isinstance(table, Mapping):
-        raise ConfigError(source, "", f"must be a table, got {table!r}")
+        raise ConfigError(shown, "", f"must be a table, got {table!r}")
     for key in table:
         if key not in CONFIG_KEYS:
-            raise _unknown(key, CONFIG_KEYS, source, "")
+            raise _unknown(key, CONFIG_KEYS, shown, "")
     kw: dict[str, Any] = {}
     for key in ("include", "exclude", "select", "ignore"):
         if key in table:
-            kw[key] = _strings(table[key], source, key)
+            kw[key] = _strings(table[key], shown, key)
     for key in ("select", "ignore"):
         for prefix in kw.get(key, ()):
             if not any(r.startswith(prefix) for r in RULES):
-                raise ConfigError(source, key, f"names no rule: {prefix!r}",
+                raise ConfigError(shown, key, f"names no rule: {prefix!r}",
                                   "rule ids look like EG103; `eigengate rules` lists them")
     for key in ("on_uncertain", "require"):
         if key in table:
-            kw[key] = _policy(table[key], source, key)
+            kw[key] = _policy(table[key], shown, key)
     if "allow_python" in table:
         if not isinstance(table["allow_python"], bool):
-            raise ConfigError(source, "allow_python",
+            raise ConfigError(shown, "allow_python",
                               f"must be true or false, got {table['allow_python']!r}")
         kw["allow_python"] = table["allow_python"]
     if "requirements" in table:
-        kw["requirements"] = _layer(table["requirements"], source, "requirements")
+        kw["requirements"] = _layer(table["requirements"], shown, "requirements")
     if "severity" in table:
         sev = table["severity"]
         if not isinstance(sev, Mapping):
-            raise ConfigError(source, "severity", f"must be a table of rule = level, got {sev!r}")
+            raise ConfigError(shown, "severity", f"must be a table of rule = level, got {sev!r}")
         for rule, level in sev.items():
             if rule not in RULES:
-                raise _unknown(rule, sorted(RULES), source, "severity.")
+                raise _unknown(rule, sorted(RULES), shown, "severity.")
             if level not in SEVERITIES:
-                raise ConfigError(source, f"severity.{rule}",
+                raise ConfigError(shown, f"severity.{rule}",
                                   f"must be one of {', '.join(SEVERITIES)}, got {level!r}")
         kw["severity"] = dict(sev)
     if "overrides" in table:
         items = table["overrides"]
         if not isinstance(items, list):
-            raise ConfigError(source, "overrides", "must be an array of tables "
+            raise ConfigError(shown, "overrides", "must be an array of tables "
                               f"([[tool.eigengate.overrides]]), got {items!r}")
         out = []
         for i, item in enumerate(items):
             where = f"overrides[{i}]."
             if not isinstance(item, Mapping):
-                raise ConfigError(source, f"overrides[{i}]", f"must be a table, got {item!r}")
+                raise ConfigError(shown, f"overrides[{i}]", f"must be a table, got {item!r}")
             for key in item:
                 if key not in OVERRIDE_KEYS:
-                    raise _unknown(key, OVERRIDE_KEYS, source, where)
+                    raise _unknown(key, OVERRIDE_KEYS, shown, where)
             if "paths" not in item:
-                raise ConfigError(source, f"{where}paths", "is required (globs of the model "
+                raise ConfigError(shown, f"{where}paths", "is required (globs of the model "
                                   "files this override applies to)")
             if "allowed_drift" in item:
-                _drift(item["allowed_drift"], source, f"{where}allowed_drift")
+                _drift(item["allowed_drift"], shown, f"{where}allowed_drift")
             out.append(Override(
                 allowed_drift=item.get("allowed_drift"),
-                paths=_strings(item["paths"], source, f"{where}paths"),
-                requirements=_layer(item.get("requirements", {}), source, f"{where}requirements"),
+                paths=_strings(item["paths"], shown, f"{where}paths"),
+                requirements=_layer(item.get("requirements", {}), shown, f"{where}requirements"),
                 on_uncertain=None if "on_uncertain" not in item else
-                _policy(item["on_uncertain"], source, f"{where}on_uncertain"),
+                _policy(item["on_uncertain"], shown, f"{where}on_uncertain"),
                 require=None if "require" not in item else
-                _policy(item["require"], source, f"{where}require")))
+                _policy(item["require"], shown, f"{where}require")))
         kw["overrides"] = tuple(out)
     if "baseline" in table:
         value = table["baseline"]
         if not isinstance(value, str) or not value or value.startswith("/") or ".." in \
                 Path(value).parts:
-            raise ConfigError(source, "baseline", f"must be a path inside the repository, got "
+            raise ConfigError(shown, "baseline", f"must be a path inside the repository, got "
                               f"{value!r}", "for example \".eigengate/baseline.json\"")
         kw["baseline"] = value
     if "allowed_drift" in table:
-        _drift(table["allowed_drift"], source, "allowed_drift")
+        _drift(table["allowed_drift"], shown, "allowed_drift")
         kw["allowed_drift"] = table["allowed_drift"]
     if "waivers" in table:
         from ..errors import ModelError
@@ -432,16 +434,16 @@ def parse_config(table: Mapping[str, Any], *, root: Path, source: str | None = "
 
         for i, item in enumerate(table["waivers"] if isinstance(table["waivers"], list) else ()):
             if isinstance(item, Mapping) and isinstance(item.get("paths"), str):
-                _strings(item["paths"], source, f"waivers[{i}].paths")
+                _strings(item["paths"], shown, f"waivers[{i}].paths")
         try:
-            kw["waivers"] = parse_waivers(table["waivers"], source, "waivers", in_config=True)
+            kw["waivers"] = parse_waivers(table["waivers"], shown, "waivers", in_config=True)
         except ModelError as exc:
-            raise ConfigError(source, exc.field, exc.problem, exc.hint) from None
+            raise ConfigError(shown, exc.field, exc.problem, exc.hint) from None
     if "extend" in table and not isinstance(table["extend"], bool):
-        raise ConfigError(source, "extend", f"must be true or false, got {table['extend']!r}",
+        raise ConfigError(shown, "extend", f"must be true or false, got {table['extend']!r}",
                           "true layers this policy on the one of the folder above")
     if base:
-        _nest(kw, base, source)
+        _nest(kw, base, shown)
     outer = ""
     if table.get("extend") and parent is not None:
         _inherit(kw, parent)

@@ -203,7 +203,7 @@ def _select(full: str, name: str, rel: str, config: "Config | None", look: _Look
     if content is not None:  # a link out of the repository, or not a regular file: not read
         return FoundFile(full, rel, content)
     st = _stat(full, entry) if known is not None else None  # before any read of the file
-    if st is not None and known(rel, st):
+    if st is not None and known is not None and known(rel, st):
         return FoundFile(full, rel, stat=st)
     if config is not None and config.include:  # selected by name: no need to look inside
         return FoundFile(full, rel, stat=st)
