@@ -140,3 +140,17 @@ def test_verdict_is_compared_by_identity():
               message="ok")
     a, b = Verdict(**kw), Verdict(**kw)
     assert a != b and a == a and a.suggestion is None
+
+
+@pytest.mark.parametrize("uncertain, given, expected", [
+    (False, "", "estimated"), (True, "", "uncertain"),
+    (False, "certified", "certified"), (True, "certified", "certified")])
+def test_a_verdict_says_how_it_was_decided_by_default(uncertain, given, expected):
+    # A verdict that does not say is decided by the first-order estimate, or is uncertain;
+    # one that says keeps what it says (rules.catalogue.Verdict).
+    from eigengate.rules.catalogue import Verdict
+
+    v = Verdict(rule="EG101", name="asymptotic-stability", requirement="stable: true",
+                passed=True, uncertain=uncertain, measured=-1.0, threshold=0.0, margin=1.0,
+                unit="1/s", offending=(), message="", decided_by=given)
+    assert v.decided_by == expected

@@ -32,7 +32,14 @@ SELECTION = {
     "modes": ["tests/test_gate_boundaries.py", "tests/test_mode_records.py",
               "tests/test_modes_reference.py"],
     "margins": ["tests/test_gate_boundaries.py", "tests/margins/test_margins_reference.py"],
+    "bounds": ["tests/test_gate_boundaries.py", "tests/test_bounds_corpus.py",
+               "tests/test_numeric_silent_passes.py"],
 }
+
+#: module → its file below plugin/eigengate (the stage packages)
+PATHS = {"rules": "rules/catalogue.py", "waivers": "rules/waivers.py",
+         "regressions": "baseline/regressions.py", "modes": "analysis/modes.py",
+         "margins": "analysis/margins.py", "bounds": "analysis/bounds.py"}
 
 
 def run(module: str, mutmut: Path) -> int:
@@ -46,7 +53,7 @@ def run(module: str, mutmut: Path) -> int:
     pyproject += (
         "\n[tool.mutmut]\n"
         'source_paths = ["src/eigengate"]\n'
-        f'only_mutate = ["src/eigengate/{module}.py"]\n'
+        f'only_mutate = ["src/eigengate/{PATHS[module]}"]\n'
         f"pytest_add_cli_args_test_selection = {tests!r}\n"
         'pytest_add_cli_args = ["-p", "no:cacheprovider", "-p", "no:xdist", "-q"]\n'
         'also_copy = ["example_repo"]\n')
