@@ -420,3 +420,179 @@ def test_map_to_s_holds_the_image_of_the_disc():
     assert bounds.map_to_s(0.81, z, T) == math.inf
     assert bounds.map_to_s(math.inf, z, T) == math.inf
     assert bounds.map_to_s(0.0, z, T) == 0.0
+
+
+# ------------------------------------------------------------------ second round (survivors)
+
+def orth(n, seed):
+    q, _ = np.linalg.qr(np.random.default_rng(seed).standard_normal((n, n)))
+    return q
+
+
+def test_fmt_and_top_states_details():
+    from dataclasses import replace
+
+    from eigengate.analysis.modes import _fmt_complex
+    assert _fmt_complex(complex(1, 0.5), False) == "1+0.5j"
+    (m,) = spec([[-1.0]]).modes
+    many = replace(m, participation=np.full(40, 0.025), states=tuple(f"x{i}" for i in range(40)))
+    # ties keep the state order (a stable sort; numpy's default is not stable for 40 entries)
+    assert [s for s, _ in many.top_states(3, 0.0)] == ["x0", "x1", "x2"]
+    rng = np.random.default_rng(0)
+    p = np.round(rng.uniform(0, 1, 64), 1)
+    tied = replace(m, participation=p, states=tuple(f"x{i}" for i in range(64)))
+    want = [f"x{i}" for i in np.argsort(-p, kind="stable")[:5]]
+    assert [s for s, _ in tied.top_states(5, 0.0)] == want
+
+
+@pytest.mark.parametrize("seed", range(10))
+def test_tied_modes_are_ordered_by_dominant_state(seed):
+    # -1 and -1 − 1e-11 agree to 10 significant digits: a tie, broken by the dominant state
+    q = orth(4, seed)
+    s = spec(q @ np.diag([-1.0, -1.0 - 1e-11, -5.0, -3.0]) @ q.T)
+    first, second = s.modes[:2]
+    assert first.multiplicity == second.multiplicity == 1
+    assert int(np.argmax(first.participation)) <= int(np.argmax(second.participation))
+
+
+def test_error_messages_name_file_field_line_and_hint():
+    lines = {"plant.A": 4, "plant.E": 9}
+    with pytest.raises(ModelError) as e:
+        spec(np.array([[-1.0, 0.0], [0.0, 0.0]]), E=np.array([[1.0, 0.0], [0.0, 0.0]]),
+             source="m.yaml", lines=lines)
+    err = e.value
+    assert (err.source, err.field, err.line) == ("m.yaml", "plant.E", 9)
+    assert err.problem == ("makes a singular pencil: det(A - λE) is zero for every λ, so the "
+                           "model has no well-defined modes")
+    assert err.hint == "check for a state that appears in no equation"
+    with pytest.raises(ModelError) as e:
+        spec(np.eye(2), E=np.zeros((2, 2)), source="m.yaml", lines=lines)
+    err = e.value
+    assert (err.source, err.field, err.line) == ("m.yaml", "plant.E", 9)
+    assert err.problem == ("gives no finite eigenvalues: all 2 eigenvalues of the pencil (A, E) "
+                           "are infinite, so the model has no dynamic mode to check")
+    assert err.hint == ("E is zero or nilpotent: check that the differential equations are in E")
+
+
+@pytest.mark.filterwarnings("ignore:overflow encountered:RuntimeWarning")
+def test_overflowing_eigenvalues_are_refused_with_the_field():
+    # the loader refuses entries above 1e150; analyse guards on its own as well (a model built
+    # around that check): ‖A‖F of 1e200 entries overflows double precision
+    from dataclasses import replace
+    model = from_arrays(np.eye(3), source="big.yaml", lines={"plant.A": 3})
+    with pytest.raises(ModelError) as e:
+        analyse(replace(model, A=np.full((3, 3), 1e200) * np.array([[1, 1, 1], [1, -1, 1],
+                                                                     [1, 1, -1]])))
+    err = e.value
+    assert (err.source, err.field, err.line) == ("big.yaml", "plant.A", 3)
+    assert err.problem == "has eigenvalues beyond the range of double precision"
+    assert err.hint == "rescale the units"
+
+
+def test_balancing_keeps_participation_on_the_right_states():
+    # badly scaled and reducible (column 2 is zero off the diagonal): a permuting balance
+    # would move state 2; participation is invariant under diagonal scaling only
+    # (Pérez-Arriaga et al. 1982), so it must equal scipy's on the original matrix
+    A = np.array([[-1.0, 1e6, 0.0], [1e-6, -2.0, 0.0], [1.0, 1.0, -3.0]])
+    s = spec(A)
+    assert s.balanced
+    lam, vl, vr = la.eig(A, left=True, right=True)
+    p = np.abs(vr * vl.conj())
+    p /= p.sum(axis=0)
+    for m in s.modes:
+        i = int(np.argmin(np.abs(lam - m.eigenvalue)))
+        assert m.participation == pytest.approx(p[:, i], abs=1e-9)
+
+
+def test_small_norm_matrix_is_balanced_too():
+    B = np.array([[-1e-3, 0.5], [5e-13, -2e-3]])  # 1-norm 0.502, balanced 1-norm ~1e-7
+    assert np.linalg.norm(B, 1) < 1
+    assert spec(B).balanced
+
+
+def test_descriptor_bounds_are_honest_against_mpmath():
+    A = np.array([[-1.0, 2.0], [0.5, -3.0]])
+    E = np.array([[2.0, 1.0], [0.0, 1.0]])
+    with mpmath.workdps(50):
+        M = mpmath.inverse(mpmath.matrix(E.tolist())) * mpmath.matrix(A.tolist())
+        exact = [complex(x) for x in mpmath.eig(M, left=False, right=False)]
+    for m in spec(A, E=E).modes:
+        err = min(abs(m.eigenvalue - x) for x in exact)
+        assert err <= m.uncertainty < 1e-12
+
+
+def test_descriptor_semisimple_double_with_small_e():
+    # A = −I, E = 1e-3·I: λ = −1000 twice, semisimple (A − λE = 0 exactly)
+    s = spec(-np.eye(2), E=1e-3 * np.eye(2))
+    (m,) = s.modes
+    assert m.eigenvalue == pytest.approx(-1000.0, rel=1e-12)
+    assert (m.multiplicity, m.geometric_multiplicity) == (2, 2)
+    # and a descriptor double that is semisimple only in the pencil's metric: A = diag(−4, −4),
+    # E = 2I (λ = −2; A − λ·I would be of full rank)
+    (n,) = spec(np.diag([-4.0, -4.0]), E=2 * np.eye(2)).modes
+    assert (n.multiplicity, n.geometric_multiplicity) == (2, 2)
+
+
+def test_scaled_semisimple_double_under_similarity():
+    # Q·diag(−1, −1, −3)·Qᵀ scaled by 1e4: geometric multiplicity 2 (common practice)
+    q = orth(3, 5)
+    (m, other) = spec(1e4 * q @ np.diag([-1.0, -1.0, -3.0]) @ q.T).modes
+    assert (m.multiplicity, m.geometric_multiplicity) == (2, 2)
+    assert m.eigenvalue == pytest.approx(-1e4, rel=1e-12) and other.multiplicity == 1
+
+
+def test_descriptor_scaling_of_finite_and_infinite_eigenvalues():
+    # tiny but regular: λ = −1, −2 (the thresholds scale with ‖A‖ and ‖E‖)
+    s = spec(np.diag([-1e-14, -2e-14]), E=np.diag([1e-14, 1e-14]))
+    assert sorted(m.eigenvalue.real for m in s.modes) == pytest.approx([-2.0, -1.0], rel=1e-12)
+    # large A: λ = −1e8 and −5e8 are finite
+    s = spec(np.diag([-1e8, -1e9]), E=np.diag([1.0, 2.0]))
+    assert s.infinite == 0
+    assert sorted(m.eigenvalue.real for m in s.modes) == pytest.approx([-5e8, -1e8], rel=1e-12)
+    # large A and E, E of rank 2, under orthogonal mixing: exactly one infinite eigenvalue (Dai 1989)
+    q, z = orth(3, 1), orth(3, 2)
+    A = q @ np.diag([-1e6, -2e6, 1e6]) @ z
+    E = q @ np.diag([1e6, 1e6, 0.0]) @ z
+    s = spec(A, E=E)
+    assert s.infinite == 1 and s.n_eigenvalues == 2
+    assert sorted(m.eigenvalue.real for m in s.modes) == pytest.approx([-2.0, -1.0], rel=1e-9)
+    # and a singular pencil at that scale is still recognised (shared null vector)
+    E2 = q @ np.diag([1e6, 1e6, 0.0]) @ z
+    A2 = q @ np.array([[-1e6, 0, 0], [0, -2e6, 0], [0, 0, 0.0]]) @ z
+    with pytest.raises(ModelError, match="singular pencil"):
+        spec(A2, E=E2)
+
+
+def test_every_figure_keeps_its_rounding_floor_and_enclosure():
+    # uncertainty ≥ 8·eps·|s| (FIGURE_FLOOR, DEVELOPERS.md); the certified enclosure is
+    # reported for standard models and holds the mpmath eigenvalue
+    A = np.array([[-1.0, 3.0, 0.0], [0.0, -2.0, 1.0], [0.2, 0.0, -5.0]])
+    exact = mp_eigs(A)
+    for m in spec(A).modes:
+        assert m.uncertainty >= 8 * EPS * abs(m.s)
+        assert min(abs(m.eigenvalue - x) for x in exact) <= m.enclosure < 1e-12
+        assert m.uncertainty <= m.enclosure
+    (d,) = spec(np.array([[-3.0]])).modes
+    assert 8 * EPS * 3 <= d.uncertainty < 100 * EPS * 3 and d.enclosure < math.inf
+
+
+def test_enclosure_at_the_order_limit():
+    n = bounds.ENCLOSE_LIMIT
+    d = -np.linspace(1.0, 5.0, n)
+    q = orth(n, 11)
+    s = spec(q @ np.diag(d) @ q.T)
+    assert len(s.modes) == n and all(m.enclosure < 1e-8 for m in s.modes)
+
+
+def test_discrete_descriptor_uncertainty_maps_through_log():
+    # no enclosure for pencils, so the first-order bound maps to s as δs = δz/(|z|·T)
+    # (derivative of ln z / T, common practice); compared with the same pencil read as
+    # continuous, whose bound is δz itself
+    z = 0.5 * cmath.exp(0.3j)
+    R = np.array([[z.real, -z.imag * 1e4], [z.imag * 1e-4, z.real]])
+    E = 2 * np.eye(2)
+    T = 0.5
+    (c,) = spec(2 * R, E=E).modes
+    (d,) = spec(2 * R, E=E, sample_period=T).modes
+    assert c.uncertainty > 1e3 * EPS  # the first-order bound, well above the floors
+    assert d.uncertainty == pytest.approx(c.uncertainty / abs(z) / T, rel=1e-9)
