@@ -247,3 +247,42 @@ def test_roots_between_sign_changes_and_exact_zeros():
     assert _roots(f, w, v, lambda i: True) == pytest.approx([1.5, 4.0], rel=1e-13)
     assert _roots(f, w, v, lambda i: i != 0) == [4.0]  # invalid interval skipped
     assert _roots(f, w, v, lambda i: False) == [4.0]  # a grid point on the root stays
+
+
+def test_discrete_loop_whose_sensitivities_stay_below_one():
+    # L(z) = 0.51 + 0.005/(z − 0.5), T = 0.1: Re L > 0 on the unit circle, so |S| < 1 and
+    # |S − T| < 1 everywhere; the peaks must come from the circle itself (dense grid on
+    # [0, π/T], by hand), not from an end value
+    T = 0.1
+    loop = lt([[0.5]], [[1.0]], [[0.005]], [[0.51]], T)
+    m = siso_margins(loop)
+    w = np.linspace(0.0, math.pi / T, 20001)
+    ell = 0.51 + 0.005 / (np.exp(1j * w * T) - 0.5)
+    s = np.abs(1 / (1 + ell))
+    st = np.abs((1 - ell) / (1 + ell))
+    assert m.sensitivity_peak == pytest.approx(s.max(), rel=1e-7) and m.sensitivity_peak < 1
+    assert m.disk_margin == pytest.approx(2 / st.max(), rel=1e-7) and m.disk_margin > 2
+    assert m.channel == "u" and m.gain_margin == math.inf and m.phase_margins == ()
+
+
+def test_channel_name_phase_margins_and_the_size_check():
+    loop, _ = tf_lt([2.0], [1.0, -1.0])
+    m = siso_margins(loop)
+    assert m.channel == "u" and m.phase_margins == pytest.approx((60.0,), abs=1e-9)
+    anon = LoopTransfer(loop.A, loop.B, loop.C, loop.D, None, None, ())
+    assert siso_margins(anon).channel == "u1"
+    two = LoopTransfer(np.eye(1) * -1, np.ones((1, 2)), np.ones((2, 1)), np.zeros((2, 2)), None,
+                       None, ("a", "b"))
+    with pytest.raises(ValueError, match=r"^siso_margins needs a 1×1 loop, got 2×2$"):
+        siso_margins(two)
+    three = LoopTransfer(np.eye(1) * -1, np.ones((1, 3)), np.ones((2, 1)), np.zeros((2, 3)),
+                         None, None, ("a", "b"))
+    with pytest.raises(ValueError, match=r"got 2×3$"):
+        siso_margins(three)
+
+
+def test_a_given_range_is_used_by_the_margins():
+    # L = 2/(s − 1) on [0.01, 1]: the gain crossover √3 lies outside, so none is found
+    loop, _ = tf_lt([2.0], [1.0, -1.0])
+    m = siso_margins(loop, (0.01, 1.0))
+    assert m.gain_crossovers == () and m.phase_margin == math.inf
