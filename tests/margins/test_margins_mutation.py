@@ -149,7 +149,9 @@ def test_crossover_below_the_default_grid_is_found_by_widening(k):
     _gm, pm, _sm, _wpc, wgc, _ws = control.stability_margins(sys, returnall=True)
     assert len(m.gain_crossovers) == len(wgc) == 2
     assert sorted(m.gain_crossovers) == pytest.approx(sorted(wgc), rel=1e-8)
-    assert min(m.gain_crossovers) == pytest.approx(1 / k, rel=1e-3)
+    # |L(jω)| = kω/(1 + ω²) = 1: ω² − kω + 1 = 0, so ω = (k ∓ √(k² − 4))/2 (by hand)
+    lo, hi = 2 / (k + math.sqrt(k * k - 4)), (k + math.sqrt(k * k - 4)) / 2
+    assert sorted(m.gain_crossovers) == pytest.approx([lo, hi], rel=1e-12)
     # the smallest |PM| is reported (python-control's pm list, ±90.6° here)
     assert abs(m.phase_margin) == pytest.approx(min(abs(p) for p in pm), abs=1e-6)
     # the delay margin comes from every crossover, the low one included (it is the larger)
