@@ -597,3 +597,11 @@ def test_discrete_descriptor_uncertainty_maps_through_log():
     (d,) = spec(2 * R, E=E, sample_period=T).modes
     assert c.uncertainty > 1e3 * EPS  # the first-order bound, well above the floors
     assert d.uncertainty == pytest.approx(c.uncertainty / abs(z) / T, rel=1e-9)
+
+
+def test_semisimple_double_gets_no_hoelder_bound():
+    # diag(−1, −1, −3): semisimple, so its error is first order (Bauer–Fike: κ(V) = 1 for a
+    # normal matrix), not the Hölder scale √(n·eps)
+    (m, _) = spec(np.diag([-1.0, -1.0, -3.0])).modes
+    assert (m.multiplicity, m.geometric_multiplicity) == (2, 2)
+    assert m.uncertainty < 1e-13
