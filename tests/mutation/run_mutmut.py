@@ -3,6 +3,7 @@
     python tests/mutation/run_mutmut.py waivers          # one module
     python tests/mutation/run_mutmut.py                  # all six, one after the other
     python tests/mutation/run_mutmut.py margins _peak _roots   # only those functions' mutants
+    python tests/mutation/run_mutmut.py margins Resolvent.__call__   # a method's mutants
     EG_MUTMUT_LIMIT=600 python tests/mutation/run_mutmut.py modes   # stop after 600 s
 
 mutmut 3 mutates the files below ``src/`` of the folder it runs in, and tests must import the
@@ -68,7 +69,9 @@ def run(module: str, mutmut: Path, functions: list[str] | None = None) -> int:
     (work / "pyproject.toml").write_text(pyproject, encoding="utf-8")
     env = {**os.environ, "CI": "true"}  # derandomised hypothesis: the same run every time
     dotted = "eigengate." + PATHS[module][:-3].replace("/", ".")
-    names = [f"{dotted}.x_{f}__mutmut_*" for f in functions or ()]
+    # mutmut names a function's mutants x_NAME__mutmut_N, a method's xǁCLASSǁNAME__mutmut_N
+    names = [f"{dotted}.x{'ǁ' + f.replace('.', 'ǁ') if '.' in f else '_' + f}__mutmut_*"
+             for f in functions or ()]
     limit = os.environ.get("EG_MUTMUT_LIMIT")  # seconds; what was run by then is kept
     cmd = ["nice", "-n", "19", str(mutmut), "run", "--max-children", "1", *names]
     if limit:
