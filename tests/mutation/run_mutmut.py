@@ -1,7 +1,10 @@
 """Mutation testing of the gate's deciding modules with mutmut 3 (not part of the normal run).
 
     python tests/mutation/run_mutmut.py waivers          # one module
-    python tests/mutation/run_mutmut.py                  # all five, one after the other
+    python tests/mutation/run_mutmut.py                  # all six, one after the other
+    python tests/mutation/run_mutmut.py margins _peak _roots   # only those functions' mutants
+    python tests/mutation/run_mutmut.py margins Resolvent.__call__   # a method's mutants
+    EG_MUTMUT_LIMIT=600 python tests/mutation/run_mutmut.py modes   # stop after 600 s
 
 mutmut 3 mutates the files below ``src/`` of the folder it runs in, and tests must import the
 mutated copy. This repository keeps the package in ``plugin/``, so each run gets a work folder
@@ -22,6 +25,16 @@ from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[2]
 
+#: module → its file below the package
+PATHS = {
+    "rules": "rules/catalogue.py",
+    "waivers": "rules/waivers.py",
+    "regressions": "baseline/regressions.py",
+    "modes": "analysis/modes.py",
+    "bounds": "analysis/bounds.py",
+    "margins": "analysis/margins.py",
+}
+
 #: module → the in-process tests that exercise it (the narrowest selection that covers it)
 SELECTION = {
     "rules": ["tests/test_rules_table.py", "tests/reports/test_sarif.py",
@@ -30,19 +43,15 @@ SELECTION = {
     "regressions": ["tests/baseline/test_regressions.py", "tests/baseline/test_regression_findings.py",
                     "tests/test_gate_boundaries.py"],
     "modes": ["tests/test_gate_boundaries.py", "tests/test_mode_records.py",
-              "tests/test_modes_reference.py"],
-    "margins": ["tests/test_gate_boundaries.py", "tests/margins/test_margins_reference.py"],
-    "bounds": ["tests/test_gate_boundaries.py", "tests/test_bounds_corpus.py",
-               "tests/test_numeric_silent_passes.py"],
+              "tests/test_modes_reference.py", "tests/test_modes_mutation.py"],
+    "bounds": ["tests/test_modes_reference.py", "tests/test_bounds_corpus.py",
+               "tests/test_modes_mutation.py"],
+    "margins": ["tests/test_gate_boundaries.py", "tests/margins/test_margins_reference.py",
+                "tests/margins/test_margins_mutation.py"],
 }
 
-#: module → its file below plugin/eigengate (the stage packages)
-PATHS = {"rules": "rules/catalogue.py", "waivers": "rules/waivers.py",
-         "regressions": "baseline/regressions.py", "modes": "analysis/modes.py",
-         "margins": "analysis/margins.py", "bounds": "analysis/bounds.py"}
 
-
-def run(module: str, mutmut: Path) -> int:
+def run(module: str, mutmut: Path, functions: list[str] | None = None) -> int:
     work = ROOT / ".mutmut" / module
     shutil.rmtree(work, ignore_errors=True)
     work.mkdir(parents=True)
@@ -59,8 +68,15 @@ def run(module: str, mutmut: Path) -> int:
         'also_copy = ["example_repo"]\n')
     (work / "pyproject.toml").write_text(pyproject, encoding="utf-8")
     env = {**os.environ, "CI": "true"}  # derandomised hypothesis: the same run every time
-    rc = subprocess.call(["nice", "-n", "19", str(mutmut), "run", "--max-children", "1"],
-                         cwd=work, env=env)
+    dotted = "eigengate." + PATHS[module][:-3].replace("/", ".")
+    # mutmut names a function's mutants x_NAME__mutmut_N, a method's xǁCLASSǁNAME__mutmut_N
+    names = [f"{dotted}.x{'ǁ' + f.replace('.', 'ǁ') if '.' in f else '_' + f}__mutmut_*"
+             for f in functions or ()]
+    limit = os.environ.get("EG_MUTMUT_LIMIT")  # seconds; what was run by then is kept
+    cmd = ["nice", "-n", "19", str(mutmut), "run", "--max-children", "1", *names]
+    if limit:
+        cmd = ["timeout", "--signal=INT", limit, *cmd]
+    rc = subprocess.call(cmd, cwd=work, env=env)
     subprocess.call([str(mutmut), "results", "--all", "true"], cwd=work, env=env,
                     stdout=open(work / "results.txt", "w"))
     return rc
@@ -68,6 +84,8 @@ def run(module: str, mutmut: Path) -> int:
 
 def main(argv: list[str]) -> int:
     mutmut = Path(sys.executable).with_name("mutmut")
+    if len(argv) > 1:  # one module and some of its functions
+        return run(argv[0], mutmut, argv[1:])
     modules = argv or list(SELECTION)
     return max(run(m, mutmut) for m in modules)
 

@@ -266,10 +266,9 @@ def _grid(lt: LoopTransfer, res: Resolvent, omega_range: tuple[float, float] | N
     if omega_range is not None:
         lo, hi = omega_range[0], min(omega_range[1], nyq)
     else:  # widen while a crossover may lie beyond an end
-        for _ in range(12):
-            g = abs(res.scalar(lo))
-            if not (g < 1.0 and g < abs(res.scalar(lo * 10))):
-                break
+        for _ in range(12):  # |L| rising with ω at the low end: above 1, it falls towards 1
+            if not abs(res.scalar(lo)) < abs(res.scalar(lo * 10)):  # below it; below 1, a
+                break  # peak may lie there
             lo /= 10.0
         for _ in range(12):
             if hi >= nyq or not abs(res.scalar(hi)) > 1.0:
