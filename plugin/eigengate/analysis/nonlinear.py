@@ -14,8 +14,6 @@ from __future__ import annotations
 import contextlib
 import dataclasses
 import importlib
-import itertools
-import math
 import os
 import re
 import sys

@@ -10,7 +10,6 @@ from __future__ import annotations
 import dataclasses
 import functools
 import os
-import re
 from pathlib import Path
 from typing import Any, Callable, Mapping
 

@@ -48,7 +48,6 @@ from typing import TYPE_CHECKING, Any, Mapping, Sequence
 from ..rules.patterns import glob_match
 from .policyfiles import (  # noqa: F401 (ConfigError re-exported)
     ConfigError, find_config, find_top_config, policy_file, read_table)
-from ..errors import EigengateError
 
 if TYPE_CHECKING:  # pragma: no cover
     from ..model.core import Model
