@@ -13,7 +13,7 @@ from ..analysis.equilibrium import EQUILIBRIUM_TYPES
 if TYPE_CHECKING:  # pragma: no cover
     from ..analysis.modes import Mode
 
-__all__ = ["Rule", "RULES", "Verdict", "rule_by_key", "DECIDED_BY"]
+__all__ = ["Rule", "RULES", "Verdict", "Figure", "rule_by_key", "DECIDED_BY"]
 
 #: How a verdict was decided: by a certified enclosure, by the first-order estimate, or not.
 DECIDED_BY = ("certified", "estimated", "uncertain")
@@ -42,10 +42,38 @@ class Verdict:
     message: str
     suggestion: str | None = None
     decided_by: str = ""
+    #: A robustness figure behind the verdict (:class:`Figure`), for the reports and the
+    #: baseline; None for the eigenvalue and margin rules.
+    figure: "Figure | None" = None
 
     def __post_init__(self) -> None:
         if not self.decided_by:
             object.__setattr__(self, "decided_by", "uncertain" if self.uncertain else "estimated")
+
+
+@dataclass(frozen=True)
+class Figure:
+    """A robustness figure with its bracket: the true value lies in ``[lower, upper]`` (up to
+    the rounding of the last few digits, which the bracket already includes).
+
+    ``name`` is the baseline key (``stability_radius``, ``transient_growth``,
+    ``pseudospectral_abscissa``); ``at`` is where the extreme value is attained (a frequency
+    in rad/s, a time in s or a step count, a point of the complex plane as ``[re, im]``,
+    parameter values), described by ``at_label``; ``method`` names the algorithm; ``notes``
+    lists what is proven and what is sampled. ``curve`` holds plot data the analysis made
+    (pairs of numbers), or is empty.
+    """
+
+    name: str
+    value: float
+    lower: float
+    upper: float
+    unit: str = ""
+    at: tuple[float, ...] = ()
+    at_label: str = ""
+    method: str = ""
+    notes: tuple[str, ...] = ()
+    curve: tuple[tuple[float, float], ...] = ()
 
 
 @dataclass(frozen=True)
@@ -98,6 +126,27 @@ RULES: dict[str, Rule] = {r.id: r for r in (
     Rule("EG109", "known-modes", "known_modes", "",
          "Every declared known mode (integrator, rigid-body mode, conserved quantity) is present "
          "exactly as declared; known modes are left out of every other requirement."),
+    # Robustness beyond the eigenvalues (eigengate.analysis.robustness, .parametric;
+    # eigengate.rules.robustness, .robust_range).
+    Rule("EG110", "stability-radius", "min_stability_radius", "",
+         "The distance to instability r = min over ω of σ_min(A − iωI) (discrete: over θ of "
+         "σ_min(A − e^{iθ}I)) is at least R: no complex perturbation of A smaller than r in "
+         "the 2-norm makes the model unstable. With structure {B, C} it is the radius for "
+         "perturbations A + BΔC, 1/‖C(sI − A)⁻¹B‖∞, and with real: true the radius for real "
+         "Δ. Computed by the Hamiltonian level-set method (a bracket, not a grid)."),
+    Rule("EG111", "transient-growth", "max_transient_growth", "",
+         "The largest amplification of any initial state, max over t ≥ 0 of ‖e^{At}‖₂ "
+         "(discrete: over k of ‖A^k‖₂), is at most G; the peak and its time come with an "
+         "upper bound, and the verdict is uncertain when the two straddle G."),
+    Rule("EG112", "pseudospectral-abscissa", "max_pseudospectral_abscissa", "1/s",
+         "The ε-pseudospectral abscissa, the largest Re z with σ_min(A − zI) ≤ ε (discrete: "
+         "the pseudospectral radius, largest |z|), is at most the given value: every "
+         "perturbation of norm below ε leaves the poles left of it. Criss-cross algorithm."),
+    Rule("EG113", "robust-over-range", "robust", "",
+         "The listed linear requirements hold for every value of the declared uncertain "
+         "parameters in their ranges; one parameter is decided exactly from the stability "
+         "boundary (guardian map), several on the vertices and edges exactly and inside "
+         "the box by sampling and local optimisation, which the finding says."),
     # Loop margins (eigengate.analysis.margins, eigengate.rules.loop_requirements): need a feedback block.
     Rule("EG301", "gain-margin", "min_gain_margin_db", "dB",
          "The loop, broken at the plant input (or output), tolerates a gain increase and, where "
@@ -147,6 +196,15 @@ RULES: dict[str, Rule] = {r.id: r for r in (
     Rule("EG207", "mode-disappeared", "allowed_drift", "",
          "A baseline mode has no counterpart in the model (the model order shrank, or a mode "
          "moved beyond the matching gate)."),
+    Rule("EG211", "stability-radius-shrank", "allowed_drift", "",
+         "The model's distance to instability (EG110's figure) shrank by more than the "
+         "tolerance since the baseline."),
+    Rule("EG212", "transient-growth-rose", "allowed_drift", "",
+         "The model's transient peak max ‖e^{At}‖ (EG111's figure) rose by more than the "
+         "tolerance since the baseline."),
+    Rule("EG213", "pseudospectral-abscissa-rose", "allowed_drift", "1/s",
+         "The model's ε-pseudospectral abscissa (EG112's figure) moved right by more than "
+         "the tolerance since the baseline."),
     Rule("EG208", "new-model", "", "",
          "The model has no baseline entry yet: nothing to compare with until it is accepted."),
     Rule("EG209", "stale-baseline-entry", "", "",
@@ -184,6 +242,12 @@ _EXAMPLES = {
     "EG004": "[tool.eigengate]\ninclude = [\"models/**/*.yaml\", \"models/**/*.yml\"]",
     "EG005": "requirements:\n  stable: true   # or [tool.eigengate.requirements] for every model",
     "EG001": "model_format: 1\nplant:\n  A: [[-1.0]]",
+    "EG110": "requirements:\n  min_stability_radius: 0.05\n  # or {min: 0.05, structure: {B: [[...]], C: [[...]]}, real: true}",
+    "EG111": "requirements:\n  max_transient_growth: 10",
+    "EG112": "requirements:\n  max_pseudospectral_abscissa: {epsilon: 0.01, max: -0.1}",
+    "EG113": "parameters:\n  damper_gain: {nominal: 2.4, range: [2.0, 2.8],\n"
+             "                affects: {feedback.state_gain: [[0.0, 1.0, 0.0]]}}\n"
+             "requirements:\n  robust: {stable: true, min_damping: 0.2}",
     "EG301": "loop: {at: plant_input}\nrequirements:\n  min_gain_margin_db: 6",
     "EG302": "requirements:\n  min_phase_margin_deg: 45",
     "EG303": "requirements:\n  min_delay_margin: 0.05   # s",
@@ -197,6 +261,8 @@ _EXAMPLES = {
             "  decay_rate: {abs: 1.0e-6, rel: 0.05}\n  damping: {abs: 0.005, rel: 0.05}\n"
             "  frequency: {rel: 0.05}"
        for rid in ("EG201", "EG202", "EG203", "EG204", "EG205", "EG206", "EG207")},
+    **{rid: "allowed_drift:\n  stability_radius: {rel: 0.05}\n  transient_growth: {rel: 0.05}\n"
+            "  pseudospectral_abscissa: {abs: 0.01}" for rid in ("EG211", "EG212", "EG213")},
 }
 
 
