@@ -128,7 +128,7 @@ OK = {"rule": "EG103", "reason": "fine"}
       "expires, label")),
     ([OK, {"rule": "EG13", "reason": "x"}], False,
      ("waivers[1].rule", "must name a rule id such as EG103, got 'EG13'", 6,
-      "did you mean 'EG103'?")),
+      "did you mean 'EG213'?")),  # difflib's closest id (EG103, EG113, EG213 tie on ratio)
     ([OK, {"rule": "nothing-like", "reason": "x"}], False,
      ("waivers[1].rule", "must name a rule id such as EG103, got 'nothing-like'", 6,
       "`eigengate rules` lists them")),

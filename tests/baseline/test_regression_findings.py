@@ -373,12 +373,12 @@ P = "tool.eigengate.allowed_drift"
 
 
 @pytest.mark.parametrize("value, expected", [
-    ([1], (P, "must be a mapping of decay_rate, damping, frequency, match_gate, got [1]", 12,
+    ([1], (P, "must be a mapping of decay_rate, damping, frequency, stability_radius, transient_growth, pseudospectral_abscissa, match_gate, got [1]", 12,
            None)),
     ({"dacay_rate": {}}, (f"{P}.dacay_rate", "is not a tolerance", 12,
                           "did you mean 'decay_rate'?")),
     ({"zzz": {}}, (f"{P}.zzz", "is not a tolerance", 12,
-                   "known keys: decay_rate, damping, frequency, match_gate")),
+                   "known keys: decay_rate, damping, frequency, stability_radius, transient_growth, pseudospectral_abscissa, match_gate")),
     ({"damping": 0.1}, (f"{P}.damping", "must be a mapping of abs, rel, worse, got 0.1", 12,
                         "for example {abs: 0.01, rel: 0.05}")),
     ({"damping": {"absolute": 0.1}}, (f"{P}.damping.absolute", "is not a tolerance field", 12,

@@ -61,6 +61,9 @@ class Entry:
     #: The operating point's identity in its file (``Model.point_id``), None for a file of
     #: one model or an entry written before identities were stored.
     point: str | None = None
+    #: Robustness figures of the requirements the model had when accepted
+    #: (``rules.robustness.figures_of``), sorted by name; empty when it had none.
+    robustness: tuple[tuple[str, float], ...] = ()
 
     @property
     def key(self) -> Key:

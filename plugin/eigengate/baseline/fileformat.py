@@ -33,9 +33,10 @@ FIGURES = ("spectral_abscissa", "spectral_radius", "min_damping", "equilibrium",
            "unstable", "center")
 MODE_FIELDS = ("eigenvalue", "s", "multiplicity", "pair", "defective", "damping_ratio",
                "natural_frequency", "time_constant", "uncertainty", "condition", "states")
-ENTRY_FIELDS = ("domain", "figures", "modes", "point", "sample_period", "written_by")
+ENTRY_FIELDS = ("domain", "figures", "modes", "point", "robustness", "sample_period",
+                "written_by")
 #: Fields an entry may leave out (written only when set; older files lack them).
-OPTIONAL_FIELDS = ("point",)
+OPTIONAL_FIELDS = ("point", "robustness")
 TOP_FIELDS = ("format_version", "models")
 _README = """\
 This folder holds eigengate's baseline: the modes of every model as they were last accepted.
@@ -95,6 +96,8 @@ def _entry_lines(e: "Entry", pad: str) -> list[str]:
         out.append(f'{pad}"modes": [],')
     if e.point is not None:
         out.append(f'{pad}"point": {_compact(e.point)},')
+    if e.robustness:
+        out.append(f'{pad}"robustness": {_compact(dict(e.robustness))},')
     return out + [f'{pad}"sample_period": {_compact(e.sample_period)},',
                   f'{pad}"written_by": {_compact(e.written_by)}']
 
@@ -320,6 +323,13 @@ def parse(text: str, path: str) -> tuple[list["Entry"], Mapping[tuple[str, str],
                                  for j, (n, p) in enumerate(states))))
                 if modes[-1].multiplicity < 1:
                     raise r.fail(wm + ("multiplicity",), "must be at least 1")
+            robust = e.get("robustness", {})
+            if not isinstance(robust, dict) or not all(isinstance(k, str) and k
+                                                       for k in robust):
+                raise r.fail(we + ("robustness",), f"must be an object of figures by name, got "
+                             f"{_kind(robust)}")
+            figures = tuple(sorted((k, r.num(v, we + ("robustness", k)))
+                                   for k, v in robust.items()))
             period = e["sample_period"]
             entries.append(Entry(
                 source=source, title=title,
@@ -332,7 +342,7 @@ def parse(text: str, path: str) -> tuple[list["Entry"], Mapping[tuple[str, str],
                                      EQUILIBRIUM_TYPES, "an equilibrium type ("
                                      + ", ".join(EQUILIBRIUM_TYPES) + ")"),
                 **{k: r.num(fig[k], wf + (k,), integer=True) for k in FIGURES[4:]},
-                written_by=e["written_by"], point=point))
+                written_by=e["written_by"], point=point, robustness=figures))
     return entries, _EntryLines(r, [e.key for e in entries])
 
 

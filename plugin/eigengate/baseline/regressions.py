@@ -28,6 +28,7 @@ from typing import TYPE_CHECKING, Any, Callable, Iterable, Mapping
 from ..errors import ModelError
 from ..rules.findings import Finding, ModeRow
 from ..rules.catalogue import RULES
+from ..rules.robustness import figures_of
 
 if TYPE_CHECKING:  # pragma: no cover
     from .store import Baseline, Entry
@@ -40,9 +41,20 @@ __all__ = ["Tolerance", "Tolerances", "parse_tolerances", "compare", "compare_al
 DEFAULT_SEVERITY: dict[str, str] = {
     "EG201": "error", "EG202": "error", "EG203": "error", "EG204": "error",
     "EG205": "warning", "EG206": "warning", "EG207": "warning", "EG208": "warning",
-    "EG209": "warning", "EG210": "error"}
+    "EG209": "warning", "EG210": "error", "EG211": "error", "EG212": "error", "EG213": "error"}
 #: Keys of an ``allowed_drift`` block, and of each figure's mapping in it.
-TOLERANCE_KEYS = ("decay_rate", "damping", "frequency", "match_gate")
+TOLERANCE_KEYS = ("decay_rate", "damping", "frequency", "stability_radius", "transient_growth",
+                  "pseudospectral_abscissa", "match_gate")
+#: Robustness figure (baseline name, before any ``@ε``) → (tolerance, rule, words, unit).
+ROBUST_FIGURES = {
+    "stability_radius": ("stability_radius", "EG211", "stability radius", ""),
+    "structured_stability_radius": ("stability_radius", "EG211", "structured stability radius",
+                                    ""),
+    "real_stability_radius": ("stability_radius", "EG211", "real stability radius", ""),
+    "transient_growth": ("transient_growth", "EG212", "transient peak max ‖e^{At}‖", ""),
+    "pseudospectral_abscissa": ("pseudospectral_abscissa", "EG213",
+                                "pseudospectral abscissa", "1/s"),
+}
 FIGURE_KEYS = ("abs", "rel", "worse")
 WORSE = ("lower", "higher", "either")
 
@@ -74,6 +86,9 @@ class Tolerances:
     decay_rate: Tolerance = Tolerance(abs=1e-6, rel=0.05, worse="lower")
     damping: Tolerance = Tolerance(abs=0.005, rel=0.05, worse="lower")
     frequency: Tolerance = Tolerance(abs=1e-6, rel=0.05, worse="either")
+    stability_radius: Tolerance = Tolerance(abs=0.0, rel=0.05, worse="lower")
+    transient_growth: Tolerance = Tolerance(abs=0.0, rel=0.05, worse="higher")
+    pseudospectral_abscissa: Tolerance = Tolerance(abs=1e-6, rel=0.05, worse="higher")
     match_gate: float = 1.5  # matching.DEFAULT_GATE
 
 
@@ -281,6 +296,27 @@ def _equilibrium(j: _Judge, entry: "Entry", eq: Any, after_modes: list) -> None:
         j.improve("equilibrium", text)
 
 
+def _robustness(j: _Judge, entry: "Entry", result: Any, tol: Tolerances) -> None:
+    """Robustness figures both the baseline and the model have (EG211-EG213)."""
+    before = dict(entry.robustness)
+    for key, a in sorted(figures_of(result.verdicts).items()):
+        b = before.get(key)
+        name, _, eps = key.partition("@")
+        if b is None or name not in ROBUST_FIGURES:
+            continue
+        tkey, rule, words, unit = ROBUST_FIGURES[name]
+        if result.model.sample_period is not None and name == "pseudospectral_abscissa":
+            words, unit = "pseudospectral radius", ""
+        t = getattr(tol, tkey)
+        what = words + (f" (ε = {eps})" if eps else "")
+        verdict = t.judge(b, a)
+        if verdict == "worse":
+            j.add(rule, f"{what} {_change(b, a, t, unit)}", measured=a, threshold=b,
+                  margin=t.allowed(b) - abs(a - b))
+        elif verdict == "better":
+            j.improve(tkey, f"{what} {_change(b, a, t, unit)}")
+
+
 def compare(result: Any, entry: "Entry | None", tolerances: Tolerances | None = None, *,
             severities: Mapping[str, str] | None = None, unreadable: str | None = None
             ) -> Comparison:
@@ -365,6 +401,7 @@ def compare(result: Any, entry: "Entry | None", tolerances: Tolerances | None = 
                       + _change(b_z, a_z, tol.damping, "") + f", now from mode {_ev(low)}",
                       after=(ModeRow.of(low),), measured=a_z, threshold=b_z)
     _equilibrium(j, entry, eq, after)
+    _robustness(j, entry, result, tol)
     return Comparison(m.source, m.title, tuple(j.findings), tuple(j.better), tuple(matches))
 
 

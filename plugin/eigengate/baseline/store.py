@@ -34,6 +34,7 @@ from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any, Iterable, Iterator, Mapping, cast
 
+from ..rules.robustness import figures_of
 from .entries import BaselineMode, Entry, Key
 from .fileformat import DIGITS, FORMAT_VERSION, BaselineError, fmt_float
 
@@ -85,7 +86,9 @@ def baseline_entry_from(result: Any, source: str | None = None,
                  spectral_radius=_r(sp.spectral_radius), min_damping=_r(sp.min_damping),
                  equilibrium=eq.type, stable=eq.stable, unstable=eq.unstable, center=eq.center,
                  written_by=written_by or f"eigengate {__version__}",
-                 point=getattr(model, "point_id", None))
+                 point=getattr(model, "point_id", None),
+                 robustness=tuple(sorted((k, _r(v)) for k, v in
+                                         figures_of(result.verdicts).items())))
 
 
 def _same(a: Entry, b: Entry) -> bool:
@@ -105,6 +108,10 @@ def _same(a: Entry, b: Entry) -> bool:
 
     if not all(close(getattr(a, k), getattr(b, k)) for k in
                ("sample_period", "spectral_abscissa", "spectral_radius", "min_damping")):
+        return False
+    # robustness figures come from iterative methods: equal to their tolerance (1e-6)
+    if [k for k, _ in a.robustness] != [k for k, _ in b.robustness] or not all(
+            close(x, y, 1e-6) for (_, x), (_, y) in zip(a.robustness, b.robustness)):
         return False
     for m, n in zip(a.modes, b.modes):
         if (m.multiplicity, m.pair, m.defective) != (n.multiplicity, n.pair, n.defective) \

@@ -69,6 +69,10 @@ def build_model(doc: Mapping[str, Any], ctx: _Ctx, name: str, label: str | None)
                         known_modes=known_modes, on_uncertain=on_uncertain,
                         disabled=disabled, waivers=ctx.waivers, lines=ctx.prefixed_lines(),
                         prefix=ctx.prefix)
+    for req in requirements:  # a requirement the model cannot be judged by is refused here
+        why = req.unfit(model)
+        if why is not None:
+            raise ctx.err(f"requirements.{req.info.key}", why)
     drift = doc.get("allowed_drift")
     if drift is not None:  # validated here; layered over the policy at comparison time
         from ..baseline.regressions import parse_tolerances

@@ -7,7 +7,7 @@ import math
 from html import escape
 from typing import TYPE_CHECKING, Any, Mapping, Sequence
 
-from .render import DECIDED_NOTES, UNCERTAIN_NOTE
+from .render import DECIDED_NOTES, UNCERTAIN_NOTE, figure_line
 
 if TYPE_CHECKING:  # pragma: no cover
     from ..rules.findings import Finding
@@ -146,6 +146,9 @@ def _finding(f: "Finding", discrete: bool) -> list[str]:
     out = [f'<div class="eg-finding {sev}"><p>{head}</p><p>{_e(f.message)}</p>']
     if f.uncertain:
         out.append(f'<p class="eg-hint">{UNCERTAIN_NOTE.capitalize()}.</p>')
+    figure = figure_line(getattr(f, "figure", None))
+    if figure:
+        out.append(f'<p class="eg-note">Figure: {_e(figure)}.</p>')
     if getattr(f, "decided_by", ""):
         out.append(f'<p class="eg-note">Decided: {_e(f.decided_by)} '
                    f'({_e(DECIDED_NOTES[f.decided_by])}).</p>')

@@ -11,7 +11,8 @@ from __future__ import annotations
 import json
 from typing import Any, Iterable
 
-from .render import finding_data, json_number, json_value, own_findings, status_of, tally
+from .render import (figure_data, finding_data, json_number, json_value, own_findings, status_of,
+                     tally)
 
 __all__ = ["render_json", "REPORT_FORMAT"]
 
@@ -50,7 +51,7 @@ def _model_data(r: Any) -> dict[str, Any]:
              "passed": bool(v.passed), "uncertain": bool(v.uncertain),
              "measured": json_value(v.measured), "threshold": json_value(v.threshold),
              "margin": json_number(v.margin), "unit": v.unit, "message": v.message,
-             "decided_by": v.decided_by}
+             "decided_by": v.decided_by, "figure": figure_data(v.figure)}
             for v in r.verdicts],
         "findings": [finding_data(f) for f in r.findings],
         "waived": [finding_data(f) for f in getattr(r, "waived", ())],

@@ -12,8 +12,8 @@ import re
 from typing import Any, Iterable, Sequence
 
 from .escape import printable
-from .render import (CAUTION, DECIDED_NOTES, UNCERTAIN_NOTE, mode_cells, own_findings, plural,
-                     status_of, tally, text_number)
+from .render import (CAUTION, DECIDED_NOTES, UNCERTAIN_NOTE, figure_line, mode_cells,
+                     own_findings, plural, status_of, tally, text_number)
 
 __all__ = ["render_markdown", "escape"]
 
@@ -72,6 +72,9 @@ def _finding_block(f: Any, discrete: bool) -> list[str]:
     lines = [f"- **{f.rule} {f.name}** ({where}): {escape(f.message)}"]
     if f.uncertain:
         lines.append(f"  - {UNCERTAIN_NOTE}")
+    figure = figure_line(getattr(f, "figure", None))
+    if figure:
+        lines.append(f"  - figure: {escape(figure)}")
     if getattr(f, "decided_by", ""):
         lines.append(f"  - decided: {f.decided_by} ({DECIDED_NOTES[f.decided_by]})")
     if f.suggestion:

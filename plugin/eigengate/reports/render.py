@@ -77,6 +77,28 @@ def mode_data(row: ModeRow) -> dict[str, Any]:
     }
 
 
+def figure_data(fig: Any) -> dict[str, Any] | None:
+    """A robustness figure as JSON data (its plot data left out), or None."""
+    if fig is None:
+        return None
+    return {"name": fig.name, "value": json_number(fig.value),
+            "lower": json_number(fig.lower), "upper": json_number(fig.upper), "unit": fig.unit,
+            "at": [json_number(x) for x in fig.at], "at_label": fig.at_label,
+            "method": fig.method, "notes": list(fig.notes)}
+
+
+def figure_line(fig: Any) -> str | None:
+    """One line for people: the figure, its bracket, where it is attained and how found."""
+    if fig is None:
+        return None
+    unit = f" {fig.unit}" if fig.unit else ""
+    text = f"{fig.name.replace('_', ' ')} {text_number(fig.value, 6)}{unit} in " \
+           f"[{text_number(fig.lower, 6)}, {text_number(fig.upper, 6)}]"
+    if fig.at:
+        text += f" at {fig.at_label or 'point'} = " + ", ".join(text_number(x, 6) for x in fig.at)
+    return text + (f"; method: {fig.method}" if fig.method else "")
+
+
 def finding_data(f: Finding) -> dict[str, Any]:
     """A finding as JSON data, modes included (and, for a regression, the same modes as the
     baseline has them, under ``before``)."""
@@ -86,7 +108,8 @@ def finding_data(f: Finding) -> dict[str, Any]:
         "message": f.message, "requirement": f.requirement,
         "measured": json_value(f.measured), "threshold": json_value(f.threshold),
         "margin": json_number(f.margin), "unit": f.unit, "uncertain": bool(f.uncertain),
-        "decided_by": getattr(f, "decided_by", "") or None, "suggestion": f.suggestion, "waived": getattr(f, "waived", None),
+        "decided_by": getattr(f, "decided_by", "") or None, "suggestion": f.suggestion,
+        "waived": getattr(f, "waived", None), "figure": figure_data(getattr(f, "figure", None)),
         "modes": [mode_data(m) for m in f.modes],
         "before": [mode_data(m) for m in getattr(f, "before", ())],
     }

@@ -13,7 +13,8 @@ import json
 from typing import Any, Iterable
 from urllib.parse import quote
 
-from .render import all_findings, finding_summary, json_number, json_value, mode_data
+from .render import (all_findings, figure_data, finding_summary, json_number, json_value,
+                     mode_data)
 
 __all__ = ["render_sarif", "fingerprint", "SARIF_SCHEMA", "FINGERPRINT_KEY"]
 
@@ -91,6 +92,7 @@ def _result(f: Any, index: dict[str, int]) -> dict[str, Any]:
             "measured": json_value(f.measured), "threshold": json_value(f.threshold),
             "margin": json_number(f.margin), "unit": f.unit, "uncertain": bool(f.uncertain),
             "decidedBy": getattr(f, "decided_by", "") or None,
+            "figure": figure_data(getattr(f, "figure", None)),
             "modes": [mode_data(m) for m in f.modes],
             "before": [mode_data(m) for m in getattr(f, "before", ())],
         },

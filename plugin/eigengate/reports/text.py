@@ -7,6 +7,7 @@ from typing import TYPE_CHECKING, Iterable, Sequence
 
 from ..rules.findings import DECIDED_NOTES, UNCERTAIN_NOTE, Finding, ModeRow
 from .escape import printable as _p
+from .render import figure_line
 from .render import format_eigenvalue  # shared by every writer; re-exported
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -68,6 +69,9 @@ def finding_lines(f: Finding, discrete: bool, color: bool = False) -> list[str]:
     out = [head, f"        {_p(f.message)}"]
     if f.uncertain:
         out.append(f"        note: {UNCERTAIN_NOTE}")
+    figure = figure_line(getattr(f, "figure", None))
+    if figure:
+        out.append(f"        figure: {_p(figure)}")
     if getattr(f, "decided_by", ""):
         out.append(f"        decided: {f.decided_by} ({DECIDED_NOTES[f.decided_by]})")
     if f.suggestion:

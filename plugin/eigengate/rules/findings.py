@@ -7,7 +7,7 @@ loaded. Reports render findings; they never look at matrices or verdicts themsel
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Iterable, Protocol
+from typing import TYPE_CHECKING, Any, Iterable, Protocol
 
 if TYPE_CHECKING:  # pragma: no cover
     from ..errors import ModelError
@@ -92,6 +92,9 @@ class Finding:
     #: How the verdict was decided (``certified``, ``estimated``, ``uncertain``); empty for
     #: findings that come from no verdict (invalid models, waivers, regressions).
     decided_by: str = ""
+    #: The robustness figure behind the verdict (:class:`~eigengate.rules.catalogue.Figure`)
+    #: with its bracket, or None.
+    figure: Any = None
 
     @property
     def title(self) -> str:
@@ -120,7 +123,7 @@ def findings_of(model: "Model", verdicts: Iterable["Verdict"],
             message=v.message, requirement=v.requirement, measured=v.measured,
             threshold=v.threshold, margin=v.margin, unit=v.unit, uncertain=v.uncertain,
             modes=tuple(ModeRow.of(m) for m in v.offending), suggestion=v.suggestion,
-            decided_by=v.decided_by))
+            decided_by=v.decided_by, figure=v.figure))
     return out
 
 

@@ -119,6 +119,10 @@ _PARSERS: dict[str, Callable[..., Requirement | None]] = {
 from .loop_requirements import PARSERS as _LOOP_PARSERS  # noqa: E402
 
 _PARSERS.update(_LOOP_PARSERS)
+# Robustness keys (EG110-EG112), parsed where they are defined.
+from .robustness import PARSERS as _ROBUST_PARSERS  # noqa: E402
+
+_PARSERS.update(_ROBUST_PARSERS)
 
 #: Keys accepted under ``requirements:`` in a model file.
 REQUIREMENT_KEYS = tuple(_PARSERS)

@@ -43,6 +43,12 @@ class Requirement:
     def spec(self) -> str:  # pragma: no cover - overridden
         raise NotImplementedError
 
+    def unfit(self, model: Any) -> str | None:
+        """Why ``model`` cannot be judged by this requirement although it meets ``needs`` (a
+        structure of the wrong shape, say); None when it can. The loader refuses such a
+        requirement; :meth:`check` gives a failing "cannot be evaluated" verdict."""
+        return None
+
     def check(self, modes: Sequence[Mode], spectrum: Spectrum, on_uncertain: str) -> Verdict:
         raise NotImplementedError  # pragma: no cover
 

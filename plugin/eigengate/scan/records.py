@@ -15,6 +15,7 @@ import datetime as _dt
 import functools
 
 from ..rules import requirements as _requirements
+from ..rules.catalogue import Figure
 
 __all__ = ["record", "unrecord", "requirement_classes"]
 
@@ -23,6 +24,7 @@ __all__ = ["record", "unrecord", "requirement_classes"]
 def requirement_classes() -> dict[str, type]:
     """The requirement classes a cached model may hold, by class name."""
     from ..rules import loop_requirements as lr
+    from ..rules import robustness as rb
 
     r = _requirements
     return {c.__name__: c for c in (r.Stability, r.MinDecayRate, r.MinDamping, r.MaxFrequency,
@@ -30,17 +32,21 @@ def requirement_classes() -> dict[str, type]:
                                      r.DirectionCounts, lr.MinGainMargin, lr.MinPhaseMargin,
                                      lr.MinDelayMargin, lr.MaxSensitivityPeak, lr.MinDiskMargin,
                                      lr.NoSaddleInBox, lr.EquilibriumAt, lr.EquilibriumCount,
-                                     lr.EquilibriaStable)}
+                                     lr.EquilibriaStable, rb.MinStabilityRadius,
+                                     rb.MaxTransientGrowth, rb.MaxPseudospectralAbscissa)}
 
 
 #: Fields that need more than JSON's own types, per class: c complex, c? complex or None,
-#: d? date or None, t tuple, t2 tuple of tuples, skip (filled in by the caller).
+#: d? date or None, t tuple, t2 tuple of tuples, t2? that or None, f? a Figure or None,
+#: skip (filled in by the caller).
 _SPECIAL = {
     "ModeRow": {"eigenvalue": "c", "s": "c", "top_states": "t2"},
     "KnownMode": {"eigenvalue": "c?", "states": "t"},
     "Waiver": {"expires": "d?", "paths": "t"},
-    "Finding": {"modes": "skip", "before": "t"},  # before: () for every cached finding
-    "Verdict": {"offending": "skip"},
+    "Finding": {"modes": "skip", "before": "t", "figure": "f?"},  # before: () for every cached finding
+    "Verdict": {"offending": "skip", "figure": "f?"},
+    "Figure": {"at": "t", "notes": "t", "curve": "t2"},
+    "MinStabilityRadius": {"B": "t2?", "C": "t2?"},
 }
 
 
@@ -56,10 +62,18 @@ def _tuple2(v) -> tuple:
     return tuple(tuple(x) for x in v)
 
 
+def _tuple2_or_none(v) -> tuple | None:
+    return None if v is None else _tuple2(v)
+
+
+def _figure_or_none(v) -> Figure | None:
+    return None if v is None else unrecord(Figure, v)
+
+
 _SKIP = object()
 #: How each special kind is read back.
 _DECODE = {"c": _complex_or_none, "c?": _complex_or_none, "d?": _date_or_none, "t": tuple,
-           "t2": _tuple2, "skip": _SKIP}
+           "t2": _tuple2, "t2?": _tuple2_or_none, "f?": _figure_or_none, "skip": _SKIP}
 
 
 @functools.lru_cache(maxsize=None)
@@ -93,7 +107,11 @@ def record(obj) -> list:
             out.append(None if v is None else v.isoformat())
         elif k == "t":
             out.append(list(v))
-        else:  # t2
+        elif k == "f?":
+            out.append(None if v is None else record(v))
+        elif v is None:  # t2?
+            out.append(None)
+        else:  # t2, t2?
             out.append([list(x) for x in v])
     return out
 

@@ -31,7 +31,7 @@ from ..rules.waivers import Waiver
 
 __all__ = ["results_to_data", "results_from_data", "CachedSpectrum", "Blobs", "FORMAT"]
 
-FORMAT = 5
+FORMAT = 6
 
 
 class Blobs:
