@@ -266,6 +266,44 @@ _EXAMPLES = {
 }
 
 
+#: What a robustness figure means for a practitioner, and where it stops meaning it.
+_MEANING = {
+    "EG110": (
+        "what it means: the smallest perturbation of A (2-norm) that moves a pole onto the "
+        "stability boundary; a radius small against the size of A says the model is one small "
+        "modelling error from unstable, even when every pole sits well inside.",
+        "limits: it depends on the state coordinates (the same transfer function in another "
+        "realisation has another radius), so compare it across retunes of one model, not "
+        "across models; the complex radius allows complex Δ, which real plants never have, "
+        "so it is a lower bound of the real radius (real: true), whose frequency search is "
+        "sampled; structure {B, C} scales with B and C."),
+    "EG111": (
+        "what it means: the worst amplification of any initial state before it decays; a "
+        "peak of 100 means some disturbance grows a hundredfold first, which saturates "
+        "actuators or leaves the region the linearisation holds in, although every pole is "
+        "stable.",
+        "limits: it measures the 2-norm of the state in the model's own coordinates (scale "
+        "the states to meaningful units first); it says nothing about inputs, and it is "
+        "infinite for a model that is not asymptotically stable."),
+    "EG112": (
+        "what it means: how far right the poles can go under any perturbation of norm ε; "
+        "negative means every such perturbation leaves the model stable, and its gap to the "
+        "spectral abscissa shows how sensitive the poles are.",
+        "limits: ε is in the units of A's entries and the figure depends on the state "
+        "coordinates like the radius; the criss-cross iteration finds a local maximum "
+        "first, and the bracket's upper bound comes from a vertical line test that holds up "
+        "to the rounding of the Hamiltonian eigenvalues."),
+    "EG113": (
+        "what it means: the stated requirements hold for every parameter value in its "
+        "range, not only at the nominal one.",
+        "limits: one parameter is decided exactly; with several, only the vertices and "
+        "edges are exact and the inside of the box is sampled and locally optimised (the "
+        "finding says so), so a very narrow bad region inside the box can be missed."),
+}
+_MEANING.update({rid: _MEANING[base] for rid, base in (("EG211", "EG110"), ("EG212", "EG111"),
+                                                       ("EG213", "EG112"))})
+
+
 #: Keys of the repository policy alone (no model file has them).
 _POLICY_ONLY_KEYS = frozenset({"include"})
 
@@ -277,6 +315,8 @@ def explain_rule(rule: Rule) -> str:
         where = "policy key" if rule.key in _POLICY_ONLY_KEYS else "model-file key"
         lines.append(f"{where}: {rule.key}" + (f" (unit: {rule.unit})" if rule.unit else ""))
     warning = rule.severity == "warning"
+    for text in _MEANING.get(rule.id, ()):
+        lines += ["", text]
     lines += ["", "example:", *("  " + x for x in _EXAMPLES.get(rule.id, "").splitlines()), "",
               f"A failing rule is {'a warning' if warning else 'an error'} by default; "
               f"[tool.eigengate.severity] can make it {'an error' if warning else 'a warning'} "
