@@ -313,3 +313,31 @@ def test_requirement_records_survive_the_cache_format():
     assert unrecord(MinStabilityRadius, record(r)) == r
     g = MaxTransientGrowth(3.0)
     assert unrecord(MaxTransientGrowth, record(g)) == g
+
+
+# ------------------------------------------------------------------ the HTML report's pictures
+def test_html_report_draws_pseudospectra_and_the_transient_curve(tmp_path):
+    pytest.importorskip("matplotlib")
+    from eigengate.reports.html import render_html
+    from eigengate.reports.plots import PSEUDOSPECTRA_GID, pole_map_svg
+    from eigengate.reports.transient import LIMIT_GID, TRANSIENT_GID, transient_figure
+    from eigengate.reports.figures import _style, _svg_text
+    from eigengate.scan.engine import file_result
+
+    reqs = {"max_transient_growth": 2.0,
+            "max_pseudospectral_abscissa": {"epsilon": 0.01, "max": 0.0}}
+    r = analyse_model(_model([[-1.0, 10.0], [0.0, -2.0]], reqs))
+    svg = pole_map_svg(r)
+    assert f'id="{PSEUDOSPECTRA_GID}' in svg
+    with _style() as mpl:
+        curve_svg = _svg_text(transient_figure(r, mpl=mpl))
+    assert f'id="{TRANSIENT_GID}"' in curve_svg and f'id="{LIMIT_GID}"' in curve_svg
+    html = render_html([file_result("models/m.yaml", (r,), None)], tool_version="9.9.9")
+    assert "Transient growth: the largest amplification" in html
+    assert "Grey curves: the ε-pseudospectra" in html
+    assert html.count("<figure>") == 3  # pole map, phase portrait (two states), growth
+    # a model without these requirements draws neither
+    plain = analyse_model(_model([[-1.0, 10.0], [0.0, -2.0]], {"stable": True}))
+    assert PSEUDOSPECTRA_GID not in pole_map_svg(plain)
+    assert render_html([file_result("models/m.yaml", (r,), None)],
+                       tool_version="9.9.9") == html  # same bytes

@@ -183,7 +183,8 @@ def _region_caption(model: Any) -> str:
 
 def _figures(e: _Entry, mpl: Any, baseline: Sequence[complex] | None, dpi: int) -> list[str]:
     from .figures import _png_bytes
-    from .plots import marked_modes, pole_map_figure
+    from .plots import marked_modes, pole_map_figure, pseudospectral_grid
+    from .transient import growth_verdict, transient_figure
     from .portrait import can_draw_phase_portrait, phase_portrait_figure
 
     r = e.result
@@ -201,6 +202,9 @@ def _figures(e: _Entry, mpl: Any, baseline: Sequence[complex] | None, dpi: int) 
         caption += (" Hollow circles: baseline poles; arrows join each moved pole to the "
                     "nearest baseline pole (a drawing aid: the findings state which mode "
                     "became which).")
+    if pseudospectral_grid(r) is not None:
+        caption += (" Grey curves: the ε-pseudospectra for ε = 1e-4 … 1e-1, the regions the "
+                    "poles can reach under perturbations of A of norm ε.")
     png = _png_bytes(pole_map_figure(r, baseline_poles=baseline, mpl=mpl), dpi)
     out = ['<div class="eg-figs">', f"<figure>{_img(png, alt)}<figcaption>{_e(caption)}"
            "</figcaption></figure>"]
@@ -210,6 +214,16 @@ def _figures(e: _Entry, mpl: Any, baseline: Sequence[complex] | None, dpi: int) 
                "eigenvector directions of real eigenvalues (green stable, red unstable).")
         out.append(f"<figure>{_img(png, 'Phase portrait of ' + m.title)}<figcaption>{_e(cap)}"
                    "</figcaption></figure>")
+    growth = growth_verdict(r)
+    if growth is not None:
+        png = _png_bytes(transient_figure(r, mpl=mpl), dpi)
+        f = growth.figure
+        unit = "steps" if m.discrete else "s"
+        cap = (f"Transient growth: the largest amplification of any initial state over time; "
+               f"peak {f.value:.4g} (bracket [{f.lower:.4g}, {f.upper:.4g}]) at "
+               f"{f.at[0]:.4g} {unit}; dashed: the limit.")
+        out.append(f"<figure>{_img(png, 'Transient growth of ' + m.title)}<figcaption>"
+                   f"{_e(cap)}</figcaption></figure>")
     out.append("</div>")
     return out
 

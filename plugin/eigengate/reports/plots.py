@@ -21,7 +21,8 @@ if TYPE_CHECKING:  # pragma: no cover
 __all__ = ["ReportDependencyError", "AllowedRegion", "allowed_region", "pole_map_png",
            "pole_map_svg", "phase_portrait_png", "pole_map_figure", "phase_portrait_figure",
            "nearest_pairs", "marked_modes", "region_pieces", "can_draw_phase_portrait",
-           "POLE_GID", "BASELINE_GID", "ARROW_GID", "UNIT_CIRCLE_GID", "REGION_GID", "FIGSIZE"]
+           "POLE_GID", "BASELINE_GID", "ARROW_GID", "UNIT_CIRCLE_GID", "REGION_GID", "FIGSIZE",
+           "PSEUDOSPECTRA_GID", "pseudospectral_grid"]
 
 # Stable SVG ids: tests and PR-comment tooling can find the artists by them.
 POLE_GID = "eg-poles"
@@ -29,6 +30,18 @@ BASELINE_GID = "eg-baseline-poles"
 ARROW_GID = "eg-pole-move"
 UNIT_CIRCLE_GID = "eg-unit-circle"
 REGION_GID = "eg-allowed-region"
+PSEUDOSPECTRA_GID = "eg-pseudospectra"
+#: log10 ε of the pseudospectral level curves drawn around the poles.
+PSEUDO_LEVELS = (-4.0, -3.0, -2.0, -1.0)
+
+
+def pseudospectral_grid(result: Any) -> tuple | None:
+    """``(xs, ys, σ_min rows)`` of the model's pseudospectral-abscissa figure, or None."""
+    for v in result.verdicts:
+        f = v.figure
+        if f is not None and f.name == "pseudospectral_abscissa" and len(f.grid) > 2:
+            return f.grid[0], f.grid[1], f.grid[2:]
+    return None
 
 
 # -- the allowed region ----------------------------------------------------------------------
@@ -327,6 +340,7 @@ def pole_map_figure(result: "ModelResult", *, baseline_poles: Sequence[complex] 
     ax.grid(True, color=_GRID, linewidth=0.5, zorder=0)
     ax.set_axisbelow(True)
     handles: list[Any] = []  # legend entries: patches and lines
+    from matplotlib.lines import Line2D
 
     if region is not None:
         from matplotlib.patches import Patch, Polygon as PolygonPatch
@@ -371,6 +385,21 @@ def pole_map_figure(result: "ModelResult", *, baseline_poles: Sequence[complex] 
         plane = "s-plane"
     ax.set_title(f"{model.title} — poles, {plane}", color=_INK, loc="left")
 
+    # Pseudospectral level curves from the analysis's σ_min grid (EG112), under the poles.
+    grid = pseudospectral_grid(result)
+    if grid is not None:
+        import numpy as np
+
+        xs, ys, rows = grid
+        logs = np.log10(np.maximum(np.array(rows, dtype=float), 1e-300))
+        cs = ax.contour(np.array(xs), np.array(ys), logs, levels=list(PSEUDO_LEVELS),
+                        colors=[_MUTED], linewidths=0.6, linestyles="solid", zorder=2)
+        cs.set_gid(PSEUDOSPECTRA_GID)
+        ax.clabel(cs, fmt={lv: f"1e{int(lv)}" for lv in PSEUDO_LEVELS}, fontsize=5.5,
+                  inline=True)
+        handles.append(Line2D([], [], color=_MUTED, linewidth=0.6,
+                              label="ε-pseudospectra"))
+
     # Baseline poles and the moves, under the current poles.
     if base:
         bx = [b.real for b in base]
@@ -399,7 +428,6 @@ def pole_map_figure(result: "ModelResult", *, baseline_poles: Sequence[complex] 
     h = ax.scatter([p.real for p, _, _ in pts], [p.imag for p, _, _ in pts], s=size,
                    marker="D", c=face, edgecolors="white", linewidths=0.5, zorder=5)
     h.set_gid(POLE_GID)
-    from matplotlib.lines import Line2D
 
     handles.append(Line2D([], [], linestyle="none", marker="D", markersize=5,
                           markerfacecolor=_INK, markeredgecolor="white", label="pole"))

@@ -60,8 +60,10 @@ class Figure:
     ``pseudospectral_abscissa``); ``at`` is where the extreme value is attained (a frequency
     in rad/s, a time in s or a step count, a point of the complex plane as ``[re, im]``,
     parameter values), described by ``at_label``; ``method`` names the algorithm; ``notes``
-    lists what is proven and what is sampled. ``curve`` holds plot data the analysis made
-    (pairs of numbers), or is empty.
+    lists what is proven and what is sampled. ``curve`` and ``grid`` hold plot data the
+    analysis made, or are empty: ``curve`` pairs of numbers (``(t, ‖e^{At}‖)``), ``grid`` a
+    σ_min grid for pseudospectral level curves (first row the x values, second the y values,
+    then one row of σ_min(A − (x+iy)I) per y).
     """
 
     name: str
@@ -74,6 +76,7 @@ class Figure:
     method: str = ""
     notes: tuple[str, ...] = ()
     curve: tuple[tuple[float, float], ...] = ()
+    grid: tuple[tuple[float, ...], ...] = ()
 
 
 @dataclass(frozen=True)

@@ -143,7 +143,8 @@ class _RobustRequirement(Requirement):
             message += "; " + "; ".join(notes)
         fig = Figure(self.figure_name(), float(b.value), float(lo), float(hi), unit=unit,
                      at=tuple(float(x) for x in b.at), at_label=extra.get("at_label", ""),
-                     method=b.method, notes=notes, curve=extra.get("curve", ()))
+                     method=b.method, notes=notes, curve=extra.get("curve", ()),
+                     grid=extra.get("grid", ()))
         key = self.info.key
         return self._verdict(passed=passed, uncertain=uncertain, measured=float(b.value),
                              threshold=t, margin=margin if math.isfinite(margin) else None,
@@ -283,6 +284,31 @@ def _growth_curve(rb: Any, A: Any, model: Any, t_peak: float, spectrum: Any
     return tuple((float(x), float(y)) for x, y in zip(times, values))
 
 
+#: Points per side of the σ_min grid kept for the report's pseudospectral level curves, and
+#: the largest model it is computed for.
+GRID_POINTS = 56
+GRID_STATES = 30
+
+
+def _sigma_grid(rb: Any, model: Any, spectrum: Any) -> tuple[tuple[float, ...], ...]:
+    """σ_min(A − zI) on a box about the eigenvalues (z-plane for a discrete model), wide
+    enough for the level curves ε = 10⁻¹ … 10⁻⁴ near them."""
+    import numpy as np
+
+    zs = [complex(m.eigenvalue) for m in spectrum.modes if math.isfinite(abs(m.eigenvalue))]
+    if not zs:
+        return ()
+    re = [z.real for z in zs]
+    im = [abs(z.imag) for z in zs]
+    scale = max(max(abs(z) for z in zs), 1e-3)
+    pad = max(0.6 * (max(re) - min(re)), 0.6 * max(im), 0.3 * scale, 0.2)
+    xs = np.linspace(min(re) - pad, max(re) + pad, GRID_POINTS)
+    ys = np.linspace(-(max(im) + pad), max(im) + pad, GRID_POINTS)
+    values = rb.sigma_min_grid(np.asarray(model.A, dtype=float), xs, ys, E=model.E)
+    return (tuple(map(float, xs)), tuple(map(float, ys)),
+            *(tuple(map(float, row)) for row in values))
+
+
 @dataclass(frozen=True)
 class MaxPseudospectralAbscissa(_RobustRequirement):
     """ε-pseudospectral abscissa (discrete: radius) at most ``maximum``."""
@@ -320,7 +346,10 @@ class MaxPseudospectralAbscissa(_RobustRequirement):
         if len(b.at) == 2:
             where = f", at z = {_fmt(b.at[0])}{'+' if b.at[1] >= 0 else '−'}" \
                     f"{_fmt(abs(b.at[1]))}j"
-        return b, f" for ε = {_fmt(self.epsilon)}{where}", {"at_label": "z"}
+        extra: dict[str, Any] = {"at_label": "z"}
+        if model.n_states <= GRID_STATES:
+            extra["grid"] = _sigma_grid(rb, model, spectrum)
+        return b, f" for ε = {_fmt(self.epsilon)}{where}", extra
 
     def _judge(self, b, at_text, extra, model, on_uncertain):
         v = super()._judge(b, at_text, extra, model, on_uncertain)

@@ -45,7 +45,7 @@ _SPECIAL = {
     "Waiver": {"expires": "d?", "paths": "t"},
     "Finding": {"modes": "skip", "before": "t", "figure": "f?"},  # before: () for every cached finding
     "Verdict": {"offending": "skip", "figure": "f?"},
-    "Figure": {"at": "t", "notes": "t", "curve": "t2"},
+    "Figure": {"at": "t", "notes": "t", "curve": "t2", "grid": "t2"},
     "MinStabilityRadius": {"B": "t2?", "C": "t2?"},
 }
 
