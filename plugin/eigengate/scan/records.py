@@ -23,6 +23,7 @@ __all__ = ["record", "unrecord", "requirement_classes"]
 def requirement_classes() -> dict[str, type]:
     """The requirement classes a cached model may hold, by class name."""
     from ..rules import loop_requirements as lr
+    from ..rules.robust_range import RobustOverRange
 
     r = _requirements
     return {c.__name__: c for c in (r.Stability, r.MinDecayRate, r.MinDamping, r.MaxFrequency,
@@ -30,17 +31,19 @@ def requirement_classes() -> dict[str, type]:
                                      r.DirectionCounts, lr.MinGainMargin, lr.MinPhaseMargin,
                                      lr.MinDelayMargin, lr.MaxSensitivityPeak, lr.MinDiskMargin,
                                      lr.NoSaddleInBox, lr.EquilibriumAt, lr.EquilibriumCount,
-                                     lr.EquilibriaStable)}
+                                     lr.EquilibriaStable, RobustOverRange)}
 
 
 #: Fields that need more than JSON's own types, per class: c complex, c? complex or None,
-#: d? date or None, t tuple, t2 tuple of tuples, skip (filled in by the caller).
+#: d? date or None, t tuple, t2 tuple of tuples, skip (filled in by the caller), reqs nested
+#: requirements (as [class name, record]), fig? a Figure or None.
 _SPECIAL = {
     "ModeRow": {"eigenvalue": "c", "s": "c", "top_states": "t2"},
     "KnownMode": {"eigenvalue": "c?", "states": "t"},
     "Waiver": {"expires": "d?", "paths": "t"},
     "Finding": {"modes": "skip", "before": "t"},  # before: () for every cached finding
-    "Verdict": {"offending": "skip"},
+    "Verdict": {"offending": "skip", "figure": "fig?"},
+    "RobustOverRange": {"inner": "reqs"},
 }
 
 
@@ -57,9 +60,29 @@ def _tuple2(v) -> tuple:
 
 
 _SKIP = object()
+def _requirements_from(v) -> tuple:
+    classes = requirement_classes()
+    if type(v) is not list or not all(type(x) is list and len(x) == 2 and x[0] in classes
+                                      for x in v):
+        raise ValueError("inner requirements are not records of known classes")
+    return tuple(unrecord(classes[name], rec) for name, rec in v)
+
+
+def _figure_from(v):
+    if v is None:
+        return None
+    from ..rules.catalogue import Figure
+
+    out = unrecord(Figure, v)
+    for name in ("at", "notes"):
+        out.__dict__[name] = tuple(out.__dict__[name])
+    out.__dict__["curve"] = _tuple2(out.curve)
+    return out
+
+
 #: How each special kind is read back.
 _DECODE = {"c": _complex_or_none, "c?": _complex_or_none, "d?": _date_or_none, "t": tuple,
-           "t2": _tuple2, "skip": _SKIP}
+           "t2": _tuple2, "skip": _SKIP, "reqs": _requirements_from, "fig?": _figure_from}
 
 
 @functools.lru_cache(maxsize=None)
@@ -93,6 +116,11 @@ def record(obj) -> list:
             out.append(None if v is None else v.isoformat())
         elif k == "t":
             out.append(list(v))
+        elif k == "reqs":
+            out.append([[type(r).__name__, record(r)] for r in v])
+        elif k == "fig?":
+            out.append(None if v is None else
+                       [list(x) if isinstance(x, tuple) else x for x in record(v)])
         else:  # t2
             out.append([list(x) for x in v])
     return out
