@@ -26,6 +26,7 @@ CONTRACT = {
     "EG107": ("no-saddle", "no_saddle", ""),
     "EG108": ("direction-counts", "directions", ""),
     "EG109": ("known-modes", "known_modes", ""),
+    "EG113": ("robust-over-range", "robust", ""),
     "EG201": ("crossed-into-instability", "allowed_drift", "1/s"),
     "EG202": ("decay-rate-regressed", "allowed_drift", "1/s"),
     "EG203": ("damping-regressed", "allowed_drift", ""),
