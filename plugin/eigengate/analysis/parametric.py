@@ -53,6 +53,7 @@ from __future__ import annotations
 import functools
 import itertools
 import math
+import warnings
 from dataclasses import dataclass, field
 from typing import Callable, Sequence
 
@@ -240,25 +241,43 @@ def real_roots(coeffs: Sequence[np.ndarray]) -> np.ndarray | None:
     while len(coeffs) > 1 and np.abs(coeffs[-1]).max() <= 1e-14 * norm:
         coeffs.pop()
     size = coeffs[0].shape[0]
-    for t in (0.3183, -0.5772):  # a determinant that vanishes everywhere: no boundary test
-        value = sum(c * t ** k for k, c in enumerate(coeffs))
-        s = la.svdvals(value)
-        if s[-1] <= 1e-13 * max(s[0], 1e-300):
-            return None
+    # a determinant that vanishes everywhere gives no boundary: rank-revealing QR at a point
+    # (LU's pivots: an exactly singular matrix leaves one at the rounding level; a false
+    # alarm only sends the interval to sampling)
+    value = sum(c * 0.3183 ** k for k, c in enumerate(coeffs))
+    with warnings.catch_warnings():  # an exact zero pivot is answered below
+        warnings.simplefilter("ignore", la.LinAlgWarning)
+        lu = la.lu_factor(value, check_finite=False)
+    diag = np.abs(np.diag(lu[0]))
+    if diag.min() <= 1e-13 * max(float(diag.max()), 1e-300):
+        return None
     d = len(coeffs) - 1
     if d == 0:
         return np.zeros(0)
-    dtype = np.result_type(*coeffs)
-    x = np.eye(d * size, dtype=dtype)
-    x[:size, :size] = coeffs[d]
-    y = np.zeros((d * size, d * size), dtype=dtype)
-    for k in range(d):
-        y[:size, k * size:(k + 1) * size] = coeffs[d - 1 - k]
-    for k in range(1, d):
-        y[k * size:(k + 1) * size, (k - 1) * size:k * size] = -np.eye(size)
-    alpha, beta = la.eig(-y, x, right=False, homogeneous_eigvals=True)
-    finite = np.abs(beta) > 1e-14 * np.abs(alpha)
-    t = alpha[finite] / beta[finite]
+    if d == 1:  # G0 + t G1 = G(t0)(I + (t - t0) G(t0)⁻¹ G1): a standard eigenproblem
+        # G1 of one affine parameter is often of low rank: with G1 = Q R (pivoted QR, rank
+        # r), the nonzero eigenvalues of G(t0)⁻¹ G1 are those of R G(t0)⁻¹ Q (r × r)
+        t0 = 0.3183
+        q, rr, piv = la.qr(coeffs[1], mode="economic", pivoting=True)
+        dg = np.abs(np.diag(rr))
+        rank = int(np.sum(dg > 1e-14 * max(float(dg[0]), 1e-300)))
+        rows = np.zeros((rank, size), dtype=rr.dtype)
+        rows[:, piv] = rr[:rank]
+        mu = la.eigvals(rows @ la.lu_solve(lu, q[:, :rank], check_finite=False))
+        mu = mu[np.abs(mu) > 1e-14 * max(float(np.abs(mu).max(initial=0.0)), 1e-300)]
+        t = t0 - 1.0 / mu
+    else:
+        dtype = np.result_type(*coeffs)
+        x = np.eye(d * size, dtype=dtype)
+        x[:size, :size] = coeffs[d]
+        y = np.zeros((d * size, d * size), dtype=dtype)
+        for k in range(d):
+            y[:size, k * size:(k + 1) * size] = coeffs[d - 1 - k]
+        for k in range(1, d):
+            y[k * size:(k + 1) * size, (k - 1) * size:k * size] = -np.eye(size)
+        alpha, beta = la.eig(-y, x, right=False, homogeneous_eigvals=True)
+        finite = np.abs(beta) > 1e-14 * np.abs(alpha)
+        t = alpha[finite] / beta[finite]
     keep = (np.abs(t.imag) <= 1e-5 * np.maximum(1.0, np.abs(t))) \
         & (t.real >= -1 - 1e-9) & (t.real <= 1 + 1e-9)
     return np.unique(np.clip(t.real[keep], -1.0, 1.0))
@@ -414,7 +433,7 @@ def _exact(m: Callable[[float], float], stab: Callable[[float], float], lo: floa
     subs = list(zip(cuts[:-1], cuts[1:]))
     mids = [(m((a + b) / 2), a, b) for a, b in subs]
     cand += [(v, (a + b) / 2) for v, a, b in mids]
-    for v, a, b in sorted(mids)[:8]:  # the worst sub-intervals: search their minimum
+    for v, a, b in sorted(mids)[:3]:  # the worst sub-intervals: search their minimum
         cand.append(_minimise(m, a, b))
     if sample_unstable:
         for a, b in subs:
