@@ -525,3 +525,18 @@ def test_the_command_line_end_to_end_with_a_matrix_file(repo):
     effect.write_text("0,0,0\n", encoding="utf-8")  # the gain no longer varies
     third = run_cli("check", "models", cwd=repo)
     assert third.returncode == 0, third.stdout + third.stderr
+
+
+def test_the_documented_example_loads_and_finds_its_edge_boundaries(repo):
+    # docs/parameter-ranges.md: the loop above with k = mast_stiffness; on the edges k = 1.5
+    # and k = 2.5 the velocity-gain boundary d* = (k + 12)/1.5 − 0.5 − k is 7 and 20/3
+    # (Routh–Hurwitz, derived above); along d = 5 the loop is unstable throughout, along
+    # d = 8 stable throughout.
+    import re
+
+    text = (Path(__file__).parents[2] / "docs" / "parameter-ranges.md").read_text("utf-8")
+    body = re.findall(r"```yaml\n(.*?)```", text, re.S)[0]
+    _, v = robust_verdict(write(repo, "doc.yaml", body))
+    assert not v.passed and "4 vertices and 4 edges: exact" in v.message
+    assert "damper_gain=7, mast_stiffness=1.5" in v.message
+    assert "damper_gain=6.666666667, mast_stiffness=2.5" in v.message

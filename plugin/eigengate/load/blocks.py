@@ -26,14 +26,14 @@ def _names(block: Mapping[str, Any], key: str, ctx: _Ctx, path: str) -> list[str
 
 
 def _closed_loop(doc: Mapping[str, Any], ctx: _Ctx, parts: list[dict[str, Any]] | None = None
-                 ) -> tuple[Model, str, tuple, Any, list[str]]:
+                 ) -> tuple[Model, str, tuple[Any, Any, Any, Any], Any, list[str]]:
     """The plant block and, with a feedback block, the closed loop: (plant, structure,
     matrices (A, B, C, D), E, state names)."""
     if "plant" not in doc:
         raise ctx.err("plant", "is missing (neither the file nor this operating point gives it)")
     plant_block = _mapping(doc["plant"], ctx, "plant")
     plant, structure = _system(plant_block, ctx, "plant", plant=True)
-    matrices = (plant.A, plant.B, plant.C, plant.D)
+    matrices: tuple[Any, Any, Any, Any] = (plant.A, plant.B, plant.C, plant.D)
     e, states = plant.E, list(plant.states)
     if "feedback" in doc:
         feedback = _mapping(doc["feedback"], ctx, "feedback")

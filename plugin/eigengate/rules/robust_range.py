@@ -203,6 +203,7 @@ def _check(req: Requirement, period: float | None) -> "Check":
         return Check(over(freq), (Boundary("circle", omega),) if period is None else None)
     if isinstance(req, PoleRegion):
         a, z, w = req.alpha, req.zeta, req.omega
+        bounds: tuple[Boundary, ...] | None
         region = over(lambda lam: np.array([region_distance(complex(x), a, z, w)
                                             for x in s_of(lam)]))
         if period is not None:
