@@ -540,3 +540,18 @@ def test_the_documented_example_loads_and_finds_its_edge_boundaries(repo):
     assert not v.passed and "4 vertices and 4 edges: exact" in v.message
     assert "damper_gain=7, mast_stiffness=1.5" in v.message
     assert "damper_gain=6.666666667, mast_stiffness=2.5" in v.message
+
+
+def test_low_rank_factors_of_the_guardian_matrices():
+    # the bialternate sum and the Kronecker sum are linear in A, so a rank-2 A gives factors
+    # of width 2n and 4n that reproduce them (algebra; checked against the dense matrices)
+    from eigengate.analysis import guardians as g
+
+    rng = np.random.default_rng(3)
+    a = sum(np.outer(rng.normal(size=6), rng.normal(size=6)) for _ in range(2))
+    left, right = g.bialternate_sum_factor(a)
+    assert left.shape == (15, 12) and np.abs(left @ right - g.bialternate_sum(a)).max() < 1e-13
+    c = np.exp(0.3j)
+    left, right = g.kronecker_sum_factor(a, c)
+    dense = np.kron(c * a, np.eye(6)) + np.kron(np.eye(6), np.conj(c) * a)
+    assert left.shape == (36, 24) and np.abs(left @ right - dense).max() < 1e-13

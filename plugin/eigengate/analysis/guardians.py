@@ -33,7 +33,8 @@ from typing import Callable, Sequence
 
 import numpy as np
 
-__all__ = ["Boundary", "bialternate_sum", "bialternate_product", "guardians", "identify",
+__all__ = ["Boundary", "Guardian", "bialternate_sum_factor", "kronecker_sum_factor",
+           "bialternate_sum", "bialternate_product", "guardians", "identify",
            "real_roots", "DEGREES", "IDENTIFY_TOL"]
 
 #: Degrees tried, in turn, for the matrix polynomial of A(p) along an interval.
@@ -84,18 +85,70 @@ def bialternate_product(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     return (half(a, b) + half(b, a)) / 2
 
 
-def guardians(coeffs: Sequence[np.ndarray], boundary: Boundary) -> list[list[np.ndarray]]:
-    """Matrix polynomials (coefficient lists, lowest power first) whose determinants vanish
-    wherever an eigenvalue of ``A(t) = Σ t^k coeffs[k]`` lies on ``boundary``."""
+def _rank_terms(a: np.ndarray) -> list[tuple[np.ndarray, np.ndarray]]:
+    """``a = Σ u vᵀ`` from its SVD, singular values below 1e-15 of the largest dropped (they
+    move the guardian by less than its rounding)."""
+    u, sv, vt = np.linalg.svd(a)
+    keep = sv > 1e-15 * max(float(sv[0]), 1e-300) if sv.size else sv > 0
+    return [(u[:, r] * sv[r], vt[r]) for r in np.flatnonzero(keep)]
+
+
+def bialternate_sum_factor(a: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """``2A ⊙ I = L @ R`` of width n·rank(A): for ``A = u vᵀ`` the entries of the bialternate
+    sum regroup as ``Σ_m (u_i δjm − u_j δim)(v_k δml − v_l δmk)``."""
+    n = a.shape[0]
+    i, j = _pairs(n)
+    ls, rs = [], []
+    eye = np.eye(n)
+    for u, v in _rank_terms(a):
+        ls.append(u[i][:, None] * eye[j] - u[j][:, None] * eye[i])
+        rs.append((v[i][None, :] * eye[:, j] - v[j][None, :] * eye[:, i]))
+    if not ls:
+        m = len(i)
+        return np.zeros((m, 0)), np.zeros((0, m))
+    return np.hstack(ls), np.vstack(rs)
+
+
+def kronecker_sum_factor(a: np.ndarray, c: complex) -> tuple[np.ndarray, np.ndarray]:
+    """``cA ⊗ I + I ⊗ c̄A = L @ R`` of width 2n·rank(A)."""
+    n = a.shape[0]
+    eye = np.eye(n)
+    ls, rs = [], []
+    for u, v in _rank_terms(a):
+        ls += [np.kron(c * u[:, None], eye), np.kron(eye, c.conjugate() * u[:, None])]
+        rs += [np.kron(v[None, :], eye), np.kron(eye, v[None, :])]
+    if not ls:
+        return np.zeros((n * n, 0)), np.zeros((0, n * n))
+    return np.hstack(ls), np.vstack(rs)
+
+
+@dataclass(frozen=True)
+class Guardian:
+    """A matrix polynomial (coefficients, lowest power first) and, when it is of degree 1, a
+    low-rank factorisation of its degree-1 coefficient (which makes its roots cheap)."""
+
+    coeffs: tuple[np.ndarray, ...]
+    factor: "tuple[np.ndarray, np.ndarray] | None" = None
+
+
+def guardians(coeffs: Sequence[np.ndarray], boundary: Boundary) -> list[Guardian]:
+    """Matrix polynomials whose determinants vanish wherever an eigenvalue of
+    ``A(t) = Σ t^k coeffs[k]`` lies on ``boundary``."""
     n = coeffs[0].shape[0]
     eye = np.eye(n)
+    affine = len(coeffs) == 2
 
-    def shifted(shift: float) -> list[np.ndarray]:
-        return [c + shift * eye if k == 0 else c for k, c in enumerate(coeffs)]
+    def shifted(shift: float) -> Guardian:
+        a = tuple(c + shift * eye if k == 0 else c for k, c in enumerate(coeffs))
+        terms = _rank_terms(coeffs[1]) if affine else []
+        factor = (np.array([u for u, _ in terms]).T.reshape(n, -1),
+                  np.array([v for _, v in terms]).reshape(-1, n)) if affine else None
+        return Guardian(a, factor)
 
     if boundary.kind == "abscissa":
         a = shifted(boundary.value)
-        return [[bialternate_sum(c) for c in a], a]
+        return [Guardian(tuple(bialternate_sum(c) for c in a.coeffs),
+                         bialternate_sum_factor(coeffs[1]) if affine else None), a]
     if boundary.kind == "circle":
         r = boundary.value
         d = len(coeffs) - 1
@@ -103,11 +156,13 @@ def guardians(coeffs: Sequence[np.ndarray], boundary: Boundary) -> list[list[np.
         for j, k in itertools.product(range(d + 1), repeat=2):
             prod[j + k] = prod[j + k] + bialternate_product(coeffs[j], coeffs[k])
         prod[0] = prod[0] - r * r * np.eye(prod[0].shape[0])
-        return [prod, shifted(-r), shifted(r)]
+        return [Guardian(tuple(prod)), shifted(-r), shifted(r)]
     if boundary.kind == "sector":
         theta0 = math.acos(boundary.value)
         c = complex(math.cos(theta0 - math.pi / 2), math.sin(theta0 - math.pi / 2))
-        return [[np.kron(c * m, eye) + np.kron(eye, c.conjugate() * m) for m in coeffs]]
+        return [Guardian(tuple(np.kron(c * m, eye) + np.kron(eye, c.conjugate() * m)
+                               for m in coeffs),
+                         kronecker_sum_factor(coeffs[1], c) if affine else None)]
     raise ValueError(f"unknown boundary {boundary.kind!r}")
 
 
@@ -141,6 +196,7 @@ def identify(f: Callable[[float], np.ndarray]) -> list[np.ndarray] | None:
         top = deg
         while top > 0 and np.abs(mono[top]).max() <= 1e-13 * scale:
             top -= 1
+        mono[np.abs(mono) <= 1e-15 * scale] = 0.0  # interpolation noise: keeps zeros zero
         coeffs = [mono[k].reshape(shape) for k in range(top + 1)]
         if all(np.abs(sum(c * t ** k for k, c in enumerate(coeffs)) - v).max()
                <= IDENTIFY_TOL * max(scale, float(np.abs(v).max())) for t, v in checks.items()):
@@ -148,7 +204,8 @@ def identify(f: Callable[[float], np.ndarray]) -> list[np.ndarray] | None:
     return None
 
 
-def real_roots(coeffs: Sequence[np.ndarray]) -> np.ndarray | None:
+def real_roots(coeffs: Sequence[np.ndarray],
+               factor: "tuple[np.ndarray, np.ndarray] | None" = None) -> np.ndarray | None:
     """The real t in [−1, 1] (and near-real ones: a double root may come out slightly
     complex) where ``det Σ t^k coeffs[k]`` vanishes, as eigenvalues of the first companion
     pencil; None when the polynomial is singular (its determinant vanishes for every t)."""
@@ -173,15 +230,20 @@ def real_roots(coeffs: Sequence[np.ndarray]) -> np.ndarray | None:
     if d == 0:
         return np.zeros(0)
     if d == 1:  # G0 + t G1 = G(t0)(I + (t - t0) G(t0)⁻¹ G1): a standard eigenproblem
-        # G1 of one affine parameter is often of low rank: with G1 = Q R (pivoted QR, rank
-        # r), the nonzero eigenvalues of G(t0)⁻¹ G1 are those of R G(t0)⁻¹ Q (r × r)
+        # G1 = L R (low rank: one affine parameter) or sparse (S its nonzero columns, or
+        # rows): the nonzero eigenvalues of G(t0)⁻¹G1 are those of R G(t0)⁻¹ L, or of
+        # (G(t0)⁻¹G1[:, S])[S] (rows: (G1[S]·G(t0)⁻¹)[:, S]), smaller matrices
         t0 = 0.3183
-        q, rr, piv = la.qr(coeffs[1], mode="economic", pivoting=True)
-        dg = np.abs(np.diag(rr))
-        rank = int(np.sum(dg > 1e-14 * max(float(dg[0]), 1e-300)))
-        rows = np.zeros((rank, size), dtype=rr.dtype)
-        rows[:, piv] = rr[:rank]
-        mu = la.eigvals(rows @ la.lu_solve(lu, q[:, :rank], check_finite=False))
+        g1 = coeffs[1]
+        cols = np.flatnonzero(np.any(g1 != 0, axis=0))
+        rows = np.flatnonzero(np.any(g1 != 0, axis=1))
+        if factor is not None and factor[0].shape[1] < min(len(cols), len(rows)):
+            small = factor[1] @ la.lu_solve(lu, factor[0], check_finite=False)
+        elif len(cols) <= len(rows):
+            small = la.lu_solve(lu, g1[:, cols], check_finite=False)[cols]
+        else:
+            small = la.lu_solve(lu, g1[rows].T, trans=1, check_finite=False).T[:, rows]
+        mu = la.eigvals(small) if small.size else np.zeros(0)
         mu = mu[np.abs(mu) > 1e-14 * max(float(np.abs(mu).max(initial=0.0)), 1e-300)]
         t = t0 - 1.0 / mu
     else:

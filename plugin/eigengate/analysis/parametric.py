@@ -177,7 +177,7 @@ def sweep(ev: _Evaluator, line: _Line) -> list[_Interval]:
         if b not in roots_of:
             found: list[np.ndarray] = []
             for g in guardians(coeffs, b):  # type: ignore[arg-type]
-                r = real_roots(g)
+                r = real_roots(g.coeffs, g.factor)
                 if r is None:
                     roots_of[b] = None
                     return None
