@@ -555,3 +555,24 @@ def test_low_rank_factors_of_the_guardian_matrices():
     left, right = g.kronecker_sum_factor(a, c)
     dense = np.kron(c * a, np.eye(6)) + np.kron(np.eye(6), np.conj(c) * a)
     assert left.shape == (36, 24) and np.abs(left @ right - dense).max() < 1e-13
+
+
+def test_a_descriptor_model_is_sampled_and_its_crossing_found(repo):
+    # E x' = A x with E = diag(1, 0): the algebraic row gives x2 = x1, so x1' = (1 − p) x1,
+    # one finite eigenvalue 1 − p (algebra): unstable for p < 1.
+    path = write(repo, "desc.yaml", """\
+        model_format: 1
+        plant:
+          A: [[-1.5, 1], [1, -1]]
+          E: [[1, 0], [0, 0]]
+        parameters:
+          p: {nominal: 1.5, range: [0.5, 2.0], affects: {plant.A: [[-1, 0], [0, 0]]}}
+        requirements:
+          robust: {stable: true}
+        """)
+    model, v = robust_verdict(path)
+    assert model.parameters.descriptor
+    (worst,) = pm.search(model.parameters, [pm.Check(lambda lam: float(-lam.real.max()),
+                                                     (pm.Boundary("abscissa", 0.0),))]).worst
+    assert [abs(c[0] - 1.0) < 1e-12 for c in worst.crossings] == [True]
+    assert not v.passed and "sampled" in v.message and abs(v.figure.at[0] - 0.5) < 1e-9

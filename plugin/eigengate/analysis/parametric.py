@@ -117,8 +117,13 @@ class _Evaluator:
         a, e = self.box.build(p)
         if e is None:
             return np.linalg.eigvals(a)
-        w = la.eigvals(a, e)
-        return w[np.isfinite(w)]
+        # infinite eigenvalues as analysis.modes counts them apart
+        ab = la.eigvals(a, e, homogeneous_eigvals=True, check_finite=False)
+        tiny = 100.0 * a.shape[0] * np.finfo(float).eps
+        scale_a = max(float(np.linalg.norm(a, "fro")), 1e-300)
+        scale_e = max(float(np.linalg.norm(e, "fro")), 1e-300)
+        finite = np.abs(ab[1]) > tiny * scale_e * np.maximum(np.abs(ab[0]) / scale_a, 1.0)
+        return ab[0][finite] / ab[1][finite]
 
     def __call__(self, p: Sequence[float]) -> np.ndarray:
         key = tuple(float(v) for v in p)
