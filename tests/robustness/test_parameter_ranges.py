@@ -130,18 +130,22 @@ def test_the_nominal_values_rebuild_the_nominal_model(repo):
     assert a2[1, 1] == -2.0 and a2[2, 0] == -12.0  # A − B K, K = [12, 0, 0]
 
 
+#: m = 2, k = 8 (A = [[0, 1], [−k/m, −c/m]]), the damper c from the given low end to 5.
+OSCILLATOR = """\
+    model_format: 1
+    plant:
+      A: [[0, 1], [-4, -1.5]]
+    parameters:
+      damper: {nominal: 3.0, range: [%s, 5.0], affects: {plant.A: [[0, 0], [0, -0.5]]}}
+    requirements:
+      robust: {min_damping: 0.3}
+    """
+
+
 def test_a_damping_boundary_in_closed_form(repo):
     # m = 2, k = 8: ζ = c / (2√(mk)) = c/8 (second-order standard form), so ζ ≥ 0.3 needs
     # c ≥ 2.4; c in [1, 5]: worst at c = 1 with ζ = 0.125.
-    path = write(repo, "osc.yaml", """\
-        model_format: 1
-        plant:
-          A: [[0, 1], [-4, -1.5]]
-        parameters:
-          damper: {nominal: 3.0, range: [1.0, 5.0], affects: {plant.A: [[0, 0], [0, -0.5]]}}
-        requirements:
-          robust: {min_damping: 0.3}
-        """)
+    path = write(repo, "osc.yaml", OSCILLATOR % 1.0)
     model, v = robust_verdict(path)
     (worst,) = pm.search(model.parameters, [pm.Check(
         lambda lam: float(min(-lam.real / abs(lam)) - 0.3), (pm.Boundary("sector", 0.3),),
@@ -330,18 +334,11 @@ def test_two_parameters_worst_inside_the_box_is_sampled(repo):
 
 
 def test_operating_points_take_the_file_level_parameters(repo):
-    path = write(repo, "points.yaml", """\
-        model_format: 1
-        plant:
-          A: [[0, 1], [-4, -1.5]]
-        parameters:
-          damper: {nominal: 3.0, range: [2.5, 5.0], affects: {plant.A: [[0, 0], [0, -0.5]]}}
-        requirements:
-          robust: {min_damping: 0.3}
-        operating_points:
-          - {label: stiff, plant: {A: [[0, 1], [-4, -1.5]]}}
-          - {label: soft, plant: {A: [[0, 1], [-1, -1.5]]}}
-        """)
+    path = write(repo, "points.yaml", OSCILLATOR % 2.5 + """\
+    operating_points:
+      - {label: stiff, plant: {A: [[0, 1], [-4, -1.5]]}}
+      - {label: soft, plant: {A: [[0, 1], [-1, -1.5]]}}
+    """)
     stiff, soft = load_models(path)
     assert stiff.parameters.names == soft.parameters.names == ("damper",)
     assert soft.parameters.build((3.0,))[0][1, 0] == -1.0
