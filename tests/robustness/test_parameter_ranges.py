@@ -139,7 +139,7 @@ OSCILLATOR = """\
       damper: {nominal: 3.0, range: [%s, 5.0], affects: {plant.A: [[0, 0], [0, -0.5]]}}
     requirements:
       robust: {min_damping: 0.3}
-    """
+"""
 
 
 def test_a_damping_boundary_in_closed_form(repo):
