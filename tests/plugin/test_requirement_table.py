@@ -5,7 +5,8 @@ ignored.
 The keys come from the parser (``REQUIREMENT_KEYS``) and the rule catalogue, so a new key
 fails ``test_every_key_has_a_sample`` until it has a row here. Which cells are evaluated is
 stated from the rule families of the catalogue (``rules.py``: margins EG30x need a feedback
-loop, equilibria EG40x a vector field), not from the code under test.
+loop, equilibria EG40x a vector field, EG113 declared parameters), not from the code under
+test.
 
 Subjects (outside sources beside each):
 
@@ -82,6 +83,8 @@ SAMPLES: dict[str, Sample] = {
     "max_transient_growth": Sample(1.0, 1e6),
     "max_pseudospectral_abscissa": Sample({"epsilon": 0.01, "max": -10.0},
                                           {"epsilon": 1e-6, "max": 10.0}),
+    # needs declared parameters, which no subject here has: refused in every cell
+    "robust": Sample({"stable": True}, {"stable": True}),
 }
 
 #: The input kinds that provide a loop, a vector field, or neither.
@@ -93,6 +96,8 @@ ENGINE_SUBJECTS = ("plain", "loop", "vf")
 
 def family(key: str) -> str:
     rid = rule_by_key(key).id
+    if rid == "EG113":  # robust-over-range: needs a parameters block
+        return "parameters"
     return {"EG3": "loop", "EG4": "vf"}.get(rid[:3], "any")
 
 

@@ -7,7 +7,8 @@ from typing import Any, Mapping
 
 from ..model.formats import suggest
 from .context import (CONTROLLER_SS_KEYS, CONTROLLER_TF_KEYS, FEEDBACK_KEYS, FEEDBACK_KINDS,
-                     SS_KEYS, TF_KEYS, _check_keys, _Ctx, _mapping, _requirements)
+                     SS_KEYS, TF_KEYS, _check_keys, _Ctx, _mapping, _matrix, _requirements)
+from .parameters import parse_parameters
 from ..model.core import Model, as_matrix, from_arrays
 
 _STRUCTURE = {"state_gain": "closed loop: state feedback",
@@ -24,27 +25,16 @@ def _names(block: Mapping[str, Any], key: str, ctx: _Ctx, path: str) -> list[str
     return value
 
 
-def _matrix(value: Any, ctx: _Ctx, path: str) -> Any:
-    """Inline value as is (from_arrays converts it); a file reference loaded and checked."""
-    from ..model.matrixfiles import is_reference, load_reference
-
-    if value is None or not is_reference(value):
-        return value
-    arr, rel = load_reference(value, source=ctx.source, field=ctx.prefix + path,
-                              line=ctx.line(path), base_dir=ctx.base_dir, root=ctx.root,
-                              read=ctx.read)
-    ctx.refs.append(rel)
-    return as_matrix(arr, ctx.source, ctx.prefix + path, line=ctx.line(path))
-
-
-def build_model(doc: Mapping[str, Any], ctx: _Ctx, name: str, label: str | None) -> Model:
+def _closed_loop(doc: Mapping[str, Any], ctx: _Ctx, parts: list[dict[str, Any]] | None = None
+                 ) -> tuple[Model, str, tuple[Any, Any, Any, Any], Any, list[str]]:
+    """The plant block and, with a feedback block, the closed loop: (plant, structure,
+    matrices (A, B, C, D), E, state names)."""
     if "plant" not in doc:
         raise ctx.err("plant", "is missing (neither the file nor this operating point gives it)")
     plant_block = _mapping(doc["plant"], ctx, "plant")
     plant, structure = _system(plant_block, ctx, "plant", plant=True)
-    matrices = (plant.A, plant.B, plant.C, plant.D)
+    matrices: tuple[Any, Any, Any, Any] = (plant.A, plant.B, plant.C, plant.D)
     e, states = plant.E, list(plant.states)
-    parts: list[dict[str, Any]] = []  # plant and controller, for loop margins
     if "feedback" in doc:
         feedback = _mapping(doc["feedback"], ctx, "feedback")
         kind, matrices, extra_states = _feedback(feedback, plant, ctx, parts)
@@ -56,6 +46,18 @@ def build_model(doc: Mapping[str, Any], ctx: _Ctx, name: str, label: str | None)
             nc = len(extra_states)  # descriptor plant: controller states are ordinary states
             e = np.block([[e, np.zeros((e.shape[0], nc))],
                           [np.zeros((nc, e.shape[1])), np.eye(nc)]])
+    return plant, structure, matrices, e, states
+
+
+def _loop_matrices(doc: Mapping[str, Any], ctx: _Ctx) -> tuple[Any, Any]:
+    """(A, E) of the closed loop of ``doc``: what a parameter box forms at other values."""
+    _, _, matrices, e, _ = _closed_loop(doc, ctx)
+    return matrices[0], e
+
+
+def build_model(doc: Mapping[str, Any], ctx: _Ctx, name: str, label: str | None) -> Model:
+    parts: list[dict[str, Any]] = []  # plant and controller, for loop margins
+    plant, structure, matrices, e, states = _closed_loop(doc, ctx, parts)
     requirements, disabled, known_modes = _requirements(doc, ctx, states)
     on_uncertain = doc.get("on_uncertain")
     if on_uncertain not in (None, "fail", "pass"):
@@ -78,19 +80,29 @@ def build_model(doc: Mapping[str, Any], ctx: _Ctx, name: str, label: str | None)
         from ..baseline.regressions import parse_tolerances
 
         parse_tolerances(drift, ctx.source, ctx.prefix + "allowed_drift.", ctx.prefixed_lines())
+    box = None
+    if "parameters" in doc:
+        box = parse_parameters(doc, ctx, model, _loop_matrices)
+        if known_modes and any(r.rule == "EG113" for r in requirements):
+            raise ctx.err("requirements.robust", "is not evaluated on a model with known_modes "
+                          "(they are matched at the nominal values only)",
+                          "remove known_modes, or check the range without robust")
     return dataclasses.replace(model, lines=dict(ctx.lines), loop_parts=_loop(doc, ctx, parts,
-                                                                              requirements),
-                               allowed_drift=drift, require=require)
+                                                                              requirements,
+                                                                              box is not None),
+                               allowed_drift=drift, require=require, parameters=box)
 
 
 def _loop(doc: Mapping[str, Any], ctx: _Ctx, parts: list[dict[str, Any]],
-          requirements: tuple) -> Any:
+          requirements: tuple, parameters: bool = False) -> Any:
     """LoopParts of a closed loop (with the ``loop:`` block applied), or None without one."""
     from ..rules.applicability import refuse_unmet
     from ..rules.loop_requirements import parse_loop_block
 
-    # a plant model provides a loop (with feedback) and nothing else: the rest is refused
-    refuse_unmet(requirements, ("loop",) if parts else (), ctx.err)
+    # a linear model provides a loop (with feedback), parameters (with a parameters block)
+    # and nothing else: the rest is refused
+    refuse_unmet(requirements, ("loop",) * bool(parts) + ("parameters",) * parameters,
+                 ctx.err)
     if not parts:
         if "loop" in doc:
             raise ctx.err("loop", "needs a closed loop, but the model has no feedback block",

@@ -10,6 +10,7 @@ from pathlib import Path
 from typing import Any, Callable, Mapping
 
 from ..model.formats import suggest
+from ..model.core import as_matrix
 from ..errors import ModelError
 
 #: Versions of ``model_format`` this loader reads.
@@ -17,7 +18,7 @@ FORMAT_VERSIONS = (1,)
 TOP_KEYS = ("model_format", "name", "description", "domain", "sample_period", "plant",
             "feedback", "requirements", "known_modes", "on_uncertain", "require",
             "operating_points",
-            "waivers", "loop", "vector_field", "allowed_drift")
+            "waivers", "loop", "vector_field", "allowed_drift", "parameters")
 POINT_KEYS = ("label", "id", "plant", "feedback", "requirements", "known_modes", "on_uncertain",
               "require", "loop", "allowed_drift")
 SS_KEYS = ("A", "B", "C", "D", "E", "states", "inputs", "outputs")
@@ -72,6 +73,19 @@ def _check_keys(block: Mapping[str, Any], allowed: tuple[str, ...], ctx: _Ctx, p
             raise ctx.err(where, f"is not a field of {what}",
                           f"did you mean {close!r}?" if close
                           else "known fields: " + ", ".join(allowed))
+
+
+def _matrix(value: Any, ctx: _Ctx, path: str) -> Any:
+    """Inline value as is (from_arrays converts it); a file reference loaded and checked."""
+    from ..model.matrixfiles import is_reference, load_reference
+
+    if value is None or not is_reference(value):
+        return value
+    arr, rel = load_reference(value, source=ctx.source, field=ctx.prefix + path,
+                              line=ctx.line(path), base_dir=ctx.base_dir, root=ctx.root,
+                              read=ctx.read)
+    ctx.refs.append(rel)
+    return as_matrix(arr, ctx.source, ctx.prefix + path, line=ctx.line(path))
 
 
 def _mapping(value: Any, ctx: _Ctx, path: str) -> dict[str, Any]:

@@ -107,6 +107,10 @@ def load_vector_field(data: Mapping[str, Any], ctx: Any, name: str,
     for r in [r for r in top if r.rule in LOOP_RULES][:1]:
         raise ctx.err(f"requirements.{r.info.key}", "asks for a loop margin, but a vector field "
                       "has no loop", _NO_LOOP)
+    for r in [r for r in top if r.needs == "parameters"][:1]:
+        raise ctx.err(f"requirements.{r.info.key}", "needs declared parameter ranges, which "
+                      "a vector field model has none of", "parameter ranges are declared on "
+                      "a linear model (plant and a parameters block): remove the requirement")
     points = block.get("at")
     if points is None and box is None:
         raise ctx.err("vector_field", "needs at (operating points) or equilibria (a box to "

@@ -190,6 +190,10 @@ def _load(data: dict[str, Any], *, source: str, root: Path | None, base_dir: Pat
                       f"did you mean {close!r}?" if close else None)
     ctx.domain = domain
     ctx.sample_period = _sample_period(data, domain, ctx, "sample_period")
+    if "vector_field" in data and "parameters" in data:
+        raise ctx.err("parameters", "is not used with a vector_field (a nonlinear model has "
+                      "its own parameters, under vector_field)",
+                      "declare parameter ranges on a linear model (plant and feedback)")
     if "vector_field" in data:  # a nonlinear model: linearised by eigengate.analysis.nonlinear
         from .fields import load_vector_field
 

@@ -45,7 +45,8 @@ class Model:
     the model switches off (``stable: false``) so a repository default does not apply to it;
     ``on_uncertain`` is None when the model leaves it to the repository policy, and so is
     ``require`` (``"certified"``: a verdict only estimated counts as uncertain).
-    ``loop_parts`` and ``nonlinear`` carry what margin and equilibrium requirements need.
+    ``loop_parts``, ``nonlinear`` and ``parameters`` carry what margin, equilibrium and
+    parameter-range requirements need.
     """
 
     name: str
@@ -78,6 +79,11 @@ class Model:
     #: the point's ``id``, else its position (``#2``), with the sweep position in front for a
     #: swept vector field (``@1,0/#0``); None for a file of one model. See docs/baselines.md.
     point_id: str | None = None
+    #: The declared uncertain parameters (:class:`eigengate.analysis.parametric.ParameterBox`:
+    #: names, nominal values, ranges and a way to form the matrices at other values); None
+    #: without a ``parameters`` block. Not stored in the result cache (a cached result is
+    #: never analysed again).
+    parameters: Any = None
 
     @property
     def discrete(self) -> bool:

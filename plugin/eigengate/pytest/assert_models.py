@@ -225,6 +225,9 @@ def refusal(key: str, why: str, need: str, built: Built, stated_by: str) -> str:
             "model file whose feedback block closes the loop")
     elif need in NEEDS and built.kind == "file":
         fix = NEEDS[need][1] + " in the model file"
+    elif need == "parameters":
+        fix = "a parameter range is declared in a model file: check a model file with a " \
+              "parameters block"
     elif need in NEEDS:
         fix = "equilibrium requirements need a nonlinear model: check a model file with a " \
               "vector_field block"

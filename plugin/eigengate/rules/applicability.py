@@ -1,7 +1,7 @@
 """Which requirements a model can be judged by: the one place that says so.
 
 Eigenvalue requirements apply to every model. Margin requirements need a feedback loop to
-break (``model.loop_parts``); equilibrium requirements need a vector field
+break (``model.loop_parts``); ``robust`` needs declared parameters (``model.parameters``); equilibrium requirements need a vector field
 (``model.nonlinear``), and those about the set of equilibria also need its search box. Each
 requirement class names what it needs in ``needs``; :func:`provided` says what a model has.
 
@@ -51,6 +51,9 @@ NEEDS: dict[str, tuple[str, str]] = {
                      "describe the model with a vector_field block"),
     "equilibria box": ("needs the box of equilibria to search, but the model declares none",
                        "add vector_field.equilibria: {box: {...}}"),
+    "parameters": ("needs uncertain parameters to range over, but the model declares none "
+                   "(no parameters block)",
+                   "add a parameters block (each parameter with nominal, range and affects)"),
 }
 
 
@@ -59,6 +62,8 @@ def provided(model: "Model") -> frozenset[str]:
     out = set()
     if getattr(model, "loop_parts", None) is not None:
         out.add("loop")
+    if getattr(model, "parameters", None) is not None:
+        out.add("parameters")
     info = getattr(model, "nonlinear", None)
     if info is not None:
         out.add("vector field")

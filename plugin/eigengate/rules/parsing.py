@@ -124,6 +124,41 @@ from .robustness import PARSERS as _ROBUST_PARSERS  # noqa: E402
 
 _PARSERS.update(_ROBUST_PARSERS)
 
+
+def _robust(value, source, fld, line):
+    """``robust: {stable: true, min_damping: 0.2, samples: 9}``: eigenvalue requirements over
+    the declared parameter ranges (EG113)."""
+    from .robust_range import INNER_KEYS, RobustOverRange
+
+    value = _mapping(value, source, fld, line)
+    inner, samples = [], None
+    for k, v in value.items():
+        where = f"{fld}.{k}"
+        if k == "samples":
+            if isinstance(v, bool) or not isinstance(v, int) or not 2 <= v <= 101:
+                raise ModelError(source, where, f"must be a whole number from 2 to 101 (grid "
+                                 f"points per parameter inside the box), got {v!r}", line=line)
+            samples = v
+        elif k in INNER_KEYS:
+            req = _PARSERS[k](v, source, where, line)
+            if req is not None:
+                inner.append(req)
+        elif k in _PARSERS:
+            raise ModelError(source, where, f"is not evaluated over a parameter range (got "
+                             f"{k!r}); robust takes the eigenvalue requirements "
+                             + ", ".join(INNER_KEYS), line=line,
+                             hint=f"put {k} under requirements: (it is checked at the nominal "
+                             "values)")
+        else:
+            raise _unknown(str(k), (*INNER_KEYS, "samples"), source, where, line)
+    if not inner:
+        raise ModelError(source, fld, "must set at least one of " + ", ".join(INNER_KEYS)
+                         + f", got {dict(value)!r:.60}", line=line)
+    return RobustOverRange(tuple(sorted(inner, key=lambda r: r.rule)), samples)
+
+
+_PARSERS["robust"] = _robust
+
 #: Keys accepted under ``requirements:`` in a model file.
 REQUIREMENT_KEYS = tuple(_PARSERS)
 

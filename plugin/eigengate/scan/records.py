@@ -25,6 +25,7 @@ def requirement_classes() -> dict[str, type]:
     """The requirement classes a cached model may hold, by class name."""
     from ..rules import loop_requirements as lr
     from ..rules import robustness as rb
+    from ..rules.robust_range import RobustOverRange
 
     r = _requirements
     return {c.__name__: c for c in (r.Stability, r.MinDecayRate, r.MinDamping, r.MaxFrequency,
@@ -33,12 +34,13 @@ def requirement_classes() -> dict[str, type]:
                                      lr.MinDelayMargin, lr.MaxSensitivityPeak, lr.MinDiskMargin,
                                      lr.NoSaddleInBox, lr.EquilibriumAt, lr.EquilibriumCount,
                                      lr.EquilibriaStable, rb.MinStabilityRadius,
-                                     rb.MaxTransientGrowth, rb.MaxPseudospectralAbscissa)}
+                                     rb.MaxTransientGrowth, rb.MaxPseudospectralAbscissa,
+                                     RobustOverRange)}
 
 
 #: Fields that need more than JSON's own types, per class: c complex, c? complex or None,
 #: d? date or None, t tuple, t2 tuple of tuples, t2? that or None, f? a Figure or None,
-#: skip (filled in by the caller).
+#: reqs nested requirements (as [class name, record]), skip (filled in by the caller).
 _SPECIAL = {
     "ModeRow": {"eigenvalue": "c", "s": "c", "top_states": "t2"},
     "KnownMode": {"eigenvalue": "c?", "states": "t"},
@@ -47,6 +49,7 @@ _SPECIAL = {
     "Verdict": {"offending": "skip", "figure": "f?"},
     "Figure": {"at": "t", "notes": "t", "curve": "t2", "grid": "t2"},
     "MinStabilityRadius": {"B": "t2?", "C": "t2?"},
+    "RobustOverRange": {"inner": "reqs"},
 }
 
 
@@ -70,10 +73,19 @@ def _figure_or_none(v) -> Figure | None:
     return None if v is None else unrecord(Figure, v)
 
 
+def _requirements_from(v) -> tuple:
+    classes = requirement_classes()
+    if type(v) is not list or not all(type(x) is list and len(x) == 2 and x[0] in classes
+                                      for x in v):
+        raise ValueError("inner requirements are not records of known classes")
+    return tuple(unrecord(classes[name], rec) for name, rec in v)
+
+
 _SKIP = object()
 #: How each special kind is read back.
 _DECODE = {"c": _complex_or_none, "c?": _complex_or_none, "d?": _date_or_none, "t": tuple,
-           "t2": _tuple2, "t2?": _tuple2_or_none, "f?": _figure_or_none, "skip": _SKIP}
+           "t2": _tuple2, "t2?": _tuple2_or_none, "f?": _figure_or_none, "reqs": _requirements_from,
+           "skip": _SKIP}
 
 
 @functools.lru_cache(maxsize=None)
@@ -109,6 +121,8 @@ def record(obj) -> list:
             out.append(list(v))
         elif k == "f?":
             out.append(None if v is None else record(v))
+        elif k == "reqs":
+            out.append([[type(r).__name__, record(r)] for r in v])
         elif v is None:  # t2?
             out.append(None)
         else:  # t2, t2?
