@@ -211,12 +211,12 @@ class MinStabilityRadius(_RobustRequirement):
             return f"structure.C has {s} columns, but the model has {n} states"
         return None
 
-    def _measure(self, model, spectrum):
+    def _measure(self, model: Any, spectrum: Any) -> tuple[Any, str, Mapping[str, Any]]:
         import numpy as np
 
         from ..analysis import robustness as rb
 
-        kw: dict[str, Any] = _arrays(model)
+        kw = _arrays(model)
         if self.B is not None:
             kw.update(B=np.array(self.B, dtype=float), C=np.array(self.C, dtype=float))
         f = rb.real_stability_radius if self.real else rb.stability_radius
@@ -245,7 +245,7 @@ class MaxTransientGrowth(_RobustRequirement):
     def _unstable_value(self) -> float:
         return math.inf
 
-    def _measure(self, model, spectrum):
+    def _measure(self, model: Any, spectrum: Any) -> tuple[Any, str, Mapping[str, Any]]:
         import numpy as np
 
         from ..analysis import robustness as rb
@@ -335,7 +335,7 @@ class MaxPseudospectralAbscissa(_RobustRequirement):
     def _unstable_value(self) -> float:
         return math.inf
 
-    def _measure(self, model, spectrum):
+    def _measure(self, model: Any, spectrum: Any) -> tuple[Any, str, Mapping[str, Any]]:
         import numpy as np
 
         from ..analysis import robustness as rb
