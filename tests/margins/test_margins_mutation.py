@@ -288,3 +288,41 @@ def test_a_given_range_is_used_by_the_margins():
     loop, _ = tf_lt([2.0], [1.0, -1.0])
     m = siso_margins(loop, (0.01, 1.0))
     assert m.gain_crossovers == () and m.phase_margin == math.inf
+
+
+def _slow_integrators():
+    # (num, den, T, crossover, phase margin in degrees), each solved by hand:
+    # k/s: |L| = k/ω = 1 at ω = k, ∠L = −90°;
+    # k/(s(s + 1)): k/(ω·√(1 + ω²)) = 1, ω² = 2k²/(1 + √(1 + 4k²)), PM = 90° − atan ω;
+    # kT/(z − 1): |L| = kT/(2·sin(ωT/2)) = 1, ω = (2/T)·asin(kT/2), PM = 90° − ωT/2
+    k2 = 1e-4
+    w2 = math.sqrt(2 * k2 * k2 / (1 + math.sqrt(1 + 4 * k2 * k2)))
+    T, k3 = 0.1, 5e-4
+    w3 = 2 / T * math.asin(k3 * T / 2)
+    return [([5e-4], [1.0, 0.0], None, 5e-4, 90.0),
+            ([k2], [1.0, 1.0, 0.0], None, w2, 90.0 - math.degrees(math.atan(w2))),
+            ([k3 * T], [1.0, -1.0], T, w3, 90.0 - math.degrees(w3 * T / 2))]
+
+
+@pytest.mark.parametrize("num, den, dt, wc, want_pm", _slow_integrators())
+def test_integrating_loop_crossing_below_the_default_grid(num, den, dt, wc, want_pm):
+    # A slow integral loop: |L| falls with ω and is below 1 at the default lower end
+    # (1e-3·ωn, or 1e-3 rad/s without modes), so the crossover lies below it. Found missing
+    # (PM reported as ∞: a silent pass of any phase-margin requirement).
+    loop, sys = tf_lt(num, den, dt)
+    m = siso_margins(loop)
+    assert m.gain_crossovers == pytest.approx((wc,), rel=1e-10)
+    assert m.phase_margin == pytest.approx(want_pm, abs=1e-8)
+    if dt is None:  # (python-control falls back to a coarse grid for discrete loops)
+        _gm, pm, _sm, _wpc, wgc, _ws = control.stability_margins(sys)
+        assert m.phase_margin == pytest.approx(pm, abs=1e-6)  # python-control
+        assert m.phase_margin_frequency == pytest.approx(wgc, rel=1e-8)
+    assert m.delay_margin == pytest.approx(math.radians(want_pm) / wc, rel=1e-9)
+
+
+def test_flat_low_end_below_one_is_not_widened():
+    # L = −0.5/(s + 1) is flat at the low end (|L| → 0.5): no crossover can lie below, the
+    # grid keeps its default lower end 1e-3 rad/s (three decades below the pole, by hand)
+    loop, _ = tf_lt([-0.5], [1.0, 1.0])
+    w, _h = _grid(loop, Resolvent(loop), None)
+    assert w[0] == pytest.approx(1e-3, rel=1e-12)
