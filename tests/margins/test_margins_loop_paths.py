@@ -309,3 +309,62 @@ def test_disk_gain_range_at_and_beyond_two():
     assert (lo, hi) == (pytest.approx(1 / 3), pytest.approx(3.0))
     assert Resolvent(LoopTransfer(-np.eye(1), np.eye(1), np.eye(1), Z((1, 1)), None, None,
                                   ("u",))).scalar(0.0) == pytest.approx(1.0)
+
+
+def test_multiloop_with_an_integrator_skips_the_pole_at_zero():
+    # L = U·diag(0.5/(s(s + 1)), 2/(s + 1))·Uᵀ: L(0) is infinite (the integrator), so ω = 0 is
+    # no candidate (the peaks lie inside the band;
+    # closed loops s² + s + 0.5 and s + 3: stable, Routh). Reference: the decoupled loops on
+    # a dense grid (python-control), refined by scipy's bounded search
+    l1 = control.tf([0.5], [1.0, 1.0, 0.0])
+    l2 = control.tf([2.0], [1.0, 1.0])
+    m = loop_margins(parts_of(rotated(l1, l2), static_identity()))
+
+    def s(x):
+        return max(abs(1 / (1 + complex(np.asarray(g(1j * x)).reshape(-1)[0]))) for g in (l1, l2))
+
+    want, where = refined_peak(s, np.geomspace(1e-2, 1e2, 2001))
+    assert m.sensitivity_peak == pytest.approx(want, rel=1e-9)
+    assert m.sensitivity_peak_frequency == pytest.approx(where, rel=1e-4)
+    assert math.isfinite(m.disk_margin) and 0 < m.disk_margin_frequency < math.inf
+
+
+def test_resolvent_pole_guard_at_its_threshold():
+    # the response is NaN where a diagonal entry of (λI − T) is at most 1e-14·max(1, |T_ii|)
+    # (a pole on the axis), and finite just above: A = [[−a]], L(0) = 1/a (by hand)
+    def at_zero(*poles):
+        a = np.diag([-p for p in poles])
+        return Resolvent(LoopTransfer(a, np.ones((len(poles), 1)), np.ones((1, len(poles))),
+                                      Z((1, 1)), None, None, ("u",))).scalar(0.0)
+    assert math.isnan(at_zero(1e-14).real)
+    assert at_zero(1.5e-14) == pytest.approx(1 / 1.5e-14 + 0j, rel=1e-12)
+    # relative to the largest |T_ii|: with a pole at −1e3 the guard is 1e-11
+    assert math.isnan(at_zero(1e3, 1e-11).real)
+    assert at_zero(1e3, 1.5e-11) == pytest.approx(1 / 1.5e-11 + 1e-3, rel=1e-12)
+    # below 1 the guard stays 1e-14 (max with 1)
+    assert at_zero(0.5, 1.5e-14) == pytest.approx(1 / 1.5e-14 + 2.0, rel=1e-12)
+
+
+def test_unstable_poles_of_a_descriptor_loop_use_its_e():
+    # (A, E) with A = [[0.1, 1], [−1, −1]], E = diag(1, 20): A alone is Hurwitz (trace −0.9,
+    # det 0.9), but E⁻¹A has trace +0.05 and det 0.045: a pair in the right half-plane
+    # (by hand; scipy's generalized eigenvalues agree)
+    import scipy.linalg as la
+
+    a, e = np.array([[0.1, 1.0], [-1.0, -1.0]]), np.diag([1.0, 20.0])
+    loop = LoopTransfer(a, Z((2, 1)), Z((1, 2)), Z((1, 1)), e, None, ("u",))
+    assert sum(x.real > 0 for x in la.eigvals(a, e)) == 2
+    assert unstable_poles(loop) == 2
+    assert unstable_poles(LoopTransfer(a, Z((2, 1)), Z((1, 2)), Z((1, 1)), None, None,
+                                       ("u",))) == 0
+
+
+def test_a_unit_loop_has_an_infinite_disk_margin():
+    # L ≡ I (a plant of pure feedthrough I, controller I): S = I/2 and S − T = 0 at every
+    # frequency, so σ̄(S) = 1/2 and α = 2/0 = ∞ (Seiler et al. 2020), for p = 2 and p = 1
+    for p in (2, 1):
+        plant = (-np.eye(p), Z((p, p)), Z((p, p)), np.eye(p))
+        m = loop_margins(parts_of(plant, static_identity(p)))
+        assert m.unstable == 0 and m.disk_margin == math.inf
+        assert m.sensitivity_peak == pytest.approx(0.5, rel=1e-15)
+        assert all(c.disk_margin == math.inf for c in m.channels)
