@@ -368,3 +368,19 @@ def test_a_unit_loop_has_an_infinite_disk_margin():
         assert m.unstable == 0 and m.disk_margin == math.inf
         assert m.sensitivity_peak == pytest.approx(0.5, rel=1e-15)
         assert all(c.disk_margin == math.inf for c in m.channels)
+
+
+@pytest.mark.parametrize("dt", [None, 0.2])
+def test_resolvent_of_a_descriptor_loop_with_a_complex_pair(dt):
+    # E⁻¹A has a complex pair (numpy: −0.017 ± 1.316j; discrete: |z| = 0.645), so only a
+    # complex QZ makes (λS − T) triangular; reference: a dense solve C (λE − A)⁻¹ B + D at
+    # each frequency (numpy), λ = jω or e^{jωT}
+    a = np.array([[-0.2, 1.0], [-2.0, -0.4]]) if dt is None else \
+        np.array([[0.5, 0.4], [-0.5, 0.6]])
+    e = np.array([[1.0, 0.3], [0.0, 1.2]])
+    loop = LoopTransfer(a, np.array([[0.0], [1.0]]), np.array([[1.0, 0.5]]), np.array([[0.1]]),
+                        e, dt, ("u",))
+    w = np.array([0.05, 0.9, 1.3, 2.0, 5.0 if dt is None else 15.0])
+    got = Resolvent(loop)(w)
+    assert got.shape == (5, 1, 1) and got.dtype == complex
+    assert got == pytest.approx(respond(loop, w), rel=1e-12, abs=1e-15)
