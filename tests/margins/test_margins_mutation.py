@@ -21,7 +21,8 @@ import pytest
 from scipy.optimize import minimize_scalar
 
 from eigengate.analysis.margins import (MAX_POINTS, STEP_LOG_GAIN, STEP_PHASE, LoopTransfer,
-                                        Resolvent, _grid, _peak, _roots, siso_margins)
+                                        Resolvent, _grid, _peak, _roots, siso_margins,
+                                        unstable_poles)
 
 
 def lt(a, b, c, d, dt=None, e=None):
@@ -326,3 +327,30 @@ def test_flat_low_end_below_one_is_not_widened():
     loop, _ = tf_lt([-0.5], [1.0, 1.0])
     w, _h = _grid(loop, Resolvent(loop), None)
     assert w[0] == pytest.approx(1e-3, rel=1e-12)
+
+
+@pytest.mark.parametrize("x0", [1.23456789, 1.23456789e-3])
+def test_peak_location_to_the_search_tolerance(x0):
+    # a smooth maximum at x0 between grid points spaced 8 % apart: the bounded search
+    # (xatol 1e-12·b) puts it at x0 to about 1e-12 relative (by hand: f = 1/(1 + (x/x0 − 1)²))
+    fun = lambda x: 1.0 / (1.0 + (x / x0 - 1.0) ** 2)  # noqa: E731
+    w = x0 * np.geomspace(0.3, 3.0, 30)
+    best, at = _peak(fun, w, np.array([fun(x) for x in w]), 0.0)
+    assert best == pytest.approx(1.0, rel=1e-15)
+    assert at == pytest.approx(x0, rel=1e-9)
+
+
+def test_gain_limit_candidates_are_strictly_above_or_below_one():
+    # a candidate at exactly 1 or above 1 is never a lower limit, one at 1 never an upper
+    # one: L = 1.2/(s − 1) is stable for k > 1/1.2 (Routh, degree 1), so probing below a
+    # candidate of 1 or 1.5 would find instability; L = 5/(s + 1)³ is stable for k < 1.6
+    # (Routh: 3·3 > 1 + 5k), so probing 2·1 would too
+    from eigengate.analysis.margins import _gain_limits
+
+    unst, _ = tf_lt([1.2], [1.0, -1.0])
+    assert unstable_poles(unst, 0.75) == 1 and unstable_poles(unst, 0.5) == 1
+    assert _gain_limits(unst, [(1.5, 7.0)]) == ((math.inf, None), (None, None))
+    assert _gain_limits(unst, [(1.0, 7.0)]) == ((math.inf, None), (None, None))
+    third, _ = tf_lt([5.0], [1.0, 3.0, 3.0, 1.0])
+    assert unstable_poles(third, 2.0) == 2
+    assert _gain_limits(third, [(1.0, 3.0)]) == ((math.inf, None), (None, None))
