@@ -21,7 +21,8 @@ import pytest
 from scipy.optimize import minimize_scalar
 
 from eigengate.analysis.margins import (MAX_POINTS, STEP_LOG_GAIN, STEP_PHASE, LoopTransfer,
-                                        Resolvent, _grid, _peak, _roots, siso_margins)
+                                        Resolvent, _grid, _peak, _roots, siso_margins,
+                                        unstable_poles)
 
 
 def lt(a, b, c, d, dt=None, e=None):
@@ -288,3 +289,68 @@ def test_a_given_range_is_used_by_the_margins():
     loop, _ = tf_lt([2.0], [1.0, -1.0])
     m = siso_margins(loop, (0.01, 1.0))
     assert m.gain_crossovers == () and m.phase_margin == math.inf
+
+
+def _slow_integrators():
+    # (num, den, T, crossover, phase margin in degrees), each solved by hand:
+    # k/s: |L| = k/ω = 1 at ω = k, ∠L = −90°;
+    # k/(s(s + 1)): k/(ω·√(1 + ω²)) = 1, ω² = 2k²/(1 + √(1 + 4k²)), PM = 90° − atan ω;
+    # kT/(z − 1): |L| = kT/(2·sin(ωT/2)) = 1, ω = (2/T)·asin(kT/2), PM = 90° − ωT/2
+    k2 = 1e-4
+    w2 = math.sqrt(2 * k2 * k2 / (1 + math.sqrt(1 + 4 * k2 * k2)))
+    T, k3 = 0.1, 5e-4
+    w3 = 2 / T * math.asin(k3 * T / 2)
+    return [([5e-4], [1.0, 0.0], None, 5e-4, 90.0),
+            ([k2], [1.0, 1.0, 0.0], None, w2, 90.0 - math.degrees(math.atan(w2))),
+            ([k3 * T], [1.0, -1.0], T, w3, 90.0 - math.degrees(w3 * T / 2))]
+
+
+@pytest.mark.parametrize("num, den, dt, wc, want_pm", _slow_integrators())
+def test_integrating_loop_crossing_below_the_default_grid(num, den, dt, wc, want_pm):
+    # A slow integral loop: |L| falls with ω and is below 1 at the default lower end
+    # (1e-3·ωn, or 1e-3 rad/s without modes), so the crossover lies below it. Found missing
+    # (PM reported as ∞: a silent pass of any phase-margin requirement).
+    loop, sys = tf_lt(num, den, dt)
+    m = siso_margins(loop)
+    assert m.gain_crossovers == pytest.approx((wc,), rel=1e-10)
+    assert m.phase_margin == pytest.approx(want_pm, abs=1e-8)
+    if dt is None:  # (python-control falls back to a coarse grid for discrete loops)
+        _gm, pm, _sm, _wpc, wgc, _ws = control.stability_margins(sys)
+        assert m.phase_margin == pytest.approx(pm, abs=1e-6)  # python-control
+        assert m.phase_margin_frequency == pytest.approx(wgc, rel=1e-8)
+    assert m.delay_margin == pytest.approx(math.radians(want_pm) / wc, rel=1e-9)
+
+
+def test_flat_low_end_below_one_is_not_widened():
+    # L = −0.5/(s + 1) is flat at the low end (|L| → 0.5): no crossover can lie below, the
+    # grid keeps its default lower end 1e-3 rad/s (three decades below the pole, by hand)
+    loop, _ = tf_lt([-0.5], [1.0, 1.0])
+    w, _h = _grid(loop, Resolvent(loop), None)
+    assert w[0] == pytest.approx(1e-3, rel=1e-12)
+
+
+@pytest.mark.parametrize("x0", [1.23456789, 1.23456789e-3])
+def test_peak_location_to_the_search_tolerance(x0):
+    # a smooth maximum at x0 between grid points spaced 8 % apart: the bounded search
+    # (xatol 1e-12·b) puts it at x0 to about 1e-12 relative (by hand: f = 1/(1 + (x/x0 − 1)²))
+    fun = lambda x: 1.0 / (1.0 + (x / x0 - 1.0) ** 2)  # noqa: E731
+    w = x0 * np.geomspace(0.3, 3.0, 30)
+    best, at = _peak(fun, w, np.array([fun(x) for x in w]), 0.0)
+    assert best == pytest.approx(1.0, rel=1e-15)
+    assert at == pytest.approx(x0, rel=1e-9)
+
+
+def test_gain_limit_candidates_are_strictly_above_or_below_one():
+    # a candidate at exactly 1 or above 1 is never a lower limit, one at 1 never an upper
+    # one: L = 1.2/(s − 1) is stable for k > 1/1.2 (Routh, degree 1), so probing below a
+    # candidate of 1 or 1.5 would find instability; L = 5/(s + 1)³ is stable for k < 1.6
+    # (Routh: 3·3 > 1 + 5k), so probing 2·1 would too
+    from eigengate.analysis.margins import _gain_limits
+
+    unst, _ = tf_lt([1.2], [1.0, -1.0])
+    assert unstable_poles(unst, 0.75) == 1 and unstable_poles(unst, 0.5) == 1
+    assert _gain_limits(unst, [(1.5, 7.0)]) == ((math.inf, None), (None, None))
+    assert _gain_limits(unst, [(1.0, 7.0)]) == ((math.inf, None), (None, None))
+    third, _ = tf_lt([5.0], [1.0, 3.0, 3.0, 1.0])
+    assert unstable_poles(third, 2.0) == 2
+    assert _gain_limits(third, [(1.0, 3.0)]) == ((math.inf, None), (None, None))

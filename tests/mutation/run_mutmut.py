@@ -4,6 +4,7 @@
     python tests/mutation/run_mutmut.py                  # all six, one after the other
     python tests/mutation/run_mutmut.py margins _peak _roots   # only those functions' mutants
     python tests/mutation/run_mutmut.py margins Resolvent.__call__   # a method's mutants
+    python tests/mutation/run_mutmut.py margins x__grid__mutmut_7   # one mutant, by its name
     EG_MUTMUT_LIMIT=600 python tests/mutation/run_mutmut.py modes   # stop after 600 s
 
 mutmut 3 mutates the files below ``src/`` of the folder it runs in, and tests must import the
@@ -12,7 +13,9 @@ mutated copy. This repository keeps the package in ``plugin/``, so each run gets
 ``example_repo`` and a pyproject.toml whose ``[tool.mutmut]`` mutates that one module and runs
 the narrowest in-process tests covering it. Tests that run the command line as a subprocess
 cannot see the mutants, so they are not selected. mutmut runs one worker at the lowest CPU
-priority with its per-mutant timeout (15 × the test time + 1 s).
+priority with its per-mutant timeout (15 × the test time + 1 s), and BLAS on one thread (a
+threaded BLAS spinning against the other jobs of a small machine made the margins tests about
+ten times slower).
 """
 
 from __future__ import annotations
@@ -47,7 +50,8 @@ SELECTION = {
     "bounds": ["tests/test_modes_reference.py", "tests/test_bounds_corpus.py",
                "tests/test_modes_mutation.py"],
     "margins": ["tests/test_gate_boundaries.py", "tests/margins/test_margins_reference.py",
-                "tests/margins/test_margins_mutation.py"],
+                "tests/margins/test_margins_mutation.py", "tests/margins/test_margins_loop_paths.py",
+                "tests/margins/test_margin_pitfalls.py", "tests/margins/test_loop_requirements.py"],
 }
 
 
@@ -68,9 +72,11 @@ def run(module: str, mutmut: Path, functions: list[str] | None = None) -> int:
         'also_copy = ["example_repo"]\n')
     (work / "pyproject.toml").write_text(pyproject, encoding="utf-8")
     env = {**os.environ, "CI": "true"}  # derandomised hypothesis: the same run every time
+    env.update({v: "1" for v in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS")})
     dotted = "eigengate." + PATHS[module][:-3].replace("/", ".")
     # mutmut names a function's mutants x_NAME__mutmut_N, a method's xǁCLASSǁNAME__mutmut_N
-    names = [f"{dotted}.x{'ǁ' + f.replace('.', 'ǁ') if '.' in f else '_' + f}__mutmut_*"
+    names = [f"{dotted}.{f}" if "__mutmut_" in f else  # a mutant's own name
+             f"{dotted}.x{'ǁ' + f.replace('.', 'ǁ') if '.' in f else '_' + f}__mutmut_*"
              for f in functions or ()]
     limit = os.environ.get("EG_MUTMUT_LIMIT")  # seconds; what was run by then is kept
     cmd = ["nice", "-n", "19", str(mutmut), "run", "--max-children", "1", *names]

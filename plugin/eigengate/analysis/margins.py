@@ -266,9 +266,13 @@ def _grid(lt: LoopTransfer, res: Resolvent, omega_range: tuple[float, float] | N
     if omega_range is not None:
         lo, hi = omega_range[0], min(omega_range[1], nyq)
     else:  # widen while a crossover may lie beyond an end
-        for _ in range(12):  # |L| rising with ω at the low end: above 1, it falls towards 1
-            if not abs(res.scalar(lo)) < abs(res.scalar(lo * 10)):  # below it; below 1, a
-                break  # peak may lie there
+        for _ in range(12):  # a crossover may lie below lo when |L| rises with ω
+            # (above 1, it falls towards 1 below; below 1, a peak may lie there), or falling
+            # while below 1, steeply enough to reach 1 within the widening (low·(low/up)^12
+            # ≥ 1; below every mode |L| ~ c·ω^k, and an integrator's rises through 1 there)
+            low, up = abs(res.scalar(lo)), abs(res.scalar(lo * 10))
+            if not (low < up or up < low < 1.0 and low ** 13 >= up ** 12):
+                break
             lo /= 10.0
         for _ in range(12):
             if hi >= nyq or not abs(res.scalar(hi)) > 1.0:
