@@ -8,7 +8,7 @@ from typing import Any, Mapping
 from ..model.formats import suggest
 from .context import (CONTROLLER_SS_KEYS, CONTROLLER_TF_KEYS, FEEDBACK_KEYS, FEEDBACK_KINDS,
                      SS_KEYS, TF_KEYS, _check_keys, _Ctx, _mapping, _requirements)
-from ..model.core import Model, as_matrix, from_arrays
+from ..model.core import Model, as_matrix, from_arrays, is_sparse
 
 _STRUCTURE = {"state_gain": "closed loop: state feedback",
               "output_gain": "closed loop: output feedback",
@@ -34,6 +34,8 @@ def _matrix(value: Any, ctx: _Ctx, path: str) -> Any:
                               line=ctx.line(path), base_dir=ctx.base_dir, root=ctx.root,
                               read=ctx.read)
     ctx.refs.append(rel)
+    if is_sparse(arr):  # from_arrays checks it, and keeps A and E sparse when large
+        return arr
     return as_matrix(arr, ctx.source, ctx.prefix + path, line=ctx.line(path))
 
 
@@ -42,6 +44,10 @@ def build_model(doc: Mapping[str, Any], ctx: _Ctx, name: str, label: str | None)
         raise ctx.err("plant", "is missing (neither the file nor this operating point gives it)")
     plant_block = _mapping(doc["plant"], ctx, "plant")
     plant, structure = _system(plant_block, ctx, "plant", plant=True)
+    if plant.sparse and "feedback" in doc:
+        raise ctx.err("feedback", "cannot close a loop around a sparse plant",
+                      "give the closed-loop matrices as the plant, or a plant of at most "
+                      "the sparse threshold's states with sparse: false")
     matrices = (plant.A, plant.B, plant.C, plant.D)
     e, states = plant.E, list(plant.states)
     parts: list[dict[str, Any]] = []  # plant and controller, for loop margins
@@ -138,7 +144,12 @@ def _system(block: dict[str, Any], ctx: _Ctx, path: str, *, plant: bool) -> tupl
         if not plant and "E" in block:
             raise ctx.err(f"{path}.E", "is not allowed: controllers are not descriptor systems")
         mats = {k: _matrix(block.get(k), ctx, f"{path}.{k}") for k in ("A", "B", "C", "D", "E")}
-        model = from_arrays(**mats, states=_names(block, "states", ctx, path),
+        sparse = block.get("sparse")
+        if sparse is not None and not isinstance(sparse, bool):
+            raise ctx.err(f"{path}.sparse", f"must be true or false, got {sparse!r}",
+                          "true keeps sparse matrix files sparse at any size, false makes "
+                          "them dense")
+        model = from_arrays(**mats, sparse=sparse, states=_names(block, "states", ctx, path),
                             inputs=_names(block, "inputs", ctx, path),
                             outputs=_names(block, "outputs", ctx, path), source=ctx.source,
                             lines=ctx.prefixed_lines(), prefix=prefix)
