@@ -32,10 +32,22 @@ def analyse_model(model: Model, config: "Config | None" = None) -> ModelResult:
     if config is not None:
         config = config.policy_for(model.source)  # a nested policy judges its own folder
         model = config.effective(model)
-    spectrum = analyse(model)
+    if model.sparse:  # the search covers the regions the requirements judge
+        from ..rules.partial import search_targets
+
+        spectrum = analyse(model, search_targets(model.requirements))
+    else:
+        spectrum = analyse(model)
     verdicts = evaluate(spectrum) or (_nothing_checked(),)
     remaining, _ = split_known_modes(spectrum, model.known_modes)
-    return ModelResult(model=model, spectrum=spectrum, equilibrium=origin(remaining, spectrum)[0],
+    equilibrium = origin(remaining, spectrum)[0]
+    if spectrum.search is not None:  # classified from the modes found: not decided
+        from dataclasses import replace
+
+        equilibrium = replace(equilibrium, uncertain=True, detail=f"from the "
+                              f"{spectrum.n_eigenvalues} eigenvalues a sparse search found "
+                              f"of {model.n_states}, not the whole spectrum")
+    return ModelResult(model=model, spectrum=spectrum, equilibrium=equilibrium,
                        verdicts=verdicts, findings=tuple(findings_of(model, verdicts, config)))
 
 
