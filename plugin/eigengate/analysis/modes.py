@@ -24,7 +24,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING, Any, cast
 
 from ..errors import ModelError
 from ..model.core import Model
@@ -237,21 +237,17 @@ def _decompose(model: Model):
     return lam, vr, vl, ew, norm_a + norm_e, int((~finite).sum()), False, A
 
 
-def analyse(model: Model, targets: Any = None, *, method: str | None = None) -> Spectrum:
-    """Compute the modes of ``model``.
+def analyse(model: Model) -> Spectrum:
+    """Compute the modes of ``model``: every eigenvalue (LAPACK).
+
+    A sparse model (:attr:`~eigengate.model.core.Model.sparse`) is made dense here when
+    the dense limit allows; its partial spectrum from the sparse search comes from
+    :func:`eigengate.analysis.sparse_modes.analyse_sparse` (``spectrum_of`` picks).
 
     Parameters
     ----------
     model
         A validated :class:`~eigengate.model.core.Model`.
-    targets
-        For a sparse model, the regions of the s-plane the search must cover
-        (:class:`eigengate.analysis.sparse_modes.Target` objects; default: the closed right
-        half-plane, for stability).
-    method
-        ``"dense"`` (every eigenvalue, LAPACK) or ``"sparse"`` (shift-invert Arnoldi: the
-        modes in the target regions, a partial spectrum); default: sparse for a model whose
-        A is sparse (:attr:`~eigengate.model.core.Model.sparse`), dense otherwise.
 
     Returns
     -------
@@ -264,13 +260,7 @@ def analyse(model: Model, targets: Any = None, *, method: str | None = None) -> 
 
     from .bounds import ENCLOSE_LIMIT, cluster_radius, components, enclose, estimate
 
-    if method not in (None, "dense", "sparse"):
-        raise ValueError(f"method must be 'dense' or 'sparse', got {method!r}")
-    if method == "sparse" or (method is None and model.sparse):
-        from .sparse_modes import analyse_sparse
-
-        return analyse_sparse(model, targets)
-    if model.sparse:  # asked for the dense analysis of a sparse model
+    if model.sparse:  # the dense analysis of a sparse model
         import dataclasses
 
         from ..model.core import dense_limit
@@ -278,9 +268,11 @@ def analyse(model: Model, targets: Any = None, *, method: str | None = None) -> 
         if model.n_states > dense_limit():
             raise ModelError(model.source, "plant.A", f"has {model.n_states} states, more "
                              f"than the dense analysis's limit of {dense_limit()} here",
-                             line=model.line_of("plant.A"), hint="use the sparse analysis")
-        model = dataclasses.replace(model, A=model.A.toarray(),
-                                    E=None if model.E is None else model.E.toarray())
+                             line=model.line_of("plant.A"),
+                             hint="use the sparse search (eigengate.analyse_sparse)")
+        sparse_a, sparse_e = cast(Any, model.A), cast(Any, model.E)
+        model = dataclasses.replace(model, A=sparse_a.toarray(),
+                                    E=None if sparse_e is None else sparse_e.toarray())
     n = model.n_states
     lam, vr, vl, ew, norm, infinite, balanced, work = _decompose(model)
     if not (np.isfinite(lam).all() and math.isfinite(norm)):  # never a verdict from inf/nan

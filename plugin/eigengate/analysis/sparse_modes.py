@@ -47,13 +47,14 @@ from typing import TYPE_CHECKING, Any, Iterable, Sequence
 
 from ..errors import ModelError
 from ..model.core import Model
+from .bounds import cap_defective, estimate, frobenius
+from .modes import (BOUND_FACTOR, Mode, Spectrum, _clusters, _mode_fields, analyse, sort_key,
+                    vector_rank)
 
 if TYPE_CHECKING:  # pragma: no cover
     import numpy as np
 
-    from .modes import Spectrum
-
-__all__ = ["Target", "Disc", "Search", "analyse_sparse", "bendixson", "K_START",
+__all__ = ["Target", "Disc", "Search", "analyse_sparse", "spectrum_of", "bendixson", "K_START",
            "MAX_SHIFTS", "SMALL"]
 
 #: Eigenvalues asked of each shift at first (doubled once when its disc falls short).
@@ -385,15 +386,17 @@ def _next_shift(leaves: list[Rect]) -> complex:
     return complex(xc, 0.5 * (y0 + y1))
 
 
-def analyse_sparse(model: Model, targets: Iterable[Target] | None = None) -> "Spectrum":
+def spectrum_of(model: Model, targets: Iterable[Target] | None = None) -> Spectrum:
+    """The spectrum every front end reads: the sparse search for a sparse model (covering
+    ``targets``), every eigenvalue otherwise."""
+    return analyse_sparse(model, targets) if model.sparse else analyse(model)
+
+
+def analyse_sparse(model: Model, targets: Iterable[Target] | None = None) -> Spectrum:
     """The partial spectrum of a sparse model: the modes in ``targets`` (default: the closed
     right half-plane), with what the search covered in :attr:`Spectrum.search`."""
     import numpy as np
     import scipy.sparse as sp
-
-    from .bounds import cap_defective, estimate, frobenius
-    from .modes import (BOUND_FACTOR, Spectrum, _clusters, _mode_fields, analyse, sort_key,
-                        vector_rank)
 
     if model.discrete:
         raise ModelError(model.source, "sample_period", "is given, but the sparse analysis "
@@ -406,8 +409,7 @@ def analyse_sparse(model: Model, targets: Iterable[Target] | None = None) -> "Sp
         import dataclasses
 
         return analyse(dataclasses.replace(model, A=A.toarray(),
-                                           E=None if E is None else E.toarray()),
-                       method="dense")
+                                           E=None if E is None else E.toarray()))
     targets = tuple(targets) if targets else (Target("right", 0.0),)
     symmetric = (A != A.T).nnz == 0 and (E is None or (E != E.T).nnz == 0)
     norm = frobenius(A) + (0.0 if E is None else frobenius(E))
@@ -428,8 +430,9 @@ def analyse_sparse(model: Model, targets: Iterable[Target] | None = None) -> "Sp
             leaves = []
             sigma = complex(max((t.value for t in targets if t.kind == "right"), default=0.0))
         else:
-            leaves = [leaf for t in targets if t.clip(box) is not None
-                      for leaf in _uncovered(t.clip(box), t, discs, outer)]
+            leaves = [leaf for t in targets
+                      for leaf in Search(box, tuple(discs), outer, targets, shifts, 0, n,
+                                         symmetric).uncovered(t)]
             if not leaves:
                 break
             sigma = _next_shift(leaves)
@@ -477,8 +480,6 @@ def analyse_sparse(model: Model, targets: Iterable[Target] | None = None) -> "Sp
         rows.append(_mode_fields(model, centre, err, len(members), geometric,
                                  float(kappa[members].max()), part[:, members].mean(axis=1)))
     rows.sort(key=sort_key)
-    from .modes import Mode
-
     modes = tuple(Mode(index=i + 1, states=model.states, **r) for i, r in enumerate(rows))
     search = Search(box=box, discs=tuple(discs), outer=outer, targets=targets, shifts=shifts,
                     found=len(lam), n=n, symmetric=symmetric)

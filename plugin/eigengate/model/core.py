@@ -262,7 +262,8 @@ def _check_scale(arr: "np.ndarray", bad) -> None:
     import numpy as np
 
     if is_sparse(arr):
-        top = float(np.abs(arr.data).max()) if arr.nnz else 0.0
+        data = getattr(arr, "data")
+        top = float(np.abs(data).max()) if data.size else 0.0
         if 0.0 < top < MIN_SCALE:
             raise bad(f"is too small to analyse: its largest entry is {top:g}, below "
                       f"{MIN_SCALE:g}", "rescale the units (or write 0 for a zero matrix)")

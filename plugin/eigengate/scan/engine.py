@@ -26,18 +26,15 @@ __all__ = ["ModelResult", "FileResult", "analyse_model", "apply_waivers", "check
 def analyse_model(model: Model, config: "Config | None" = None) -> ModelResult:
     """Analyse one model and evaluate its requirements (the repository layers of ``config``
     below the model's own, when given); no waivers applied yet."""
-    from ..analysis.modes import analyse
+    from ..analysis.sparse_modes import spectrum_of
+    from ..rules.partial import search_targets
     from ..rules.requirements import evaluate, origin, split_known_modes
 
     if config is not None:
         config = config.policy_for(model.source)  # a nested policy judges its own folder
         model = config.effective(model)
-    if model.sparse:  # the search covers the regions the requirements judge
-        from ..rules.partial import search_targets
-
-        spectrum = analyse(model, search_targets(model.requirements))
-    else:
-        spectrum = analyse(model)
+    # a sparse model's search covers the regions its requirements judge
+    spectrum = spectrum_of(model, search_targets(model.requirements))
     verdicts = evaluate(spectrum) or (_nothing_checked(),)
     remaining, _ = split_known_modes(spectrum, model.known_modes)
     equilibrium = origin(remaining, spectrum)[0]
