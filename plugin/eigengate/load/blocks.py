@@ -74,7 +74,7 @@ def build_model(doc: Mapping[str, Any], ctx: _Ctx, name: str, label: str | None)
                         source=ctx.source, structure=structure, requirements=requirements,
                         known_modes=known_modes, on_uncertain=on_uncertain,
                         disabled=disabled, waivers=ctx.waivers, lines=ctx.prefixed_lines(),
-                        prefix=ctx.prefix)
+                        prefix=ctx.prefix, sparse=plant.sparse)
     for req in requirements:  # a requirement the model cannot be judged by is refused here
         why = req.unfit(model)
         if why is not None:
