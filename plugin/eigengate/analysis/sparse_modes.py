@@ -65,6 +65,10 @@ MAX_SHIFTS = 8
 DEPTH = 7
 #: At most this many states, a sparse model is decomposed in full (ARPACK needs k < n − 1).
 SMALL = 24
+#: ARPACK's relative accuracy of the Ritz values (the bounds come from the true residuals).
+ARNOLDI_TOL = 1e-13
+#: Most implicit restarts of one Arnoldi run; a run that does not converge claims no disc.
+MAX_RESTARTS = 300
 #: Seed of the start vectors: the same search on every run.
 SEED = 15
 
@@ -274,7 +278,7 @@ def _arnoldi(op: Any, k: int, n: int, seed: int, which: str = "LM") -> tuple[Any
         v0 = v0 + 1j * rng.standard_normal(n)
     try:
         mu, v = eigs(op, k=k, which=which, v0=v0, ncv=min(n - 1, max(2 * k + 1, 20)),
-                     maxiter=max(1000, 10 * n // k))
+                     tol=ARNOLDI_TOL, maxiter=MAX_RESTARTS)
         return mu, v, True
     except ArpackNoConvergence as exc:  # keep what converged; claim no disc
         return exc.eigenvalues, exc.eigenvectors, False
@@ -433,9 +437,11 @@ def analyse_sparse(model: Model, targets: Iterable[Target] | None = None) -> Spe
             leaves = [leaf for t in targets
                       for leaf in Search(box, tuple(discs), outer, targets, shifts, 0, n,
                                          symmetric).uncovered(t)]
-            if not leaves:
+            if not leaves and shifts:
                 break
-            sigma = _next_shift(leaves)
+            # nothing left to search before the first shift (Bendixson's rectangle misses
+            # every region): one shift at its right edge still lists the rightmost modes
+            sigma = _next_shift(leaves) if leaves else complex(box[1], 0.0)
         disc, lu, sigma = _run(A, E, sigma, k, symmetric, scale, SEED + 2 * shifts, pairs)
         shifts += 1
         if disc is not None and leaves and not any(disc.holds(r) for r in leaves) \
