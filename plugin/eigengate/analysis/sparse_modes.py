@@ -251,6 +251,7 @@ class _Pairs:
     lam: list
     vr: list
     vl: list
+    q: list  # right vectors orthonormalised against those of near values
 
 
 def _operator(lu: Any, E: Any, n: int, dtype: Any, transpose: bool) -> Any:
@@ -320,22 +321,31 @@ def _left_vectors(lam_r: Any, mu_t: Any, u: Any, sigma: complex) -> Any:
     return out
 
 
-def _add(pairs: _Pairs, lam: Any, vr: Any, vl: Any) -> None:
+def _add(pairs: _Pairs, lam: Any, vr: Any, vl: Any) -> int:
     """Add eigenpairs, dropping any whose right vector lies in the span of those already
-    kept for a value within 1e-8 relative (the same eigenvalue found from two shifts)."""
+    kept for a value within 1e-8 relative (the same eigenvalue found from two shifts);
+    returns how many were added. The span test projects out, twice (Gram–Schmidt with
+    reorthogonalisation), the orthonormalised vectors kept with each near value."""
     import numpy as np
 
+    added = 0
     for i in range(len(lam)):
         v = vr[:, i] / np.linalg.norm(vr[:, i])
         near = [j for j, old in enumerate(pairs.lam)
                 if abs(old - lam[i]) <= 1e-8 * max(1.0, abs(lam[i]))]
-        if near:
-            Q, _ = np.linalg.qr(np.stack([pairs.vr[j] for j in near], axis=1))
-            if np.linalg.norm(v - Q @ (Q.conj().T @ v)) < 1e-6:
-                continue
+        r = v
+        for _ in range(2 if near else 0):
+            for j in near:
+                r = r - pairs.q[j] * np.vdot(pairs.q[j], r)
+        size = float(np.linalg.norm(r))
+        if near and size < 1e-6:
+            continue
         pairs.lam.append(complex(lam[i]))
         pairs.vr.append(v)
         pairs.vl.append(vl[:, i])
+        pairs.q.append(r / size)
+        added += 1
+    return added
 
 
 def _run(A: Any, E: Any, sigma: complex, k: int, symmetric: bool, scale: float, seed: int,
@@ -357,9 +367,10 @@ def _run(A: Any, E: Any, sigma: complex, k: int, symmetric: bool, scale: float, 
     else:
         mu_t, u, _ = _arnoldi(_operator(lu, E, n, dtype, True), k, n, seed + 1)
         w = _left_vectors(lam, mu_t[np.abs(mu_t) > 0], u[:, np.abs(mu_t) > 0], sigma)
-    _add(pairs, lam, v, w)
+    if not _add(pairs, lam, v, w):
+        return None, lu, sigma  # nothing new: no disc, and the search stops
     if not ok or len(lam) < k:
-        return None, lu, sigma
+        return Disc(sigma, 0.0), lu, sigma
     return Disc(sigma, float(np.abs(lam - sigma).max())), lu, sigma
 
 
@@ -419,10 +430,11 @@ def analyse_sparse(model: Model, targets: Iterable[Target] | None = None) -> Spe
     norm = frobenius(A) + (0.0 if E is None else frobenius(E))
     scale = max(norm / math.sqrt(n), 1e-300)
     box = None if E is not None else bendixson(A)
-    pairs = _Pairs([], [], [])
+    pairs = _Pairs([], [], [], [])
     discs: list[Disc] = []
     outer = None
     shifts = 0
+    tried: set[complex] = set()
     k = min(K_START, n - 2)
     if box is not None and any(t.kind == "outside" and t.clip(box) is not None
                                for t in targets):
@@ -442,14 +454,23 @@ def analyse_sparse(model: Model, targets: Iterable[Target] | None = None) -> Spe
             # nothing left to search before the first shift (Bendixson's rectangle misses
             # every region): one shift at its right edge still lists the rightmost modes
             sigma = _next_shift(leaves) if leaves else complex(box[1], 0.0)
+            leaves = [leaf for leaf in leaves if _next_shift([leaf]) not in tried]
+            if not leaves and shifts:  # every part left was tried and gave nothing new
+                break       # (a value of multiplicity > k, or no convergence there)
+            sigma = _next_shift(leaves) if leaves else sigma
+        if sigma in tried:
+            break
+        tried.add(sigma)
         disc, lu, sigma = _run(A, E, sigma, k, symmetric, scale, SEED + 2 * shifts, pairs)
         shifts += 1
-        if disc is not None and leaves and not any(disc.holds(r) for r in leaves) \
+        if disc is None:
+            continue
+        if disc.radius > 0 and leaves and not any(disc.holds(r) for r in leaves) \
                 and 2 * k < n - 1:  # once more at this shift with twice the eigenvalues
             bigger, _, _ = _run(A, E, sigma, 2 * k, symmetric, scale, SEED + 2 * shifts,
                                 pairs, lu)
-            disc = bigger or disc
-        if disc is not None:
+            disc = bigger if bigger is not None and bigger.radius > 0 else disc
+        if disc.radius > 0:
             discs.append(disc)
     # conjugates of the complex eigenpairs (a real model's spectrum is symmetric)
     lam0 = np.array(pairs.lam, dtype=complex)
