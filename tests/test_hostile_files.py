@@ -33,10 +33,18 @@ def _npz_claiming(path: Path, n: int) -> None:
 
 
 def _sparse_mat(path: Path, n: int) -> None:
+    """A sparse .mat whose element header declares 2³¹ − 1 stored entries (nzmax) for a
+    matrix that holds n: refused from the header (a 10⁵-state sparse file itself is now read
+    sparse, tests/sparse/). Level-5 layout: 128-byte header, miMATRIX tag, array flags."""
+    import struct
+
     import scipy.io
     import scipy.sparse
 
     scipy.io.savemat(path, {"A": scipy.sparse.eye(n, format="csc")})
+    raw = bytearray(path.read_bytes())
+    struct.pack_into("<I", raw, 128 + 8 + 12, 2**31 - 1)
+    path.write_bytes(bytes(raw))
 
 
 def _ref(name: str) -> str:
@@ -71,7 +79,7 @@ HOSTILE = {
     "models/csv_fullwidth.yaml": (_ref("w.csv"), "'\uff11'"),
     "models/csv_nan.yaml": (_ref("n.csv"), "'nan'"),
     "models/npz_bomb.yaml": (_ref("bomb.npz"), "more than the limit of 16000000 entries"),
-    "models/mat_sparse.yaml": (_ref("sparse.mat"), "100000×100000"),
+    "models/mat_sparse.yaml": (_ref("sparse.mat"), "declaring 2147483647 stored entries"),
     "models/fifo.yaml": (lambda p, out: os.mkfifo(p), "not a regular file"),
     "models/loop_a.yaml": (lambda p, out: (os.symlink("loop_b.yaml", p),
                                            os.symlink("loop_a.yaml", p.with_name("loop_b.yaml"))),
@@ -97,7 +105,7 @@ def hostile_repo(tmp_path_factory):
     for name, text in SIDE_FILES.items():
         write(repo / name, text)
     _npz_claiming(repo / "models" / "bomb.npz", 30_000)
-    _sparse_mat(repo / "models" / "sparse.mat", 100_000)
+    _sparse_mat(repo / "models" / "sparse.mat", 1000)
     for name, (what, _) in HOSTILE.items():
         path = Path(os.fsencode(repo / name).decode("utf-8", "surrogateescape"))
         if callable(what):

@@ -2,7 +2,7 @@
 
 A referenced matrix may hold at most MAX_STATES² entries (the largest state matrix a model may
 have); ``.npz`` headers, the zip member's declared size and ``.mat`` headers are checked
-against that before the data is decompressed or a sparse matrix is made dense.
+against that before the data is decompressed. Sparse files stay sparse (tests/sparse/).
 """
 
 import io
@@ -110,14 +110,19 @@ def test_npz_three_dimensional_refused_from_header(tmp_path):
     assert "3 dimensions" in load_error(tmp_path, "cube.npz")
 
 
-def test_sparse_mat_shape_refused_before_densifying(tmp_path):
+def test_large_sparse_mat_stays_sparse(tmp_path):
+    """Issue 15: a 10⁵-state sparse .mat was made dense (80 GB) before any limit; it now
+    stays sparse in the Model (the sparse search analyses it)."""
     import scipy.io
     import scipy.sparse
 
     n = 100_000  # dense, this would be 80 GB
-    scipy.io.savemat(tmp_path / "s.mat", {"A": scipy.sparse.eye(n, format="csc")})
-    message = load_error(tmp_path, "s.mat")
-    assert f"{n}×{n}" in message and "entries" in message, message
+    (tmp_path / "pyproject.toml").write_text("[project]\nname = 'x'\n")
+    scipy.io.savemat(tmp_path / "s.mat", {"A": -scipy.sparse.eye(n, format="csc")})
+    path = tmp_path / "m.yaml"
+    path.write_text(MODEL.format(name="s.mat"))
+    (model,) = load_models(path, tmp_path)
+    assert model.sparse and model.A.shape == (n, n) and model.A.nnz == n
 
 
 def test_small_sparse_mat_still_reads(tmp_path):

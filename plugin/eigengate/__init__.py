@@ -21,6 +21,7 @@ _EXPORTS = {
     "load_models": "load.loader",
     # analysis
     "Mode": "analysis.modes", "Spectrum": "analysis.modes", "analyse": "analysis.modes",
+    "analyse_sparse": "analysis.sparse_modes",
     "Equilibrium": "analysis.equilibrium", "classify": "analysis.equilibrium",
     "LoopParts": "analysis.margins", "LoopTransfer": "analysis.margins",
     "LoopMargins": "analysis.margins", "ChannelMargins": "analysis.margins",
@@ -70,6 +71,7 @@ if TYPE_CHECKING:  # pragma: no cover - the same names, for type checkers
                                    loop_transfer, siso_margins, unstable_poles)
     from .analysis.matching import match_modes
     from .analysis.modes import Mode, Spectrum, analyse
+    from .analysis.sparse_modes import analyse_sparse
     from .analysis.nonlinear import VectorField, find_equilibria, jacobians, linearise
     from .baseline.regressions import Tolerances, compare, compare_all, parse_tolerances
     from .baseline.store import DEFAULT_PATH as DEFAULT_BASELINE_PATH

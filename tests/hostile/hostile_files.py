@@ -271,7 +271,7 @@ NAMED_HOLES = {
     # matrix headers
     "npz-huge-header": "an .npy header claiming a huge shape",
     "npz-zip-bomb": "compressed zeros far past the state limit",
-    "mat-sparse-huge": "a sparse .mat whose shape is past the state limit",
+    "mat-sparse-huge": "a sparse .mat of 10⁵ states (issue 15: stays sparse, never made dense)",
     # fields
     "tf-num-empty": "a numerator with no coefficients",
     "e-all-zero": "an all-zero E has no finite modes",
@@ -346,7 +346,8 @@ def _sparse_huge(repo: Path, file: Path) -> None:
     file.write_text(REF.format(file="../data/mat-sparse-huge/a.mat", key=""))
 
 
-add("mat-sparse-huge", b"", "plant.A", "100000", make=_sparse_huge)
+add("mat-sparse-huge", b"", expect="model", make=_sparse_huge,
+    check=holds(lambda models: models[0].sparse and models[0].A.nnz == 100_000))
 add_doc("tf-num-empty", put(TF, "plant.num", []), "plant.num")
 add_doc("e-all-zero", put(SS, "plant.E", [[0.0, 0.0], [0.0, 0.0]]), "plant.E")
 add_doc("vf-module-outside", put(put(SS, "plant", DELETE), "vector_field", {

@@ -31,7 +31,7 @@ from typing import TYPE_CHECKING, Sequence
 if TYPE_CHECKING:  # pragma: no cover
     import numpy as np
 
-__all__ = ["estimate", "enclose", "components", "touching", "cluster_radius", "cap_defective",
+__all__ = ["estimate", "frobenius", "enclose", "components", "touching", "cluster_radius", "cap_defective",
            "hoelder", "map_to_s", "ENCLOSE_LIMIT"]
 
 #: Factor on the first-order residual bound: covers a second-order remainder as large as the
@@ -72,8 +72,8 @@ def estimate(A: "np.ndarray", E: "np.ndarray | None", lam: "np.ndarray", vr: "np
     R = _mul(A, vr) - ev * lam
     vnorm = np.linalg.norm(vr, axis=0)
     dots = np.abs(np.einsum("ij,ij->j", ew.conj(), vr))
-    norm_a = float(np.linalg.norm(A, "fro"))
-    norm_e = 1.0 if E is None else float(np.linalg.norm(E, "fro"))
+    norm_a = frobenius(A)
+    norm_e = 1.0 if E is None else frobenius(E)
     floor = EST_FLOOR * math.sqrt(n + 1) * eps * (norm_a + np.abs(lam) * norm_e) * vnorm
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         kappa = np.linalg.norm(vl, axis=0) * vnorm / dots
@@ -83,6 +83,15 @@ def estimate(A: "np.ndarray", E: "np.ndarray | None", lam: "np.ndarray", vr: "np
     bound = np.where(np.isfinite(bound), bound, np.inf)
     bound = np.maximum(bound, FIGURE_FLOOR * eps * np.abs(lam))
     return bound, kappa, R
+
+
+def frobenius(M) -> float:
+    """Frobenius norm of a dense or scipy.sparse matrix."""
+    import numpy as np
+
+    if type(M).__module__.startswith("scipy.sparse"):
+        return float(np.linalg.norm(M.data))  # a canonical sparse matrix: no duplicates
+    return float(np.linalg.norm(M, "fro"))
 
 
 def _mul(M: "np.ndarray", X: "np.ndarray") -> "np.ndarray":

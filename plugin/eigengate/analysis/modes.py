@@ -24,7 +24,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any, cast
 
 from ..errors import ModelError
 from ..model.core import Model
@@ -33,7 +33,7 @@ from .bounds import MAX_BLOCK, cap_defective, hoelder
 if TYPE_CHECKING:  # pragma: no cover
     import numpy as np
 
-__all__ = ["Mode", "ModeFigures", "Spectrum", "analyse"]
+__all__ = ["Mode", "ModeFigures", "Spectrum", "analyse", "vector_rank", "sort_key"]
 
 #: Safety factor on the backward-error scale n·eps·‖A‖ of the Hölder-type bounds of defective
 #: eigenvalues (the first-order bounds come from residuals: :mod:`eigengate.analysis.bounds`).
@@ -135,6 +135,14 @@ class Spectrum:
     infinite: int
     norm: float
     balanced: bool
+    #: None for a complete spectrum; for the modes an iterative search found, what it
+    #: covered (:class:`eigengate.analysis.sparse_modes.Search`): the spectrum is partial.
+    search: Any = None
+
+    @property
+    def partial(self) -> bool:
+        """Whether only the modes an iterative search found are here."""
+        return self.search is not None
 
     @property
     def spectral_abscissa(self) -> float:
@@ -230,7 +238,11 @@ def _decompose(model: Model):
 
 
 def analyse(model: Model) -> Spectrum:
-    """Compute the modes of ``model``.
+    """Compute the modes of ``model``: every eigenvalue (LAPACK).
+
+    A sparse model (:attr:`~eigengate.model.core.Model.sparse`) is made dense here when
+    the dense limit allows; its partial spectrum from the sparse search comes from
+    :func:`eigengate.analysis.sparse_modes.analyse_sparse` (``spectrum_of`` picks).
 
     Parameters
     ----------
@@ -248,6 +260,19 @@ def analyse(model: Model) -> Spectrum:
 
     from .bounds import ENCLOSE_LIMIT, cluster_radius, components, enclose, estimate
 
+    if model.sparse:  # the dense analysis of a sparse model
+        import dataclasses
+
+        from ..model.core import dense_limit
+
+        if model.n_states > dense_limit():
+            raise ModelError(model.source, "plant.A", f"has {model.n_states} states, more "
+                             f"than the dense analysis's limit of {dense_limit()} here",
+                             line=model.line_of("plant.A"),
+                             hint="use the sparse search (eigengate.analyse_sparse)")
+        sparse_a, sparse_e = cast(Any, model.A), cast(Any, model.E)
+        model = dataclasses.replace(model, A=sparse_a.toarray(),
+                                    E=None if sparse_e is None else sparse_e.toarray())
     n = model.n_states
     lam, vr, vl, ew, norm, infinite, balanced, work = _decompose(model)
     if not (np.isfinite(lam).all() and math.isfinite(norm)):  # never a verdict from inf/nan
@@ -300,10 +325,17 @@ def analyse(model: Model) -> Spectrum:
         rows.append(_mode_fields(model, centre, err, len(members), geometric, kap, weights,
                                  ring))
     # Least stable (largest Re s) first, on rounded keys so round-off cannot reorder ties.
-    rows.sort(key=lambda r: (-_round_sig(r["s"].real), _round_sig(abs(r["s"].imag)),
-                             int(np.argmax(r["participation"]))))
+    rows.sort(key=sort_key)
     modes = tuple(Mode(index=k + 1, states=model.states, **r) for k, r in enumerate(rows))
     return Spectrum(model=model, modes=modes, infinite=infinite, norm=norm, balanced=balanced)
+
+
+def sort_key(row: dict) -> tuple:
+    """Least stable (largest Re s) first, on rounded keys so round-off cannot reorder ties."""
+    import numpy as np
+
+    return (-_round_sig(row["s"].real), _round_sig(abs(row["s"].imag)),
+            int(np.argmax(row["participation"])))
 
 
 def _clusters(lam: "np.ndarray", delta: "np.ndarray") -> list[list[int]]:
@@ -328,7 +360,16 @@ def _geometric(model: Model, centre: complex, vectors: "np.ndarray", size: int,
         sv = np.linalg.svd(model.A - centre * E, compute_uv=False)
         tol = 1e3 * n * eps * (norm + abs(centre))
         return int(min(size, max(1, int(np.sum(sv <= tol)))))
-    # Large models: the cluster's eigenvectors are (nearly) parallel when it is defective.
+    return vector_rank(vectors, size)
+
+
+def vector_rank(vectors: "np.ndarray", size: int) -> int:
+    """Geometric multiplicity of a cluster of ``size`` from its eigenvectors: they are
+    (nearly) parallel when it is defective (used above :data:`SVD_RANK_LIMIT` states and for
+    sparse models)."""
+    import numpy as np
+
+    eps = np.finfo(float).eps
     unit = vectors / np.linalg.norm(vectors, axis=0)
     sv = np.linalg.svd(unit, compute_uv=False)
     return int(max(1, np.sum(sv > 10.0 * eps ** (1.0 / size) * sv[0])))

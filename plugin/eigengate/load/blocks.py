@@ -33,6 +33,10 @@ def _closed_loop(doc: Mapping[str, Any], ctx: _Ctx, parts: list[dict[str, Any]] 
         raise ctx.err("plant", "is missing (neither the file nor this operating point gives it)")
     plant_block = _mapping(doc["plant"], ctx, "plant")
     plant, structure = _system(plant_block, ctx, "plant", plant=True)
+    if plant.sparse and "feedback" in doc:
+        raise ctx.err("feedback", "cannot close a loop around a sparse plant",
+                      "give the closed-loop matrices as the plant, or a plant of at most "
+                      "the sparse threshold's states with sparse: false")
     matrices: tuple[Any, Any, Any, Any] = (plant.A, plant.B, plant.C, plant.D)
     e, states = plant.E, list(plant.states)
     if "feedback" in doc:
@@ -70,7 +74,7 @@ def build_model(doc: Mapping[str, Any], ctx: _Ctx, name: str, label: str | None)
                         source=ctx.source, structure=structure, requirements=requirements,
                         known_modes=known_modes, on_uncertain=on_uncertain,
                         disabled=disabled, waivers=ctx.waivers, lines=ctx.prefixed_lines(),
-                        prefix=ctx.prefix)
+                        prefix=ctx.prefix, sparse=plant.sparse)
     for req in requirements:  # a requirement the model cannot be judged by is refused here
         why = req.unfit(model)
         if why is not None:
@@ -150,7 +154,12 @@ def _system(block: dict[str, Any], ctx: _Ctx, path: str, *, plant: bool) -> tupl
         if not plant and "E" in block:
             raise ctx.err(f"{path}.E", "is not allowed: controllers are not descriptor systems")
         mats = {k: _matrix(block.get(k), ctx, f"{path}.{k}") for k in ("A", "B", "C", "D", "E")}
-        model = from_arrays(**mats, states=_names(block, "states", ctx, path),
+        sparse = block.get("sparse")
+        if sparse is not None and not isinstance(sparse, bool):
+            raise ctx.err(f"{path}.sparse", f"must be true or false, got {sparse!r}",
+                          "true keeps sparse matrix files sparse at any size, false makes "
+                          "them dense")
+        model = from_arrays(**mats, sparse=sparse, states=_names(block, "states", ctx, path),
                             inputs=_names(block, "inputs", ctx, path),
                             outputs=_names(block, "outputs", ctx, path), source=ctx.source,
                             lines=ctx.prefixed_lines(), prefix=prefix)

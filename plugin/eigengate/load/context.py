@@ -10,7 +10,7 @@ from pathlib import Path
 from typing import Any, Callable, Mapping
 
 from ..model.formats import suggest
-from ..model.core import as_matrix
+from ..model.core import as_matrix, is_sparse
 from ..errors import ModelError
 
 #: Versions of ``model_format`` this loader reads.
@@ -21,7 +21,7 @@ TOP_KEYS = ("model_format", "name", "description", "domain", "sample_period", "p
             "waivers", "loop", "vector_field", "allowed_drift", "parameters")
 POINT_KEYS = ("label", "id", "plant", "feedback", "requirements", "known_modes", "on_uncertain",
               "require", "loop", "allowed_drift")
-SS_KEYS = ("A", "B", "C", "D", "E", "states", "inputs", "outputs")
+SS_KEYS = ("A", "B", "C", "D", "E", "states", "inputs", "outputs", "sparse")
 TF_KEYS = ("num", "den", "states", "inputs", "outputs")
 FEEDBACK_KEYS = ("state_gain", "output_gain", "controller", "inputs", "outputs")
 FEEDBACK_KINDS = ("state_gain", "output_gain", "controller")
@@ -85,6 +85,8 @@ def _matrix(value: Any, ctx: _Ctx, path: str) -> Any:
                               line=ctx.line(path), base_dir=ctx.base_dir, root=ctx.root,
                               read=ctx.read)
     ctx.refs.append(rel)
+    if is_sparse(arr):  # from_arrays checks it, and keeps A and E sparse when large
+        return arr
     return as_matrix(arr, ctx.source, ctx.prefix + path, line=ctx.line(path))
 
 

@@ -16,11 +16,16 @@ if TYPE_CHECKING:  # pragma: no cover
     import numpy as np
 
 
-__all__ = ["Model", "from_arrays", "from_control", "as_matrix", "MAX_STATES",
-           "sample_period_problem"]
+__all__ = ["Model", "from_arrays", "from_control", "as_matrix", "as_sparse", "is_sparse",
+           "MAX_STATES", "SPARSE_THRESHOLD", "dense_limit", "sample_period_problem"]
 
-#: Largest number of states a model may have (dense eigen-decomposition stays in seconds).
+#: Largest number of states of a dense model (dense eigen-decomposition stays in seconds);
+#: :func:`dense_limit` lowers it where memory is short.
 MAX_STATES = 4000
+#: A model given as sparse matrices keeps them sparse (and gets the sparse modal search of
+#: :mod:`eigengate.analysis.sparse_modes`) above this many states, or when asked to; at or
+#: below it, it is made dense and analysed in full.
+SPARSE_THRESHOLD = 2000
 #: Largest magnitude of a matrix entry: norms, products and the s-plane mapping stay finite
 #: in double precision (squares stay below 1e300).
 MAX_MAGNITUDE = 1e150
@@ -98,6 +103,11 @@ class Model:
         return self.E is not None
 
     @property
+    def sparse(self) -> bool:
+        """A and E (when given) are scipy.sparse CSR matrices; B, C, D are always dense."""
+        return is_sparse(self.A)
+
+    @property
     def title(self) -> str:
         """``name`` or ``name[label]`` for an operating point."""
         return self.name if self.label is None else f"{self.name}[{self.label}]"
@@ -132,6 +142,10 @@ def as_matrix(
     def bad(problem: str, hint: str | None = None) -> ModelError:
         return ModelError(source, field_path, problem, line=line, hint=hint)
 
+    if is_sparse(value):  # a sparse matrix where a dense one is needed: checked, then dense
+        value = as_sparse(value, source, field_path, line=line)
+        _check_dense_size(value.shape, bad)
+        value = value.toarray()
     if isinstance(value, np.ndarray):
         arr = value
         if arr.dtype == bool or arr.dtype.kind not in "iuf":
@@ -187,10 +201,79 @@ def as_matrix(
     return arr
 
 
+def is_sparse(value: Any) -> bool:
+    """Whether ``value`` is a scipy.sparse matrix or array (checked without importing scipy)."""
+    return type(value).__module__.startswith("scipy.sparse")
+
+
+def dense_limit() -> int:
+    """Most states of a dense model on this machine (:data:`MAX_STATES`, or fewer where
+    physical memory cannot hold the dense analysis's copies; see ``model.limits``)."""
+    from .limits import dense_state_limit
+
+    return dense_state_limit(MAX_STATES)
+
+
+def _check_dense_size(shape: tuple[int, ...], bad) -> None:
+    """Refuse to make a matrix of ``shape`` dense when it could not be held in memory."""
+    from .limits import memory_budget
+
+    entries = 1
+    for d in shape:
+        entries *= int(d)
+    if 8 * entries > memory_budget() // 2:
+        raise bad(f"is {'×'.join(str(d) for d in shape)}, too large to hold as a dense matrix "
+                  f"({8 * entries} bytes)", "only A and E of a large model may stay sparse")
+
+
+def as_sparse(value: Any, source: str, field_path: str, *, line: int | None = None) -> Any:
+    """A scipy.sparse matrix checked like :func:`as_matrix` checks a dense one (real, finite,
+    magnitudes in range), as a canonical float64 CSR matrix (sorted indices, no duplicates,
+    no stored zeros)."""
+    import numpy as np
+    import scipy.sparse as sp
+
+    def bad(problem: str, hint: str | None = None) -> ModelError:
+        return ModelError(source, field_path, problem, line=line, hint=hint)
+
+    m = sp.csr_matrix(value)
+    if m.ndim != 2:  # pragma: no cover - csr_matrix is always 2-D
+        raise bad(f"must be a 2-D matrix, got {m.ndim} dimensions")
+    if m.dtype == bool or m.dtype.kind not in "iufc":
+        raise bad(f"must hold real numbers, got a sparse matrix of dtype {m.dtype}")
+    if m.dtype.kind == "c":
+        if np.any(m.data.imag):
+            raise bad("must be real, got complex entries")
+        m = sp.csr_matrix((m.data.real, m.indices, m.indptr), shape=m.shape)
+    m = sp.csr_matrix(m, dtype=float, copy=True)
+    m.sum_duplicates()
+    m.eliminate_zeros()
+    m.sort_indices()
+    data = m.data
+    for test, what, hint in (
+            (~np.isfinite(data), "finite numbers", None),
+            (np.abs(data) > MAX_MAGNITUDE, f"numbers of magnitude at most {MAX_MAGNITUDE:g}",
+             "rescale the units: beyond that the eigenvalue computation overflows double "
+             "precision")):
+        if test.any():
+            k = int(np.argmax(test))
+            i = int(np.searchsorted(m.indptr, k, side="right")) - 1
+            raise bad(f"must hold {what}, entry ({i + 1},{int(m.indices[k]) + 1}) is "
+                      f"{data[k]:g}", hint)
+    return m
+
+
 def _check_scale(arr: "np.ndarray", bad) -> None:
     """Refuse a nonzero matrix whose largest entry is below MIN_SCALE."""
     import numpy as np
 
+    if is_sparse(arr):
+        data = getattr(arr, "data")
+        top = float(np.abs(data).max()) if data.size else 0.0
+        if 0.0 < top < MIN_SCALE:
+            raise bad(f"is too small to analyse: its largest entry is {top:g}, below "
+                      f"{MIN_SCALE:g}", "rescale the units (or write 0 for a zero matrix)")
+        return
     top = float(np.abs(arr).max()) if arr.size else 0.0
     if 0.0 < top < MIN_SCALE:
         i, j = np.unravel_index(int(np.argmax(np.abs(arr))), arr.shape)
@@ -273,11 +356,15 @@ def from_arrays(
     waivers: Sequence[Any] = (),
     lines: Mapping[str, int] | None = None,
     prefix: str = "",
+    sparse: bool | None = None,
 ) -> Model:
     """Build a validated :class:`Model` from matrices.
 
     ``B``, ``C`` and ``D`` default to empty (no inputs, no outputs; ``C`` defaults to no
     outputs). ``prefix`` is prepended to field names in error messages (``"plant."``).
+    ``sparse``: make A (and E) sparse CSR matrices (True: the sparse modal search), dense
+    (False), or, by default, keep a scipy.sparse A sparse above :data:`SPARSE_THRESHOLD`
+    states. B, C and D are always dense.
     """
     import numpy as np
 
@@ -289,19 +376,38 @@ def from_arrays(
     def mat(value: Any, key: str) -> np.ndarray:
         return as_matrix(value, source, fld(key), line=lines.get(fld(key)))
 
-    a = mat(A, "A")
+    keep = sparse if sparse is not None else \
+        is_sparse(A) and A.shape[0] > SPARSE_THRESHOLD
+
+    def spmat(value: Any, key: str) -> Any:
+        return as_sparse(value if is_sparse(value) else mat(value, key), source, fld(key),
+                         line=lines.get(fld(key)))
+
+    if keep:
+        a = spmat(A, "A")
+        e_sparse = None if E is None else spmat(E, "E")
+    else:
+        a = mat(A, "A")
     _check_scale(a, lambda p, h=None: ModelError(source, fld("A"), p, line=lines.get(fld("A")),
                                                  hint=h))
     n = a.shape[0]
-    if a.size == 0:
+    if a.shape[0] * a.shape[1] == 0:
         raise ModelError(source, fld("A"), "must not be empty, got a 0×0 matrix",
                          line=lines.get(fld("A")))
     if a.shape[0] != a.shape[1]:
         raise ModelError(source, fld("A"), f"must be square, got {a.shape[0]}×{a.shape[1]}",
                          line=lines.get(fld("A")))
-    if n > MAX_STATES:
-        raise ModelError(source, fld("A"), f"has {n} states, more than the limit of {MAX_STATES}",
-                         line=lines.get(fld("A")))
+    from .limits import MAX_SPARSE_STATES
+
+    limit = MAX_SPARSE_STATES if keep else dense_limit()
+    if n > limit:
+        what = "a sparse" if keep else "a dense"
+        raise ModelError(source, fld("A"), f"has {n} states, more than the limit of {limit} for "
+                         f"{what} model" + ("" if keep else " on this machine"),
+                         line=lines.get(fld("A")),
+                         hint=None if keep else "store A (and E) as a sparse matrix (a "
+                         "scipy.sparse.save_npz .npz, a Matrix Market .mtx or a sparse .mat "
+                         "file) to use the sparse modal search; see docs/model-format.md")
     b = np.zeros((n, 0)) if B is None else mat(B, "B")
     if B is not None and b.size == 0:
         b = np.zeros((n, 0))
@@ -323,7 +429,16 @@ def from_arrays(
         raise ModelError(source, fld("D"), f"must be {p}×{m} (outputs of C × inputs of B), got "
                          f"{d.shape[0]}×{d.shape[1]}", line=lines.get(fld("D")))
     e = None
-    if E is not None:
+    if keep and e_sparse is not None:
+        e = e_sparse
+        if e.shape != (n, n):
+            raise ModelError(source, fld("E"), f"must be {n}×{n} like A, got "
+                             f"{e.shape[0]}×{e.shape[1]}", line=lines.get(fld("E")))
+        _check_scale(e, lambda p, h=None: ModelError(source, fld("E"), p,
+                                                     line=lines.get(fld("E")), hint=h))
+        ident = e.nnz == n and bool((e.diagonal() == 1.0).all())
+        e = None if ident else e
+    elif E is not None:
         e = mat(E, "E")
         if e.shape != (n, n):
             raise ModelError(source, fld("E"), f"must be {n}×{n} like A, got "

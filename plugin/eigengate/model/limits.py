@@ -5,6 +5,8 @@ share: below both, so neither imports the other."""
 from __future__ import annotations
 
 __all__ = ["MAX_NESTING", "MAX_VALUES", "MAX_INT_DIGITS", "FLOAT_MAX", "int_problem",
+           "DENSE_COPIES", "MAX_SPARSE_STATES", "physical_memory", "memory_budget",
+           "dense_state_limit", "sparse_entry_limit",
            "int_value"]
 
 #: Deepest nesting of lists and mappings accepted; parsers recurse, so this bounds the stack.
@@ -37,3 +39,48 @@ def int_value(value: str) -> int | None:
     if body.startswith(("0o", "0x")):
         return int(body[2:], 8 if body[1] == "o" else 16)
     return int(value)
+
+
+# ---------------------------------------------------------------- memory-derived limits
+
+#: Dense float64 n×n copies the dense modal analysis holds at its peak: the matrix and its
+#: balanced copy (1 each), right and left eigenvectors, the residual and the E-weighted left
+#: vectors (complex: 2 each), participation factors (1), LAPACK's Hessenberg/Schur work (2).
+DENSE_COPIES = 12
+#: Share of the machine's physical memory a single model may plan to use.
+MEMORY_FRACTION = 0.25
+#: Bytes a stored nonzero of a sparse matrix costs while it is read and converted: the
+#: triplet (two 8-byte indices and the value) plus the compressed copy (value, 4-byte index).
+SPARSE_ENTRY_BYTES = 36
+#: Most states of a sparse model (its index arrays stay 32-bit; 10⁷ is far past what the
+#: shift-invert search of :mod:`eigengate.analysis.sparse_modes` does in minutes).
+MAX_SPARSE_STATES = 10_000_000
+
+
+def physical_memory() -> int:
+    """Physical memory of the machine in bytes (8 GiB when the system does not say)."""
+    import os
+
+    try:
+        pages, size = os.sysconf("SC_PHYS_PAGES"), os.sysconf("SC_PAGE_SIZE")
+    except (AttributeError, ValueError, OSError):  # pragma: no cover - not POSIX
+        return 8 << 30
+    return int(pages) * int(size) if pages > 0 and size > 0 else 8 << 30
+
+
+def memory_budget() -> int:
+    """Bytes one model may plan to use: :data:`MEMORY_FRACTION` of physical memory."""
+    return int(MEMORY_FRACTION * physical_memory())
+
+
+def dense_state_limit(cap: int) -> int:
+    """Most states the dense analysis takes here: ``cap`` (the time limit) or fewer, so that
+    :data:`DENSE_COPIES` dense float64 copies of n×n fit in :func:`memory_budget`."""
+    import math
+
+    return max(1, min(cap, math.isqrt(memory_budget() // (8 * DENSE_COPIES))))
+
+
+def sparse_entry_limit() -> int:
+    """Most stored nonzeros a sparse matrix may declare here (memory budget)."""
+    return max(1, memory_budget() // SPARSE_ENTRY_BYTES)

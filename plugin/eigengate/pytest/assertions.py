@@ -271,10 +271,11 @@ class Subject:
 
     @property
     def spectrum(self):
-        """Modal analysis of the (single) model: :class:`~eigengate.analysis.modes.Spectrum`."""
-        from ..analysis.modes import analyse
+        """Modal analysis of the (single) model: :class:`~eigengate.analysis.modes.Spectrum`
+        (for a sparse model, the partial spectrum of the sparse search)."""
+        from ..analysis.sparse_modes import spectrum_of
 
-        return analyse(self.model)
+        return spectrum_of(self.model)
 
     # ---- steps
     def is_stable(self, marginal: bool = False) -> "Subject":

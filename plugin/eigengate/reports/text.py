@@ -95,9 +95,12 @@ def model_lines(r: ModelResult, *, verbose: bool = True, color: bool = False) ->
               f"spectral abscissa {sp.spectral_abscissa:.6g} 1/s")
     extra = f", {sp.infinite} infinite" if sp.infinite else ""
     nm = len(sp.modes)
-    lines = [f"  {_p(m.title)}: {status} — {sp.n_eigenvalues} eigenvalues in {nm} "
+    partial = getattr(sp, "search", None) is not None  # a sparse search: the modes found
+    found = f" found of {m.n_states} by a sparse search" if partial else ""
+    origin = "not classified (partial spectrum)" if partial else r.equilibrium.type
+    lines = [f"  {_p(m.title)}: {status} — {sp.n_eigenvalues} eigenvalues{found} in {nm} "
              f"mode{'' if nm == 1 else 's'}{extra}, {figure}, "
-             f"min ζ {sp.min_damping:.3g}; origin: {r.equilibrium.type}"]
+             f"min ζ {sp.min_damping:.3g}; origin: {origin}"]
     if verbose:
         for v in r.verdicts:
             if v.passed and not v.uncertain:

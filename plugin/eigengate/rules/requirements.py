@@ -19,6 +19,7 @@ from typing import Any, Callable, Iterable, Sequence
 from ..analysis.equilibrium import classify, side
 from .known_modes import KnownMode, known_modes_verdict, split_known_modes
 from ..analysis.modes import Mode, Spectrum
+from ..analysis.sparse_modes import Target
 from .catalogue import RULES, Rule, Verdict
 
 __all__ = [
@@ -51,6 +52,12 @@ class Requirement:
 
     def check(self, modes: Sequence[Mode], spectrum: Spectrum, on_uncertain: str) -> Verdict:
         raise NotImplementedError  # pragma: no cover
+
+    def targets(self) -> "tuple[Target, ...] | None":
+        """The s-plane regions this requirement judges, which a sparse search must cover;
+        None when it needs every eigenvalue (it cannot be judged on a partial spectrum:
+        :mod:`eigengate.rules.partial`)."""
+        return None
 
     def _verdict(self, **kw: Any) -> Verdict:
         info = self.info
@@ -134,6 +141,9 @@ class Stability(Requirement):
     def spec(self) -> str:
         return "stable: marginal" if self.allow_marginal else "stable: true"
 
+    def targets(self):
+        return (Target("right", 0.0),)
+
     def check(self, modes, spectrum, on_uncertain):
         discrete = spectrum.model.discrete
         unstable = [m for m in modes if side(m) > 0]
@@ -175,7 +185,8 @@ class Stability(Requirement):
                          f" 1/s), worst {inexact[0].describe()}: could be {could}, not decided; "
                          + decided)
         if not parts:
-            parts.append(f"all {sum(m.count for m in modes)} eigenvalues satisfy {where}; "
+            parts.append(f"all {sum(m.count for m in modes)} eigenvalues "
+                         f"{'found ' if getattr(spectrum, 'search', None) else ''}satisfy {where}; "
                          f"slowest decay rate {_fmt(margin)} 1/s")
         if discrete:  # margin in the plane of the measured value: 1 - spectral radius
             margin = 1.0 - measured
@@ -206,6 +217,9 @@ class MinDecayRate(Requirement):
     def spec(self):
         return f"min_decay_rate: {_fmt(self.alpha)}"
 
+    def targets(self):
+        return (Target("right", -self.alpha),)
+
     def check(self, modes, spectrum, on_uncertain):
         return _threshold_verdict(self, _decay_rows(modes), self.alpha, True, "decay rate",
                                   on_uncertain, empty="no modes to check",
@@ -221,6 +235,9 @@ class MinDamping(Requirement):
 
     def spec(self):
         return f"min_damping: {_fmt(self.zeta)}"
+
+    def targets(self):
+        return (Target("sector", self.zeta),)
 
     def check(self, modes, spectrum, on_uncertain):
         # cos is 1-Lipschitz and a disc of radius ρ about s turns the angle by ≤ asin(ρ/|s|).
@@ -242,6 +259,9 @@ class MaxFrequency(Requirement):
 
     def spec(self):
         return f"max_frequency: {_fmt(self.omega)}"
+
+    def targets(self):
+        return (Target("outside", self.omega),)
 
     def check(self, modes, spectrum, on_uncertain):
         rows = [(m, m.natural_frequency, m.uncertainty, m.enclosure) for m in modes
@@ -290,6 +310,12 @@ class PoleRegion(Requirement):
         parts = [f"{k}: {_fmt(v)}" for k, v in (("min_decay_rate", self.alpha),
                  ("min_damping", self.zeta), ("max_frequency", self.omega)) if v is not None]
         return "pole_region: {" + ", ".join(parts) + "}"
+
+    def targets(self):
+        return tuple(t for t in (None if self.alpha is None else Target("right", -self.alpha),
+                                 None if self.zeta is None else Target("sector", self.zeta),
+                                 None if self.omega is None else Target("outside", self.omega))
+                     if t is not None)
 
     def check(self, modes, spectrum, on_uncertain):
         # The signed distance to the region's boundary is 1-Lipschitz in s.
@@ -426,8 +452,14 @@ def evaluate(spectrum: Spectrum, requirements: Sequence[Requirement] | None = No
     modes, taken = split_known_modes(spectrum, known)
     out = [known_modes_verdict(taken)] if known else []
     refused = {id(r): why for r, why in unmet_for(model, reqs)}  # fail, never pass unseen
-    out.extend(r.check(modes, spectrum, policy) if id(r) not in refused else
-               not_evaluable(r, refused[id(r)]) for r in reqs)
+    if getattr(spectrum, "search", None) is not None:  # a sparse search: a partial spectrum
+        from .partial import partial_verdict
+
+        out.extend(partial_verdict(r, modes, spectrum, policy) if id(r) not in refused else
+                   not_evaluable(r, refused[id(r)]) for r in reqs)
+    else:
+        out.extend(r.check(modes, spectrum, policy) if id(r) not in refused else
+                   not_evaluable(r, refused[id(r)]) for r in reqs)
     need = require or model.require or "estimated"
     if need not in ("certified", "estimated"):
         raise ValueError(f"require must be 'certified' or 'estimated', got {need!r}")

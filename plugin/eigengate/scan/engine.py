@@ -26,16 +26,25 @@ __all__ = ["ModelResult", "FileResult", "analyse_model", "apply_waivers", "check
 def analyse_model(model: Model, config: "Config | None" = None) -> ModelResult:
     """Analyse one model and evaluate its requirements (the repository layers of ``config``
     below the model's own, when given); no waivers applied yet."""
-    from ..analysis.modes import analyse
+    from ..analysis.sparse_modes import spectrum_of
+    from ..rules.partial import search_targets
     from ..rules.requirements import evaluate, origin, split_known_modes
 
     if config is not None:
         config = config.policy_for(model.source)  # a nested policy judges its own folder
         model = config.effective(model)
-    spectrum = analyse(model)
+    # a sparse model's search covers the regions its requirements judge
+    spectrum = spectrum_of(model, search_targets(model.requirements))
     verdicts = evaluate(spectrum) or (_nothing_checked(),)
     remaining, _ = split_known_modes(spectrum, model.known_modes)
-    return ModelResult(model=model, spectrum=spectrum, equilibrium=origin(remaining, spectrum)[0],
+    equilibrium = origin(remaining, spectrum)[0]
+    if spectrum.search is not None:  # classified from the modes found: not decided
+        from dataclasses import replace
+
+        equilibrium = replace(equilibrium, uncertain=True, detail=f"from the "
+                              f"{spectrum.n_eigenvalues} eigenvalues a sparse search found "
+                              f"of {model.n_states}, not the whole spectrum")
+    return ModelResult(model=model, spectrum=spectrum, equilibrium=equilibrium,
                        verdicts=verdicts, findings=tuple(findings_of(model, verdicts, config)))
 
 

@@ -31,7 +31,7 @@ from ..rules.waivers import Waiver
 
 __all__ = ["results_to_data", "results_from_data", "CachedSpectrum", "Blobs", "FORMAT"]
 
-FORMAT = 6
+FORMAT = 7
 
 
 class Blobs:
@@ -134,6 +134,17 @@ class _LazyModes(Sequence):
         return id(self)
 
 
+class StoredSearch:
+    """What a sparse search covered, as a cached result keeps it: its description only (a
+    cached result is never evaluated again)."""
+
+    def __init__(self, text: str) -> None:
+        self.text = text
+
+    def coverage(self) -> str:
+        return self.text
+
+
 class CachedSpectrum:
     """Stands in for :class:`~eigengate.analysis.modes.Spectrum` when a result comes from the cache:
     the summary figures are stored, the modes are built only when something reads them."""
@@ -147,6 +158,8 @@ class CachedSpectrum:
         self.spectral_radius = data["radius"]
         self.min_damping = data["min_damping"]
         self.n_eigenvalues = data["n_eigenvalues"]
+        coverage = data.get("search")
+        self.search = None if coverage is None else StoredSearch(str(coverage))
         count = data["n_modes"]
         rows, part = data["modes"], data["participation"]
         # The blobs are read when the modes are: check now that they fit, so a damaged
@@ -168,6 +181,7 @@ def _spectrum_data(sp, blobs: Blobs) -> dict:
         "abscissa": sp.spectral_abscissa, "radius": sp.spectral_radius,
         "min_damping": sp.min_damping, "n_eigenvalues": sp.n_eigenvalues,
         "n_modes": len(modes),
+        "search": None if getattr(sp, "search", None) is None else sp.search.coverage(),
         "modes": blobs.put_array(_mode_table(modes)),
         "participation": blobs.put_array(part),
     }
@@ -178,9 +192,27 @@ def _spectrum_data(sp, blobs: Blobs) -> dict:
 _MATRICES = ("A", "B", "C", "D", "E")
 
 
-def _array(ref: tuple) -> "np.ndarray":
+def _array(ref: tuple):
+    """A stored matrix: one float64 blob, or a sparse one as its CSR arrays."""
     blobs, index = ref
+    if isinstance(index, list):  # ["csr", rows, cols, data, indices, indptr]
+        import scipy.sparse as sparse
+
+        _, rows, cols, data, indices, indptr = index
+        return sparse.csr_matrix((blobs.array(data)[0], blobs.array(indices)[0].astype(np.int64),
+                                  blobs.array(indptr)[0].astype(np.int64)), shape=(rows, cols))
     return blobs.array(index)
+
+
+def _put_matrix(blobs: Blobs, a):
+    """A matrix into the blobs: dense as it is, sparse (A, E of a sparse model) as its CSR
+    arrays, each a 1×k float64 blob (indices are exact in float64 below 2⁵³)."""
+    if type(a).__module__.startswith("scipy.sparse"):
+        c = a.tocsr()
+        return ["csr", int(c.shape[0]), int(c.shape[1])] + [
+            blobs.put_array(np.asarray(x, dtype=np.float64).reshape(1, -1))
+            for x in (c.data, c.indices, c.indptr)]
+    return blobs.put_array(a)
 
 
 def _text(ref: tuple):
@@ -227,7 +259,7 @@ def _model_data(m, blobs: Blobs) -> dict:
     for r in m.requirements:
         if type(r).__name__ not in classes:  # pragma: no cover - a new class not listed
             raise TypeError(f"cannot cache requirement {type(r).__name__}")
-    out: dict[str, Any] = {k: blobs.put_array(getattr(m, k)) for k in _MATRICES}
+    out: dict[str, Any] = {k: _put_matrix(blobs, getattr(m, k)) for k in _MATRICES}
     out.update({
         "name": m.name, "label": m.label, "source": m.source, "structure": m.structure,
         "sample_period": m.sample_period, "states": list(m.states), "inputs": list(m.inputs),
@@ -319,11 +351,17 @@ def _model_from(d: dict, blobs, shapes: list) -> CachedModel:
             fields[k] = None
             continue
         # read later: check now that it is there, and of its kind
-        if (_shape(shapes, index) is None) != (k == "lines"):
+        if isinstance(index, list) and k != "lines":
+            if len(index) != 6 or index[0] != "csr" or type(index[1]) is not int \
+                    or type(index[2]) is not int or any(
+                        _shape(shapes, i) is None for i in index[3:]):
+                raise ValueError(f"model field {k} is not a sparse matrix record")
+        elif (_shape(shapes, index) is None) != (k == "lines"):
             raise ValueError(f"model field {k} is not a blob of its kind")
         stored[k] = (blobs, index)
     n = len(d["states"])
-    if shapes[d["A"]] != (n, n):
+    a = d["A"]
+    if (tuple(a[1:3]) if isinstance(a, list) else shapes[a]) != (n, n):
         raise ValueError("model matrix A does not fit its states")
     fields.update(
         _stored=stored, name=d["name"], label=d["label"], source=d["source"],

@@ -1,0 +1,112 @@
+"""Sparse benchmark: the sparse modal search on large generated models (issue 15).
+
+1. Time: eigengate's sparse search (``eigengate.analyse_sparse`` with the targets of
+   ``stable: true`` and ``min_damping: 0.05``: rightmost and least damped modes, residual
+   bounds, participation factors, coverage) on the 2-D heat equation (five-point Laplacian
+   on a √n × √n grid, invented data) against a bare ``scipy.sparse.linalg.eigs(A, k=6,
+   sigma=0)`` on the same matrix, both sides back to back in each round. Target: ≤ 3×.
+2. Memory: the peak resident memory (VmHWM) of a fresh process that builds the model and runs
+   the search, against the same for the bare ``eigs``. Target: ≤ 1 GB for 10⁵ states.
+3. Scale: one run at 10⁶ states (``--million``). Target: ≤ 2 minutes.
+
+The figure of (1) is the median of the per-round ratios (with their range), so a machine
+whose speed drifts slows both sides alike. Run:
+``python benchmarks/bench_sparse.py [--states 100000] [--repeat 5] [--million]``.
+"""
+
+from __future__ import annotations
+
+import argparse
+import math
+import statistics
+import subprocess
+import sys
+import time
+
+
+def heat(n: int):
+    """Five-point Laplacian on an m×m grid (m = ⌊√n⌋), scaled by (m+1)²: symmetric, stable."""
+    import scipy.sparse as sp
+
+    m = int(math.isqrt(n))
+    t = sp.diags([1.0, -2.0, 1.0], [-1, 0, 1], shape=(m, m))
+    eye = sp.identity(m)
+    return ((sp.kron(t, eye) + sp.kron(eye, t)) * float((m + 1) ** 2)).tocsr()
+
+
+def ours(A) -> object:
+    from eigengate.analysis.sparse_modes import Target, analyse_sparse
+    from eigengate.model.core import from_arrays
+
+    model = from_arrays(A, sparse=True)
+    return analyse_sparse(model, [Target("right", 0.0), Target("sector", 0.05)])
+
+
+def bare(A) -> object:
+    from scipy.sparse.linalg import eigs
+
+    return eigs(A, k=6, sigma=0)
+
+
+def _timed(fn, *args) -> float:
+    t0 = time.perf_counter()
+    fn(*args)
+    return time.perf_counter() - t0
+
+
+_CHILD = """
+import sys
+sys.path[:0] = [{bench!r}]
+import bench_sparse as b
+A = b.heat({n})
+b.{side}(A)
+print([l for l in open('/proc/self/status') if l.startswith('VmHWM')][0].split()[1])
+"""
+
+
+def peak_kb(side: str, n: int) -> int:
+    """VmHWM (kB) of a fresh process that builds the model and runs ``side``."""
+    import os
+
+    code = _CHILD.format(bench=os.path.dirname(os.path.abspath(__file__)), n=n,
+                         side=side)
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                         check=True)
+    return int(out.stdout.strip().splitlines()[-1])
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--states", type=int, default=100_000)
+    parser.add_argument("--repeat", type=int, default=5)
+    parser.add_argument("--million", action="store_true", help="also one 10⁶-state run")
+    args = parser.parse_args()
+    A = heat(args.states)
+    n = A.shape[0]
+    ratios, t_ours, t_bare = [], [], []
+    for _ in range(args.repeat):
+        a = _timed(ours, A)
+        b = _timed(bare, A)
+        t_ours.append(a)
+        t_bare.append(b)
+        ratios.append(a / b)
+    med = statistics.median(ratios)
+    print(f"sparse search vs eigs(k=6, sigma=0), n = {n}: median {med:.3f}× (range "
+          f"{min(ratios):.3f}–{max(ratios):.3f}, {len(ratios)} rounds; ours "
+          f"{statistics.median(t_ours):.2f} s, bare {statistics.median(t_bare):.2f} s); "
+          f"target ≤ 3×: {'met' if med <= 3.0 else 'NOT met'}")
+    spectrum = ours(A)
+    print(f"  {spectrum.search.coverage()}")
+    print(f"  rightmost {spectrum.modes[0].describe()} ± {spectrum.modes[0].uncertainty:.3g}")
+    mine, theirs = peak_kb("ours", n), peak_kb("bare", n)
+    print(f"peak memory (VmHWM), n = {n}: ours {mine / 1024:.0f} MB, bare eigs "
+          f"{theirs / 1024:.0f} MB; target ≤ 1024 MB: {'met' if mine <= 1 << 20 else 'NOT met'}")
+    if args.million:
+        big = heat(1_000_000)
+        seconds = _timed(ours, big)
+        print(f"n = {big.shape[0]}: {seconds:.1f} s; target ≤ 120 s: "
+              f"{'met' if seconds <= 120 else 'NOT met'}")
+
+
+if __name__ == "__main__":
+    main()
