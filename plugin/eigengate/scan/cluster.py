@@ -21,8 +21,9 @@ when it ends, so a long-lived worker never serves an edited module's old code.
 
 Failures: Dask reruns the tasks of a worker that died (up to its ``allowed-failures``) and
 retries a task that raised (``retries=``). A chunk that still fails because its workers died
-is split into single files and submitted again; a single file whose analysis kills its worker
-every time becomes its own EG001 finding. Every file's slot is filled exactly once, and the
+(``KilledWorker``, a closed connection, a cancelled task) is split into single files and
+submitted again; a single file lost again is analysed once more at the end, alone on the
+cluster, and a loss then is its own: the file becomes its own EG001 finding. An exception raised by the analysis itself is an eigengate bug, as in a local run. Every file's slot is filled exactly once, and the
 results are assembled in file order, as in a local run. A scheduler that cannot be reached, or
 that has no workers, is a :class:`ClusterError` after at most :func:`connect_timeout` seconds.
 
@@ -164,11 +165,25 @@ def _connect(address: str):
                            'pip install "eigengate[cluster]"') from None
     timeout = connect_timeout()
     _reachable(address, timeout)
-    try:
-        client = Client(address, timeout=timeout, set_as_default=False)
-    except (OSError, TimeoutError) as exc:
+    # Dask's own timeout covers the connection, not a peer that accepts and never answers:
+    # the client is made in a thread (a daemon: one that hangs does not hold the exit).
+    import threading
+
+    made: list = []
+
+    def make() -> None:
+        try:
+            made.append(Client(address, timeout=timeout, set_as_default=False))
+        except BaseException as exc:  # handed to the caller
+            made.append(exc)
+
+    maker = threading.Thread(target=make, name="eigengate-cluster-connect", daemon=True)
+    maker.start()
+    maker.join(timeout + 1)
+    client = made[0] if made else TimeoutError("no answer")
+    if isinstance(client, BaseException):
         raise ClusterError(f"cannot connect to the Dask scheduler at {address} within "
-                           f"{timeout:g} s: {exc}") from None
+                           f"{timeout:g} s: {client}") from None
     try:
         client.wait_for_workers(1, timeout=timeout)
     except (OSError, TimeoutError):
@@ -228,6 +243,10 @@ def cluster_run(todo: Sequence[tuple[int, str, Any]], names: Sequence[str], conf
 
 def _run(todo: list, names: Sequence[str], config: Config, address: str, remote, step,
          version: str) -> None:
+    """Submit ``todo`` in chunks and settle each as it finishes; then analyse, one at a time
+    with nothing else running, the files whose single-file task was lost with its worker
+    (a task queued on a worker dies with the one that kills it), so that a loss there is
+    the file's own."""
     client = _connect(address)
     try:
         from distributed import as_completed
@@ -238,17 +257,15 @@ def _run(todo: list, names: Sequence[str], config: Config, address: str, remote,
         size = chunk_size(len(todo), threads)
         pending: dict[Any, list] = {}
         filled: set[int] = set()
+        suspects: list = []
 
-        def submit(items: list) -> None:
+        def submit(items: list, into) -> None:
             future = client.submit(_analyse_chunk, spec, [p for _, p, _ in items],
                                    pure=False, retries=RETRIES)
             pending[future] = items
-            queue.add(future)
+            into.add(future)
 
-        queue = as_completed([], loop=client.loop, with_results=True, raise_errors=False)
-        for k in range(0, len(todo), size):
-            submit(list(todo[k:k + size]))
-        for future, value in queue:
+        def settle(future, value, into) -> None:
             items = pending.pop(future)
             if future.status == "finished":
                 outcome = value
@@ -261,10 +278,13 @@ def _run(todo: list, names: Sequence[str], config: Config, address: str, remote,
                 if client.status not in ("running", "connecting"):
                     raise ClusterError(f"lost the connection to the Dask scheduler at "
                                        f"{address}") from None
-                if len(items) > 1:  # find the file that stops its workers, if one does
-                    for item in items:
-                        submit([item])
-                    continue
+                if into is not None:  # one by one: find the file that stops its workers
+                    if len(items) > 1:
+                        for item in items:
+                            submit([item], into)
+                    else:
+                        suspects.append(items[0])
+                    return
                 why = f"{type(exc).__name__}: {exc}".splitlines()[0]
                 outcome = [_unanalysed(names[items[0][0]], why)]
             slots = [i for i, _, _ in items]
@@ -273,6 +293,20 @@ def _run(todo: list, names: Sequence[str], config: Config, address: str, remote,
             filled.update(slots)
             remote(items, outcome)  # (the paths in items are resolved; remote reads slot, key)
             step(len(items))
+
+        def collect():
+            return as_completed([], loop=client.loop, with_results=True, raise_errors=False)
+
+        queue = collect()
+        for k in range(0, len(todo), size):
+            submit(list(todo[k:k + size]), queue)
+        for future, value in queue:
+            settle(future, value, queue)
+        for item in suspects:
+            alone = collect()
+            submit([item], alone)
+            for future, value in alone:
+                settle(future, value, None)
         if len(filled) != len(todo):  # pragma: no cover - as_completed ends with pending
             raise ClusterError(f"the cluster returned {len(filled)} of {len(todo)} files")
     finally:
