@@ -105,13 +105,41 @@ def repo(tmp_path_factory):
 
 
 def _check(repo: Path, *args: str):
-    """The command line on ``repo``: (exit status, stdout, the JSON report's bytes)."""
+    """The command line on ``repo`` as a subprocess: (exit status, stdout, the JSON report's
+    bytes)."""
     report = repo.parent / "report.json"
     report.unlink(missing_ok=True)
     out = run_cli("check", ".", "-q", "-o", f"json:{report}", *args, cwd=repo, env=ENV,
                   timeout=120)
     assert "Traceback" not in out.stderr, out.stderr
     return out.returncode, out.stdout, report.read_bytes() if report.exists() else None
+
+
+def _main(repo: Path, *args: str):
+    """The same in this process (eigengate.cli.main; no interpreter start-up to pay):
+    (exit status, stdout, the JSON report's bytes, stderr)."""
+    import contextlib
+    import io
+
+    from eigengate.cli import main
+
+    report = repo.parent / "report.json"
+    report.unlink(missing_ok=True)
+    out, err = io.StringIO(), io.StringIO()
+    with contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
+        code = main(["check", str(repo), "-q", "-o", f"json:{report}", *args])
+    assert "Traceback" not in err.getvalue(), err.getvalue()
+    return code, out.getvalue(), report.read_bytes() if report.exists() else None, err.getvalue()
+
+
+def _small_repo(base: Path, extra: int = 4) -> Path:
+    """The irrigation boom of example_repo (a vector field in dynamics/boom.py) and a few
+    generated files."""
+    repo = _repo(base, extra=extra)
+    for folder in (repo / "models").iterdir():
+        if folder.name not in ("boom", "generated"):
+            shutil.rmtree(folder)
+    return repo
 
 
 def test_same_report_as_a_local_run(cluster, repo):
@@ -125,15 +153,15 @@ def test_same_report_as_a_local_run(cluster, repo):
     assert sum(fr["source"].startswith("models/generated/matrix_") for fr in files) == 6
 
 
-def test_cache_written_by_the_client_and_read_again(cluster, repo, tmp_path):
+def test_cache_written_by_the_client_and_read_again(cluster, tmp_path):
     from eigengate.scan.config import load_config
     from eigengate.scan.runner import scan
 
     lc, client = cluster
     work = _repo(tmp_path, extra=8)
-    first = _check(work, "--no-cache", "--cluster", lc.scheduler_address)
+    first = _main(work, "--no-cache", "--cluster", lc.scheduler_address)
     assert not (work / ".eigengate-cache").exists()  # --no-cache: nobody wrote one
-    second = _check(work, "--cluster", lc.scheduler_address)
+    second = _main(work, "--cluster", lc.scheduler_address)
     assert second == first and (work / ".eigengate-cache").is_dir()
     # the workers never loaded the cache's module, so they cannot have written to it
     assert set(client.run(lambda: "eigengate.scan.cache" in sys.modules).values()) == {False}
@@ -143,9 +171,11 @@ def test_cache_written_by_the_client_and_read_again(cluster, repo, tmp_path):
     invalid = sum(fr.error is not None for fr in result.files)  # never cached, as locally
     assert invalid == 2 and result.analysed == invalid
     assert result.cache_hits == len(result.files) - invalid > 0
-    # nothing left to analyse: no connection needed (this address has no scheduler)
+    # with nothing left to analyse no connection is needed (no scheduler at this address)
+    for bad in (work / "models" / "generated").glob("invalid_*.yaml"):
+        bad.unlink()
     dead = f"tcp://127.0.0.1:{_free_port()}"
-    assert _check(work, "--cluster", dead) == first
+    assert _main(work, "--cluster", dead) == _main(work, "--no-cluster")
 
 
 def test_a_killed_worker_loses_and_duplicates_nothing(cluster, tmp_path):
@@ -153,7 +183,7 @@ def test_a_killed_worker_loses_and_duplicates_nothing(cluster, tmp_path):
     from eigengate.scan.runner import scan
 
     lc, _ = cluster
-    work = _repo(tmp_path, extra=12)
+    work = _small_repo(tmp_path, extra=36)  # two files a task: a lost task is split
     pids = work / "pids.txt"
     # the first import of this module (on a worker) waits to be killed; later ones do not
     write(work / "dynamics" / "slow.py", f"""\
@@ -207,7 +237,7 @@ def test_a_file_that_kills_every_worker_is_its_own_eg001(cluster, tmp_path):
     from eigengate.scan.runner import scan
 
     lc, _ = cluster
-    work = _repo(tmp_path, extra=4)
+    work = _small_repo(tmp_path)
     write(work / "dynamics" / "fatal.py", """\
         import os, signal
         os.kill(os.getpid(), signal.SIGKILL)
@@ -230,15 +260,15 @@ def test_a_file_that_kills_every_worker_is_its_own_eg001(cluster, tmp_path):
     assert others and all("on the cluster" not in str(fr.error) for fr in others)
 
 
-def test_an_edited_vector_field_is_imported_again(cluster, repo, tmp_path):
+def test_an_edited_vector_field_is_imported_again(cluster, tmp_path):
     lc, _ = cluster
-    work = _repo(tmp_path, extra=0)
+    work = _small_repo(tmp_path)
     boom = work / "dynamics" / "boom.py"
-    before = _check(work, "--no-cache", "--cluster", lc.scheduler_address)
+    before = _main(work, "--no-cache", "--cluster", lc.scheduler_address)
     # negative damping: the hanging boom becomes unstable (trace of the Jacobian 0.8 > 0)
     boom.write_text(boom.read_text().replace("- damping * rate", "+ damping * rate"))
-    after = _check(work, "--no-cache", "--cluster", lc.scheduler_address)
-    local = _check(work, "--no-cache", "--jobs", "1")
+    after = _main(work, "--no-cache", "--cluster", lc.scheduler_address)
+    local = _main(work, "--no-cache", "--jobs", "1")
     assert after == local and after[2] != before[2]
 
 
@@ -268,20 +298,27 @@ def test_a_silent_address_times_out(tmp_path):
 
 def test_config_key_and_the_flag_that_wins(cluster, tmp_path):
     lc, _ = cluster
-    work = _repo(tmp_path, extra=4)
-    local = _check(work, "--no-cache")
+    work = _small_repo(tmp_path)
+    local = _main(work, "--no-cache")
     py = work / "pyproject.toml"
     dead = f"tcp://127.0.0.1:{_free_port()}"
     py.write_text(py.read_text().replace("[tool.eigengate]\n",
                                          f'[tool.eigengate]\ncluster = "{dead}"\n'))
-    code, _, _ = _check(work, "--no-cache")
-    assert code == 2  # the configured cluster is used, and cannot be reached
-    assert _check(work, "--no-cache", "--no-cluster") == local
-    assert _check(work, "--no-cache", "--cluster", lc.scheduler_address) == local
+    code, _, _, err = _main(work, "--no-cache")
+    # the configured cluster is used, and cannot be reached
+    assert code == 2 and err.startswith(f"eigengate: error: cannot reach the Dask scheduler "
+                                        f"at {dead}")
+    assert _main(work, "--no-cache", "--no-cluster") == local
+    assert _main(work, "--no-cache", "--cluster", lc.scheduler_address) == local
     py.write_text(py.read_text().replace(dead, lc.scheduler_address))
-    assert _check(work, "--no-cache") == local
-    out = run_cli("check", "--no-cache", "--jobs", "2", cwd=work, env=ENV)
-    assert out.returncode == 2 and "--jobs is for a local run" in out.stderr
+    assert _main(work, "--no-cache") == local
+    code, _, _, err = _main(work, "--no-cache", "--jobs", "2")
+    assert code == 2 and "--jobs is for a local run" in err
+    # baseline accept on the cluster: the client writes the baseline file
+    out = run_cli("baseline", "accept", cwd=work, env=ENV, timeout=120)
+    assert out.returncode == 1, out.stderr  # the invalid file is not accepted
+    assert (work / ".eigengate" / "baseline.json").is_file()
+    assert _main(work, "--no-cache")[0] == 1
 
 
 def test_cluster_key_does_not_change_the_cache_digest(tmp_path):
@@ -314,11 +351,11 @@ def test_bad_cluster_flag(tmp_path):
 
 
 def test_nested_policy_cannot_name_a_cluster(tmp_path):
-    work = _repo(tmp_path, extra=0)
-    write(work / "models" / "flex" / "eigengate.toml", 'cluster = "tcp://127.0.0.1:8786"\n')
-    out = run_cli("check", "--no-cache", cwd=work, env=ENV)
-    assert out.returncode == 2
-    assert "cluster is a key of the repository's top policy only" in out.stderr
+    work = _small_repo(tmp_path)
+    write(work / "models" / "boom" / "eigengate.toml", 'cluster = "tcp://127.0.0.1:8786"\n')
+    code, _, _, err = _main(work, "--no-cache")
+    assert code == 2
+    assert "cluster is a key of the repository's top policy only" in err
 
 
 def test_worker_that_sees_another_repository(cluster, tmp_path):
@@ -327,7 +364,7 @@ def test_worker_that_sees_another_repository(cluster, tmp_path):
     from eigengate.version import __version__
 
     lc, client = cluster
-    work = _repo(tmp_path, extra=0)
+    work = _small_repo(tmp_path)
     spec = (str(work), "pyproject.toml", "not-the-digest", __version__)
     future = client.submit(cl._analyse_chunk, spec, [], pure=False)
     with pytest.raises(cl.ClusterError, match="reads another policy"):

@@ -117,11 +117,19 @@ def _analyse_chunk(spec: tuple[str, str | None, str, str], paths: list[str]) -> 
     (:func:`eigengate.scan.runner.encoded`)."""
     from .runner import encoded
 
+    import gc
+
     config = _worker_config(spec)
     before = set(sys.modules)
+    # As in the pool's workers, the cyclic collector waits while a chunk builds its many
+    # small objects (which form no cycles); the worker's own state is left as it was.
+    was = gc.isenabled()
+    gc.disable()
     try:
         return [encoded(p, config) for p in paths]
     finally:
+        if was:
+            gc.enable()
         _forget_modules(before, os.path.realpath(config.root))
 
 
