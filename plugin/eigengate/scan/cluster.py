@@ -318,4 +318,4 @@ def _run(todo: list, names: Sequence[str], config: Config, address: str, remote,
         if len(filled) != len(todo):  # pragma: no cover - as_completed ends with pending
             raise ClusterError(f"the cluster returned {len(filled)} of {len(todo)} files")
     finally:
-        client.close()
+        client.close(timeout=connect_timeout())
