@@ -183,7 +183,7 @@ def test_a_killed_worker_loses_and_duplicates_nothing(cluster, tmp_path):
     from eigengate.scan.runner import scan
 
     lc, _ = cluster
-    work = _small_repo(tmp_path, extra=36)  # two files a task: a lost task is split
+    work = _small_repo(tmp_path, extra=36)  # 4 files in the first tasks: a lost one is split
     pids = work / "pids.txt"
     # the first import of this module (on a worker) waits to be killed; later ones do not
     write(work / "dynamics" / "slow.py", f"""\
@@ -374,8 +374,11 @@ def test_worker_that_sees_another_repository(cluster, tmp_path):
         client.submit(cl._analyse_chunk, gone, [], pure=False).result(timeout=60)
 
 
-def test_chunks_are_small_enough_to_share():
-    from eigengate.scan.cluster import CHUNK_MAX, chunk_size
+def test_chunks_cover_every_file_once_and_shrink_at_the_end():
+    from eigengate.scan.cluster import CHUNK_MAX, chunk_sizes
 
-    assert chunk_size(5, 2) == 1 and chunk_size(160, 2) == 10
-    assert chunk_size(10**6, 4) == CHUNK_MAX
+    for files, threads in [(1, 1), (5, 2), (37, 2), (1000, 2), (20000, 8)]:
+        sizes = chunk_sizes(files, threads)
+        assert sum(sizes) == files and all(1 <= s <= CHUNK_MAX for s in sizes)
+        assert sizes == sorted(sizes, reverse=True) and sizes[-1] == 1
+    assert chunk_sizes(37, 2)[0] == 4 and chunk_sizes(20000, 2)[0] == CHUNK_MAX

@@ -221,9 +221,16 @@ def _unanalysed(rel: str, why: str) -> Outcome:
     return data, blobs.items, [], False
 
 
-def chunk_size(files: int, threads: int) -> int:
-    """Files per task: about eight tasks per worker thread, 1 to :data:`CHUNK_MAX` files."""
-    return max(1, min(CHUNK_MAX, files // (8 * max(1, threads))))
+def chunk_sizes(files: int, threads: int) -> list[int]:
+    """Files per task, in order: a quarter of each worker thread's share of what is left,
+    1 to :data:`CHUNK_MAX` files, so the chunks shrink towards the end and the workers
+    finish together (as the pool's do)."""
+    sizes = []
+    left = files
+    while left > 0:
+        sizes.append(max(1, min(CHUNK_MAX, left // (4 * max(1, threads)))))
+        left -= sizes[-1]
+    return sizes
 
 
 def cluster_run(todo: Sequence[tuple[int, str, Any]], names: Sequence[str], config: Config,
@@ -262,7 +269,6 @@ def _run(todo: list, names: Sequence[str], config: Config, address: str, remote,
         lost = _lost_worker_errors()
         spec = (os.fspath(config.root), config.source, config.digest, version)
         threads = sum(client.nthreads().values()) or 1
-        size = chunk_size(len(todo), threads)
         pending: dict[Any, list] = {}
         filled: set[int] = set()
         suspects: list = []
@@ -306,8 +312,10 @@ def _run(todo: list, names: Sequence[str], config: Config, address: str, remote,
             return as_completed([], loop=client.loop, with_results=True, raise_errors=False)
 
         queue = collect()
-        for k in range(0, len(todo), size):
-            submit(list(todo[k:k + size]), queue)
+        first = 0
+        for size in chunk_sizes(len(todo), threads):
+            submit(list(todo[first:first + size]), queue)
+            first += size
         for future, value in queue:
             settle(future, value, queue)
         for item in suspects:
