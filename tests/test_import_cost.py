@@ -5,11 +5,30 @@ import subprocess
 import sys
 
 
+HEAVY = ('numpy', 'scipy', 'control', 'yaml', 'dask', 'distributed')
+
+
 def test_import_loads_no_heavy_library():
     code = ("import sys, eigengate, eigengate.cli, eigengate.errors; "
-            "print(sorted(m for m in ('numpy', 'scipy', 'control', 'yaml') if m in sys.modules))")
+            f"print(sorted(m for m in {HEAVY!r} if m in sys.modules))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == "[]"
+
+
+def test_a_local_check_never_loads_dask(tmp_path):
+    """dask is the cluster extra's: a local run of the command line (the pool included)
+    imports neither dask nor distributed, even where they are installed."""
+    from support import oscillator, write
+
+    (tmp_path / ".git").mkdir()
+    for k in range(20):  # enough files for the process pool
+        write(tmp_path / f"m{k:02d}.yaml", oscillator(f"m{k}"))
+    code = ("import sys; from eigengate.cli import main; "
+            f"status = main(['check', {str(tmp_path)!r}, '-q', '--jobs', '2']); "
+            "print(status, sorted(m for m in ('dask', 'distributed') if m in sys.modules))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                         check=True, cwd=tmp_path)
+    assert out.stdout.strip().splitlines()[-1] == "1 []"  # EG103 findings, and no dask
 
 
 def test_public_names_resolve():

@@ -78,6 +78,7 @@ def _parser() -> argparse.ArgumentParser:
     check.add_argument("--jobs", "-j", type=int, default=None, metavar="N",
                        help="processes that analyse at once, this one included "
                             "(default: the number of cores)")
+    _cluster_args(check)
     check.add_argument("--no-cache", action="store_true",
                        help="neither read nor write the result cache")
     check.add_argument("--color", choices=("auto", "always", "never"), default="auto",
@@ -114,6 +115,7 @@ def _parser() -> argparse.ArgumentParser:
     accept.add_argument("--jobs", "-j", type=int, default=None, metavar="N",
                         help="processes that analyse at once, this one included "
                              "(default: the number of cores)")
+    _cluster_args(accept)
 
     show = sub.add_parser("show", help="show one model: modes, equilibrium and every verdict")
     show.add_argument("path", metavar="FILE", help="a model file")
@@ -132,6 +134,39 @@ def _config_arg(p: argparse.ArgumentParser) -> None:
                         "[tool.eigengate] table, or eigengate.toml)")
 
 
+def _cluster_args(p: argparse.ArgumentParser) -> None:
+    where = p.add_mutually_exclusive_group()
+    where.add_argument("--cluster", metavar="ADDRESS", default=None,
+                       help="analyse on the workers of the Dask scheduler at ADDRESS, e.g. "
+                            "tls://scheduler:8786 (default: [tool.eigengate] cluster; needs "
+                            "pip install \"eigengate[cluster]\" and the repository at the "
+                            "same path on every worker)")
+    where.add_argument("--no-cluster", action="store_true",
+                       help="analyse here even when the policy names a cluster")
+
+
+def _cluster(args, config) -> str | None:
+    """The Dask scheduler to analyse on: --cluster, else the policy's ``cluster``, unless
+    --no-cluster; refused beside --jobs (the workers of a cluster are its own)."""
+    from .scan.config import cluster_address
+
+    if args.no_cluster:
+        return None
+    if args.cluster is not None:
+        try:
+            address = cluster_address(args.cluster)
+        except ValueError as exc:
+            raise UsageError(f"--cluster {exc}") from None
+    else:
+        address = config.cluster
+    if address is not None and args.jobs is not None:
+        whence = "--cluster" if args.cluster is not None else \
+            f"the cluster of {config.source or 'the policy'}"
+        raise UsageError(f"--jobs is for a local run and cannot go with {whence}; add "
+                         "--no-cluster to analyse here")
+    return address
+
+
 def _normalise(argv: list[str]) -> list[str]:
     """``eigengate [options] [PATH...]`` means ``eigengate check ...``."""
     if not argv or (argv[0] not in COMMANDS and argv[0] not in ("-h", "--help", "--version")):
@@ -141,6 +176,7 @@ def _normalise(argv: list[str]) -> list[str]:
 
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line; return the exit status."""
+    from .scan.cluster import ClusterError
     from .scan.config import ConfigError
 
     parser = _parser()
@@ -158,6 +194,9 @@ def main(argv: Sequence[str] | None = None) -> int:
         print(f"eigengate: error: {exc}", file=sys.stderr)
         return Exit.USAGE
     except ConfigError as exc:  # a nested policy, met during the scan
+        print(f"eigengate: error: {exc}", file=sys.stderr)
+        return Exit.USAGE
+    except ClusterError as exc:  # not installed, not reachable, no workers, connection lost
         print(f"eigengate: error: {exc}", file=sys.stderr)
         return Exit.USAGE
     except KeyboardInterrupt:  # pragma: no cover - interactive
@@ -357,7 +396,7 @@ def _check(args) -> int:
             return Exit.CLEAN  # nothing the commit changed is used by a model
     result = scan(paths, config, jobs=args.jobs, use_cache=not args.no_cache,
                   progress=terminal_progress(), filter_named=args.only_model_files,
-                  complete=complete)
+                  complete=complete, cluster=_cluster(args, config))
     files = list(result.files)
     notes = []
     failed = result.failed
@@ -430,7 +469,8 @@ def _accept(args) -> int:
 
     _missing(args.paths)
     config = _load_config(args, _config_start(args.paths))
-    result = scan(args.paths or [config.root], config, jobs=args.jobs)
+    result = scan(args.paths or [config.root], config, jobs=args.jobs,
+                  cluster=_cluster(args, config))
     broken = [fr for fr in result.files if fr.error is not None]
     try:
         summary = accept(result.files, config, complete=not args.paths)

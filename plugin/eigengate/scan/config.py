@@ -11,6 +11,7 @@ verdict. Keys::
     select = ["EG1"]                   # rule ids or id prefixes to report (default: all)
     ignore = ["EG104"]
     allow_python = false               # CLI: may model files import project code (nonlinear)
+    cluster = "tls://scheduler:8786"   # CLI: analyse on this Dask scheduler's workers
     [tool.eigengate.requirements]      # defaults for every model
     stable = true
     [tool.eigengate.severity]          # per rule: "error" (default), "warning" or "off"
@@ -54,13 +55,28 @@ if TYPE_CHECKING:  # pragma: no cover
     from ..rules.requirements import Requirement
     from ..rules.waivers import Waiver
 
-__all__ = ["Config", "ConfigError", "Override", "load_config", "find_config", "CONFIG_KEYS"]
+__all__ = ["Config", "ConfigError", "Override", "load_config", "find_config", "CONFIG_KEYS",
+           "cluster_address"]
 
 CONFIG_KEYS = ("include", "exclude", "on_uncertain", "require", "select", "ignore",
                "requirements", "severity", "overrides", "waivers", "allow_python", "baseline",
-               "allowed_drift", "extend")
+               "allowed_drift", "extend", "cluster")
 OVERRIDE_KEYS = ("paths", "requirements", "on_uncertain", "require", "allowed_drift")
 SEVERITIES = ("error", "warning", "off")
+#: The Dask comm schemes an address may name.
+CLUSTER_SCHEMES = ("tcp", "tls", "ws", "wss", "ucx")
+
+
+def cluster_address(value: Any) -> str:
+    """``value`` checked as a Dask scheduler address (``tcp://host:8786``); ValueError with
+    what is wrong otherwise."""
+    import re
+
+    if not isinstance(value, str) or not re.fullmatch(
+            r"(?:%s)://[^\s/]+" % "|".join(CLUSTER_SCHEMES), value):
+        raise ValueError(f"must be a Dask scheduler address SCHEME://HOST:PORT with SCHEME "
+                         f"one of {', '.join(CLUSTER_SCHEMES)}, got {value!r}")
+    return value
 
 
 Layer = tuple[tuple["Requirement", ...], tuple[str, ...]]
@@ -99,6 +115,7 @@ class Config:
     allow_python: bool = False
     baseline: str = ".eigengate/baseline.json"  # repository-relative path of the baseline
     allowed_drift: Mapping[str, Any] | None = None
+    cluster: str | None = None  # a Dask scheduler's address (the command line's executor)
     digest: str = ""  # hash of the configuration table, part of every cache key
     #: A nested policy: its folder relative to ``root`` (the outermost policy's folder, which
     #: model sources are relative to); its globs are stored relative to ``root``.
@@ -438,6 +455,15 @@ def parse_config(table: Mapping[str, Any], *, root: Path, source: str | None = "
             kw["waivers"] = parse_waivers(table["waivers"], shown, "waivers", in_config=True)
         except ModelError as exc:
             raise ConfigError(shown, exc.field, exc.problem, exc.hint) from None
+    if "cluster" in table:
+        if base:
+            raise ConfigError(shown, "cluster", "is a key of the repository's top policy only",
+                              "name the scheduler in the outermost policy file")
+        try:
+            kw["cluster"] = cluster_address(table["cluster"])
+        except ValueError as exc:
+            raise ConfigError(shown, "cluster", str(exc),
+                              'for example cluster = "tls://scheduler.internal:8786"') from None
     if "extend" in table and not isinstance(table["extend"], bool):
         raise ConfigError(shown, "extend", f"must be true or false, got {table['extend']!r}",
                           "true layers this policy on the one of the folder above")
@@ -450,8 +476,10 @@ def parse_config(table: Mapping[str, Any], *, root: Path, source: str | None = "
     import hashlib
     import json
 
-    # the rule table is part of the key: results cached before a rule was added are not reused
-    kw["digest"] = hashlib.sha256(json.dumps([table, sorted(RULES), base, outer],
+    # the rule table is part of the key: results cached before a rule was added are not reused;
+    # where the files are analysed is not (a cluster's results are a local run's)
+    judged = {k: v for k, v in table.items() if k != "cluster"}
+    kw["digest"] = hashlib.sha256(json.dumps([judged, sorted(RULES), base, outer],
                                              sort_keys=True, default=str).encode()).hexdigest()
     return Config(root=root, source=source, _folders={} if folders is None else folders, **kw)
 

@@ -70,24 +70,31 @@ def _init_worker(config: Config) -> None:
     gc.disable()
 
 
-def _work(path: str) -> tuple[dict, list, list[str], bool]:
-    """Analyse one file in a worker: (JSON-safe data, its blob items, referenced files,
-    whether it loaded)."""
+def encoded(path: str, config: Config) -> tuple[dict, list, list[str], bool]:
+    """Analyse one file in a worker (of the pool or of a cluster): (JSON-safe data, its blob
+    items, referenced files, whether it loaded)."""
     from .serial import results_to_data
 
-    source, results, error, refs = analyse_file(path, _WORKER["config"].root, _WORKER["config"])
+    source, results, error, refs = analyse_file(path, config.root, config)
     data, blobs = results_to_data(source, results, error)
     return data, blobs.items, refs, error is None
+
+
+def _work(path: str) -> tuple[dict, list, list[str], bool]:
+    return encoded(path, _WORKER["config"])
 
 
 # ------------------------------------------------------------------ parent side
 
 def scan(paths: Sequence[str | Path], config: Config, *, jobs: int | None = None,
          use_cache: bool = True, progress: Callable[[int, int], None] | None = None,
-         on=None, filter_named: bool = False, complete: bool | None = None) -> Scan:
+         on=None, filter_named: bool = False, complete: bool | None = None,
+         cluster: str | None = None) -> Scan:
     """Check every model file below ``paths`` under ``config``. ``complete`` says the run
     covers the whole repository (policy waivers are judged unused only within what was
-    checked); None: when one of ``paths`` is the configuration root."""
+    checked); None: when one of ``paths`` is the configuration root. ``cluster``: the
+    address of a Dask scheduler whose workers analyse the files the cache cannot serve
+    (:mod:`eigengate.scan.cluster`) instead of ``jobs`` local processes."""
     from ..rules.waivers import today
 
     if complete is None:
@@ -95,7 +102,8 @@ def scan(paths: Sequence[str | Path], config: Config, *, jobs: int | None = None
         complete = any(os.path.realpath(p) == root for p in paths)
     with _gc_paused():
         return _scan(paths, config, jobs=jobs, use_cache=use_cache, progress=progress,
-                     on=on or today(), filter_named=filter_named, complete=complete)
+                     on=on or today(), filter_named=filter_named, complete=complete,
+                     cluster=cluster)
 
 
 @contextlib.contextmanager
@@ -117,7 +125,7 @@ def _gc_paused():
 
 
 def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
-          complete) -> Scan:
+          complete, cluster=None) -> Scan:
     from .serial import Blobs, results_from_data, results_to_data
     from .cache import ResultCache
 
@@ -129,6 +137,7 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
         lambda rel, st: cache.known_key(_cache_name(config, rel), st) is not None)
     slots: list[tuple | None] = [None] * len(files)
     todo: list[tuple[int, str, str | None]] = []
+    names = [f.rel for f in files]  # what a file that no cluster worker analysed is called
     hits = 0
     for i, f in enumerate(files):
         files[i] = None  # type: ignore[call-overload]  # its bytes are not kept past here
@@ -182,7 +191,11 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
         if progress:
             progress(done, total)
 
-    if jobs > 1 and len(todo) >= POOL_THRESHOLD:
+    if cluster is not None and todo:
+        from .cluster import cluster_run
+
+        cluster_run(todo, names, config, cluster, remote, step, local)
+    elif jobs > 1 and len(todo) >= POOL_THRESHOLD:
         _pool_run(todo, config, jobs, local, remote, step)
     else:
         for item in todo:
