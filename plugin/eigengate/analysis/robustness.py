@@ -52,7 +52,7 @@ deterministic: no random starts.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Callable
 
 import numpy as np
@@ -138,6 +138,59 @@ def _backward(M: np.ndarray) -> float:
 
 def _stable(level: float, discrete: bool) -> bool:
     return level < 1.0 if discrete else level < 0.0
+
+
+class _Triangular:
+    """``A − zE`` in (generalized) Schur form ``S − zT`` (unitary factors dropped: the singular
+    values are the same), so that ``σ_min`` costs triangular solves instead of an SVD."""
+
+    def __init__(self, A: np.ndarray, E: np.ndarray | None = None) -> None:
+        import scipy.linalg as la
+
+        if E is None:
+            self.S = la.rsf2csf(*la.schur(A))[0]
+            self.T: np.ndarray | None = None
+        else:
+            self.S, self.T = la.qz(A.astype(complex), E.astype(complex), output="complex")[:2]
+        self.n = A.shape[0]
+        k = min(self.n, 3)
+        self.start = np.linalg.qr(np.vander(np.linspace(1.0, 2.0, self.n), k, increasing=True)
+                                  .astype(complex))[0]
+
+    def shifted(self, z: complex) -> np.ndarray:
+        if self.T is None:
+            return self.S - z * np.eye(self.n)
+        return self.S - z * self.T
+
+    def smin(self, z: complex) -> float:
+        """Block inverse iteration on ``(RᴴR)⁻¹`` from a fixed start: for orthonormal X,
+        ``1/σ_max(R⁻¹X)`` is never below ``σ_min(R)`` (an upper bound whatever the
+        convergence); stops when it settles to 1e-12."""
+        import scipy.linalg as la
+
+        R = self.shifted(z)
+        if np.min(np.abs(np.diag(R))) == 0.0:
+            return 0.0
+        X, best = self.start, math.inf
+        for _ in range(150):
+            Y = la.solve_triangular(R, X, check_finite=False)
+            top = float(np.linalg.svd(Y, compute_uv=False)[0])
+            if not math.isfinite(top) or top == 0.0:
+                return self.svd(z)
+            est = 1.0 / top
+            if best - est <= 1e-12 * est:
+                return min(best, est)
+            best = min(best, est)
+            W = la.solve_triangular(R, Y, trans="C", check_finite=False)
+            X = np.linalg.qr(W)[0]
+        return best
+
+    def svd(self, z: complex) -> float:
+        """``σ_min`` by a full SVD (of the real embedding ``[[Re R, −Im R], [Im R, Re R]]``,
+        whose singular values are those of R, each twice)."""
+        R = self.shifted(z)
+        big = np.block([[R.real, -R.imag], [R.imag, R.real]])
+        return float(np.linalg.svd(big, compute_uv=False)[-1])
 
 
 # ------------------------------------------------------------------ level sets (H∞, radii)
@@ -333,16 +386,14 @@ def stability_radius(A: object, *, E: object | None = None, sample_period: float
     Binv = np.eye(n) if En is None else np.linalg.inv(En)
     p = _Plant(Ms, Binv, np.eye(n), np.zeros((n, n)), discrete)
     scale_a, scale_e = float(np.linalg.norm(M)), float(np.linalg.norm(Em))
-
-    def smin(w: float) -> float:
-        return float(np.linalg.svd(M - _point(w, discrete) * Em, compute_uv=False)[-1])
+    tri = _Triangular(M, En)
 
     def value(w: float) -> float:
-        s = smin(w)
+        s = tri.smin(_point(w, discrete))
         return math.inf if s == 0.0 else 1.0 / s
 
     low, w, up, sweeps, notes = _level_set(value, p, _starts(lam, discrete), rtol)
-    s_hat = smin(w)
+    s_hat = min(tri.svd(_point(w, discrete)), 1.0 / low)
     err = 10.0 * n * EPS * (scale_a + (1.0 if discrete else abs(w)) * scale_e)
     lower = 1.0 / up if up > 0.0 else math.inf
     backward = 10.0 * n * EPS * (scale_a + float(np.max(np.abs(lam))) * scale_e)
@@ -568,7 +619,7 @@ def _growth_continuous(M: np.ndarray, mu: float, rtol: float) -> Bracket:
     base = la.expm(M * a_t)
     if b_t > a_t:
         res = minimize_scalar(lambda s: -_norm2(base @ la.expm(M * s)), bounds=(0.0, b_t - a_t),
-                              method="bounded", options={"xatol": 1e-3 * rtol * (b_t - a_t)})
+                              method="bounded", options={"xatol": math.sqrt(rtol) * (b_t - a_t)})
         if -res.fun > best:
             best, t_best = float(-res.fun), a_t + float(res.x)
     slack = 10.0 * n * EPS * (1.0 + steps) * best
@@ -598,38 +649,11 @@ def growth_curve(A: object, times: object, *, E: object | None = None,
 # ------------------------------------------------------------------------------ pseudospectra
 
 
-def _smin(M: np.ndarray, z: complex) -> float:
-    return float(np.linalg.svd(M - z * np.eye(M.shape[0]), compute_uv=False)[-1])
-
-
 def sigma_min_grid(A: object, xs: object, ys: object, *, E: object | None = None) -> np.ndarray:
     """``σ_min(E⁻¹A − (x+iy)I)`` on the grid, shape ``(len(ys), len(xs))`` (Schur form)."""
-    import scipy.linalg as la
-
-    M = _standard(A, E)
-    T = la.schur(M.astype(complex), output="complex")[0]
+    tri = _Triangular(_standard(A, E))
     xv, yv = np.asarray(xs, dtype=float).ravel(), np.asarray(ys, dtype=float).ravel()
-    out = np.empty((yv.size, xv.size))
-    for i, y in enumerate(yv):
-        for j, x in enumerate(xv):
-            out[i, j] = _smin(T, complex(x, y))
-    return out
-
-
-def _rightmost(B: np.ndarray, eps: float) -> float:
-    """Horizontal search: largest real x with ε a singular value of ``B − xI`` (checked:
-    ``σ_min(B − xI)`` within rounding of ε), −inf when none."""
-    n = B.shape[0]
-    H = np.block([[B, -eps * np.eye(n)], [-eps * np.eye(n), B.conj().T]])
-    mu = np.linalg.eigvals(H)
-    tol = math.sqrt(EPS) * (float(np.linalg.norm(H)) + np.abs(mu))
-    xs = np.sort(mu[np.abs(mu.imag) <= tol].real)[::-1]
-    norm = float(np.linalg.norm(B))
-    for x in xs:
-        s = _smin(B, complex(x))
-        if abs(s - eps) <= 1e-6 * eps + 1e3 * n * EPS * (norm + abs(x)):
-            return float(x)
-    return float(xs[0]) if xs.size else -math.inf
+    return np.array([[tri.smin(complex(x, y)) for x in xv] for y in yv]).reshape(yv.size, xv.size)
 
 
 def _vertical(M: np.ndarray, x: float, eps: float) -> tuple[list[float], list[float]]:
@@ -668,14 +692,13 @@ def pseudospectral_abscissa(A: object, epsilon: float, *, E: object | None = Non
     if not (eps > 0.0 and math.isfinite(eps)):
         raise NotApplicable(f"epsilon: expected a positive finite number, found {epsilon!r}")
     lam = np.linalg.eigvals(M)
-    if sample_period is not None:
-        return _ps_radius(M, lam, eps, rtol)
-    k = int(np.argmax(lam.real))
-    y0 = abs(float(lam[k].imag))
-    x = _rightmost(M - 1j * y0 * np.eye(M.shape[0]) if y0 else M, eps)
-    best = (x, y0)
-    search = _CrissCross(M, eps, rtol, best, float(np.max(lam.real)), False)
-    return search.run()
+    discrete = sample_period is not None
+    k = int(np.argmax(np.abs(lam) if discrete else lam.real))
+    w0 = float(np.angle(lam[k])) if discrete else abs(float(lam[k].imag))
+    spectral = float(np.abs(lam[k]) if discrete else lam[k].real)
+    search = _CrissCross(M, _Triangular(M), eps, rtol, spectral, discrete)
+    start = search.outward(w0, spectral)
+    return search.run(max(start, spectral), w0)
 
 
 @dataclass
@@ -683,11 +706,12 @@ class _CrissCross:
     """State of a criss-cross (or radial/circular) search; ``run`` returns the bracket."""
 
     M: np.ndarray
+    tri: _Triangular
     eps: float
     rtol: float
-    best: tuple[float, float]       # (x, y) or (r, θ)
     spectral: float                 # spectral abscissa (or radius)
     discrete: bool
+    memo: dict[str, float] = field(default_factory=dict)
 
     def cut(self, level: float) -> tuple[list[float], list[float]]:
         if self.discrete:
@@ -697,13 +721,32 @@ class _CrissCross:
     def point(self, level: float, w: float) -> complex:
         return level * complex(math.cos(w), math.sin(w)) if self.discrete else complex(level, w)
 
-    def outward(self, w: float) -> float:
-        if self.discrete:
-            return _rightmost(self.M * complex(math.cos(w), -math.sin(w)), self.eps)
-        return _rightmost(self.M - 1j * w * np.eye(self.M.shape[0]) if w else self.M, self.eps)
+    def outward(self, w: float, start: float) -> float:
+        """A boundary point further out along the line (ray) ``w`` from an inside ``start``:
+        Brent on ``σ_min − ε``, bracketed by ``σ_min(A − zI) ≥ Re z − μ₂(A)`` (``≥ |z| − ‖A‖``)."""
+        from scipy.optimize import brentq
+
+        if not self.inside(start, w):
+            return -math.inf
+        far = self.far()
+        if far <= start:
+            return start
+
+        def g(level: float) -> float:
+            return self.tri.smin(self.point(level, w)) - self.eps
+
+        scale = max(abs(start), abs(self.spectral), self.eps)
+        return float(brentq(g, start, far, xtol=0.25 * self.rtol * scale, rtol=4 * EPS))
+
+    def far(self) -> float:
+        if "far" not in self.memo:
+            top = (float(np.linalg.norm(self.M, 2)) if self.discrete
+                   else float(np.linalg.eigvalsh((self.M + self.M.T) / 2.0)[-1]))
+            self.memo["far"] = top + 2.0 * self.eps
+        return self.memo["far"]
 
     def inside(self, level: float, w: float) -> bool:
-        return _smin(self.M, self.point(level, w)) <= self.eps
+        return self.tri.smin(self.point(level, w)) <= self.eps
 
     def middles(self, ws: list[float]) -> list[float]:
         mids = [(a + b) / 2.0 for a, b in zip(ws, ws[1:])]
@@ -712,10 +755,9 @@ class _CrissCross:
             mids.append(wrap - 2.0 * math.pi if wrap > math.pi else wrap)
         return mids
 
-    def run(self) -> Bracket:
+    def run(self, level: float, w_best: float) -> Bracket:
         """Probe a line (circle) just outside the level: no crossing proves the upper bound;
         otherwise search outwards from the midpoints of the crossings inside (BLO 2003)."""
-        level, w_best = self.best
         scale = max(abs(level), abs(self.spectral), self.eps, 1e-300)
         widen, sweeps, notes = 0, 0, []
         upper = math.inf
@@ -733,7 +775,7 @@ class _CrissCross:
                 cands = sorted({abs(w) for w in cands})
             gained = False
             for w in cands:
-                x = self.outward(w)
+                x = self.outward(w, probe)
                 gained = gained or x > level + 0.5 * self.rtol * scale
                 if x > level:
                     level, w_best = x, w
@@ -760,14 +802,7 @@ class _CrissCross:
             cand = level - step
             z = self.point(cand, w)
             err = 10.0 * n * EPS * (norm + abs(z))
-            if _smin(self.M, z) + err <= self.eps:
+            if self.tri.svd(z) + err <= self.eps:
                 return (abs(z) if self.discrete else z.real), self.point(level, w)
             step *= 2.0
         return (self.spectral, self.point(level, w))
-
-
-def _ps_radius(M: np.ndarray, lam: np.ndarray, eps: float, rtol: float) -> Bracket:
-    k = int(np.argmax(np.abs(lam)))
-    theta = float(np.angle(lam[k])) if abs(lam[k]) > 0 else 0.0
-    r = _rightmost(M * complex(math.cos(theta), -math.sin(theta)), eps)
-    return _CrissCross(M, eps, rtol, (r, theta), float(np.max(np.abs(lam))), True).run()
