@@ -230,3 +230,12 @@ def test_deterministic_growth_and_abscissa():
     assert pseudospectral_abscissa(A, 1e-2) == pseudospectral_abscissa(A, 1e-2)
     assert pseudospectral_abscissa(A / 20, 1e-2, sample_period=1.0) == \
         pseudospectral_abscissa(A / 20, 1e-2, sample_period=1.0)
+
+
+@pytest.mark.parametrize("scale", [1e-6, 1e6])
+def test_abscissa_scales_with_the_matrix(scale):
+    # σ_min(cA − zI) = c σ_min(A − (z/c)I), so α_{cε}(cA) = c α_ε(A) for c > 0 (definition)
+    A = np.array([[-1.0, 5.0], [0.0, -2.0]])
+    base = pseudospectral_abscissa(A, 0.1)
+    b = pseudospectral_abscissa(scale * A, 0.1 * scale)
+    holds(b, scale * base.value, 1e-8)

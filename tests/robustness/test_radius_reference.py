@@ -310,3 +310,19 @@ def test_deterministic():
     second = [stability_radius(A), real_stability_radius(A[:4, :4] - 2 * np.eye(4)),
               hinf_norm(A, np.ones((8, 1)), np.ones((1, 8)), sample_period=None)]
     assert first == second
+
+
+def test_hinf_closed_form_band_pass():
+    # G(s) = 1/(s+1) − 2/(s+2) = −s/((s+1)(s+2)): |G(iω)|² = ω²/((1+ω²)(4+ω²)) peaks where
+    # ω⁴ = 4, at ω = √2 with |G| = 1/3 (calculus), and G(0) = 0
+    A, B, C = np.diag([-1.0, -2.0]), np.ones((2, 1)), np.array([[1.0, -2.0]])
+    b = hinf_norm(A, B, C)
+    inside(b, 1.0 / 3.0, 1e-14)
+    assert abs(b.at[0] - math.sqrt(2.0)) < 1e-4
+
+
+def test_hinf_peak_at_infinity_is_d():
+    # G(s) = 1 − 1/(s+1) = s/(s+1): |G(iω)| increases to |D| = 1 as ω → ∞ (calculus)
+    b = hinf_norm(np.array([[-1.0]]), np.array([[1.0]]), np.array([[-1.0]]), np.array([[1.0]]))
+    inside(b, 1.0, 1e-14)
+    assert b.at == (math.inf,)

@@ -262,7 +262,18 @@ def _level_set(value: Callable[[float], float], p: _Plant, starts: list[float], 
         lower, best_w = floor, math.inf
     notes: list[str] = []
     if lower == 0.0:
-        return 0.0, best_w, 0.0, 0, ["G is identically zero"]
+        if not np.any(p.B) or not np.any(p.C):
+            return 0.0, best_w, 0.0, 0, ["G is identically zero (B or C is zero)"]
+        # σ̄(G) vanished at every start (zeros of G there): any positive level will do
+        lower, best_w = 0.0, starts[0]
+        gamma = 1e-300
+        hard, _ = _crossings(p, max(gamma, 1e-150))
+        if not hard:
+            return 0.0, best_w, 1e-150, 0, ["σ̄(G) ≤ 1e-150 at every frequency"]
+        best_w = max(hard, key=value)
+        lower = value(best_w)
+        if lower == 0.0:
+            return 0.0, best_w, math.inf, 0, ["σ̄(G) vanished where evaluated: not certified"]
     if not math.isfinite(lower):
         return lower, best_w, lower, 0, ["σ̄(G) is infinite at a frequency"]
     forming = (2 * p.A.shape[0] + p.B.shape[1] + p.C.shape[0]) * EPS
@@ -297,9 +308,10 @@ def _starts(lam: np.ndarray, discrete: bool) -> list[float]:
         return sorted({0.0, math.pi, *freq[order[:12]].tolist()})
     mag = np.maximum(np.abs(lam), 1e-300)
     order = np.argsort(np.abs(lam.real) / mag, kind="stable")
-    picks = np.abs(lam.imag[order[:12]]).tolist()
-    near = np.argsort(np.abs(lam.real), kind="stable")[:12]
-    return sorted({0.0, *picks, *np.abs(lam.imag[near]).tolist()})
+    picks = np.abs(lam.imag[order[:8]]).tolist()
+    near = np.argsort(np.abs(lam.real), kind="stable")[:8]
+    corners = [float(np.min(np.abs(lam))), float(np.max(np.abs(lam)))]  # real poles' corners
+    return sorted({0.0, *picks, *np.abs(lam.imag[near]).tolist(), *corners})
 
 
 def _point(w: float, discrete: bool) -> complex:
@@ -308,6 +320,12 @@ def _point(w: float, discrete: bool) -> complex:
 
 def _freq(w: float, T: float | None) -> tuple[float, ...]:
     return (w / T,) if T else (w,)
+
+
+def _unstable_at(lam: np.ndarray, T: float | None) -> tuple[float, ...]:
+    """The frequency of the rightmost (outermost) eigenvalue, rad/s."""
+    k = int(np.argmax(np.abs(lam) if T else lam.real))
+    return _freq(abs(float(np.angle(lam[k]))) if T else abs(float(lam[k].imag)), T)
 
 
 def _gain(p: _Plant) -> Callable[[float], float]:
@@ -349,7 +367,8 @@ def hinf_norm(A: object, B: object, C: object, D: object | None = None, *,
     method = METHOD_D if discrete else METHOD_C
     lam, level = _spectrum(M, discrete)
     if not _stable(level, discrete):
-        return Bracket(math.inf, math.inf, math.inf, (), method, 0, ("A is not stable",))
+        return Bracket(math.inf, math.inf, math.inf, _unstable_at(lam, sample_period), method,
+                       0, ("A is not stable",))
     p = _Plant(M, Bm, Cm, Dm, discrete)
     value = _gain(p)
     d_top = float(np.linalg.svd(Dm, compute_uv=False)[0]) if Dm.size else 0.0
@@ -382,9 +401,8 @@ def stability_radius(A: object, *, E: object | None = None, sample_period: float
     lam = _spectrum(Ms, discrete)[0] if tri is None else tri.eigenvalues()
     level = float(np.max(np.abs(lam)) if discrete else np.max(lam.real))
     if not _stable(level, discrete):
-        k = int(np.argmax(np.abs(lam) if discrete else lam.real))
-        w = abs(float(np.angle(lam[k]))) if discrete else abs(float(lam[k].imag))
-        return Bracket(0.0, 0.0, 0.0, _freq(w, sample_period), method, 0, ("A is not stable",))
+        return Bracket(0.0, 0.0, 0.0, _unstable_at(lam, sample_period), method, 0,
+                       ("A is not stable",))
     if tri is None:
         Bm = np.eye(n) if B is None else _matrix("B", B, n)
         Cm = np.eye(n) if C is None else _matrix("C", C, None, n)
