@@ -52,7 +52,7 @@ deterministic: no random starts.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Callable
 
 import numpy as np
@@ -140,6 +140,64 @@ def _stable(level: float, discrete: bool) -> bool:
     return level < 1.0 if discrete else level < 0.0
 
 
+class _Triangular:
+    """``A − zE`` in (generalized) Schur form ``S − zT`` (unitary factors dropped: the singular
+    values are the same), so that ``σ_min`` costs triangular solves instead of an SVD."""
+
+    def __init__(self, A: np.ndarray, E: np.ndarray | None = None) -> None:
+        import scipy.linalg as la
+
+        if E is None:
+            self.S = la.rsf2csf(*la.schur(A))[0]
+            self.T: np.ndarray | None = None
+        else:
+            self.S, self.T = la.qz(A.astype(complex), E.astype(complex), output="complex")[:2]
+        self.n = A.shape[0]
+        k = min(self.n, 3)
+        self.start = np.linalg.qr(np.vander(np.linspace(1.0, 2.0, self.n), k, increasing=True)
+                                  .astype(complex))[0]
+
+    def eigenvalues(self) -> np.ndarray:
+        d = np.diag(self.S)
+        return d if self.T is None else d / np.diag(self.T)
+
+    def shifted(self, z: complex) -> np.ndarray:
+        if self.T is None:
+            return self.S - z * np.eye(self.n)
+        return self.S - z * self.T
+
+    def smin(self, z: complex) -> float:
+        """Block inverse iteration on ``(RᴴR)⁻¹`` from a fixed start: for orthonormal X,
+        ``1/σ_max(R⁻¹X)`` is never below ``σ_min(R)`` (an upper bound whatever the
+        convergence); stops when it settles to 1e-12."""
+        import scipy.linalg as la
+
+        R = self.shifted(z)
+        if np.min(np.abs(np.diag(R))) == 0.0:
+            return 0.0
+        X, best = self.start, math.inf
+        for _ in range(150):
+            Y = la.solve_triangular(R, X, check_finite=False)
+            top = float(np.linalg.svd(Y, compute_uv=False)[0])
+            if not math.isfinite(top) or top == 0.0:
+                return self.svd(z)
+            est = 1.0 / top
+            if best - est <= 1e-12 * est:
+                break
+            best = min(best, est)
+            W = la.solve_triangular(R, Y, trans="C", check_finite=False)
+            X = np.linalg.qr(W)[0]
+        self.start = X  # warm start for the next (nearby) point: same calls, same floats
+        return min(best, est)
+
+    def svd(self, z: complex) -> float:
+        """``σ_min`` by a full SVD (of the real embedding ``[[Re R, −Im R], [Im R, Re R]]``,
+        whose singular values are those of R, each twice)."""
+        R = self.shifted(z)
+        big = np.block([[R.real, -R.imag], [R.imag, R.real]])
+        return float(np.linalg.svd(big, compute_uv=False)[-1])
+
+
 # ------------------------------------------------------------------ level sets (H∞, radii)
 
 
@@ -204,7 +262,18 @@ def _level_set(value: Callable[[float], float], p: _Plant, starts: list[float], 
         lower, best_w = floor, math.inf
     notes: list[str] = []
     if lower == 0.0:
-        return 0.0, best_w, 0.0, 0, ["G is identically zero"]
+        if not np.any(p.B) or not np.any(p.C):
+            return 0.0, best_w, 0.0, 0, ["G is identically zero (B or C is zero)"]
+        # σ̄(G) vanished at every start (zeros of G there): any positive level will do
+        lower, best_w = 0.0, starts[0]
+        gamma = 1e-300
+        hard, _ = _crossings(p, max(gamma, 1e-150))
+        if not hard:
+            return 0.0, best_w, 1e-150, 0, ["σ̄(G) ≤ 1e-150 at every frequency"]
+        best_w = max(hard, key=value)
+        lower = value(best_w)
+        if lower == 0.0:
+            return 0.0, best_w, math.inf, 0, ["σ̄(G) vanished where evaluated: not certified"]
     if not math.isfinite(lower):
         return lower, best_w, lower, 0, ["σ̄(G) is infinite at a frequency"]
     forming = (2 * p.A.shape[0] + p.B.shape[1] + p.C.shape[0]) * EPS
@@ -239,9 +308,10 @@ def _starts(lam: np.ndarray, discrete: bool) -> list[float]:
         return sorted({0.0, math.pi, *freq[order[:12]].tolist()})
     mag = np.maximum(np.abs(lam), 1e-300)
     order = np.argsort(np.abs(lam.real) / mag, kind="stable")
-    picks = np.abs(lam.imag[order[:12]]).tolist()
-    near = np.argsort(np.abs(lam.real), kind="stable")[:12]
-    return sorted({0.0, *picks, *np.abs(lam.imag[near]).tolist()})
+    picks = np.abs(lam.imag[order[:8]]).tolist()
+    near = np.argsort(np.abs(lam.real), kind="stable")[:8]
+    corners = [float(np.min(np.abs(lam))), float(np.max(np.abs(lam)))]  # real poles' corners
+    return sorted({0.0, *picks, *np.abs(lam.imag[near]).tolist(), *corners})
 
 
 def _point(w: float, discrete: bool) -> complex:
@@ -250,6 +320,12 @@ def _point(w: float, discrete: bool) -> complex:
 
 def _freq(w: float, T: float | None) -> tuple[float, ...]:
     return (w / T,) if T else (w,)
+
+
+def _unstable_at(lam: np.ndarray, T: float | None) -> tuple[float, ...]:
+    """The frequency of the rightmost (outermost) eigenvalue, rad/s."""
+    k = int(np.argmax(np.abs(lam) if T else lam.real))
+    return _freq(abs(float(np.angle(lam[k]))) if T else abs(float(lam[k].imag)), T)
 
 
 def _gain(p: _Plant) -> Callable[[float], float]:
@@ -291,7 +367,8 @@ def hinf_norm(A: object, B: object, C: object, D: object | None = None, *,
     method = METHOD_D if discrete else METHOD_C
     lam, level = _spectrum(M, discrete)
     if not _stable(level, discrete):
-        return Bracket(math.inf, math.inf, math.inf, (), method, 0, ("A is not stable",))
+        return Bracket(math.inf, math.inf, math.inf, _unstable_at(lam, sample_period), method,
+                       0, ("A is not stable",))
     p = _Plant(M, Bm, Cm, Dm, discrete)
     value = _gain(p)
     d_top = float(np.linalg.svd(Dm, compute_uv=False)[0]) if Dm.size else 0.0
@@ -319,12 +396,14 @@ def stability_radius(A: object, *, E: object | None = None, sample_period: float
     discrete = sample_period is not None
     method = METHOD_D if discrete else METHOD_C
     Ms = M if En is None else np.linalg.solve(En, M)
-    lam, level = _spectrum(Ms, discrete)
+    structured = B is not None or C is not None
+    tri = None if structured else _Triangular(M, En)
+    lam = _spectrum(Ms, discrete)[0] if tri is None else tri.eigenvalues()
+    level = float(np.max(np.abs(lam)) if discrete else np.max(lam.real))
     if not _stable(level, discrete):
-        k = int(np.argmax(np.abs(lam) if discrete else lam.real))
-        w = abs(float(np.angle(lam[k]))) if discrete else abs(float(lam[k].imag))
-        return Bracket(0.0, 0.0, 0.0, _freq(w, sample_period), method, 0, ("A is not stable",))
-    if B is not None or C is not None:
+        return Bracket(0.0, 0.0, 0.0, _unstable_at(lam, sample_period), method, 0,
+                       ("A is not stable",))
+    if tri is None:
         Bm = np.eye(n) if B is None else _matrix("B", B, n)
         Cm = np.eye(n) if C is None else _matrix("C", C, None, n)
         norm = hinf_norm(M, Bm, Cm, E=En, sample_period=sample_period, rtol=rtol)
@@ -334,15 +413,12 @@ def stability_radius(A: object, *, E: object | None = None, sample_period: float
     p = _Plant(Ms, Binv, np.eye(n), np.zeros((n, n)), discrete)
     scale_a, scale_e = float(np.linalg.norm(M)), float(np.linalg.norm(Em))
 
-    def smin(w: float) -> float:
-        return float(np.linalg.svd(M - _point(w, discrete) * Em, compute_uv=False)[-1])
-
     def value(w: float) -> float:
-        s = smin(w)
+        s = tri.smin(_point(w, discrete))
         return math.inf if s == 0.0 else 1.0 / s
 
     low, w, up, sweeps, notes = _level_set(value, p, _starts(lam, discrete), rtol)
-    s_hat = smin(w)
+    s_hat = 1.0 / low  # an evaluated σ_min estimate: never below σ_min (see _Triangular)
     err = 10.0 * n * EPS * (scale_a + (1.0 if discrete else abs(w)) * scale_e)
     lower = 1.0 / up if up > 0.0 else math.inf
     backward = 10.0 * n * EPS * (scale_a + float(np.max(np.abs(lam))) * scale_e)
@@ -568,7 +644,7 @@ def _growth_continuous(M: np.ndarray, mu: float, rtol: float) -> Bracket:
     base = la.expm(M * a_t)
     if b_t > a_t:
         res = minimize_scalar(lambda s: -_norm2(base @ la.expm(M * s)), bounds=(0.0, b_t - a_t),
-                              method="bounded", options={"xatol": 1e-3 * rtol * (b_t - a_t)})
+                              method="bounded", options={"xatol": math.sqrt(rtol) * (b_t - a_t)})
         if -res.fun > best:
             best, t_best = float(-res.fun), a_t + float(res.x)
     slack = 10.0 * n * EPS * (1.0 + steps) * best
@@ -598,38 +674,11 @@ def growth_curve(A: object, times: object, *, E: object | None = None,
 # ------------------------------------------------------------------------------ pseudospectra
 
 
-def _smin(M: np.ndarray, z: complex) -> float:
-    return float(np.linalg.svd(M - z * np.eye(M.shape[0]), compute_uv=False)[-1])
-
-
 def sigma_min_grid(A: object, xs: object, ys: object, *, E: object | None = None) -> np.ndarray:
     """``σ_min(E⁻¹A − (x+iy)I)`` on the grid, shape ``(len(ys), len(xs))`` (Schur form)."""
-    import scipy.linalg as la
-
-    M = _standard(A, E)
-    T = la.schur(M.astype(complex), output="complex")[0]
+    tri = _Triangular(_standard(A, E))
     xv, yv = np.asarray(xs, dtype=float).ravel(), np.asarray(ys, dtype=float).ravel()
-    out = np.empty((yv.size, xv.size))
-    for i, y in enumerate(yv):
-        for j, x in enumerate(xv):
-            out[i, j] = _smin(T, complex(x, y))
-    return out
-
-
-def _rightmost(B: np.ndarray, eps: float) -> float:
-    """Horizontal search: largest real x with ε a singular value of ``B − xI`` (checked:
-    ``σ_min(B − xI)`` within rounding of ε), −inf when none."""
-    n = B.shape[0]
-    H = np.block([[B, -eps * np.eye(n)], [-eps * np.eye(n), B.conj().T]])
-    mu = np.linalg.eigvals(H)
-    tol = math.sqrt(EPS) * (float(np.linalg.norm(H)) + np.abs(mu))
-    xs = np.sort(mu[np.abs(mu.imag) <= tol].real)[::-1]
-    norm = float(np.linalg.norm(B))
-    for x in xs:
-        s = _smin(B, complex(x))
-        if abs(s - eps) <= 1e-6 * eps + 1e3 * n * EPS * (norm + abs(x)):
-            return float(x)
-    return float(xs[0]) if xs.size else -math.inf
+    return np.array([[tri.smin(complex(x, y)) for x in xv] for y in yv]).reshape(yv.size, xv.size)
 
 
 def _vertical(M: np.ndarray, x: float, eps: float) -> tuple[list[float], list[float]]:
@@ -667,15 +716,15 @@ def pseudospectral_abscissa(A: object, epsilon: float, *, E: object | None = Non
     eps = float(epsilon)
     if not (eps > 0.0 and math.isfinite(eps)):
         raise NotApplicable(f"epsilon: expected a positive finite number, found {epsilon!r}")
-    lam = np.linalg.eigvals(M)
-    if sample_period is not None:
-        return _ps_radius(M, lam, eps, rtol)
-    k = int(np.argmax(lam.real))
-    y0 = abs(float(lam[k].imag))
-    x = _rightmost(M - 1j * y0 * np.eye(M.shape[0]) if y0 else M, eps)
-    best = (x, y0)
-    search = _CrissCross(M, eps, rtol, best, float(np.max(lam.real)), False)
-    return search.run()
+    tri = _Triangular(M)
+    lam = tri.eigenvalues()
+    discrete = sample_period is not None
+    k = int(np.argmax(np.abs(lam) if discrete else lam.real))
+    w0 = float(np.angle(lam[k])) if discrete else abs(float(lam[k].imag))
+    spectral = float(np.abs(lam[k]) if discrete else lam[k].real)
+    search = _CrissCross(M, tri, eps, rtol, spectral, discrete)
+    start = search.outward(w0, spectral)
+    return search.run(max(start, spectral), w0)
 
 
 @dataclass
@@ -683,11 +732,12 @@ class _CrissCross:
     """State of a criss-cross (or radial/circular) search; ``run`` returns the bracket."""
 
     M: np.ndarray
+    tri: _Triangular
     eps: float
     rtol: float
-    best: tuple[float, float]       # (x, y) or (r, θ)
     spectral: float                 # spectral abscissa (or radius)
     discrete: bool
+    memo: dict[str, float] = field(default_factory=dict)
 
     def cut(self, level: float) -> tuple[list[float], list[float]]:
         if self.discrete:
@@ -697,13 +747,32 @@ class _CrissCross:
     def point(self, level: float, w: float) -> complex:
         return level * complex(math.cos(w), math.sin(w)) if self.discrete else complex(level, w)
 
-    def outward(self, w: float) -> float:
-        if self.discrete:
-            return _rightmost(self.M * complex(math.cos(w), -math.sin(w)), self.eps)
-        return _rightmost(self.M - 1j * w * np.eye(self.M.shape[0]) if w else self.M, self.eps)
+    def outward(self, w: float, start: float) -> float:
+        """A boundary point further out along the line (ray) ``w`` from an inside ``start``:
+        Brent on ``σ_min − ε``, bracketed by ``σ_min(A − zI) ≥ Re z − μ₂(A)`` (``≥ |z| − ‖A‖``)."""
+        from scipy.optimize import brentq
+
+        if not self.inside(start, w):
+            return -math.inf
+        far = self.far()
+        if far <= start:
+            return start
+
+        def g(level: float) -> float:
+            return self.tri.smin(self.point(level, w)) - self.eps
+
+        scale = max(abs(start), abs(self.spectral), self.eps)
+        return float(brentq(g, start, far, xtol=0.25 * self.rtol * scale, rtol=4 * EPS))
+
+    def far(self) -> float:
+        if "far" not in self.memo:
+            top = (float(np.linalg.norm(self.M, 2)) if self.discrete
+                   else float(np.linalg.eigvalsh((self.M + self.M.T) / 2.0)[-1]))
+            self.memo["far"] = top + 2.0 * self.eps
+        return self.memo["far"]
 
     def inside(self, level: float, w: float) -> bool:
-        return _smin(self.M, self.point(level, w)) <= self.eps
+        return self.tri.smin(self.point(level, w)) <= self.eps
 
     def middles(self, ws: list[float]) -> list[float]:
         mids = [(a + b) / 2.0 for a, b in zip(ws, ws[1:])]
@@ -712,10 +781,9 @@ class _CrissCross:
             mids.append(wrap - 2.0 * math.pi if wrap > math.pi else wrap)
         return mids
 
-    def run(self) -> Bracket:
+    def run(self, level: float, w_best: float) -> Bracket:
         """Probe a line (circle) just outside the level: no crossing proves the upper bound;
         otherwise search outwards from the midpoints of the crossings inside (BLO 2003)."""
-        level, w_best = self.best
         scale = max(abs(level), abs(self.spectral), self.eps, 1e-300)
         widen, sweeps, notes = 0, 0, []
         upper = math.inf
@@ -733,7 +801,7 @@ class _CrissCross:
                 cands = sorted({abs(w) for w in cands})
             gained = False
             for w in cands:
-                x = self.outward(w)
+                x = self.outward(w, probe)
                 gained = gained or x > level + 0.5 * self.rtol * scale
                 if x > level:
                     level, w_best = x, w
@@ -754,20 +822,13 @@ class _CrissCross:
     def verified(self, level: float, w: float) -> tuple[float, complex]:
         """Step inwards until ``σ_min + rounding ≤ ε`` at the point: a proven lower bound."""
         n = self.M.shape[0]
-        step = max(abs(level), self.eps) * 1e-12
         norm = float(np.linalg.norm(self.M))
+        step = 4.0 * 10.0 * n * EPS * (norm + abs(self.point(level, w))) + EPS * abs(level)
         for _ in range(80):
             cand = level - step
             z = self.point(cand, w)
             err = 10.0 * n * EPS * (norm + abs(z))
-            if _smin(self.M, z) + err <= self.eps:
+            if self.tri.smin(z) + err <= self.eps:  # smin is never below σ_min
                 return (abs(z) if self.discrete else z.real), self.point(level, w)
             step *= 2.0
         return (self.spectral, self.point(level, w))
-
-
-def _ps_radius(M: np.ndarray, lam: np.ndarray, eps: float, rtol: float) -> Bracket:
-    k = int(np.argmax(np.abs(lam)))
-    theta = float(np.angle(lam[k])) if abs(lam[k]) > 0 else 0.0
-    r = _rightmost(M * complex(math.cos(theta), -math.sin(theta)), eps)
-    return _CrissCross(M, eps, rtol, (r, theta), float(np.max(np.abs(lam))), True).run()
