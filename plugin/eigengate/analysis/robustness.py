@@ -675,9 +675,22 @@ def growth_curve(A: object, times: object, *, E: object | None = None,
 
 
 def sigma_min_grid(A: object, xs: object, ys: object, *, E: object | None = None) -> np.ndarray:
-    """``σ_min(E⁻¹A − (x+iy)I)`` on the grid, shape ``(len(ys), len(xs))`` (Schur form)."""
-    tri = _Triangular(_standard(A, E))
+    """``σ_min(E⁻¹A − (x+iy)I)`` on the grid, shape ``(len(ys), len(xs))``: batched SVDs of
+    the shifted matrices for small models (one LAPACK call per chunk of grid points), the
+    Schur form's inverse iteration per point for larger ones."""
+    M = _standard(A, E)
     xv, yv = np.asarray(xs, dtype=float).ravel(), np.asarray(ys, dtype=float).ravel()
+    n = M.shape[0]
+    if n <= 64:
+        z = (xv[None, :] + 1j * yv[:, None]).ravel()
+        out = np.empty(z.size)
+        step = max(1, 200_000 // max(n * n, 1))
+        eye = np.eye(n)
+        for i in range(0, z.size, step):
+            shifted = M[None, :, :] - z[i:i + step, None, None] * eye[None]
+            out[i:i + step] = np.linalg.svd(shifted, compute_uv=False)[:, -1]
+        return out.reshape(yv.size, xv.size)
+    tri = _Triangular(M)
     return np.array([[tri.smin(complex(x, y)) for x in xv] for y in yv]).reshape(yv.size, xv.size)
 
 
