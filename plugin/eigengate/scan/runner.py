@@ -70,17 +70,9 @@ def _init_worker(config: Config) -> None:
     gc.disable()
 
 
-def encoded(path: str, config: Config) -> tuple[dict, list, list[str], bool]:
-    """Analyse one file in a worker (of the pool or of a cluster): (JSON-safe data, its blob
-    items, referenced files, whether it loaded)."""
-    from .serial import results_to_data
-
-    source, results, error, refs = analyse_file(path, config.root, config)
-    data, blobs = results_to_data(source, results, error)
-    return data, blobs.items, refs, error is None
-
-
 def _work(path: str) -> tuple[dict, list, list[str], bool]:
+    from .serial import encoded  # numpy comes with it: worker side only
+
     return encoded(path, _WORKER["config"])
 
 

@@ -18,7 +18,7 @@ from typing import Any, cast
 
 import numpy as np
 
-from .engine import ModelResult
+from .engine import ModelResult, analyse_file
 from ..analysis.equilibrium import Equilibrium
 from ..errors import ModelError
 from ..rules.findings import Finding, ModeRow
@@ -482,3 +482,12 @@ def results_from_data(d: dict, blobs):
         return d["source"], (), ModelError(src, fld, problem, line=line, hint=hint)
     shapes = blobs.shapes()
     return d["source"], tuple([_result_from(r, blobs, shapes) for r in d["results"]]), None
+
+
+def encoded(path: str, config: Any) -> tuple[dict, list, list[str], bool]:
+    """Analyse one file in a worker (of the pool or of a cluster): (JSON-safe data, its blob
+    items, referenced files, whether it loaded). ``config`` is a
+    :class:`~eigengate.scan.config.Config`."""
+    source, results, error, refs = analyse_file(path, config.root, config)
+    data, blobs = results_to_data(source, results, error)
+    return data, blobs.items, refs, error is None
