@@ -100,6 +100,7 @@ def main(argv: list[str] | None = None) -> int:
     p.add_argument("--tol", type=float, default=1e-3)
     p.add_argument("--n", type=int, default=200)
     args = p.parse_args(argv)
+    from eigengate.analysis import pseudospectra as ps
     from eigengate.analysis import robustness as rb
 
     A = model(args.n)
@@ -113,9 +114,9 @@ def main(argv: list[str] | None = None) -> int:
         rows["r_tol"].append(_timed(lambda: rb.stability_radius(A, rtol=args.tol))[0])
         t, (g_r, n_r) = _timed(lambda: grid_radius(A, args.tol))
         rows["r_grid"].append(t)
-        t, psa = _timed(lambda: rb.pseudospectral_abscissa(A, eps))
+        t, psa = _timed(lambda: ps.pseudospectral_abscissa(A, eps))
         rows["p"].append(t)
-        rows["p_tol"].append(_timed(lambda: rb.pseudospectral_abscissa(A, eps,
+        rows["p_tol"].append(_timed(lambda: ps.pseudospectral_abscissa(A, eps,
                                                                        rtol=args.tol))[0])
         t, (g_p, n_p) = _timed(lambda: grid_abscissa(A, eps, args.tol))
         rows["p_grid"].append(t)

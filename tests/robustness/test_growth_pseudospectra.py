@@ -10,9 +10,9 @@ import pytest
 import scipy.linalg as la
 from scipy.optimize import brentq, minimize_scalar
 
-from eigengate.analysis.robustness import (NotApplicable, growth_curve,
-                                           pseudospectral_abscissa, sigma_min_grid,
-                                           transient_growth)
+from eigengate.analysis.growth import growth_curve, transient_growth
+from eigengate.analysis.pseudospectra import pseudospectral_abscissa, sigma_min_grid
+from eigengate.analysis.robustness import NotApplicable
 
 
 def holds(b, ref, rel=1e-9):

@@ -248,10 +248,10 @@ class MaxTransientGrowth(_RobustRequirement):
     def _measure(self, model: Any, spectrum: Any) -> tuple[Any, str, Mapping[str, Any]]:
         import numpy as np
 
-        from ..analysis import robustness as rb
+        from ..analysis import growth as gr
 
         A = np.asarray(model.A, dtype=float)
-        b = rb.transient_growth(A, **_arrays(model))
+        b = gr.transient_growth(A, **_arrays(model))
         t = b.at[0] if b.at else 0.0
         if model.discrete:
             at = f", at step k = {int(round(t))}"
@@ -261,11 +261,11 @@ class MaxTransientGrowth(_RobustRequirement):
             label = "t (s)"
         curve: tuple[tuple[float, float], ...] = ()
         if model.n_states <= CURVE_STATES:
-            curve = _growth_curve(rb, A, model, t, spectrum)
+            curve = _growth_curve(gr, A, model, t, spectrum)
         return b, at, {"at_label": label, "curve": curve}
 
 
-def _growth_curve(rb: Any, A: Any, model: Any, t_peak: float, spectrum: Any
+def _growth_curve(gr: Any, A: Any, model: Any, t_peak: float, spectrum: Any
                   ) -> tuple[tuple[float, float], ...]:
     """``(t, ‖e^{At}‖)`` on a span that shows the peak and most of the decay."""
     import numpy as np
@@ -280,7 +280,7 @@ def _growth_curve(rb: Any, A: Any, model: Any, t_peak: float, spectrum: Any
     else:
         span = max(3.0 * t_peak, 4.6 / rate if rate > 0 else 10.0 * max(t_peak, 1.0))
         times = np.linspace(0.0, span, CURVE_POINTS)
-    values = rb.growth_curve(A, times, E=model.E, sample_period=model.sample_period)
+    values = gr.growth_curve(A, times, E=model.E, sample_period=model.sample_period)
     return tuple((float(x), float(y)) for x, y in zip(times, values))
 
 
@@ -290,7 +290,7 @@ GRID_POINTS = 56
 GRID_STATES = 30
 
 
-def _sigma_grid(rb: Any, model: Any, spectrum: Any) -> tuple[tuple[float, ...], ...]:
+def _sigma_grid(ps: Any, model: Any, spectrum: Any) -> tuple[tuple[float, ...], ...]:
     """σ_min(A − zI) on a box about the eigenvalues (z-plane for a discrete model), wide
     enough for the level curves ε = 10⁻¹ … 10⁻⁴ near them."""
     import numpy as np
@@ -304,7 +304,7 @@ def _sigma_grid(rb: Any, model: Any, spectrum: Any) -> tuple[tuple[float, ...], 
     pad = max(0.6 * (max(re) - min(re)), 0.6 * max(im), 0.3 * scale, 0.2)
     xs = np.linspace(min(re) - pad, max(re) + pad, GRID_POINTS)
     ys = np.linspace(-(max(im) + pad), max(im) + pad, GRID_POINTS)
-    values = rb.sigma_min_grid(np.asarray(model.A, dtype=float), xs, ys, E=model.E)
+    values = ps.sigma_min_grid(np.asarray(model.A, dtype=float), xs, ys, E=model.E)
     return (tuple(map(float, xs)), tuple(map(float, ys)),
             *(tuple(map(float, row)) for row in values))
 
@@ -338,9 +338,9 @@ class MaxPseudospectralAbscissa(_RobustRequirement):
     def _measure(self, model: Any, spectrum: Any) -> tuple[Any, str, Mapping[str, Any]]:
         import numpy as np
 
-        from ..analysis import robustness as rb
+        from ..analysis import pseudospectra as ps
 
-        b = rb.pseudospectral_abscissa(np.asarray(model.A, dtype=float), self.epsilon,
+        b = ps.pseudospectral_abscissa(np.asarray(model.A, dtype=float), self.epsilon,
                                        **_arrays(model))
         where = ""
         if len(b.at) == 2:
@@ -348,7 +348,7 @@ class MaxPseudospectralAbscissa(_RobustRequirement):
                     f"{_fmt(abs(b.at[1]))}j"
         extra: dict[str, Any] = {"at_label": "z"}
         if model.n_states <= GRID_STATES:
-            extra["grid"] = _sigma_grid(rb, model, spectrum)
+            extra["grid"] = _sigma_grid(ps, model, spectrum)
         return b, f" for ε = {_fmt(self.epsilon)}{where}", extra
 
     def _judge(self, b, at_text, extra, model, on_uncertain):
