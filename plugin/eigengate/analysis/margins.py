@@ -23,6 +23,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from .freqresp import Resolvent, crossings, peaks
+
 __all__ = ["BREAK_POINTS", "LoopParts", "LoopTransfer", "Resolvent", "ChannelMargins",
            "LoopMargins", "loop_transfer", "channel_loop", "unstable_poles", "siso_margins",
            "loop_margins", "disk_gain_range", "disk_phase"]
@@ -120,51 +122,6 @@ def channel_loop(lt: LoopTransfer, i: int) -> LoopTransfer:
     return LoopTransfer(A, B, C, D, lt.E, lt.sample_period, (lt.channels[i],), lt.at)
 
 
-class Resolvent:
-    """Frequency response ``C (λE − A)⁻¹ B + D`` after one complex Schur (QZ) reduction.
-
-    ``λ = jω`` for continuous, ``e^{jωT}`` for discrete models. Each frequency then costs one
-    triangular solve, O(n²), instead of a dense O(n³) solve.
-    """
-
-    def __init__(self, lt: LoopTransfer) -> None:
-        import scipy.linalg as la
-
-        self.dt = lt.sample_period
-        self.D = lt.D.astype(complex)
-        if lt.E is None:
-            t, z = la.schur(lt.A, output="complex")
-            self.T, self.S = t, None
-            self.Bt, self.Ct = z.conj().T @ lt.B, lt.C @ z
-        else:
-            aa, bb, q, z = la.qz(lt.A, lt.E, output="complex")
-            self.T, self.S = aa, bb
-            self.Bt, self.Ct = q.conj().T @ lt.B, lt.C @ z
-        self.scale = max(1.0, float(np.max(np.abs(np.diag(self.T)), initial=0.0)))
-
-    def __call__(self, omegas) -> np.ndarray:
-        """Responses at ``omegas`` (rad/s), shape ``(len, p, m)``; NaN at a pole."""
-        from scipy.linalg import solve_triangular
-
-        ws = np.atleast_1d(np.asarray(omegas, dtype=float))
-        out = np.empty((ws.size,) + self.D.shape, dtype=complex)
-        n = self.T.shape[0]
-        eye = np.eye(n) if self.S is None else self.S
-        tiny = 1e-14 * self.scale
-        for k, w in enumerate(ws):
-            lam = complex(0.0, w) if self.dt is None else complex(np.exp(1j * w * self.dt))
-            m = lam * eye - self.T
-            if n and np.min(np.abs(np.diag(m))) <= tiny:
-                out[k] = np.nan
-                continue
-            x = solve_triangular(m, self.Bt, check_finite=False) if n else self.Bt
-            out[k] = self.Ct @ x + self.D
-        return out
-
-    def scalar(self, w: float) -> complex:  # a SISO loop at one frequency
-        return complex(self(w)[0, 0, 0])
-
-
 def unstable_poles(lt: LoopTransfer, k: float = 1.0) -> int:
     """Closed-loop poles of ``k·L`` in negative feedback outside the stability region
     (with multiplicity; via :func:`eigengate.analysis.modes.analyse`); -1 when ``I + kD`` is singular."""
@@ -252,38 +209,70 @@ def disk_phase(alpha: float) -> float:
 
 # ------------------------------------------------------------------ frequency grid
 
+def _poles_s(lt: LoopTransfer, res: Resolvent) -> list[complex]:
+    """Open-loop poles as s-plane values (``ln(z)/T`` for discrete loops), to place the grid.
+
+    A standard loop's are the diagonal of the Resolvent's own Schur form (no second
+    decomposition); a descriptor loop's come from the modal analysis, which tells infinite
+    eigenvalues apart. Deadbeat poles (z = 0) have no frequency and are left out."""
+    if lt.E is not None:
+        from ..model.core import from_arrays
+        from .modes import analyse
+
+        spectrum = analyse(from_arrays(lt.A, E=lt.E, sample_period=lt.sample_period))
+        return [m.s for m in spectrum.modes]
+    lam = res.eigenvalues()
+    if lt.sample_period is None:
+        return [complex(x) for x in lam]
+    keep = np.abs(lam) > 1e-14 * res.scale
+    with np.errstate(divide="ignore"):
+        s = np.log(lam[keep].astype(complex)) / lt.sample_period
+    return [complex(x) for x in s]
+
+
+def _widen(res: Resolvent, lo: float, hi: float, nyq: float) -> tuple[float, float]:
+    """The grid's ends moved out by decades while a crossover may lie beyond them (the
+    candidate ends of all twelve steps evaluated in one batch)."""
+    los = [lo]
+    for _ in range(12):
+        los.append(los[-1] / 10.0)
+    his = [hi]
+    for _ in range(12):
+        his.append(min(his[-1] * 10.0, nyq))
+    mags = np.abs(res.siso(np.array(los + [x * 10 for x in los] + his)))
+    low, up, top = mags[:13], mags[13:26], mags[26:]
+    for k in range(12):  # a crossover may lie below lo when |L| rises with ω
+        # (above 1, it falls towards 1 below; below 1, a peak may lie there), or falling
+        # while below 1, steeply enough to reach 1 within the widening (low·(low/up)^12
+        # ≥ 1; below every mode |L| ~ c·ω^k, and an integrator's rises through 1 there)
+        if not (low[k] < up[k] or up[k] < low[k] < 1.0 and low[k] ** 13 >= up[k] ** 12):
+            break
+        lo = los[k + 1]
+    for k in range(12):
+        if hi >= nyq or not top[k] > 1.0:
+            break
+        hi = his[k + 1]
+    return lo, hi
+
+
 def _grid(lt: LoopTransfer, res: Resolvent, omega_range: tuple[float, float] | None
           ) -> tuple[np.ndarray, np.ndarray]:
     """Adaptively refined grid and the response on it (finite points only)."""
-    from ..model.core import from_arrays
-    from .modes import analyse
-
-    spectrum = analyse(from_arrays(lt.A, E=lt.E, sample_period=lt.sample_period))
+    poles = _poles_s(lt, res)
     nyq = math.pi / lt.sample_period if lt.sample_period else math.inf
-    wn = [m.natural_frequency for m in spectrum.modes if 0 < m.natural_frequency < math.inf]
+    wn = [abs(s) for s in poles if 0 < abs(s) < math.inf]
     lo = min(wn, default=1.0) / 1e3
     hi = min(max(wn, default=1.0) * 1e3, nyq)
     if omega_range is not None:
         lo, hi = omega_range[0], min(omega_range[1], nyq)
     else:  # widen while a crossover may lie beyond an end
-        for _ in range(12):  # a crossover may lie below lo when |L| rises with ω
-            # (above 1, it falls towards 1 below; below 1, a peak may lie there), or falling
-            # while below 1, steeply enough to reach 1 within the widening (low·(low/up)^12
-            # ≥ 1; below every mode |L| ~ c·ω^k, and an integrator's rises through 1 there)
-            low, up = abs(res.scalar(lo)), abs(res.scalar(lo * 10))
-            if not (low < up or up < low < 1.0 and low ** 13 >= up ** 12):
-                break
-            lo /= 10.0
-        for _ in range(12):
-            if hi >= nyq or not abs(res.scalar(hi)) > 1.0:
-                break
-            hi = min(hi * 10.0, nyq)
+        lo, hi = _widen(res, lo, hi, nyq)
     pts = [np.geomspace(lo, hi, max(50, int(40 * math.log10(hi / lo)) + 1))]
     offsets = np.array([-8, -4, -2, -1, -0.5, -0.25, 0, 0.25, 0.5, 1, 2, 4, 8])
-    for m in spectrum.modes:  # lightly damped resonances: points across the half-power band
-        wd = abs(m.s.imag)
-        if wd > 0 and math.isfinite(wd):
-            zeta = max(abs(m.s.real) / max(abs(m.s), 1e-300), 1e-6)
+    for p in poles:  # lightly damped resonances: points across the half-power band
+        wd = abs(p.imag)
+        if wd > 0 and math.isfinite(wd) and math.isfinite(p.real):
+            zeta = max(abs(p.real) / max(abs(p), 1e-300), 1e-6)
             pts.append(wd * (1.0 + zeta * offsets))
     w = np.unique(np.concatenate(pts))
     w = w[(w >= lo) & (w <= hi) & (w > 0)]
@@ -310,38 +299,6 @@ def _grid(lt: LoopTransfer, res: Resolvent, omega_range: tuple[float, float] | N
     return w, h
 
 
-def _roots(f, w: np.ndarray, v: np.ndarray, valid) -> list[float]:
-    """Brent roots of ``f`` between grid points where ``v`` changes sign and ``valid`` holds."""
-    from scipy.optimize import brentq
-
-    out = [float(w[i]) for i in np.flatnonzero(v == 0)]
-    for i in np.flatnonzero(np.sign(v[:-1]) * np.sign(v[1:]) < 0):
-        if valid(i):
-            out.append(brentq(f, w[i], w[i + 1], xtol=1e-14 * w[i], rtol=1e-13, maxiter=200))
-    return sorted(out)
-
-
-def _peak(fun, w: np.ndarray, v: np.ndarray, at_end: float) -> tuple[float, float]:
-    """Maximum of ``fun`` near the largest grid values (bounded local search), at ω = 0, and
-    ``at_end``, its limit at ω → ∞ (continuous) or value at Nyquist (discrete, on the grid)."""
-    from scipy.optimize import minimize_scalar
-
-    best_w, best_v = float(w[int(np.argmax(v))]), float(np.max(v))
-    at_zero = fun(0.0)
-    if np.isfinite(at_zero) and at_zero > best_v:
-        best_w, best_v = 0.0, float(at_zero)
-    if at_end > best_v:  # a supremum approached from below as ω → ∞
-        best_w, best_v = math.inf, float(at_end)
-    for i in np.argsort(-v)[:3]:
-        a, b = w[max(i - 1, 0)], w[min(i + 1, w.size - 1)]
-        if b > a:
-            r = minimize_scalar(lambda x: -fun(x), bounds=(a, b), method="bounded",
-                                options={"xatol": 1e-12 * b})
-            if -r.fun > best_v:
-                best_w, best_v = float(r.x), float(-r.fun)
-    return best_v, best_w
-
-
 # ------------------------------------------------------------------ margins
 
 def siso_margins(lt: LoopTransfer, omega_range: tuple[float, float] | None = None
@@ -353,25 +310,29 @@ def siso_margins(lt: LoopTransfer, omega_range: tuple[float, float] | None = Non
     w, h3 = _grid(lt, res, omega_range)
     h = h3[:, 0, 0]
     mag, ph = np.abs(h), np.angle(-h)  # ph = phase + 180°, wrapped to (-180°, 180°]
-
-    ell = res.scalar
-    with np.errstate(divide="ignore"):
-        gains = [x for x in _roots(lambda x: math.log(max(abs(ell(x)), 1e-300)), w,
-                                   np.log(np.maximum(mag, 1e-300)), lambda i: True)
-                 if abs(abs(ell(x)) - 1) < 1e-6]  # a root at a pole on the axis is no crossover
-    phases = [x for x in _roots(lambda x: float(np.angle(-ell(x))), w, ph,
-                                lambda i: abs(ph[i]) < 2 and abs(ph[i + 1]) < 2)
-              if np.isfinite(ell(x)) and abs(np.angle(-ell(x))) < 1e-6]
+    ell = res.siso
+    gains, phases = crossings(ell, w, [
+        (lambda val: _log_gain(np.abs(val)), _log_gain(mag), lambda i: True),
+        (lambda val: np.angle(-val), ph, lambda i: abs(ph[i]) < 2 and abs(ph[i + 1]) < 2)])
     # Ends of the axis: L(0) (and L at Nyquist, discrete) is real; negative means a crossing.
-    for x in [0.0] + ([math.pi / lt.sample_period] if lt.sample_period else []):
-        if np.isfinite(ell(x)) and ell(x).real < 0 and x not in phases:
+    ends = [0.0] + ([math.pi / lt.sample_period] if lt.sample_period else [])
+    at = ell(np.array(gains + phases + ends))
+    at_gains, at_phases, at_ends = np.split(at, [len(gains), len(gains) + len(phases)])
+    keep = [i for i, val in enumerate(at_gains) if abs(abs(val) - 1) < 1e-6]
+    gains = [gains[i] for i in keep]  # a root at a pole on the axis is no crossover
+    pms = [math.degrees(np.angle(-at_gains[i])) for i in keep]
+    keep = [i for i, val in enumerate(at_phases)
+            if np.isfinite(val) and abs(np.angle(-val)) < 1e-6]
+    phases, at_phases = [phases[i] for i in keep], [at_phases[i] for i in keep]
+    for x, val in zip(ends, at_ends):
+        if np.isfinite(val) and val.real < 0 and x not in phases:
             phases.append(x)
+            at_phases.append(val)
     # (gain factor that puts a closed-loop pole on the boundary, frequency)
-    crossings = [(1.0 / abs(ell(x)), x) for x in phases if abs(ell(x)) > 0]
+    gain_cands = [(1.0 / abs(val), x) for x, val in zip(phases, at_phases) if abs(val) > 0]
     if lt.sample_period is None and lt.D[0, 0] < 0:
-        crossings.append((-1.0 / lt.D[0, 0], math.inf))
-    upper, lower = _gain_limits(lt, crossings)
-    pms = [math.degrees(np.angle(-ell(x))) for x in gains]
+        gain_cands.append((-1.0 / lt.D[0, 0], math.inf))
+    upper, lower = _gain_limits(lt, gain_cands)
     pm, pm_w, dm, dm_w = math.inf, None, math.inf, None
     if pms:
         i = int(np.argmin(np.abs(pms)))
@@ -380,14 +341,21 @@ def siso_margins(lt: LoopTransfer, omega_range: tuple[float, float] | None = Non
                        for p, x in zip(pms, gains))
     d = complex(lt.D[0, 0])  # L(j∞) of a continuous loop: the suprema may lie there
     cont = lt.sample_period is None
-    ms, ms_w = _peak(lambda x: 1.0 / abs(1.0 + ell(x)), w, 1.0 / np.abs(1.0 + h),
-                     1.0 / abs(1.0 + d) if cont else 0.0)
-    peak, dk_w = _peak(lambda x: abs((1 - ell(x)) / (1 + ell(x))), w,  # |S − T|
-                       np.abs((1.0 - h) / (1.0 + h)), abs((1 - d) / (1 + d)) if cont else 0.0)
+    (ms, ms_w), (peak, dk_w) = peaks(ell, w, [
+        (lambda val: 1.0 / np.abs(1.0 + val), 1.0 / np.abs(1.0 + h),
+         1.0 / abs(1.0 + d) if cont else 0.0),
+        (lambda val: np.abs((1 - val) / (1 + val)), np.abs((1.0 - h) / (1.0 + h)),  # |S − T|
+         abs((1 - d) / (1 + d)) if cont else 0.0)])
     return ChannelMargins(
         lt.channels[0] if lt.channels else "u1", upper[0], upper[1], lower[0], lower[1],
         pm, pm_w, dm, dm_w, ms, ms_w, 2.0 / peak if peak > 0 else math.inf, dk_w,
         tuple(sorted(phases)), tuple(gains), tuple(pms))
+
+
+def _log_gain(mag: np.ndarray) -> np.ndarray:
+    """``ln |L|`` with zeros held at ln 1e-300 (so a gain root never lands on ``-inf``)."""
+    with np.errstate(divide="ignore"):
+        return np.log(np.maximum(mag, 1e-300))
 
 
 def _gain_limits(lt: LoopTransfer, crossings: list[tuple[float, float]]):
@@ -439,13 +407,17 @@ def loop_margins(parts: LoopParts) -> LoopMargins:
         s = np.linalg.inv(np.eye(p) + ell)
         return np.linalg.svd(s if which == "S" else s - ell @ s, compute_uv=False)[..., 0]
 
-    def at(x: float, which: str) -> float:
-        ell = res(x)[0]
-        return float(sv(ell, which)) if np.all(np.isfinite(ell)) else math.nan
+    def of(which: str):  # σ̄ at the points; NaN where L is not finite (a pole)
+        def q(ell: np.ndarray) -> np.ndarray:
+            ok = np.all(np.isfinite(ell), axis=(1, 2))
+            out = np.full(ok.size, math.nan)
+            if np.any(ok):
+                out[ok] = sv(ell[ok], which)
+            return out
+        return q
 
     end = lt.D if lt.sample_period is None else None  # L(j∞) = D for continuous loops
-    ms, ms_w = _peak(lambda x: at(x, "S"), w, sv(h, "S"),
-                     0.0 if end is None else float(sv(end, "S")))
-    st, st_w = _peak(lambda x: at(x, "S-T"), w, sv(h, "S-T"),
-                     0.0 if end is None else float(sv(end, "S-T")))
+    (ms, ms_w), (st, st_w) = peaks(res, w, [
+        (of(which), sv(h, which), 0.0 if end is None else float(sv(end, which)))
+        for which in ("S", "S-T")])
     return LoopMargins(lt.at, 0, channels, ms, ms_w, 2.0 / st if st > 0 else math.inf, st_w)
