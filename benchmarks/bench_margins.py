@@ -96,18 +96,25 @@ def generate(folder: Path, count: int, seed: int = 11) -> list[Path]:
     return paths
 
 
-def _env() -> dict[str, str]:
+def _env(work: Path, plugin: Path | None) -> dict[str, str]:
+    """The environment of both sides: byte code cached (in the work folder, so the
+    repository stays clean) as on a user's machine, whatever this shell says."""
     env = dict(os.environ)
-    env["PYTHONPATH"] = str(PLUGIN) + os.pathsep + env.get("PYTHONPATH", "")
+    env.pop("PYTHONDONTWRITEBYTECODE", None)
+    env["PYTHONPYCACHEPREFIX"] = str(work / "pycache")
+    if plugin is not None:
+        env["PYTHONPATH"] = str(plugin) + os.pathsep + env.get("PYTHONPATH", "")
     return env
 
 
-def run_eigengate(work: Path, models: Path) -> tuple[float, tuple[int, int]]:
+def run_eigengate(work: Path, models: Path, plugin: Path = PLUGIN
+                  ) -> tuple[float, tuple[int, int]]:
     """Wall time of a cold ``eigengate check -j 1`` process, and its (passed, failed) models."""
     shutil.rmtree(work / ".eigengate-cache", ignore_errors=True)
     t0 = time.perf_counter()
     out = subprocess.run([sys.executable, "-m", "eigengate", "check", "-j", "1", "-f", "json",
-                          str(models)], cwd=work, env=_env(), capture_output=True, text=True)
+                          str(models)], cwd=work, env=_env(work, plugin), capture_output=True,
+                         text=True)
     wall = time.perf_counter() - t0
     if out.returncode not in (0, 1):
         raise RuntimeError(f"eigengate check failed ({out.returncode}): {out.stderr[-2000:]}")
@@ -122,7 +129,7 @@ def run_hand(work: Path, models: Path) -> tuple[float, tuple[int, int]]:
     script = work / "hand_margins.py"
     t0 = time.perf_counter()
     out = subprocess.run([sys.executable, str(script), str(models)], cwd=work,
-                         capture_output=True, text=True, check=True)
+                         env=_env(work, None), capture_output=True, text=True, check=True)
     wall = time.perf_counter() - t0
     passed, failed = (int(x) for x in out.stdout.split())
     return wall, (passed, failed)
@@ -132,6 +139,9 @@ def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--loops", type=int, default=200)
     ap.add_argument("--repeat", type=int, default=7, help="rounds")
+    ap.add_argument("--plugin", type=Path, default=PLUGIN,
+                    help="the plugin/ folder to time (default: this checkout's; another "
+                    "revision's, exported with git archive, gives the figure before a change)")
     args = ap.parse_args(argv)
 
     work = Path(tempfile.mkdtemp(prefix="eigengate-bench-margins-"))
@@ -141,13 +151,13 @@ def main(argv=None) -> int:
         models = work / "models"
         models.mkdir()
         generate(models, args.loops)
-        run_eigengate(work, models)  # warm the file system and byte-code caches of both
+        run_eigengate(work, models, args.plugin)  # fill the file-system and byte-code caches of both
         run_hand(work, models)
         t_eng, t_hand, v_eng, v_hand = [], [], None, None
         for _ in range(args.repeat):
             t, v_hand = run_hand(work, models)
             t_hand.append(t)
-            t, v_eng = run_eigengate(work, models)
+            t, v_eng = run_eigengate(work, models, args.plugin)
             t_eng.append(t)
         print(f"margins: {args.loops} SISO PI loops (gain and phase margin requirements); "
               f"python-control script {min(t_hand):.3f} s, eigengate check -j 1 "

@@ -32,6 +32,9 @@ __all__ = ["CHUNK", "SLOW_STEPS", "Resolvent", "bracketed_roots", "local_maxima"
 
 #: Largest number of complex entries (states × inputs × frequencies) in one block.
 CHUNK = 1 << 18
+#: Up to this many states the back-substitution's row products are plain elementwise sums
+#: (no BLAS call, whose threads cost more than they give on a few numbers).
+SMALL = 12
 #: A bracket that has not halved over this many steps is bisected.
 SLOW_STEPS = 4
 
@@ -64,6 +67,13 @@ class Resolvent:
             self.Bt, self.Ct = q.conj().T @ lt.B, lt.C @ z
         self.Bt = np.asarray(self.Bt, dtype=complex)
         self.scale = max(1.0, float(np.max(np.abs(np.diag(self.T)), initial=0.0)))
+        # the pieces of the back-substitution, as columns that broadcast over frequencies
+        self._diag_t = np.diag(self.T)[:, None]
+        self._diag_s = None if self.S is None else np.diag(self.S)[:, None]
+        self._t_rows = [self.T[i, i + 1:, None] for i in range(self.T.shape[0])]
+        self._s_rows = None if self.S is None else \
+            [self.S[i, i + 1:, None] for i in range(self.S.shape[0])]
+        self._rhs = [complex(b[0]) if b.size == 1 else b for b in self.Bt]
 
     def eigenvalues(self) -> np.ndarray:
         """Eigenvalues of the reduced pencil (``diag T``, or ``diag T / diag S`` where
@@ -77,45 +87,45 @@ class Resolvent:
 
     def __call__(self, omegas) -> np.ndarray:
         """Responses at ``omegas`` (rad/s), shape ``(len, p, m)``; NaN at a pole."""
-        ws = np.atleast_1d(np.asarray(omegas, dtype=float)).ravel()
+        ws = np.asarray(omegas, dtype=float).ravel()
         n, (p, m) = self.T.shape[0], self.D.shape
-        out = np.empty((ws.size, p, m), dtype=complex)
         step = max(1, CHUNK // max(1, n * max(m, 1)))
+        if ws.size <= step:
+            return self._block(ws)
+        out = np.empty((ws.size, p, m), dtype=complex)
         for start in range(0, ws.size, step):
             out[start:start + step] = self._block(ws[start:start + step])
         return out
 
     def lambdas(self, ws: np.ndarray) -> np.ndarray:
         """``jω`` (real part exactly 0) or ``e^{jωT}`` for each frequency."""
-        if self.dt is None:
-            lam = np.zeros(ws.size, dtype=complex)
-            lam.imag = ws
-            return lam
-        return np.exp(1j * ws * self.dt)
+        return 1j * ws if self.dt is None else np.exp(1j * ws * self.dt)
 
     def _block(self, ws: np.ndarray) -> np.ndarray:
         k, n, (p, m) = ws.size, self.T.shape[0], self.D.shape
         if n == 0:
             return np.broadcast_to(self.D, (k, p, m)).copy()
         lam = self.lambdas(ws)
-        dt = np.diag(self.T)
-        d = lam[None, :] - dt[:, None] if self.S is None else \
-            lam[None, :] * np.diag(self.S)[:, None] - dt[:, None]  # (n, k)
-        bad = np.min(np.abs(d), axis=0) <= 1e-14 * self.scale  # on a pole (or next to it)
+        d = lam - self._diag_t if self.S is None else lam * self._diag_s - self._diag_t
+        bad = np.abs(d).min(axis=0) <= 1e-14 * self.scale  # on a pole (or next to it)
         d[:, bad] = 1.0
-        # column c·k + j of the (n, m·k) unknowns: input c at frequency j
-        d, lam_m = np.tile(d, (1, m)), np.tile(lam, m)
-        rhs = np.repeat(self.Bt, k, axis=1)
+        if m > 1:  # column c·k + j of the (n, m·k) unknowns: input c at frequency j
+            d, lam = np.tile(d, (1, m)), np.tile(lam, m)
         x = np.empty((n, m * k), dtype=complex)
+        small = n <= SMALL
         with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
             for i in range(n - 1, -1, -1):  # (λE − A) x = B, last row first
-                r = rhs[i]
-                if i < n - 1:
-                    r = r + self.T[i, i + 1:] @ x[i + 1:]
+                r = self._rhs[i] if m == 1 else np.repeat(self.Bt[i], k)
+                if i < n - 1:  # row i of T (and S) times the rows solved
+                    tail = x[i + 1:]
+                    r = r + ((self._t_rows[i] * tail).sum(axis=0) if small
+                             else self.T[i, i + 1:] @ tail)
                     if self.S is not None:
-                        r = r - lam_m * (self.S[i, i + 1:] @ x[i + 1:])
+                        r = r - lam * ((self._s_rows[i] * tail).sum(axis=0) if small
+                                       else self.S[i, i + 1:] @ tail)
                 x[i] = r / d[i]
-            h = (self.Ct @ x).reshape(p, m, k).transpose(2, 0, 1) + self.D
+            y = (self.Ct[:, :, None] * x).sum(axis=1) if small else self.Ct @ x
+            h = y.reshape(p, m, k).transpose(2, 0, 1) + self.D
         h[bad] = np.nan
         return h
 

@@ -31,8 +31,15 @@ __all__ = ["BREAK_POINTS", "LoopParts", "LoopTransfer", "Resolvent", "ChannelMar
 
 BREAK_POINTS = ("plant_input", "plant_output")
 #: Largest number of frequency points after refinement; refinement splits an interval when
-#: log|L| changes by more than STEP_LOG_GAIN, or the phase by more than STEP_PHASE (rad).
+#: log|L| changes by more than STEP_LOG_GAIN, or the phase by more than STEP_PHASE (rad),
+#: over it.
 MAX_POINTS, STEP_LOG_GAIN, STEP_PHASE = 40000, 0.05, 0.1
+#: An interval is split into ``ceil(max(Δlog|L|/STEP_LOG_GAIN, Δphase/STEP_PHASE))`` equal
+#: parts (in log ω) per round, at most SPLIT_MAX.
+SPLIT_MAX = 16
+#: Intervals narrower than this (relative) are not split: next to a pole on the axis the
+#: change never falls below the steps, and a point closer than this tells nothing new.
+MIN_WIDTH = 1e-10
 
 
 @dataclass(frozen=True, eq=False)
@@ -63,10 +70,13 @@ class LoopParts:
     omega_range: tuple[float, float] | None = None
     _memo: dict = field(default_factory=dict, repr=False, compare=False)
 
-    def margins(self) -> "LoopMargins":
-        """:func:`loop_margins` of this loop, computed once."""
+    def margins(self, stable: bool = False) -> "LoopMargins":
+        """:func:`loop_margins` of this loop, computed once. ``stable=True`` says the caller
+        has found every closed-loop pole strictly inside the stability region (a margin
+        requirement checks the model's own spectrum, which is this closed loop, with its
+        error bounds), so the closed loop is not decomposed a second time."""
         if "margins" not in self._memo:
-            self._memo["margins"] = loop_margins(self)
+            self._memo["margins"] = loop_margins(self, stable)
         return self._memo["margins"]
 
 
@@ -288,13 +298,22 @@ def _grid(lt: LoopTransfer, res: Resolvent, omega_range: tuple[float, float] | N
             lg = np.log(np.maximum(np.abs(h), 1e-300))
         dl = np.max(np.abs(np.diff(lg, axis=0)), axis=(1, 2))
         dp = np.max(np.abs(np.angle(h[1:] / np.where(h[:-1] == 0, 1, h[:-1]))), axis=(1, 2))
-        split = np.flatnonzero((dl > STEP_LOG_GAIN) | (dp > STEP_PHASE))
+        # split each coarse interval into as many log-equal parts as its change asks for
+        need = np.ceil(np.maximum(dl / STEP_LOG_GAIN, dp / STEP_PHASE))
+        split = np.flatnonzero((need > 1) & (w[1:] > w[:-1] * (1.0 + MIN_WIDTH)))
         if not split.size:
             break
-        split = split[: MAX_POINTS - w.size]
-        mid = np.sqrt(w[split] * w[split + 1])
+        parts = np.minimum(need[split], SPLIT_MAX).astype(int)
+        keep = np.cumsum(parts - 1) <= MAX_POINTS - w.size  # the first ones, within the cap
+        split, parts = split[keep], parts[keep]
+        if not split.size:
+            break
+        new = parts - 1
+        at, q = np.repeat(split, new), np.repeat(parts, new)
+        t = np.arange(at.size) - np.repeat(np.cumsum(new) - new, new) + 1  # 1..q−1 per group
+        mid = w[at] * (w[at + 1] / w[at]) ** (t / q)
         w2 = np.concatenate([w, mid])
-        order = np.argsort(w2)
+        order = np.argsort(w2, kind="stable")
         w, h = w2[order], np.concatenate([h, res(mid)])[order]
     return w, h
 
@@ -379,8 +398,9 @@ def _gain_limits(lt: LoopTransfer, crossings: list[tuple[float, float]]):
     return upper, lower
 
 
-def loop_margins(parts: LoopParts) -> LoopMargins:
-    """Margins of the loop in ``parts`` broken at ``parts.at``.
+def loop_margins(parts: LoopParts, stable: bool = False) -> LoopMargins:
+    """Margins of the loop in ``parts`` broken at ``parts.at``; ``stable=True`` skips the
+    count of closed-loop poles outside the stability region (the caller has made it).
 
     Returns
     -------
@@ -390,7 +410,7 @@ def loop_margins(parts: LoopParts) -> LoopMargins:
         peak ``max σ̄((I + L)⁻¹)`` and the multi-loop disk margin.
     """
     lt = loop_transfer(parts)
-    unstable = unstable_poles(lt)
+    unstable = 0 if stable else unstable_poles(lt)
     if unstable != 0:
         return LoopMargins(at=lt.at, unstable=unstable if unstable > 0 else 1)
     p = lt.D.shape[0]

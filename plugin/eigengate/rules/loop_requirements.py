@@ -75,7 +75,7 @@ class _LoopRequirement(Requirement):
                                  threshold=self._threshold(), margin=None,
                                  offending=tuple(bad), message=text + "; margins are not "
                                  "defined", suggestion="stabilise the loop first")
-        return self._measure(parts.margins(), on_uncertain)
+        return self._measure(parts.margins(stable=True), on_uncertain)  # (checked above)
 
     # subclasses define _threshold() and _measure(loop_margins, on_uncertain)
     def _threshold(self) -> Any:  # pragma: no cover - every subclass overrides it
