@@ -1,9 +1,9 @@
 """Mutation testing of the gate's deciding modules with mutmut 3 (not part of the normal run).
 
     python tests/mutation/run_mutmut.py waivers          # one module
-    python tests/mutation/run_mutmut.py                  # all six, one after the other
-    python tests/mutation/run_mutmut.py margins _peak _roots   # only those functions' mutants
-    python tests/mutation/run_mutmut.py margins Resolvent.__call__   # a method's mutants
+    python tests/mutation/run_mutmut.py                  # all seven, one after the other
+    python tests/mutation/run_mutmut.py margins _grid siso_margins   # only those functions' mutants
+    python tests/mutation/run_mutmut.py freqresp Resolvent._block   # a method's mutants
     python tests/mutation/run_mutmut.py margins x__grid__mutmut_7   # one mutant, by its name
     EG_MUTMUT_LIMIT=600 python tests/mutation/run_mutmut.py modes   # stop after 600 s
 
@@ -36,6 +36,7 @@ PATHS = {
     "modes": "analysis/modes.py",
     "bounds": "analysis/bounds.py",
     "margins": "analysis/margins.py",
+    "freqresp": "analysis/freqresp.py",
 }
 
 #: module → the in-process tests that exercise it (the narrowest selection that covers it)
@@ -51,7 +52,11 @@ SELECTION = {
                "tests/test_modes_mutation.py"],
     "margins": ["tests/test_gate_boundaries.py", "tests/margins/test_margins_reference.py",
                 "tests/margins/test_margins_mutation.py", "tests/margins/test_margins_loop_paths.py",
-                "tests/margins/test_margin_pitfalls.py", "tests/margins/test_loop_requirements.py"],
+                "tests/margins/test_margin_pitfalls.py", "tests/margins/test_loop_requirements.py",
+                "tests/margins/test_freqresp.py"],
+    "freqresp": ["tests/margins/test_freqresp.py", "tests/margins/test_margins_mutation.py",
+                 "tests/margins/test_margins_reference.py", "tests/margins/test_margins_loop_paths.py",
+                 "tests/margins/test_margin_pitfalls.py"],
 }
 
 
