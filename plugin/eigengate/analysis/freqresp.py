@@ -71,7 +71,7 @@ class Resolvent:
         self._diag_t = np.diag(self.T)[:, None]
         self._diag_s = None if self.S is None else np.diag(self.S)[:, None]
         self._t_rows = [self.T[i, i + 1:, None] for i in range(self.T.shape[0])]
-        self._s_rows = None if self.S is None else \
+        self._s_rows = [] if self.S is None else \
             [self.S[i, i + 1:, None] for i in range(self.S.shape[0])]
         self._rhs = [complex(b[0]) if b.size == 1 else b for b in self.Bt]
 

@@ -4,13 +4,14 @@ A closed loop formed by the loader keeps its plant and controller apart (:class:
 so the loop can be broken at the plant input or output. The loop transfer ``L`` at the break
 point is built *in state space* and evaluated on the imaginary axis (``s = jω``) or the unit
 circle (``z = e^{jωT}``, up to the Nyquist frequency ``π/T``) through one Schur (or QZ)
-reduction and a triangular solve per frequency: no polynomial transfer function is ever formed,
+reduction and triangular solves, a block of frequencies at once
+(:mod:`eigengate.analysis.freqresp`): no polynomial transfer function is ever formed,
 because the coefficients of a high-order or lightly damped loop do not determine its poles
 (or its frequency response near them) to working accuracy.
 
 Conventions: negative feedback, closed-loop poles are the zeros of ``det(I + L)``. Crossovers
-are found by root finding (Brent) between points of an adaptively refined log grid that
-includes the open-loop pole frequencies; gain margins are the factors ``k`` at which the loop
+are found by root finding (every bracket at once, to Brent's tolerances) between points of an
+adaptively refined log grid that includes the open-loop pole frequencies; gain margins are the factors ``k`` at which the loop
 ``k·L`` gains a pole on the stability boundary, confirmed by the closed-loop eigenvalues on
 either side. Disk margins follow Seiler, Packard & Gahinet, "An Introduction to Disk
 Margins", IEEE Control Systems Magazine, 2020 (balanced disk, σ = 0): ``α = 2 / max_ω σ̄(S − T)``.
@@ -336,13 +337,14 @@ def siso_margins(lt: LoopTransfer, omega_range: tuple[float, float] | None = Non
     # Ends of the axis: L(0) (and L at Nyquist, discrete) is real; negative means a crossing.
     ends = [0.0] + ([math.pi / lt.sample_period] if lt.sample_period else [])
     at = ell(np.array(gains + phases + ends))
-    at_gains, at_phases, at_ends = np.split(at, [len(gains), len(gains) + len(phases)])
+    at_gains, at_ends = at[:len(gains)], at[len(gains) + len(phases):]
     keep = [i for i, val in enumerate(at_gains) if abs(abs(val) - 1) < 1e-6]
     gains = [gains[i] for i in keep]  # a root at a pole on the axis is no crossover
     pms = [math.degrees(np.angle(-at_gains[i])) for i in keep]
-    keep = [i for i, val in enumerate(at_phases)
+    keep = [i for i, val in enumerate(at[len(gains):len(gains) + len(phases)])
             if np.isfinite(val) and abs(np.angle(-val)) < 1e-6]
-    phases, at_phases = [phases[i] for i in keep], [at_phases[i] for i in keep]
+    at_phases = [at[len(gains) + i] for i in keep]
+    phases = [phases[i] for i in keep]
     for x, val in zip(ends, at_ends):
         if np.isfinite(val) and val.real < 0 and x not in phases:
             phases.append(x)
