@@ -255,3 +255,27 @@ def test_pi_loop_margins_equal_python_control(num, den):
         if math.isfinite(gm):
             ws = np.geomspace(wpc / 10, wpc * 10, 2001)
             assert np.max(np.abs(dense(lt, ws))) < 1e-10  # numpy dense solves
+
+
+def test_a_caller_that_checked_stability_skips_the_second_decomposition(monkeypatch):
+    # the margin requirement checks the model's own spectrum first; loop_margins(stable=True)
+    # then does not count the closed-loop poles again, and its margins are the same
+    # (Routh on s³ + 3s² + 2s + 1: stable, GM = 6 for K/(s(s+1)(s+2)), by hand)
+    from eigengate.analysis import margins
+    from eigengate.model import interconnect as ic
+
+    z = np.zeros
+    a, b, c, d = (np.asarray(x, float) for x in ic.tf_siso([1.0], [1.0, 3.0, 2.0, 0.0]))
+    parts = margins.LoopParts("output_gain", a, b, c, d, None, z((0, 0)), z((0, 1)),
+                              z((1, 0)), np.array([[1.0]]), ("u",), ("y",))
+    full = margins.loop_margins(parts)
+    counted = []
+    real = margins.unstable_poles
+    monkeypatch.setattr(margins, "unstable_poles", lambda lt, k=1.0: counted.append(k) or
+                        real(lt, k))
+    quick = margins.loop_margins(parts, stable=True)
+    assert 1.0 not in counted  # only the gain-limit probes (k ≠ 1) decomposed a closed loop
+    assert quick.channels[0].gain_margin == full.channels[0].gain_margin == \
+        pytest.approx(6.0, rel=1e-9)
+    assert quick.channels[0].phase_margin == full.channels[0].phase_margin
+    assert parts.margins(stable=True) is parts.margins()  # computed once, then kept
