@@ -2,9 +2,10 @@
 
 :class:`Resolvent` reduces ``(A, E)`` once (complex Schur, or QZ for a descriptor loop) and
 then solves the triangular systems ``(λE − A)⁻¹ B`` for a whole block of frequencies in one
-back-substitution: row ``i`` of every frequency's solution is one BLAS product of the
-triangular factor's row with the rows already solved, so the Python-level work is one step
-per state, not one call per frequency. Blocks are sized so the workspace stays below
+back-substitution: row ``i`` of every frequency's solution is one product of the triangular
+factor's row with the rows already solved (a BLAS call above :data:`SMALL` states, an
+elementwise sum below), so the Python-level work is one step per state, not one call per
+frequency. Blocks are sized so the workspace stays below
 :data:`CHUNK` complex entries, whatever the number of states.
 
 The searches evaluate their function on arrays, so every step of every bracket costs one
@@ -12,7 +13,7 @@ batched response:
 
 * :func:`bracketed_roots`: all brackets refined together by false position with the
   Anderson–Björck modification (Anderson & Björck, BIT 13, 1973; the Illinois method of
-  Dowell & Jarratt, BIT 11, 1971, with a better weight), with a bisection step whenever a
+  Dowell & Jarratt, BIT 11, 1971, with a better weight; both cited from memory), with a bisection step whenever a
   bracket has not halved over four steps; the stopping rule is Brent's
   (``|b − a| < xtol + rtol·|x|``).
 * :func:`local_maxima`: the largest value of a function on each of several intervals, by
