@@ -149,6 +149,12 @@ class Search:
     found: int
     n: int
     symmetric: bool
+    #: (target, sentence): regions proved free of eigenvalues by structure (analysis.structure)
+    proofs: tuple[tuple[Target, str], ...] = ()
+
+    def proof(self, target: Target) -> str | None:
+        """How structure proves ``target`` free of eigenvalues (None: it does not)."""
+        return next((why for t, why in self.proofs if t == target), None)
 
     def excluded(self, target: Target) -> bool:
         """Whether no eigenvalue can lie in ``target`` (Bendixson's rectangle misses it)."""
@@ -508,7 +514,11 @@ def analyse_sparse(model: Model, targets: Iterable[Target] | None = None) -> Spe
                                  float(kappa[members].max()), part[:, members].mean(axis=1)))
     rows.sort(key=sort_key)
     modes = tuple(Mode(index=i + 1, states=model.states, **r) for i, r in enumerate(rows))
+    from .structure import prove
+
     search = Search(box=box, discs=tuple(discs), outer=outer, targets=targets, shifts=shifts,
-                    found=len(lam), n=n, symmetric=symmetric)
+                    found=len(lam), n=n, symmetric=symmetric,
+                    proofs=prove(A, E, [t for t in targets if box is None or
+                                        t.clip(box) is not None], symmetric))
     return Spectrum(model=model, modes=modes, infinite=0, norm=norm, balanced=False,
                     search=search)

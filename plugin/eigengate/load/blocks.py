@@ -134,7 +134,12 @@ def _system(block: dict[str, Any], ctx: _Ctx, path: str, *, plant: bool) -> tupl
         raise ctx.err(f"{path}.{tf_given[0]}", f"is given together with {path}.{ss_given[0]}: "
                       f"{what} is either state space (A, B, C, D) or a transfer function "
                       "(num, den), not both", "remove one of the two forms")
-    if not ss_given and not tf_given:
+    if "second_order" in block and (ss_given or tf_given or "states" in block):
+        other = (ss_given + tf_given + ["states"])[0]
+        raise ctx.err(f"{path}.{other}", f"is given together with {path}.second_order: the "
+                      "plant is either second order (M, D, K, F) or state space or a transfer "
+                      "function", "coordinates under second_order name the states")
+    if not ss_given and not tf_given and "second_order" not in block:
         raise ctx.err(path, "must give A (state space) or num and den (transfer function), "
                       "got neither")
     if not plant:
@@ -147,6 +152,8 @@ def _system(block: dict[str, Any], ctx: _Ctx, path: str, *, plant: bool) -> tupl
                           f"plant's sample period is {ctx.sample_period!r}",
                           "plant and controller must share the sample period")
     prefix = ctx.prefix + path + "."
+    if plant and "second_order" in block:
+        return _second_order(block, ctx, path), "second order"
     if ss_given:
         if "A" not in block:
             raise ctx.err(f"{path}.A", f"is missing; {path}.{ss_given[0]} is given, so "
@@ -187,6 +194,27 @@ def _system(block: dict[str, Any], ctx: _Ctx, path: str, *, plant: bool) -> tupl
                         outputs=_names(block, "outputs", ctx, path), source=ctx.source,
                         lines=ctx.prefixed_lines(), prefix=prefix)
     return model, "transfer function"
+
+
+def _second_order(block: dict[str, Any], ctx: _Ctx, path: str) -> Model:
+    """A ``second_order:`` plant block (``M q'' + D q' + K q = F u``) in companion form."""
+    from ..model.second_order import SECOND_ORDER_KEYS, from_second_order
+
+    where = f"{path}.second_order"
+    so = _mapping(block["second_order"], ctx, where)
+    _check_keys(so, SECOND_ORDER_KEYS, ctx, where, "a second-order plant")
+    for key in ("M", "K"):
+        if key not in so:
+            raise ctx.err(f"{where}.{key}", "is missing; a second-order plant needs M and K")
+    sparse = block.get("sparse")
+    if sparse is not None and not isinstance(sparse, bool):
+        raise ctx.err(f"{path}.sparse", f"must be true or false, got {sparse!r}")
+    mats = {k: _matrix(so.get(k), ctx, f"{where}.{k}") for k in ("M", "D", "K", "F", "Cq", "Cv")}
+    coords = _names(so, "coordinates", ctx, where)
+    return from_second_order(**mats, coordinates=coords, sparse=sparse,
+                             inputs=_names(block, "inputs", ctx, path),
+                             outputs=_names(block, "outputs", ctx, path), source=ctx.source,
+                             lines=ctx.prefixed_lines(), prefix=ctx.prefix + where + ".")
 
 
 def _static(d: Any, ctx: _Ctx) -> Model:

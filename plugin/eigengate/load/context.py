@@ -21,7 +21,7 @@ TOP_KEYS = ("model_format", "name", "description", "domain", "sample_period", "p
             "waivers", "loop", "vector_field", "allowed_drift", "parameters")
 POINT_KEYS = ("label", "id", "plant", "feedback", "requirements", "known_modes", "on_uncertain",
               "require", "loop", "allowed_drift")
-SS_KEYS = ("A", "B", "C", "D", "E", "states", "inputs", "outputs", "sparse")
+SS_KEYS = ("A", "B", "C", "D", "E", "states", "inputs", "outputs", "sparse", "second_order")
 TF_KEYS = ("num", "den", "states", "inputs", "outputs")
 FEEDBACK_KEYS = ("state_gain", "output_gain", "controller", "inputs", "outputs")
 FEEDBACK_KINDS = ("state_gain", "output_gain", "controller")
