@@ -160,12 +160,3 @@ def test_small_sparse_models_get_the_whole_spectrum():
     A = laplacian(4)  # 16 states: at most SMALL, decomposed in full
     s = analyse_sparse(from_arrays(A, sparse=True))
     assert not s.partial and s.n_eigenvalues == 16
-
-
-@pytest.mark.parametrize("bad", ["discrete"])
-def test_discrete_sparse_models_are_refused(bad):
-    from eigengate.errors import ModelError
-
-    with pytest.raises(ModelError) as info:
-        analyse_sparse(from_arrays(laplacian(10) * 1e-4, sparse=True, sample_period=0.1))
-    assert "continuous-time models only" in str(info.value)

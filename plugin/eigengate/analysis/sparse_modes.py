@@ -151,6 +151,10 @@ class Search:
     symmetric: bool
     #: (target, sentence): regions proved free of eigenvalues by structure (analysis.structure)
     proofs: tuple[tuple[Target, str], ...] = ()
+    #: discrete models: the sample period, and ``radius`` ≥ every |z| (rigorous row sums);
+    #: ``outer`` then bounds the |z| of every eigenvalue not found
+    sample_period: float | None = None
+    radius: float | None = None
 
     def proof(self, target: Target) -> str | None:
         """How structure proves ``target`` free of eigenvalues (None: it does not)."""
@@ -158,11 +162,20 @@ class Search:
 
     def excluded(self, target: Target) -> bool:
         """Whether no eigenvalue can lie in ``target`` (Bendixson's rectangle misses it)."""
+        if self.sample_period is not None:
+            from .sparse_discrete import z_radius
+
+            r = z_radius(target, self.sample_period)
+            return r is not None and self.radius is not None and self.radius < r
         return self.box is not None and target.clip(self.box) is None
 
     def uncovered(self, target: Target) -> list[Rect]:
         """Parts of ``target`` (within the rectangle) that no disc covers; for a descriptor
         model, the whole region is uncovered (``[]`` means searched in full)."""
+        if self.sample_period is not None:
+            from .sparse_discrete import discrete_uncovered
+
+            return discrete_uncovered(self, target)
         if self.box is None:
             return [(-math.inf, math.inf, 0.0, math.inf)]
         start = target.clip(self.box)
@@ -170,7 +183,9 @@ class Search:
 
     def coverage(self) -> str:
         """The search in words, for verdict messages."""
-        if self.box is None:
+        if self.radius is not None:
+            where = f"every |z| ≤ {self.radius:.6g} (row sums of A)"
+        elif self.box is None:
             where = "no bound on where the eigenvalues of a descriptor model lie"
         else:
             x0, x1, _, y1 = self.box
@@ -178,6 +193,10 @@ class Search:
         discs = ", ".join(f"|s − ({_c(d.centre)})| < {d.radius:.6g}" for d in self.discs[:4])
         more = f" and {len(self.discs) - 4} more" if len(self.discs) > 4 else ""
         outer = "" if self.outer is None else f", |s| > {self.outer:.6g}"
+        if self.sample_period is not None:
+            outer = "" if self.outer is None else f"every other |z| ≤ {self.outer:.6g}"
+            return (f"Arnoldi (largest moduli) found {self.found} of {self.n} eigenvalues in "
+                    f"{self.shifts} run(s); {outer or 'no run converged'}; {where}")
         return (f"shift-invert Arnoldi found {self.found} of {self.n} eigenvalues with "
                 f"{self.shifts} shift(s); searched {discs or 'nothing'}{more}{outer}; {where}")
 
@@ -419,10 +438,10 @@ def analyse_sparse(model: Model, targets: Iterable[Target] | None = None) -> Spe
     import numpy as np
     import scipy.sparse as sp
 
-    if model.discrete:
-        raise ModelError(model.source, "sample_period", "is given, but the sparse analysis "
-                         "handles continuous-time models only", line=model.line_of("sample_period"),
-                         hint="give a discrete model as dense matrices")
+    if model.discrete and model.E is not None:
+        raise ModelError(model.source, "plant.E", "is given for a discrete model, but the "
+                         "sparse analysis of discrete models takes x[k+1] = A x[k] only",
+                         line=model.line_of("plant.E"), hint="give E⁻¹A as A")
     A = sp.csr_matrix(model.A, dtype=float)
     E = None if model.E is None else sp.csr_matrix(model.E, dtype=float)
     n = A.shape[0]
@@ -435,7 +454,7 @@ def analyse_sparse(model: Model, targets: Iterable[Target] | None = None) -> Spe
     symmetric = (A != A.T).nnz == 0 and (E is None or (E != E.T).nnz == 0)
     norm = frobenius(A) + (0.0 if E is None else frobenius(E))
     scale = max(norm / math.sqrt(n), 1e-300)
-    box = None if E is not None else bendixson(A)
+    box = None if E is not None or model.discrete else bendixson(A)
     pairs = _Pairs([], [], [], [])
     discs: list[Disc] = []
     outer = None
@@ -445,7 +464,13 @@ def analyse_sparse(model: Model, targets: Iterable[Target] | None = None) -> Spe
     if box is not None and any(t.kind == "outside" and t.clip(box) is not None
                                for t in targets):
         outer = _magnitude(A, k, symmetric, SEED + 100, pairs)
-    while shifts < MAX_SHIFTS:
+    radius = None
+    if model.discrete:  # the eigenvalues of largest modulus, nothing else (sparse_discrete)
+        from .sparse_discrete import largest_moduli
+
+        outer, shifts, radius = largest_moduli(A, targets, model.sample_period, k, symmetric,
+                                               pairs, lambda *a: _magnitude(*a))
+    while shifts < MAX_SHIFTS and not model.discrete:
         if box is None:
             if shifts:
                 break
@@ -519,6 +544,8 @@ def analyse_sparse(model: Model, targets: Iterable[Target] | None = None) -> Spe
     search = Search(box=box, discs=tuple(discs), outer=outer, targets=targets, shifts=shifts,
                     found=len(lam), n=n, symmetric=symmetric,
                     proofs=prove(A, E, [t for t in targets if box is None or
-                                        t.clip(box) is not None], symmetric))
+                                        t.clip(box) is not None], symmetric,
+                                 model.sample_period),
+                    sample_period=model.sample_period, radius=radius)
     return Spectrum(model=model, modes=modes, infinite=0, norm=norm, balanced=False,
                     search=search)

@@ -64,10 +64,12 @@ def partial_verdict(req: Any, modes: Sequence[Any], spectrum: Any, policy: str) 
                        v.decided_by, message=f"{v.message}; {label}")
     proofs = getattr(search, "proof", lambda t: None)
     if all(search.excluded(t) or proofs(t) for t in targets):
-        how = "; ".join(dict.fromkeys(
-            "Bendixson's theorem with Gershgorin bounds of the symmetric and skew-symmetric "
-            "parts of A excludes it" if search.excluded(t) else str(proofs(t))
-            for t in targets))
+        bound = ("Gershgorin's theorem bounds every |z| by the largest row sum of |A|"
+                 if getattr(search, "sample_period", None) is not None else
+                 "Bendixson's theorem with Gershgorin bounds of the symmetric and "
+                 "skew-symmetric parts of A excludes it")
+        how = "; ".join(dict.fromkeys(bound if search.excluded(t) else str(proofs(t))
+                                      for t in targets))
         return replace(v, passed=True, uncertain=False, decided_by="certified",
                        message=f"{v.message}; no eigenvalue can lie where {where}: {how} "
                        "(certified)", suggestion=None)
