@@ -42,12 +42,15 @@ def companion_eigenvalues(M, D, K):
 
 
 def assert_modes_match(spectrum, reference, rel=1e-10):
-    """Every mode found is within ``rel`` relative of a reference eigenvalue."""
+    """Every mode found is within ``rel`` relative of a reference eigenvalue, and within its
+    own residual bound (which rests on the left vectors)."""
     for m in spectrum.modes:
         for lam in ([m.s, m.s.conjugate()] if m.pair else [m.s]):
             gap = np.abs(reference - lam)
             j = int(np.argmin(gap))
             assert gap[j] <= rel * abs(reference[j]), (lam, reference[j])
+            assert gap[j] <= m.uncertainty + 1e-12 * abs(lam), (lam, gap[j], m.uncertainty)
+            assert m.condition < 1e8  # a left vector was found for it
 
 
 def test_dense_second_order_matches_the_companion_pencil_and_names_the_states():

@@ -374,7 +374,7 @@ def _add(pairs: _Pairs, lam: Any, vr: Any, vl: Any) -> int:
 
 
 def _run(A: Any, E: Any, sigma: complex, k: int, symmetric: bool, scale: float, seed: int,
-         pairs: _Pairs, lu: Any = None) -> tuple[Disc | None, Any, complex]:
+         pairs: _Pairs, lu: Any = None, left: Any = None) -> tuple[Disc | None, Any, complex]:
     """One shift: k eigenvalues nearest σ (and their left vectors) into ``pairs``; returns
     the searched disc (None when ARPACK did not converge), the LU, and σ used."""
     import numpy as np
@@ -389,6 +389,8 @@ def _run(A: Any, E: Any, sigma: complex, k: int, symmetric: bool, scale: float, 
     lam = sigma + 1.0 / mu
     if symmetric:
         w = v
+    elif left is not None:  # a symmetric second-order model: left vectors from the right
+        w = left(lam, v)
     else:
         mu_t, u, _ = _arnoldi(_operator(lu, E, n, dtype, True), k, n, seed + 1)
         w = _left_vectors(lam, mu_t[np.abs(mu_t) > 0], u[:, np.abs(mu_t) > 0], sigma)
@@ -464,11 +466,15 @@ def analyse_sparse(model: Model, targets: Iterable[Target] | None = None) -> Spe
     if box is not None and any(t.kind == "outside" and t.clip(box) is not None
                                for t in targets):
         outer = _magnitude(A, k, symmetric, SEED + 100, pairs)
+    from .structure import companion_left
+
+    left = None if symmetric or model.discrete else companion_left(A, E)
     radius = None
     if model.discrete:  # the eigenvalues of largest modulus, nothing else (sparse_discrete)
         from .sparse_discrete import largest_moduli
 
-        outer, shifts, radius = largest_moduli(A, targets, model.sample_period, k, symmetric,
+        outer, shifts, radius = largest_moduli(A, targets, float(model.sample_period or 0.0),
+                                               k, symmetric,
                                                pairs, lambda *a: _magnitude(*a))
     while shifts < MAX_SHIFTS and not model.discrete:
         if box is None:
@@ -492,14 +498,15 @@ def analyse_sparse(model: Model, targets: Iterable[Target] | None = None) -> Spe
         if sigma in tried:
             break
         tried.add(sigma)
-        disc, lu, sigma = _run(A, E, sigma, k, symmetric, scale, SEED + 2 * shifts, pairs)
+        disc, lu, sigma = _run(A, E, sigma, k, symmetric, scale, SEED + 2 * shifts, pairs,
+                               left=left)
         shifts += 1
         if disc is None:
             continue
         if disc.radius > 0 and leaves and not any(disc.holds(r) for r in leaves) \
                 and 2 * k < n - 1:  # once more at this shift with twice the eigenvalues
             bigger, _, _ = _run(A, E, sigma, 2 * k, symmetric, scale, SEED + 2 * shifts,
-                                pairs, lu)
+                                pairs, lu, left)
             disc = bigger if bigger is not None and bigger.radius > 0 else disc
         if disc.radius > 0:
             discs.append(disc)

@@ -61,6 +61,26 @@ def second_order_parts(A: Any, E: Any) -> tuple[Any, Any, Any] | None:
     return M, D, K
 
 
+def companion_left(A: Any, E: Any) -> Any:
+    """For the companion form of a second-order model with symmetric M, D, K, a function
+    (λ, right vectors) → left vectors: ``w = conj([(D + λM)x; x])`` with x the top half of the
+    right vector solves ``wᴴ(A − λE) = 0`` (substitute and use ``(λ²M + λD + K)x = 0``), so
+    no second Arnoldi run on the transposed operator is needed; None for other models."""
+    import numpy as np
+
+    parts = second_order_parts(A, E)
+    if parts is None or not all(is_symmetric(X) for X in parts):
+        return None
+    M, D, _ = parts
+    n = M.shape[0]
+
+    def left(lam: Any, v: Any) -> Any:
+        x = v[:n, :]
+        top = D @ x + (M @ x) * np.asarray(lam)[None, :]
+        return np.vstack([top, x]).conj()
+    return left
+
+
 def _sym_target(A: Any, E: Any, t: Any) -> str | None:
     """The proof for a symmetric pencil that target ``t`` holds no eigenvalue."""
     what = "A − cE" if E is not None else "A − cI"
