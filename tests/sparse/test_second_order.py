@@ -192,3 +192,17 @@ def test_second_order_beside_a_state_space_matrix_is_refused(tmp_path):
     text = BASE.replace("  inputs: [force]", "  A: [[1.0]]\n  inputs: [force]")
     with pytest.raises(ModelError, match="plant.A.*second_order"):
         load(tmp_path, text)
+
+
+def test_schema_keys_of_the_second_order_plant_match_the_loader():
+    import json
+    from importlib import resources
+
+    from eigengate.load.context import SO_PLANT_KEYS
+    from eigengate.model.second_order import SECOND_ORDER_KEYS
+
+    s = json.loads(resources.files("eigengate").joinpath("schema/model-v1.schema.json")
+                   .read_text(encoding="utf-8"))
+    so = s["$defs"]["second_order"]
+    assert set(so["properties"]) == set(SO_PLANT_KEYS)
+    assert set(so["properties"]["second_order"]["properties"]) == set(SECOND_ORDER_KEYS)

@@ -7,7 +7,7 @@ from typing import Any, Mapping
 
 from ..model.formats import suggest
 from .context import (CONTROLLER_SS_KEYS, CONTROLLER_TF_KEYS, FEEDBACK_KEYS, FEEDBACK_KINDS,
-                     SS_KEYS, TF_KEYS, _check_keys, _Ctx, _mapping, _matrix, _requirements)
+                     SO_PLANT_KEYS, SS_KEYS, TF_KEYS, _check_keys, _Ctx, _mapping, _matrix, _requirements)
 from .parameters import parse_parameters
 from ..model.core import Model, as_matrix, from_arrays
 
@@ -127,7 +127,8 @@ def _system(block: dict[str, Any], ctx: _Ctx, path: str, *, plant: bool) -> tupl
     ss_keys = SS_KEYS if plant else CONTROLLER_SS_KEYS
     tf_keys = TF_KEYS if plant else CONTROLLER_TF_KEYS
     what = "a plant" if plant else "a controller"
-    _check_keys(block, tuple(dict.fromkeys(ss_keys + tf_keys)), ctx, path, what)
+    so_keys = SO_PLANT_KEYS if plant else ()
+    _check_keys(block, tuple(dict.fromkeys(ss_keys + tf_keys + so_keys)), ctx, path, what)
     ss_given = [k for k in ("A", "B", "C", "D", "E") if k in block]
     tf_given = [k for k in ("num", "den") if k in block]
     if ss_given and tf_given:
