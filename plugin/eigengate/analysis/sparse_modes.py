@@ -315,7 +315,8 @@ def _arnoldi(op: Any, k: int, n: int, seed: int, which: str = "LM") -> tuple[Any
 def _factor(A: Any, E: Any, sigma: complex, scale: float) -> tuple[Any, complex]:
     """Sparse LU of ``A − σE`` (σ nudged when it hits an eigenvalue exactly)."""
     import scipy.sparse as sp
-    from scipy.sparse.linalg import splu
+
+    from .lowrank import factor
 
     n = A.shape[0]
     ident = sp.identity(n, format="csc") if E is None else E
@@ -323,7 +324,7 @@ def _factor(A: Any, E: Any, sigma: complex, scale: float) -> tuple[Any, complex]
         shift: complex | float = sigma if sigma.imag != 0 else sigma.real  # real LU if real
         M = (A - shift * ident) if shift != 0 else A.astype(float)
         try:
-            return splu(sp.csc_matrix(M)), sigma
+            return factor(sp.csc_matrix(M)), sigma
         except RuntimeError:  # exactly singular: σ is an eigenvalue
             sigma = sigma + complex(1e-7 * scale * 10.0 ** attempt, 0.0)
     raise ModelError("<sparse>", "plant.A", "could not factor A − σE at any shift tried")

@@ -33,8 +33,10 @@ def _closed_loop(doc: Mapping[str, Any], ctx: _Ctx, parts: list[dict[str, Any]] 
         raise ctx.err("plant", "is missing (neither the file nor this operating point gives it)")
     plant_block = _mapping(doc["plant"], ctx, "plant")
     plant, structure = _system(plant_block, ctx, "plant", plant=True)
-    if plant.sparse and "feedback" in doc:
-        raise ctx.err("feedback", "cannot close a loop around a sparse plant",
+    if plant.sparse and isinstance(doc.get("feedback"), Mapping) \
+            and "controller" in doc["feedback"]:
+        raise ctx.err("feedback.controller", "cannot close a dynamic controller around a "
+                      "sparse plant (a static state_gain or output_gain can be closed)",
                       "give the closed-loop matrices as the plant, or a plant of at most "
                       "the sparse threshold's states with sparse: false")
     matrices: tuple[Any, Any, Any, Any] = (plant.A, plant.B, plant.C, plant.D)
@@ -327,6 +329,11 @@ def _feedback(block: dict[str, Any], plant: Model, ctx: _Ctx,
                               f"{why}), got {k.shape[0]}×{k.shape[1]}")
             import numpy as np
 
+            if plant.sparse:  # kept sparse: no loop parts (margins need a dense plant)
+                from ..model.sparse_loop import sparse_gain_feedback
+
+                return kind, sparse_gain_feedback(a, b, c, d, k, ins, None if kind ==
+                                                  "state_gain" else outs), []
             if kind == "state_gain":
                 keep(np.eye(n), np.zeros((n, b.shape[1])), plant.states, np.zeros((0, 0)),
                      np.zeros((0, n)), np.zeros((m_sel, 0)), k)
