@@ -93,6 +93,18 @@ def _timed(fn, *args) -> float:
     return time.perf_counter() - t0
 
 
+def _rounds(mine, theirs, arg, repeat: int):
+    """Both sides back to back in each round: (median ratio, ratios, our times, bare times)."""
+    ratios, t_ours, t_bare = [], [], []
+    for _ in range(repeat):
+        a = _timed(mine, arg)
+        b = _timed(theirs, arg)
+        t_ours.append(a)
+        t_bare.append(b)
+        ratios.append(a / b)
+    return statistics.median(ratios), ratios, t_ours, t_bare
+
+
 _CHILD = """
 import sys
 sys.path[:0] = [{bench!r}]
@@ -126,14 +138,7 @@ def main() -> None:
         return second_order(args.states, args.repeat)
     A = heat(args.states)
     n = A.shape[0]
-    ratios, t_ours, t_bare = [], [], []
-    for _ in range(args.repeat):
-        a = _timed(ours, A)
-        b = _timed(bare, A)
-        t_ours.append(a)
-        t_bare.append(b)
-        ratios.append(a / b)
-    med = statistics.median(ratios)
+    med, ratios, t_ours, t_bare = _rounds(ours, bare, A, args.repeat)
     print(f"sparse search vs eigs(k=6, sigma=0), n = {n}: median {med:.3f}× (range "
           f"{min(ratios):.3f}–{max(ratios):.3f}, {len(ratios)} rounds; ours "
           f"{statistics.median(t_ours):.2f} s, bare {statistics.median(t_bare):.2f} s); "
@@ -154,14 +159,7 @@ def main() -> None:
 def second_order(states: int, repeat: int) -> None:
     model = lattice_model(states)
     n = model.n_states
-    ratios, t_ours, t_bare = [], [], []
-    for _ in range(repeat):
-        a = _timed(ours_so, model)
-        b = _timed(bare_so, model)
-        t_ours.append(a)
-        t_bare.append(b)
-        ratios.append(a / b)
-    med = statistics.median(ratios)
+    med, ratios, t_ours, t_bare = _rounds(ours_so, bare_so, model, repeat)
     print(f"second-order lattice, sparse search + certificate vs eigs(A, k=6, M=E, sigma=0), "
           f"n = {n}: median {med:.3f}× (range {min(ratios):.3f}–{max(ratios):.3f}, "
           f"{len(ratios)} rounds; ours {statistics.median(t_ours):.2f} s, bare "
