@@ -347,6 +347,7 @@ def analyse_sparse(model: Model, targets: Iterable[Target] | None = None) -> Spe
             disc = bigger if bigger is not None and bigger.radius > 0 else disc
         if disc.radius > 0:
             discs.append(disc)
+    lu = None  # the last LU is not needed by the certificates below: free it first
     # conjugates of the complex eigenpairs (a real model's spectrum is symmetric)
     lam0 = np.array(pairs.lam, dtype=complex)
     vr0 = np.stack(pairs.vr, axis=1) if pairs.vr else np.zeros((n, 0), complex)
