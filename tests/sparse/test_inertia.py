@@ -62,3 +62,25 @@ def test_gershgorin_bounds_enclose_the_spectrum():
     lo, hi = gershgorin(A)
     ev = np.linalg.eigvalsh(A.toarray())
     assert lo <= ev.min() and ev.max() <= hi  # Gershgorin's theorem
+
+
+def test_the_residual_bound_covers_the_true_factorisation_error():
+    # a badly scaled symmetric positive definite matrix: the bound must cover
+    # ‖P S Pᵀ − L D Lᵀ‖₂ measured in extended form (dense, 2-norm by LAPACK's SVD)
+    from scipy.sparse.linalg import splu
+
+    rng = np.random.default_rng(0)
+    n = 150
+    A = sp.random(n, n, density=0.03, random_state=1)
+    A = (A + A.T + sp.diags(rng.uniform(1.0, 2.0, n) * 10)).tocsc()
+    s = sp.diags(10.0 ** rng.uniform(-3, 3, n))
+    S = (s @ A @ s).tocsc()
+    inert = ldlt_inertia(S)
+    assert inert is not None and inert.positive == n
+    lu = splu(S, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0,
+              options=dict(SymmetricMode=True))
+    q = np.argsort(lu.perm_c)  # Pr S Pc = L U puts S[i, j] at (perm[i], perm[j])
+    L = lu.L.toarray()
+    ldl = L @ np.diag(lu.U.diagonal()) @ L.T
+    err = np.linalg.norm(S.toarray()[np.ix_(q, q)] - ldl, 2)
+    assert err <= inert.residual

@@ -109,7 +109,7 @@ def ldlt_inertia(S: Any) -> Inertia | None:
         return None
     DLt = (sp.diags(d) @ L.T).tocsc()
     X = U - DLt
-    k = int(np.diff(L.indptr).max()) + 1
+    k = int(np.diff(L.tocsr().indptr).max()) + 1  # most terms of an inner product (a row of L)
     nl, nu = _abs_norm2(L), _abs_norm2(U)
     # ‖Δ‖ ≤ γ_k‖|L||U|‖ + ‖|L|‖(‖X̂‖ + rounding of X̂: one product and one difference)
     rho = _gamma(k) * nl * nu + nl * (_abs_norm2(X) + 2.0 * _U * (nu + _abs_norm2(DLt)))
