@@ -17,6 +17,7 @@ from .version import __version__
 _EXPORTS = {
     # the model and its sources
     "Model": "model.core", "from_arrays": "model.core", "from_control": "model.core",
+    "from_second_order": "model.second_order",
     "ModelError": "errors", "EigengateError": "errors",
     "load_models": "load.loader",
     # analysis
@@ -79,6 +80,7 @@ if TYPE_CHECKING:  # pragma: no cover - the same names, for type checkers
     from .errors import EigengateError, ModelError
     from .load.loader import load_models
     from .model.core import Model, from_arrays, from_control
+    from .model.second_order import from_second_order
     from .pytest.assertions import (Checker, NotAModelError, RequirementArgumentError,
                                     StabilityAssertionError, check, of)
     from .reports.annotations import render_annotations

@@ -76,6 +76,10 @@ LOOP = {**copy.deepcopy(SS), "feedback": {"output_gain": [[0.5]]}}
 STATE_FB = {**copy.deepcopy(SS), "feedback": {"state_gain": [[1.0, 0.5]]}}
 CTRL = {**copy.deepcopy(SS), "feedback": {"controller": {
     "A": [[0.0]], "B": [[1.0]], "C": [[0.2]], "D": [[1.0]]}}}
+SO = {"model_format": 1, "name": "so", "plant": {"second_order": {
+    "M": [[1.0, 0.0], [0.0, 2.0]], "D": [[0.1, 0.0], [0.0, 0.1]], "K": [[2.0, -1.0], [-1.0, 2.0]],
+    "F": [[0.0], [1.0]], "Cq": [[1.0, 0.0]], "Cv": [[0.0, 1.0]]}},
+    "requirements": {"stable": True}}
 TF = {"model_format": 1, "name": "tf", "plant": {"num": [1.0], "den": [1.0, 3.0, 2.0]},
       "requirements": {"stable": True}}
 
@@ -167,10 +171,12 @@ MATRIX_FIELDS = [
     (STATE_FB, "feedback.state_gain"), (LOOP, "feedback.output_gain"),
     (CTRL, "feedback.controller.A"), (CTRL, "feedback.controller.B"),
     (CTRL, "feedback.controller.C"), (CTRL, "feedback.controller.D"),
+    (SO, "plant.second_order.M"), (SO, "plant.second_order.D"), (SO, "plant.second_order.K"),
+    (SO, "plant.second_order.F"), (SO, "plant.second_order.Cq"), (SO, "plant.second_order.Cv"),
 ]
 for base, where in MATRIX_FIELDS:
     for tag, value, words in BAD_MATRICES:
-        if where.endswith(".A") and tag == "wrong-shape":
+        if where.endswith((".A", ".M")) and tag == "wrong-shape":
             tag, value, words = NOT_SQUARE
         add_doc(f"m-{where.replace('.', '-')}-{tag}", put(base, where, value), where, *words)
 for where in ("plant.num", "plant.den"):
@@ -222,6 +228,14 @@ SCALARS = [  # (id, document, fields)
     ("a-empty", put(SS, "plant", {"A": []}), ("plant.A",)),
     ("a-not-square", put(SS, "plant", {"A": [[1.0, 2.0]]}), ("plant.A", "square")),
     ("e-singular-shape", put(SS, "plant.E", [[1.0]]), ("plant.E",)),
+    ("so-m-singular", put(SO, "plant.second_order.M", [[1.0, 1.0], [1.0, 1.0]]),
+     ("plant.second_order.M", "singular")),
+    ("so-k-missing", put(SO, "plant.second_order.K", DELETE), ("plant.second_order.K",)),
+    ("so-unknown", put(SO, "plant.second_order.G", [[1.0]]), ("plant.second_order.G",)),
+    ("so-not-mapping", put(SO, "plant.second_order", [1.0]), ("plant.second_order",)),
+    ("so-with-a", put(SO, "plant.A", [[1.0]]), ("plant.A", "second_order")),
+    ("so-coordinates", put(SO, "plant.second_order.coordinates", ["x"]),
+     ("plant.second_order.coordinates",)),
     ("tf-improper", put(TF, "plant.num", [1.0, 2.0, 3.0, 4.0]), ("plant.num",)),
     ("tf-den-zero", put(TF, "plant.den", [0.0, 0.0]), ("plant.den",)),
     ("tf-den-empty", put(TF, "plant.den", []), ("plant.den",)),

@@ -55,3 +55,27 @@ def test_unstable_sparse_model_fails_with_the_search_named(tmp_path):
     out = check(model_dir(tmp_path, 30.0))  # rightmost ≈ +10.3
     assert out.returncode == 1, out.stdout + out.stderr
     assert "EG101" in out.stdout and "Traceback" not in out.stderr
+
+
+def test_second_order_model_from_sparse_files_is_certified_and_cached(tmp_path):
+    # a 1,600-coordinate spring chain (3,200 states) with Rayleigh damping: M, D, K symmetric
+    # positive definite, so stability is certified by structure (inertia counts)
+    (tmp_path / "pyproject.toml").write_text("[project]\nname = 'x'\n")
+    n = 1600
+    K = sp.diags([-1.0, 2.0, -1.0], [-1, 0, 1], shape=(n, n)).tocsr()
+    M = sp.diags(np.linspace(1.0, 2.0, n)).tocsr()
+    for name, mat in (("mass", M), ("stiffness", K), ("damping", 0.01 * K + 0.001 * M)):
+        sp.save_npz(tmp_path / f"{name}.npz", mat.tocsr())
+    (tmp_path / "chain.yaml").write_text(
+        "model_format: 1\nname: chain\nplant:\n  second_order:\n    M: {file: mass.npz}\n"
+        "    K: {file: stiffness.npz}\n    D: {file: damping.npz}\n"
+        "requirements:\n  stable: true\n")
+    first = check(tmp_path)
+    assert first.returncode == 0, first.stdout + first.stderr
+    assert "found of 3200 by a sparse search" in first.stdout, first.stdout
+    again = check(tmp_path)
+    assert again.returncode == 0 and again.stdout == first.stdout
+    env = {"PYTHONPATH": PLUGIN + os.pathsep + os.environ.get("PYTHONPATH", "")}
+    out = run_cli("check", "--no-baseline", "--format", "json", str(tmp_path), cwd=tmp_path,
+                  env=env, timeout=120)
+    assert '"certified"' in out.stdout and "second-order structure" in out.stdout

@@ -53,7 +53,7 @@ def assert_agrees_with_dense(spectrum, dense_eigenvalues):
             assert gap[j] <= m.uncertainty + 1e-12 * abs(lam), (lam, gap[j], m.uncertainty)
 
 
-def test_heat_equation_agrees_with_dense_and_is_labelled_not_certified():
+def test_heat_equation_agrees_with_dense_and_is_certified_by_inertia():
     A = laplacian(20)  # n = 400, symmetric: eigenvalues real, double ones from symmetry
     model = from_arrays(A, sparse=True, requirements=[Stability()])
     spectrum = analyse_sparse(model)
@@ -65,7 +65,14 @@ def test_heat_equation_agrees_with_dense_and_is_labelled_not_certified():
     assert spectrum.modes[1].multiplicity == 2  # λ(1,2) = λ(2,1)
     assert spectrum.partial and spectrum.search.symmetric
     (verdict,) = evaluate(spectrum)
-    assert verdict.passed and verdict.decided_by == "estimated"  # a search: never certified
+    # a search alone never certifies; A symmetric: Sylvester's law of inertia does (the LDLᵀ
+    # pivots of A are all negative, so every eigenvalue is negative)
+    assert verdict.passed and verdict.decided_by == "certified"
+    assert "Sylvester's law of inertia" in verdict.message
+    # the non-symmetric convection-diffusion matrix has no such certificate: a labelled search
+    (verdict,) = evaluate(analyse_sparse(from_arrays(laplacian(20, c=5.0), sparse=True,
+                                                     requirements=[Stability()])))
+    assert verdict.passed and verdict.decided_by == "estimated"
     assert "no eigenvalue found" in verdict.message and "search covered" in verdict.message
 
 
@@ -130,8 +137,9 @@ def test_whole_spectrum_requirements_cannot_be_evaluated_on_a_partial_spectrum()
 
 
 def test_a_search_that_cannot_cover_its_region_is_uncertain():
-    # a descriptor model has no Bendixson rectangle: only discs are searched
-    A = laplacian(12)
+    # a descriptor model has no Bendixson rectangle: only discs are searched (non-symmetric,
+    # so no inertia certificate either)
+    A = laplacian(12, c=5.0)
     E = sp.diags(np.linspace(1.0, 2.0, 144)).tocsr()
     spectrum = analyse_sparse(from_arrays(A, E=E, sparse=True))
     (fail,) = evaluate(spectrum, [Stability()])
@@ -152,12 +160,3 @@ def test_small_sparse_models_get_the_whole_spectrum():
     A = laplacian(4)  # 16 states: at most SMALL, decomposed in full
     s = analyse_sparse(from_arrays(A, sparse=True))
     assert not s.partial and s.n_eigenvalues == 16
-
-
-@pytest.mark.parametrize("bad", ["discrete"])
-def test_discrete_sparse_models_are_refused(bad):
-    from eigengate.errors import ModelError
-
-    with pytest.raises(ModelError) as info:
-        analyse_sparse(from_arrays(laplacian(10) * 1e-4, sparse=True, sample_period=0.1))
-    assert "continuous-time models only" in str(info.value)

@@ -360,7 +360,15 @@ def _geometric(model: Model, centre: complex, vectors: "np.ndarray", size: int,
         sv = np.linalg.svd(model.A - centre * E, compute_uv=False)
         tol = 1e3 * n * eps * (norm + abs(centre))
         return int(min(size, max(1, int(np.sum(sv <= tol)))))
-    return vector_rank(vectors, size)
+    # above the limit: directions of the vectors' span on which A − λE is at rounding level
+    # (σ_j((A − λE)Q) ≥ σ_{n−r+j}(A − λE), so they count null directions as the SVD above
+    # does), or the vectors' own rank when that is larger
+    u, sv, _ = np.linalg.svd(vectors, full_matrices=False)
+    Q = u[:, sv > 1e-10 * sv[0]]
+    AQ = model.A @ Q - centre * (Q if model.E is None else model.E @ Q)
+    tol = 1e3 * n * eps * (norm + abs(centre))
+    flat = int(np.sum(np.linalg.svd(AQ, compute_uv=False) <= tol))
+    return int(min(size, max(flat, vector_rank(vectors, size))))
 
 
 def vector_rank(vectors: "np.ndarray", size: int) -> int:
@@ -372,7 +380,9 @@ def vector_rank(vectors: "np.ndarray", size: int) -> int:
     eps = np.finfo(float).eps
     unit = vectors / np.linalg.norm(vectors, axis=0)
     sv = np.linalg.svd(unit, compute_uv=False)
-    return int(max(1, np.sum(sv > 10.0 * eps ** (1.0 / size) * sv[0])))
+    # a group of parallel unit vectors has a singular value ≥ 1, so 0.5 caps the tolerance,
+    # which for size ≥ 16 would otherwise exceed sv[0] and call any cluster defective
+    return int(max(1, np.sum(sv > min(10.0 * eps ** (1.0 / size) * sv[0], 0.5))))
 
 
 def _mode_fields(model: Model, centre: complex, err: float, multiplicity: int, geometric: int,

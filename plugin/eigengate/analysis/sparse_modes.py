@@ -43,13 +43,14 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any, Iterable, Sequence
+from typing import TYPE_CHECKING, Any, Iterable
 
 from ..errors import ModelError
 from ..model.core import Model
 from .bounds import cap_defective, estimate, frobenius
 from .modes import (BOUND_FACTOR, Mode, Spectrum, _clusters, _mode_fields, analyse, sort_key,
                     vector_rank)
+from .sparse_regions import Disc, Rect, Search, Target
 
 if TYPE_CHECKING:  # pragma: no cover
     import numpy as np
@@ -61,8 +62,6 @@ __all__ = ["Target", "Disc", "Search", "analyse_sparse", "spectrum_of", "bendixs
 K_START = 8
 #: Most sparse LU factorisations (shifts) one model's search makes.
 MAX_SHIFTS = 8
-#: Depth of the quadtree that tests whether discs cover a region.
-DEPTH = 7
 #: At most this many states, a sparse model is decomposed in full (ARPACK needs k < n − 1).
 SMALL = 24
 #: ARPACK's relative accuracy of the Ritz values (the bounds come from the true residuals).
@@ -73,144 +72,6 @@ MAX_RESTARTS = 300
 SEED = 15
 
 _U = 2.0 ** -53
-
-Rect = tuple[float, float, float, float]  # x0, x1, y0, y1 of the upper half-plane (y ≥ 0)
-
-
-@dataclass(frozen=True)
-class Target:
-    """A region of the s-plane a requirement judges (closed):
-
-    * ``right``: ``Re s ≥ value`` (stability: 0; a decay rate α: −α);
-    * ``sector``: damping ratio below ``value`` (``Re s ≥ −t·|Im s|``, t = ζ/√(1 − ζ²));
-    * ``outside``: ``|s| ≥ value``.
-    """
-
-    kind: str
-    value: float
-
-    def describe(self) -> str:
-        v = f"{self.value:.6g}"
-        return {"right": f"Re s ≥ {v}", "sector": f"damping ratio < {v}",
-                "outside": f"|s| ≥ {v}"}[self.kind]
-
-    def _slope(self) -> float:
-        z = min(max(self.value, 0.0), 1.0)
-        return math.inf if z >= 1.0 else z / math.sqrt(1.0 - z * z)
-
-    def meets(self, r: Rect) -> bool:
-        """Whether the rectangle may hold points of the region (never False when it does)."""
-        x0, x1, y0, y1 = r
-        if self.kind == "right":
-            return x1 >= self.value
-        if self.kind == "sector":
-            t = self._slope()
-            return x1 >= 0.0 or math.isinf(t) or x1 + t * y1 >= 0.0
-        far = max(abs(complex(x, y)) for x in (x0, x1) for y in (y0, y1))
-        return far >= self.value
-
-    def clip(self, r: Rect) -> Rect | None:
-        """The part of ``r`` that may meet the region, as a rectangle (None: none)."""
-        if not self.meets(r):
-            return None
-        x0, x1, y0, y1 = r
-        if self.kind == "right":
-            return (max(x0, self.value), x1, y0, y1)
-        if self.kind == "sector" and not math.isinf(self._slope()):
-            return (max(x0, -self._slope() * y1), x1, y0, y1)
-        return r
-
-
-@dataclass(frozen=True)
-class Disc:
-    """An open disc with no eigenvalue in it but those found."""
-
-    centre: complex
-    radius: float
-
-    def holds(self, r: Rect) -> bool:
-        x0, x1, y0, y1 = r
-        return all(abs(complex(x, y) - self.centre) < self.radius
-                   for x in (x0, x1) for y in (y0, y1))
-
-
-@dataclass(frozen=True)
-class Search:
-    """What a sparse search covered. ``box``: Bendixson's rectangle (upper half), None for a
-    descriptor model; ``discs``: the searched discs; ``outer``: every eigenvalue not found has
-    ``|λ| ≤ outer`` (None: no magnitude run); ``shifts``: LU factorisations made; ``found``:
-    eigenvalues found (conjugates counted); ``n``: states."""
-
-    box: Rect | None
-    discs: tuple[Disc, ...]
-    outer: float | None
-    targets: tuple[Target, ...]
-    shifts: int
-    found: int
-    n: int
-    symmetric: bool
-
-    def excluded(self, target: Target) -> bool:
-        """Whether no eigenvalue can lie in ``target`` (Bendixson's rectangle misses it)."""
-        return self.box is not None and target.clip(self.box) is None
-
-    def uncovered(self, target: Target) -> list[Rect]:
-        """Parts of ``target`` (within the rectangle) that no disc covers; for a descriptor
-        model, the whole region is uncovered (``[]`` means searched in full)."""
-        if self.box is None:
-            return [(-math.inf, math.inf, 0.0, math.inf)]
-        start = target.clip(self.box)
-        return [] if start is None else _uncovered(start, target, self.discs, self.outer)
-
-    def coverage(self) -> str:
-        """The search in words, for verdict messages."""
-        if self.box is None:
-            where = "no bound on where the eigenvalues of a descriptor model lie"
-        else:
-            x0, x1, _, y1 = self.box
-            where = (f"Bendixson's rectangle {x0:.6g} ≤ Re s ≤ {x1:.6g}, |Im s| ≤ {y1:.6g}")
-        discs = ", ".join(f"|s − ({_c(d.centre)})| < {d.radius:.6g}" for d in self.discs[:4])
-        more = f" and {len(self.discs) - 4} more" if len(self.discs) > 4 else ""
-        outer = "" if self.outer is None else f", |s| > {self.outer:.6g}"
-        return (f"shift-invert Arnoldi found {self.found} of {self.n} eigenvalues with "
-                f"{self.shifts} shift(s); searched {discs or 'nothing'}{more}{outer}; {where}")
-
-
-def _c(z: complex) -> str:
-    return f"{z.real:.6g}" if z.imag == 0 else f"{z.real:.6g}{z.imag:+.6g}j"
-
-
-def _uncovered(r: Rect, target: Target, discs: Sequence[Disc], outer: float | None,
-               depth: int = DEPTH) -> list[Rect]:
-    """Leaves of a quadtree over ``r`` that may meet ``target`` and that no disc (nor the
-    magnitude run) covers; conservative: a leaf is covered only when one disc holds all its
-    corners (a disc is convex) or the whole leaf lies beyond ``outer``."""
-    if not target.meets(r):
-        return []
-    x0, x1, y0, y1 = r
-    if any(d.holds(r) for d in discs):
-        return []
-    if outer is not None and _nearest(r) > outer:
-        return []
-    if depth == 0:
-        return [r]
-    xm, ym = 0.5 * (x0 + x1), 0.5 * (y0 + y1)
-    parts = [(x0, xm, y0, ym), (xm, x1, y0, ym), (x0, xm, ym, y1), (xm, x1, ym, y1)]
-    out: list[Rect] = []
-    for part in parts:
-        out += _uncovered(part, target, discs, outer, depth - 1)
-    if out == parts:  # nothing of r is covered: one leaf says so
-        return [r]
-    return out
-
-
-def _nearest(r: Rect) -> float:
-    """Distance from the origin to the rectangle."""
-    x0, x1, y0, y1 = r
-    dx = 0.0 if x0 <= 0.0 <= x1 else min(abs(x0), abs(x1))
-    dy = 0.0 if y0 <= 0.0 <= y1 else min(abs(y0), abs(y1))
-    return math.hypot(dx, dy)
-
 
 def _gamma(k: int) -> float:
     ku = k * _U
@@ -290,7 +151,8 @@ def _arnoldi(op: Any, k: int, n: int, seed: int, which: str = "LM") -> tuple[Any
 def _factor(A: Any, E: Any, sigma: complex, scale: float) -> tuple[Any, complex]:
     """Sparse LU of ``A − σE`` (σ nudged when it hits an eigenvalue exactly)."""
     import scipy.sparse as sp
-    from scipy.sparse.linalg import splu
+
+    from .lowrank import factor
 
     n = A.shape[0]
     ident = sp.identity(n, format="csc") if E is None else E
@@ -298,7 +160,7 @@ def _factor(A: Any, E: Any, sigma: complex, scale: float) -> tuple[Any, complex]
         shift: complex | float = sigma if sigma.imag != 0 else sigma.real  # real LU if real
         M = (A - shift * ident) if shift != 0 else A.astype(float)
         try:
-            return splu(sp.csc_matrix(M)), sigma
+            return factor(sp.csc_matrix(M)), sigma
         except RuntimeError:  # exactly singular: σ is an eigenvalue
             sigma = sigma + complex(1e-7 * scale * 10.0 ** attempt, 0.0)
     raise ModelError("<sparse>", "plant.A", "could not factor A − σE at any shift tried")
@@ -349,7 +211,7 @@ def _add(pairs: _Pairs, lam: Any, vr: Any, vl: Any) -> int:
 
 
 def _run(A: Any, E: Any, sigma: complex, k: int, symmetric: bool, scale: float, seed: int,
-         pairs: _Pairs, lu: Any = None) -> tuple[Disc | None, Any, complex]:
+         pairs: _Pairs, lu: Any = None, left: Any = None) -> tuple[Disc | None, Any, complex]:
     """One shift: k eigenvalues nearest σ (and their left vectors) into ``pairs``; returns
     the searched disc (None when ARPACK did not converge), the LU, and σ used."""
     import numpy as np
@@ -364,6 +226,8 @@ def _run(A: Any, E: Any, sigma: complex, k: int, symmetric: bool, scale: float, 
     lam = sigma + 1.0 / mu
     if symmetric:
         w = v
+    elif left is not None:  # a symmetric second-order model: left vectors from the right
+        w = left(lam, v)
     else:
         mu_t, u, _ = _arnoldi(_operator(lu, E, n, dtype, True), k, n, seed + 1)
         w = _left_vectors(lam, mu_t[np.abs(mu_t) > 0], u[:, np.abs(mu_t) > 0], sigma)
@@ -413,10 +277,10 @@ def analyse_sparse(model: Model, targets: Iterable[Target] | None = None) -> Spe
     import numpy as np
     import scipy.sparse as sp
 
-    if model.discrete:
-        raise ModelError(model.source, "sample_period", "is given, but the sparse analysis "
-                         "handles continuous-time models only", line=model.line_of("sample_period"),
-                         hint="give a discrete model as dense matrices")
+    if model.discrete and model.E is not None:
+        raise ModelError(model.source, "plant.E", "is given for a discrete model, but the "
+                         "sparse analysis of discrete models takes x[k+1] = A x[k] only",
+                         line=model.line_of("plant.E"), hint="give E⁻¹A as A")
     A = sp.csr_matrix(model.A, dtype=float)
     E = None if model.E is None else sp.csr_matrix(model.E, dtype=float)
     n = A.shape[0]
@@ -429,7 +293,7 @@ def analyse_sparse(model: Model, targets: Iterable[Target] | None = None) -> Spe
     symmetric = (A != A.T).nnz == 0 and (E is None or (E != E.T).nnz == 0)
     norm = frobenius(A) + (0.0 if E is None else frobenius(E))
     scale = max(norm / math.sqrt(n), 1e-300)
-    box = None if E is not None else bendixson(A)
+    box = None if E is not None or model.discrete else bendixson(A)
     pairs = _Pairs([], [], [], [])
     discs: list[Disc] = []
     outer = None
@@ -439,7 +303,17 @@ def analyse_sparse(model: Model, targets: Iterable[Target] | None = None) -> Spe
     if box is not None and any(t.kind == "outside" and t.clip(box) is not None
                                for t in targets):
         outer = _magnitude(A, k, symmetric, SEED + 100, pairs)
-    while shifts < MAX_SHIFTS:
+    from .structure import companion_left
+
+    left = None if symmetric or model.discrete else companion_left(A, E)
+    radius = None
+    if model.discrete:  # the eigenvalues of largest modulus, nothing else (sparse_discrete)
+        from .sparse_discrete import largest_moduli
+
+        outer, shifts, radius = largest_moduli(A, targets, float(model.sample_period or 0.0),
+                                               k, symmetric,
+                                               pairs, lambda *a: _magnitude(*a))
+    while shifts < MAX_SHIFTS and not model.discrete:
         if box is None:
             if shifts:
                 break
@@ -461,17 +335,19 @@ def analyse_sparse(model: Model, targets: Iterable[Target] | None = None) -> Spe
         if sigma in tried:
             break
         tried.add(sigma)
-        disc, lu, sigma = _run(A, E, sigma, k, symmetric, scale, SEED + 2 * shifts, pairs)
+        disc, lu, sigma = _run(A, E, sigma, k, symmetric, scale, SEED + 2 * shifts, pairs,
+                               left=left)
         shifts += 1
         if disc is None:
             continue
         if disc.radius > 0 and leaves and not any(disc.holds(r) for r in leaves) \
                 and 2 * k < n - 1:  # once more at this shift with twice the eigenvalues
             bigger, _, _ = _run(A, E, sigma, 2 * k, symmetric, scale, SEED + 2 * shifts,
-                                pairs, lu)
+                                pairs, lu, left)
             disc = bigger if bigger is not None and bigger.radius > 0 else disc
         if disc.radius > 0:
             discs.append(disc)
+    lu = None  # the last LU is not needed by the certificates below: free it first
     # conjugates of the complex eigenpairs (a real model's spectrum is symmetric)
     lam0 = np.array(pairs.lam, dtype=complex)
     vr0 = np.stack(pairs.vr, axis=1) if pairs.vr else np.zeros((n, 0), complex)
@@ -508,7 +384,13 @@ def analyse_sparse(model: Model, targets: Iterable[Target] | None = None) -> Spe
                                  float(kappa[members].max()), part[:, members].mean(axis=1)))
     rows.sort(key=sort_key)
     modes = tuple(Mode(index=i + 1, states=model.states, **r) for i, r in enumerate(rows))
+    from .structure import prove
+
     search = Search(box=box, discs=tuple(discs), outer=outer, targets=targets, shifts=shifts,
-                    found=len(lam), n=n, symmetric=symmetric)
+                    found=len(lam), n=n, symmetric=symmetric,
+                    proofs=prove(A, E, [t for t in targets if box is None or
+                                        t.clip(box) is not None], symmetric,
+                                 model.sample_period),
+                    sample_period=model.sample_period, radius=radius)
     return Spectrum(model=model, modes=modes, infinite=0, norm=norm, balanced=False,
                     search=search)

@@ -7,7 +7,7 @@ from typing import Any, Mapping
 
 from ..model.formats import suggest
 from .context import (CONTROLLER_SS_KEYS, CONTROLLER_TF_KEYS, FEEDBACK_KEYS, FEEDBACK_KINDS,
-                     SS_KEYS, TF_KEYS, _check_keys, _Ctx, _mapping, _matrix, _requirements)
+                     SO_PLANT_KEYS, SS_KEYS, TF_KEYS, _check_keys, _Ctx, _mapping, _matrix, _requirements)
 from .parameters import parse_parameters
 from ..model.core import Model, as_matrix, from_arrays
 
@@ -33,8 +33,10 @@ def _closed_loop(doc: Mapping[str, Any], ctx: _Ctx, parts: list[dict[str, Any]] 
         raise ctx.err("plant", "is missing (neither the file nor this operating point gives it)")
     plant_block = _mapping(doc["plant"], ctx, "plant")
     plant, structure = _system(plant_block, ctx, "plant", plant=True)
-    if plant.sparse and "feedback" in doc:
-        raise ctx.err("feedback", "cannot close a loop around a sparse plant",
+    if plant.sparse and isinstance(doc.get("feedback"), Mapping) \
+            and "controller" in doc["feedback"]:
+        raise ctx.err("feedback.controller", "cannot close a dynamic controller around a "
+                      "sparse plant (a static state_gain or output_gain can be closed)",
                       "give the closed-loop matrices as the plant, or a plant of at most "
                       "the sparse threshold's states with sparse: false")
     matrices: tuple[Any, Any, Any, Any] = (plant.A, plant.B, plant.C, plant.D)
@@ -127,14 +129,20 @@ def _system(block: dict[str, Any], ctx: _Ctx, path: str, *, plant: bool) -> tupl
     ss_keys = SS_KEYS if plant else CONTROLLER_SS_KEYS
     tf_keys = TF_KEYS if plant else CONTROLLER_TF_KEYS
     what = "a plant" if plant else "a controller"
-    _check_keys(block, tuple(dict.fromkeys(ss_keys + tf_keys)), ctx, path, what)
+    so_keys = SO_PLANT_KEYS if plant else ()
+    _check_keys(block, tuple(dict.fromkeys(ss_keys + tf_keys + so_keys)), ctx, path, what)
     ss_given = [k for k in ("A", "B", "C", "D", "E") if k in block]
     tf_given = [k for k in ("num", "den") if k in block]
     if ss_given and tf_given:
         raise ctx.err(f"{path}.{tf_given[0]}", f"is given together with {path}.{ss_given[0]}: "
                       f"{what} is either state space (A, B, C, D) or a transfer function "
                       "(num, den), not both", "remove one of the two forms")
-    if not ss_given and not tf_given:
+    if "second_order" in block and (ss_given or tf_given or "states" in block):
+        other = (ss_given + tf_given + ["states"])[0]
+        raise ctx.err(f"{path}.{other}", f"is given together with {path}.second_order: the "
+                      "plant is either second order (M, D, K, F) or state space or a transfer "
+                      "function", "coordinates under second_order name the states")
+    if not ss_given and not tf_given and "second_order" not in block:
         raise ctx.err(path, "must give A (state space) or num and den (transfer function), "
                       "got neither")
     if not plant:
@@ -147,6 +155,8 @@ def _system(block: dict[str, Any], ctx: _Ctx, path: str, *, plant: bool) -> tupl
                           f"plant's sample period is {ctx.sample_period!r}",
                           "plant and controller must share the sample period")
     prefix = ctx.prefix + path + "."
+    if plant and "second_order" in block:
+        return _second_order(block, ctx, path), "second order"
     if ss_given:
         if "A" not in block:
             raise ctx.err(f"{path}.A", f"is missing; {path}.{ss_given[0]} is given, so "
@@ -187,6 +197,27 @@ def _system(block: dict[str, Any], ctx: _Ctx, path: str, *, plant: bool) -> tupl
                         outputs=_names(block, "outputs", ctx, path), source=ctx.source,
                         lines=ctx.prefixed_lines(), prefix=prefix)
     return model, "transfer function"
+
+
+def _second_order(block: dict[str, Any], ctx: _Ctx, path: str) -> Model:
+    """A ``second_order:`` plant block (``M q'' + D q' + K q = F u``) in companion form."""
+    from ..model.second_order import SECOND_ORDER_KEYS, from_second_order
+
+    where = f"{path}.second_order"
+    so = _mapping(block["second_order"], ctx, where)
+    _check_keys(so, SECOND_ORDER_KEYS, ctx, where, "a second-order plant")
+    for key in ("M", "K"):
+        if key not in so:
+            raise ctx.err(f"{where}.{key}", "is missing; a second-order plant needs M and K")
+    sparse = block.get("sparse")
+    if sparse is not None and not isinstance(sparse, bool):
+        raise ctx.err(f"{path}.sparse", f"must be true or false, got {sparse!r}")
+    mats = {k: _matrix(so.get(k), ctx, f"{where}.{k}") for k in ("M", "D", "K", "F", "Cq", "Cv")}
+    coords = _names(so, "coordinates", ctx, where)
+    return from_second_order(**mats, coordinates=coords, sparse=sparse,
+                             inputs=_names(block, "inputs", ctx, path),
+                             outputs=_names(block, "outputs", ctx, path), source=ctx.source,
+                             lines=ctx.prefixed_lines(), prefix=ctx.prefix + where + ".")
 
 
 def _static(d: Any, ctx: _Ctx) -> Model:
@@ -298,6 +329,11 @@ def _feedback(block: dict[str, Any], plant: Model, ctx: _Ctx,
                               f"{why}), got {k.shape[0]}×{k.shape[1]}")
             import numpy as np
 
+            if plant.sparse:  # kept sparse: no loop parts (margins need a dense plant)
+                from ..model.sparse_loop import sparse_gain_feedback
+
+                return kind, sparse_gain_feedback(a, b, c, d, k, ins, None if kind ==
+                                                  "state_gain" else outs), []
             if kind == "state_gain":
                 keep(np.eye(n), np.zeros((n, b.shape[1])), plant.states, np.zeros((0, 0)),
                      np.zeros((0, n)), np.zeros((m_sel, 0)), k)

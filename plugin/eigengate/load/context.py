@@ -22,6 +22,8 @@ TOP_KEYS = ("model_format", "name", "description", "domain", "sample_period", "p
 POINT_KEYS = ("label", "id", "plant", "feedback", "requirements", "known_modes", "on_uncertain",
               "require", "loop", "allowed_drift")
 SS_KEYS = ("A", "B", "C", "D", "E", "states", "inputs", "outputs", "sparse")
+#: A second-order plant (``plant.second_order``; its own keys in model.second_order).
+SO_PLANT_KEYS = ("second_order", "inputs", "outputs", "sparse")
 TF_KEYS = ("num", "den", "states", "inputs", "outputs")
 FEEDBACK_KEYS = ("state_gain", "output_gain", "controller", "inputs", "outputs")
 FEEDBACK_KINDS = ("state_gain", "output_gain", "controller")

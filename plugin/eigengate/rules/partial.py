@@ -62,12 +62,19 @@ def partial_verdict(req: Any, modes: Sequence[Any], spectrum: Any, policy: str) 
     if not v.passed and not v.uncertain:  # a violating mode was found: a real failure
         return replace(v, decided_by="estimated" if v.decided_by == "certified" else
                        v.decided_by, message=f"{v.message}; {label}")
-    if all(search.excluded(t) for t in targets):
+    proofs = getattr(search, "proof", lambda t: None)
+    if all(search.excluded(t) or proofs(t) for t in targets):
+        bound = ("Gershgorin's theorem bounds every |z| by the largest row sum of |A|"
+                 if getattr(search, "sample_period", None) is not None else
+                 "Bendixson's theorem with Gershgorin bounds of the symmetric and "
+                 "skew-symmetric parts of A excludes it")
+        how = "; ".join(dict.fromkeys(bound if search.excluded(t) else str(proofs(t))
+                                      for t in targets))
         return replace(v, passed=True, uncertain=False, decided_by="certified",
-                       message=f"{v.message}; no eigenvalue can lie where {where}: Bendixson's "
-                       "theorem with Gershgorin bounds of the symmetric and skew-symmetric "
-                       "parts of A excludes it (certified)", suggestion=None)
-    gaps = [(t, g) for t in targets if not search.excluded(t) for g in search.uncovered(t)]
+                       message=f"{v.message}; no eigenvalue can lie where {where}: {how} "
+                       "(certified)", suggestion=None)
+    gaps = [(t, g) for t in targets if not (search.excluded(t) or proofs(t))
+            for g in search.uncovered(t)]
     if gaps:
         passed = policy == "pass"
         t, (x0, x1, y0, y1) = gaps[0]
