@@ -93,3 +93,36 @@ def test_jobs_2_leaves_no_process_behind(tmp_path):
                              "--no-cache", str(root)], capture_output=True, text=True,
                             cwd=root, env=cli_env(), timeout=300)
     assert pooled.stdout == single.stdout  # the pool changes nothing in the findings
+
+
+_LIGHT_CONFTEST = """\
+import sys
+
+def pytest_collection_finish(session):
+    heavy = sorted({m.split('.')[0] for m in sys.modules} & {'numpy', 'scipy'})
+    with open('collected-with.txt', 'w') as fh:
+        fh.write(' '.join(heavy) or 'nothing heavy')
+"""
+
+
+def _pytest(root: Path) -> tuple[str, str]:
+    out = subprocess.run([sys.executable, "-m", "pytest", "-q", "-p", "eigengate.pytest.plugin",
+                          "-p", "no:cacheprovider"], capture_output=True, text=True, cwd=root,
+                         env=cli_env(PYTEST_DISABLE_PLUGIN_AUTOLOAD="1"), timeout=300)
+    return out.stdout.strip().splitlines()[-1], (root / "collected-with.txt").read_text()
+
+
+def test_pytest_collector_serves_unchanged_files_from_the_cache_without_numpy(tmp_path):
+    root = _repository(tmp_path / "repo")
+    (root / "pyproject.toml").write_text('[tool.eigengate]\ninclude = ["models/*.yaml"]\n',
+                                         encoding="utf-8")
+    (root / "conftest.py").write_text(_LIGHT_CONFTEST, encoding="utf-8")
+    cold, cold_heavy = _pytest(root)
+    assert "3 failed, 3 passed, 1 error" in cold and "numpy" in cold_heavy
+    warm, warm_heavy = _pytest(root)  # the cache written by the first session
+    assert warm_heavy == "nothing heavy"
+    assert warm.split(" in ")[0] == cold.split(" in ")[0]
+    # and the command line reads what pytest wrote: its warm check needs no analysis
+    check = _guarded("light", root, "--jobs", "1")
+    assert check.returncode == 1, check.stderr
+    assert "EG103" in check.stdout

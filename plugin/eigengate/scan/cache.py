@@ -309,6 +309,23 @@ class ResultCache:
         """The key of model file ``rel`` when its status is the one recorded with it."""
         return self._recorded("files", rel, st)
 
+    def file_key(self, rel: str, st: os.stat_result | None, path: str,
+                 content: bytes | None = None) -> str | None:
+        """The key of model file ``rel`` (at ``path``, status ``st`` taken before reading):
+        the recorded one when its status is unchanged, else from its bytes (``content`` when
+        already read), recording the status; None when it cannot be read."""
+        key = None if st is None else self.known_key(rel, st)
+        if key is None:
+            if content is None:
+                try:
+                    with open(path, "rb") as fh:
+                        content = fh.read()
+                except OSError:
+                    return None
+            key = self.key(rel, content)
+            self.note_key(rel, st, key)
+        return key
+
     def note_key(self, rel: str, st: os.stat_result | None, key: str) -> None:
         """Record the status of model file ``rel`` (taken before it was read) with its key."""
         self._note("files", rel, st, key)

@@ -22,7 +22,7 @@ from .engine import (FileResult, analyse_file, file_result, policy_findings,
                      unselected_findings)
 from ..rules.findings import Finding
 
-__all__ = ["Scan", "scan", "default_jobs"]
+__all__ = ["Scan", "scan", "default_jobs", "cache_name"]
 
 #: Below this many files to analyse, a pool costs more than it saves.
 POOL_THRESHOLD = 16
@@ -105,7 +105,7 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
     files = find_model_files(
         list(paths), config, filter_named=filter_named, unselected=unselected, sniffs=cache,
         known=None if cache is None else
-        lambda rel, st: cache.known_key(_cache_name(config, rel), st) is not None)
+        lambda rel, st: cache.known_key(cache_name(config, rel), st) is not None)
     slots: list[tuple | None] = [None] * len(files)
     todo: list[tuple[int, str, str | None]] = []
     names = [f.rel for f in files]  # what a file that no cluster worker analysed is called
@@ -114,19 +114,7 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
         files[i] = None  # type: ignore[call-overload]  # its bytes are not kept past here
         key = None
         if cache is not None:
-            name = _cache_name(config, f.rel)
-            key = None if f.stat is None else cache.known_key(name, f.stat)
-            if key is None:
-                content = f.content
-                if content is None:
-                    try:
-                        with open(f.path, "rb") as fh:
-                            content = fh.read()
-                    except OSError:
-                        content = None
-                if content is not None:
-                    key = cache.key(name, content)
-                    cache.note_key(name, f.stat, key)
+            key = cache.file_key(cache_name(config, f.rel), f.stat, f.path, f.content)
             if key is not None:
                 hit = cache.get(key)
                 if hit is not None:
@@ -182,7 +170,7 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
     return Scan(files=out, policy=tuple(policy), cache_hits=hits, analysed=len(todo))
 
 
-def _cache_name(config: Config, rel: str) -> str:
+def cache_name(config: Config, rel: str) -> str:
     """A model file's name in the cache: its path, qualified by the digest of the nested
     policy that judges it (so adding, changing or removing one is never served stale)."""
     policy = config.policy_for(rel)
