@@ -158,7 +158,13 @@ def pool_run(todo: list, config: Any, jobs: int, local: Callable, remote: Callab
                 n = take()
                 items = todo[front:front + n]
                 front += n
-                conn.send([p for _, p, _ in items])
+                try:
+                    conn.send([p for _, p, _ in items])
+                except OSError:  # the worker is gone (its pipe says so at the next read)
+                    for item in items:
+                        local(item)
+                    step(n)
+                    continue
                 held[conn].append(items)
 
         for conn in held:

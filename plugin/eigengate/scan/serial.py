@@ -62,9 +62,7 @@ class Blobs:
             raise ValueError(f"blob {i} is not an array")
         return a
 
-    def rows(self, i: int) -> list[list[float]]:
-        """An array blob as a list of rows of Python floats (what ``array(i).tolist()``
-        gives)."""
+    def rows(self, i: int) -> list[list[float]]:  # as the cache's readers give them
         return self.array(i).tolist()
 
     def json(self, i: int):
@@ -83,9 +81,7 @@ _MODE_SCALARS = ("multiplicity", "geometric_multiplicity", "pair", "natural_freq
 _MODE_COLUMNS = 5 + len(_MODE_SCALARS)
 
 
-def _mode_table(modes):
-    import numpy as np
-
+def _mode_table(modes, np):
     rows = [[m.index, m.eigenvalue.real, m.eigenvalue.imag, m.s.real, m.s.imag]
             + [getattr(m, k) for k in _MODE_SCALARS] for m in modes]
     return np.array(rows, dtype=np.float64).reshape(len(rows), _MODE_COLUMNS)
@@ -191,7 +187,7 @@ def _spectrum_data(sp, blobs: Blobs) -> dict:
         "min_damping": sp.min_damping, "n_eigenvalues": sp.n_eigenvalues,
         "n_modes": len(modes),
         "search": None if getattr(sp, "search", None) is None else sp.search.coverage(),
-        "modes": blobs.put_array(_mode_table(modes)),
+        "modes": blobs.put_array(_mode_table(modes, np)),
         "participation": blobs.put_array(part),
     }
 
@@ -268,10 +264,6 @@ class CachedModel(Model):
     @property
     def n_states(self) -> int:  # _model_from checked that A is n × n for n states
         return len(self.states)
-
-    @property
-    def sparse(self) -> bool:
-        return isinstance(self.__dict__["_stored"]["A"][1], list)  # stored as CSR arrays
 
 
 def _model_data(m, blobs: Blobs) -> dict:
