@@ -22,16 +22,19 @@ import time
 from pathlib import Path
 
 
-def generate(folder: Path, count: int, seed: int = 7) -> list[Path]:
-    """Write ``count`` model files of 4–30 states (random stable-ish plants, invented data)."""
+def generate(folder: Path, count: int, seed: int = 7, states: tuple[int, int] = (4, 30),
+             shift: tuple[float, float] = (0.2, 1.6)) -> list[Path]:
+    """Write ``count`` model files of ``states`` (4–30 by default) states (random stable-ish
+    plants, invented data: ``A`` is a normal matrix scaled by 1/√n less a diagonal drawn from
+    ``shift``)."""
     import numpy as np
     import yaml
 
     rng = np.random.default_rng(seed)
     paths = []
     for i in range(count):
-        n = int(rng.integers(4, 31))
-        a = rng.normal(size=(n, n)) / np.sqrt(n) - rng.uniform(0.2, 1.6) * np.eye(n)
+        n = int(rng.integers(states[0], states[1] + 1))
+        a = rng.normal(size=(n, n)) / np.sqrt(n) - rng.uniform(*shift) * np.eye(n)
         b = rng.normal(size=(n, 2))
         c = rng.normal(size=(1, n))
         doc = {

@@ -168,16 +168,31 @@ def _kind(value: Any) -> str:
 
 def _check_nesting(text: str, source: str) -> None:
     # Rough bracket count (brackets inside strings count too): good enough to refuse files
-    # nested so deeply that a recursive parser would exhaust the stack.
-    import numpy as np
+    # nested so deeply that a recursive parser would exhaust the stack. Brackets are ASCII, so
+    # counting characters counts the bytes of the UTF-8 text.
+    opening = text.count("[") + text.count("{")
+    if opening <= MAX_NESTING:  # block-style YAML, small flow matrices: cannot nest deeper
+        return
+    if opening > _NESTING_SCAN:  # long flow-style matrices: one vectorised pass
+        import numpy as np
 
-    codes = np.frombuffer(text.encode("utf-8", "surrogatepass"), dtype=np.uint8)
-    step = np.zeros(256, dtype=np.int64)
-    step[[ord("["), ord("{")]] = 1
-    step[[ord("]"), ord("}")]] = -1
-    depth = np.cumsum(step[codes])
-    if depth.size and int(depth.max()) > MAX_NESTING:
+        codes = np.frombuffer(text.encode("utf-8", "surrogatepass"), dtype=np.uint8)
+        step = np.zeros(256, dtype=np.int64)
+        step[[ord("["), ord("{")]] = 1
+        step[[ord("]"), ord("}")]] = -1
+        top = int(np.cumsum(step[codes]).max())
+    else:
+        depth = top = 0
+        for ch in _BRACKETS.findall(text):
+            depth += 1 if ch in "[{" else -1
+            top = max(top, depth)
+    if top > MAX_NESTING:
         raise ModelError(source, "", f"nests lists or mappings deeper than {MAX_NESTING} levels")
+
+
+#: Above this many opening brackets the depth is found with numpy (the matrices need it anyway).
+_NESTING_SCAN = 20_000
+_BRACKETS = re.compile(r"[\[\]{}]")
 
 
 # --------------------------------------------------------------------------- numbers

@@ -102,9 +102,42 @@ def _yaml_loader_class() -> type:
     _Loader.add_implicit_resolver(_YAML + "int", _CORE_RE[_YAML + "int"],
                                   list(_CORE_FIRST["int"]))
     _Loader.add_constructor(_YAML + "int", _core_int)
+    _fast_resolution(_Loader, yaml)
     # A date in a description stays the text the author wrote.
     _Loader.add_constructor(_YAML + "timestamp", base.construct_yaml_str)
     return _Loader
+
+
+def _fast_resolution(loader: type, yaml: Any) -> None:
+    """Give ``loader`` the resolution PyYAML's ``BaseResolver.resolve`` performs with the
+    loader's tables, without its per-node work for path resolvers (the loader has none):
+    libyaml's composer calls these three methods for every node."""
+    assert not loader.yaml_path_resolvers
+    table = loader.yaml_implicit_resolvers
+    wildcard = table.get(None, [])
+    by_first = {first: tuple(resolvers + wildcard) for first, resolvers in table.items()
+                if first is not None}
+    wildcard_only = tuple(wildcard)
+    scalar, sequence = yaml.ScalarNode, yaml.SequenceNode
+    defaults = {scalar: loader.DEFAULT_SCALAR_TAG, sequence: loader.DEFAULT_SEQUENCE_TAG,
+                yaml.MappingNode: loader.DEFAULT_MAPPING_TAG}
+
+    def resolve(self, kind, value, implicit):
+        if kind is scalar and implicit[0]:
+            for tag, regexp in by_first.get(value[:1], wildcard_only):  # '' is keyed by ''
+                if regexp.match(value):
+                    return tag
+        return defaults[kind]
+
+    def descend_resolver(self, current_node, current_index):
+        return None  # no path resolvers: nothing to track
+
+    def ascend_resolver(self):
+        return None
+
+    loader.resolve = resolve
+    loader.descend_resolver = descend_resolver
+    loader.ascend_resolver = ascend_resolver
 
 
 def parse_yaml(text: str, source: str) -> tuple[Any, dict[str, int]]:

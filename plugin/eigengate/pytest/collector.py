@@ -2,7 +2,8 @@
 
 The repository policy (``[tool.eigengate]``) selects the files (``include``/``exclude``, which
 the ``--eigengate-models`` globs narrow or supply) and drives every verdict through
-:func:`eigengate.scan.engine.check_model`, so ``pytest`` and ``eigengate check`` agree. A file that
+:func:`eigengate.scan.engine.check_model`, so ``pytest`` and ``eigengate check`` agree; an
+unchanged file's results come from the command line's cache (:mod:`eigengate.pytest.cached`). A file that
 cannot be loaded becomes one item that errors with file, field and reason; the other items
 still run.
 
@@ -30,6 +31,7 @@ if TYPE_CHECKING:  # pragma: no cover
     from ..scan.engine import ModelResult
     from ..errors import ModelError
     from ..model.core import Model
+    from .cached import CollectCache
 
 __all__ = ["Selection", "ModelFile", "ModelItem", "InvalidModelItem", "ModelCheckFailed",
            "BaselineRun", "BaselineTally", "accept_command", "shown_path"]
@@ -82,26 +84,47 @@ class ModelFile(pytest.File):
     """A model file: yields one :class:`ModelItem` per model (operating point)."""
 
     def __init__(self, *, policy: "Config", baseline: "BaselineRun | None" = None,
-                 **kw: Any) -> None:
+                 cache: "CollectCache | None" = None, **kw: Any) -> None:
         super().__init__(**kw)
         self.policy = policy
         self.baseline = baseline
+        self.cache = cache
         self.titles: tuple[str, ...] = ()  # every model the file defines, once collected
+        self._key: str | None = None
+        self._refs: list[str] = []
+        self._analysed: list = []  # pre-waiver results of the items run, for the cache
 
     def collect(self) -> Iterator[pytest.Item]:
         from ..errors import ModelError
-        from ..load.loader import load_models
+        from ..load.loader import load_models_with_refs
 
+        if self.cache is not None:
+            self._key, cached = self.cache.lookup(self.path)
+            if cached is not None:  # unchanged: the items carry their cached results
+                self.titles = tuple(r.model.title for r in cached)
+                for r in cached:
+                    yield ModelItem.from_parent(self, name=r.model.title, model=r.model,
+                                                analysed=r)
+                return
         try:
             # pytest runs project code anyway: a vector field may import it (the CLI asks
             # for allow_python in the policy)
-            models = load_models(self.path, root=self.policy.root, allow_python=True)
+            models, self._refs = load_models_with_refs(self.path, root=self.policy.root,
+                                                       allow_python=True)
         except ModelError as exc:
             yield InvalidModelItem.from_parent(self, name=self.path.stem, error=exc)
             return
         self.titles = tuple(m.title for m in models)
-        for model in models:
-            yield ModelItem.from_parent(self, name=model.title, model=model)
+        self._analysed = [None] * len(models)
+        for k, model in enumerate(models):
+            yield ModelItem.from_parent(self, name=model.title, model=model, slot=k)
+
+    def analysed(self, slot: int, result: "ModelResult") -> None:
+        """An item's pre-waiver result; with every model's, the file goes into the cache."""
+        self._analysed[slot] = result
+        if self.cache is not None and self._key is not None and \
+                all(r is not None for r in self._analysed):
+            self.cache.put(self._key, self.path, self._analysed, self._refs)
 
 
 class ModelItem(pytest.Item):
@@ -109,21 +132,29 @@ class ModelItem(pytest.Item):
 
     parent: ModelFile
 
-    def __init__(self, *, model: "Model", **kw: Any) -> None:
+    def __init__(self, *, model: "Model", analysed: "ModelResult | None" = None,
+                 slot: int | None = None, **kw: Any) -> None:
         super().__init__(**kw)
         self.model = model
+        self.analysed = analysed  # from the cache: pre-waiver, not analysed again
+        self.slot = slot
         self.result: "ModelResult | None" = None
         self.verdict: str | None = None
         self.error: "ModelError | None" = None
         self.baseline: dict[str, Any] | None = None  # what the baseline said, as plain data
 
     def runtest(self) -> None:
-        from ..scan.engine import check_model
+        from ..scan.engine import analyse_model, apply_waivers
         from ..errors import ModelError
 
         run = self.parent.baseline
         try:
-            result = check_model(self.model, self.parent.policy)
+            pre = self.analysed
+            if pre is None:
+                pre = analyse_model(self.model, self.parent.policy)
+                if self.slot is not None:
+                    self.parent.analysed(self.slot, pre)
+            result = apply_waivers(pre, self.parent.policy)  # check_model, in two steps
             if run is not None:
                 result, self.baseline = run.judge(result)
         except ModelError as exc:  # the analysis refused the model (e.g. a singular pencil)

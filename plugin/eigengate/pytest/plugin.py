@@ -20,6 +20,7 @@ import pytest
 if TYPE_CHECKING:  # pragma: no cover
     from .assertions import Checker, Layer
     from .collector import BaselineRun, Selection
+    from .cached import CollectCache
     from ..scan.config import Config
 
 #: Suffixes of model files; the collector is imported only for files that have one.
@@ -60,6 +61,7 @@ class Settings:
         self._policy: "Config | None" = None
         self._selection: "Selection | None" = None
         self._baseline: "BaselineRun | None" = None
+        self._results_cache: "CollectCache | None" = None
         if policy_path is not None:
             self._policy = _load_policy(policy_path, start)
 
@@ -85,6 +87,15 @@ class Settings:
 
             self._baseline = BaselineRun(lambda: self.policy, accept=self.accept)
         return self._baseline
+
+    @property
+    def results_cache(self) -> "CollectCache":
+        """The result cache shared with the command line, opened when first used."""
+        if self._results_cache is None:
+            from .cached import CollectCache
+
+            self._results_cache = CollectCache(self.policy)
+        return self._results_cache
 
     @property
     def baseline_used(self) -> bool:
@@ -273,7 +284,8 @@ def pytest_collect_file(file_path: Path, parent: pytest.Collector) -> pytest.Col
         return None
     from .collector import ModelFile
 
-    return ModelFile.from_parent(parent, path=file_path, policy=s.policy, baseline=s.baseline)
+    return ModelFile.from_parent(parent, path=file_path, policy=s.policy, baseline=s.baseline,
+                                 cache=s.results_cache)
 
 
 def pytest_collection_finish(session: pytest.Session) -> None:
@@ -289,6 +301,8 @@ def pytest_sessionfinish(session: pytest.Session) -> None:
     xdist each worker writes its own, under the file's lock)."""
     config = session.config
     s = config.stash.get(settings_key, None)
+    if s is not None and s._results_cache is not None:
+        s._results_cache.save()
     if s is None or not s.accept or not s.baseline_used:
         return
     from ..baseline.store import BaselineError

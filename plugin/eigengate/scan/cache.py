@@ -22,17 +22,21 @@ itself (README, .gitignore, CACHEDIR.TAG).
 
 from __future__ import annotations
 
+import array
 import hashlib
 import json
 import os
 import struct
+import sys
 import tempfile
 import time
 import zlib
 from pathlib import Path
 from typing import Any
 
-__all__ = ["ResultCache", "Pack", "PackBlobs", "CACHE_DIR", "read_pack", "write_pack"]
+from .pool import item_bytes
+
+__all__ = ["ResultCache", "Pack", "PackBlobs", "RawBlobs", "CACHE_DIR", "read_pack", "write_pack"]
 
 CACHE_DIR = ".eigengate-cache"
 _README = """\
@@ -69,9 +73,9 @@ _INDEX_COLUMNS = 4
 class Pack:
     """A pack read back and checked: its head (JSON), blob index and body."""
 
-    def __init__(self, head: dict, index, body: memoryview) -> None:
+    def __init__(self, head: dict, index: list, body: memoryview) -> None:
         self.head, self._body = head, body
-        self._index = index.tolist()  # one conversion; each blob read is then list lookups
+        self._index = index  # rows of (offset, size, rows, columns): each read is list lookups
         self._shapes = [None if c < 0 else (r, c) for _, _, r, c in self._index]
 
     def blobs(self, first: Any, count: Any) -> "PackBlobs":
@@ -91,54 +95,100 @@ class Pack:
         return out
 
 
-class PackBlobs:
-    """The blobs of one cache entry, served from the body of its pack (the reading methods
-    of :class:`eigengate.scan.serial.Blobs`)."""
+class _BlobReader:
+    """Reading methods of :class:`eigengate.scan.serial.Blobs` over raw blobs: each is its
+    bytes (float64, little-endian, or UTF-8 JSON) with its shape (None for a text), served
+    by ``_raw``."""
+
+    __slots__ = ()
+
+    def _raw(self, i: Any) -> tuple[Any, int, int]:  # pragma: no cover - abstract
+        raise NotImplementedError
+
+    def array(self, i: Any):
+        import numpy as np
+
+        raw, rows, cols = self._raw(i)
+        if cols < 0:
+            raise ValueError(f"blob {i} is not an array")
+        return np.frombuffer(raw, dtype="<f8", count=rows * cols).reshape(rows, cols)
+
+    def rows(self, i: Any) -> list[list[float]]:
+        """An array blob as rows of Python floats, read without numpy (a warm re-check
+        renders findings' mode rows from these)."""
+        raw, rows, cols = self._raw(i)
+        if cols < 0:
+            raise ValueError(f"blob {i} is not an array")
+        flat = _little("d", raw).tolist()
+        return [flat[k:k + cols] for k in range(0, rows * cols, cols)]
+
+    def json(self, i: Any):
+        raw, _, cols = self._raw(i)
+        if cols >= 0:
+            raise ValueError(f"blob {i} is not a text")
+        return json.loads(bytes(raw))
+
+
+class PackBlobs(_BlobReader):
+    """The blobs of one cache entry, served from the body of its pack."""
 
     __slots__ = ("_pack", "_first", "_count")
 
     def __init__(self, pack: Pack, first: int, count: int) -> None:
         self._pack, self._first, self._count = pack, first, count
 
-    def _row(self, i: Any) -> list[int]:
+    def _raw(self, i: Any) -> tuple[Any, int, int]:
         if type(i) is not int or not 0 <= i < self._count:
             raise ValueError(f"blob {i!r} is not one of the entry's {self._count}")
-        return self._pack._index[self._first + i]
+        off, size, rows, cols = self._pack._index[self._first + i]
+        return self._pack._body[off:off + size], rows, cols
 
     def shapes(self) -> list[tuple[int, int] | None]:
         """``(rows, columns)`` of each array blob, None for each text."""
         return self._pack._shapes[self._first:self._first + self._count]
 
-    def array(self, i: Any):
-        import numpy as np
 
-        off, size, rows, cols = self._row(i)
-        if cols < 0:
-            raise ValueError(f"blob {i} is not an array")
-        return np.frombuffer(self._pack._body, dtype="<f8", count=size // 8,
-                             offset=off).reshape(rows, cols)
+class RawBlobs(_BlobReader):
+    """Blobs as a worker sends them (``(bytes, [rows, columns] or None)``, what
+    :func:`write_pack` takes), checked on arrival: sizes fit shapes."""
 
-    def json(self, i: Any):
-        off, size, _, cols = self._row(i)
-        if cols >= 0:
-            raise ValueError(f"blob {i} is not a text")
-        return json.loads(bytes(self._pack._body[off:off + size]))
+    __slots__ = ("_items", "_shapes")
+
+    def __init__(self, items: list) -> None:
+        shapes: list[tuple[int, int] | None] = []
+        for raw, shape in items:
+            if shape is None:
+                shapes.append(None)
+                continue
+            rows, cols = shape
+            if rows < 0 or cols < 0 or len(raw) != 8 * rows * cols:
+                raise ValueError("blob size does not fit its shape")
+            shapes.append((rows, cols))
+        self._items, self._shapes = items, shapes
+
+    def _raw(self, i: Any) -> tuple[Any, int, int]:
+        if type(i) is not int or not 0 <= i < len(self._items):
+            raise ValueError(f"blob {i!r} is not one of the entry's {len(self._items)}")
+        raw, shape = self._items[i]
+        return (raw, -1, -1) if shape is None else (raw, shape[0], shape[1])
+
+    def shapes(self) -> list[tuple[int, int] | None]:
+        return self._shapes
 
 
-def _item_bytes(item) -> tuple[bytes, list | None]:
-    if isinstance(item, str):
-        return item.encode("utf-8"), None
-    if item.ndim != 2:
-        raise ValueError(f"blob arrays are matrices, got {item.ndim} dimensions")
-    return item.astype("<f8", copy=False).tobytes(), list(item.shape)
+def _little(code: str, raw) -> array.array:
+    """Little-endian 8-byte numbers of ``raw`` as an array of this machine's order."""
+    out = array.array(code)
+    out.frombytes(raw)
+    if sys.byteorder != "little":  # pragma: no cover - big-endian machines
+        out.byteswap()
+    return out
 
 
 def write_pack(head: dict, entry_blobs: dict[str, list[tuple[bytes, list | None]]]) -> bytes:
     """The bytes of a pack: ``head`` (whose entries get their ``blobs`` as ``[first, count]``
     in the index) and, for each entry key, its blobs as ``(bytes, shape or None)``. Blobs
     are 8-byte aligned in the body."""
-    import numpy as np
-
     chunks: list[bytes] = []
     index: list[tuple[int, int, int, int]] = []
     size = 0
@@ -154,7 +204,10 @@ def write_pack(head: dict, entry_blobs: dict[str, list[tuple[bytes, list | None]
             chunks.append(raw)
             size += len(raw)
     head_bytes = json.dumps(head, separators=(",", ":")).encode("utf-8")
-    index_bytes = np.array(index, dtype="<i8").reshape(-1, _INDEX_COLUMNS).tobytes()
+    flat = array.array("q", [v for row in index for v in row])
+    if sys.byteorder != "little":  # pragma: no cover - big-endian machines
+        flat.byteswap()
+    index_bytes = flat.tobytes()
     body = b"".join(chunks)
     crc = zlib.crc32(body, zlib.crc32(index_bytes, zlib.crc32(head_bytes)))
     return b"".join((_MAGIC, _HEADER.pack(len(head_bytes), len(index), len(body), crc),
@@ -164,8 +217,6 @@ def write_pack(head: dict, entry_blobs: dict[str, list[tuple[bytes, list | None]
 def read_pack(raw: bytes) -> Pack:
     """A pack from its bytes, checked whole (sizes, checksum, every blob inside the body with
     a size that fits its shape); ValueError when it is not one, or not whole."""
-    import numpy as np
-
     start = len(_MAGIC) + _HEADER.size
     if raw[:len(_MAGIC)] != _MAGIC or len(raw) < start:
         raise ValueError("not an eigengate result pack")
@@ -179,12 +230,12 @@ def read_pack(raw: bytes) -> Pack:
     body = view[start + n_head + n_index:]
     if zlib.crc32(body, zlib.crc32(index_bytes, zlib.crc32(head_bytes))) != crc:
         raise ValueError("pack checksum does not match")
-    index = np.frombuffer(index_bytes, dtype="<i8").reshape(n_blobs, _INDEX_COLUMNS)
-    off, size, rows, cols = index.T
-    text = cols < 0
-    if ((off < 0) | (size < 0) | (off > n_body - size)).any() or \
-            (text & (rows != -1)).any() or (~text & ((rows < 0) | (size != 8 * rows * cols))).any():
-        raise ValueError("pack index does not fit its body")
+    flat = _little("q", index_bytes).tolist()
+    index = [flat[k:k + _INDEX_COLUMNS] for k in range(0, len(flat), _INDEX_COLUMNS)]
+    for off, size, rows, cols in index:
+        if off < 0 or size < 0 or off > n_body - size or (
+                rows != -1 if cols < 0 else rows < 0 or size != 8 * rows * cols):
+            raise ValueError("pack index does not fit its body")
     head = json.loads(bytes(head_bytes))
     if not isinstance(head, dict):
         raise ValueError("pack head is not an object")
@@ -257,6 +308,23 @@ class ResultCache:
     def known_key(self, rel: str, st: os.stat_result) -> str | None:
         """The key of model file ``rel`` when its status is the one recorded with it."""
         return self._recorded("files", rel, st)
+
+    def file_key(self, rel: str, st: os.stat_result | None, path: str,
+                 content: bytes | None = None) -> str | None:
+        """The key of model file ``rel`` (at ``path``, status ``st`` taken before reading):
+        the recorded one when its status is unchanged, else from its bytes (``content`` when
+        already read), recording the status; None when it cannot be read."""
+        key = None if st is None else self.known_key(rel, st)
+        if key is None:
+            if content is None:
+                try:
+                    with open(path, "rb") as fh:
+                        content = fh.read()
+                except OSError:
+                    return None
+            key = self.key(rel, content)
+            self.note_key(rel, st, key)
+        return key
 
     def note_key(self, rel: str, st: os.stat_result | None, key: str) -> None:
         """Record the status of model file ``rel`` (taken before it was read) with its key."""
@@ -342,7 +410,7 @@ class ResultCache:
                 blobs[k] = kept
         for k, (entry, items) in self._new.items():
             entries[k] = dict(entry)
-            blobs[k] = [_item_bytes(x) for x in items]
+            blobs[k] = [item_bytes(x) for x in items]
         head: dict[str, Any] = {"salt": self._salt, "entries": entries}
         refs = {h for e in entries.values() for h in (e.get("refs") or {}).values()}
         for table, wanted in (("files", entries), ("refs", refs)):

@@ -114,8 +114,8 @@ def _worker_config(spec: tuple[str, str | None, str, str]) -> Config:
 
 def _analyse_chunk(spec: tuple[str, str | None, str, str], paths: list[str]) -> list[Outcome]:
     """Analyse ``paths`` on a worker: for each, the data the pool sends
-    (:func:`eigengate.scan.serial.encoded`)."""
-    from .serial import encoded
+    (:func:`eigengate.scan.pool.encoded`)."""
+    from .pool import encoded
 
     import gc
 

@@ -1,11 +1,9 @@
 """A repository scan: discover model files, reuse cached results, analyse the rest in a process
 pool, apply waivers, and report the policy's own expired or unused waivers.
 
-The pool is the standard library's (``concurrent.futures``) on the ``forkserver`` start
-method where available (no fork of a process whose BLAS threads are running); workers analyse
-and return plain JSON-safe data and its blobs (float64 arrays, JSON texts), which are cheap to
-send back, rebuild lazily, and are what the parent stores in the cache (written once, at the
-end of the scan).
+The pool (:mod:`eigengate.scan.pool`) returns plain JSON-safe data and its blobs (float64
+matrices and JSON texts as bytes), which are cheap to send back, rebuild lazily, and are what
+the parent stores in the cache (written once, at the end of the scan).
 """
 
 from __future__ import annotations
@@ -24,7 +22,7 @@ from .engine import (FileResult, analyse_file, file_result, policy_findings,
                      unselected_findings)
 from ..rules.findings import Finding
 
-__all__ = ["Scan", "scan", "default_jobs"]
+__all__ = ["Scan", "scan", "default_jobs", "cache_name"]
 
 #: Below this many files to analyse, a pool costs more than it saves.
 POOL_THRESHOLD = 16
@@ -55,25 +53,6 @@ def default_jobs() -> int:
         return max(1, len(os.sched_getaffinity(0)))
     except AttributeError:  # pragma: no cover - not on Linux
         return max(1, os.cpu_count() or 1)
-
-
-# ------------------------------------------------------------------ worker side
-
-_WORKER: dict = {}
-
-
-def _init_worker(config: Config) -> None:
-    _WORKER["config"] = config
-    # As in the parent's scan (see _gc_paused), the cyclic collector stays off while the
-    # worker analyses; what it imported is moved out of the collector's sight for good.
-    gc.freeze()
-    gc.disable()
-
-
-def _work(path: str) -> tuple[dict, list, list[str], bool]:
-    from .serial import encoded  # numpy comes with it: worker side only
-
-    return encoded(path, _WORKER["config"])
 
 
 # ------------------------------------------------------------------ parent side
@@ -118,15 +97,15 @@ def _gc_paused():
 
 def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
           complete, cluster=None) -> Scan:
-    from .serial import Blobs, results_from_data, results_to_data
-    from .cache import ResultCache
+    from .serial import results_from_data, results_to_data
+    from .cache import RawBlobs, ResultCache
 
     cache = ResultCache(config.root, config.digest) if use_cache else None
     unselected: list[str] = []
     files = find_model_files(
         list(paths), config, filter_named=filter_named, unselected=unselected, sniffs=cache,
         known=None if cache is None else
-        lambda rel, st: cache.known_key(_cache_name(config, rel), st) is not None)
+        lambda rel, st: cache.known_key(cache_name(config, rel), st) is not None)
     slots: list[tuple | None] = [None] * len(files)
     todo: list[tuple[int, str, str | None]] = []
     names = [f.rel for f in files]  # what a file that no cluster worker analysed is called
@@ -135,19 +114,7 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
         files[i] = None  # type: ignore[call-overload]  # its bytes are not kept past here
         key = None
         if cache is not None:
-            name = _cache_name(config, f.rel)
-            key = None if f.stat is None else cache.known_key(name, f.stat)
-            if key is None:
-                content = f.content
-                if content is None:
-                    try:
-                        with open(f.path, "rb") as fh:
-                            content = fh.read()
-                    except OSError:
-                        content = None
-                if content is not None:
-                    key = cache.key(name, content)
-                    cache.note_key(name, f.stat, key)
+            key = cache.file_key(cache_name(config, f.rel), f.stat, f.path, f.content)
             if key is not None:
                 hit = cache.get(key)
                 if hit is not None:
@@ -175,7 +142,7 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
         for (i, _, key), (data, blobs, refs, ok) in zip(items, outcome):
             if cache is not None and key is not None and ok:
                 cache.put(key, data, blobs, refs)
-            slots[i] = results_from_data(data, Blobs(blobs))
+            slots[i] = results_from_data(data, RawBlobs(blobs))
 
     def step(n: int) -> None:
         nonlocal done
@@ -188,7 +155,9 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
 
         cluster_run(todo, names, config, cluster, remote, step, local)
     elif jobs > 1 and len(todo) >= POOL_THRESHOLD:
-        _pool_run(todo, config, jobs, local, remote, step)
+        from .pool import pool_run
+
+        pool_run(todo, config, jobs, local, remote, step)
     else:
         for item in todo:
             local(item)
@@ -201,62 +170,11 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
     return Scan(files=out, policy=tuple(policy), cache_hits=hits, analysed=len(todo))
 
 
-def _cache_name(config: Config, rel: str) -> str:
+def cache_name(config: Config, rel: str) -> str:
     """A model file's name in the cache: its path, qualified by the digest of the nested
     policy that judges it (so adding, changing or removing one is never served stale)."""
     policy = config.policy_for(rel)
     return rel if policy is config else f"{rel}\0{policy.digest}"
-
-
-def _chunk_work(paths: list[str]) -> list[tuple[dict, list, list[str], bool]]:
-    return [_work(p) for p in paths]
-
-
-def _pool_run(todo, config: Config, jobs: int, local, remote, step) -> None:
-    """Analyse ``todo`` in ``jobs`` processes: ``jobs - 1`` workers and this one.
-
-    Workers take chunks from the front of the list, this process from the back, between
-    collecting what the workers send; so it analyses while the workers start (their
-    imports), and there are never more busy processes than jobs. Chunks get smaller as the
-    two ends meet, so everyone finishes at about the same time.
-    """
-    import multiprocessing as mp
-    from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
-
-    methods = mp.get_all_start_methods()
-    ctx = mp.get_context("forkserver" if "forkserver" in methods else "spawn")
-    if ctx.get_start_method() == "forkserver":
-        # Import the heavy modules once in the server; every worker forks from it ready.
-        ctx.set_forkserver_preload(["eigengate.scan.engine", "eigengate.analysis.modes", "eigengate.load.loader",
-                                    "numpy", "scipy.linalg", "yaml"])
-    workers = jobs - 1
-    front, back = 0, len(todo)
-
-    def take() -> int:  # a quarter of each process's share of what is left, 4 to 32 files
-        return min(back - front, max(4, min(32, (back - front) // (4 * jobs))))
-
-    with ProcessPoolExecutor(max_workers=workers, mp_context=ctx, initializer=_init_worker,
-                             initargs=(config,)) as pool:
-        running: dict = {}
-        while front < back or running:
-            while front < back and len(running) < 3 * workers:
-                n = take()
-                items = todo[front:front + n]
-                front += n
-                running[pool.submit(_chunk_work, [p for _, p, _ in items])] = items
-            finished = [f for f in running if f.done()]
-            for future in finished:
-                items = running.pop(future)
-                remote(items, future.result())
-                step(len(items))
-            if front < back:  # a few files at a time, to be back soon to keep the workers fed
-                n = min(4, back - front)
-                back -= n
-                for item in todo[back:back + n]:
-                    local(item)
-                step(n)
-            elif running and not finished:
-                wait(list(running), return_when=FIRST_COMPLETED)
 
 
 def terminal_progress(stream=None) -> Callable[[int, int], None] | None:

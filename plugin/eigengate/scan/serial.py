@@ -16,9 +16,7 @@ import json
 from collections.abc import Sequence
 from typing import Any, cast
 
-import numpy as np
-
-from .engine import ModelResult, analyse_file
+from .engine import ModelResult
 from ..analysis.equilibrium import Equilibrium
 from ..errors import ModelError
 from ..rules.findings import Finding, ModeRow
@@ -44,6 +42,8 @@ class Blobs:
         self.items: list = [] if items is None else items
 
     def put_array(self, a) -> int | None:
+        import numpy as np  # encoding only: results read back never import numpy
+
         if a is None:
             return None
         self.items.append(np.ascontiguousarray(a, dtype=np.float64))
@@ -58,9 +58,12 @@ class Blobs:
 
     def array(self, i: int):
         a = self.items[i]
-        if not isinstance(a, np.ndarray):
+        if isinstance(a, str):
             raise ValueError(f"blob {i} is not an array")
         return a
+
+    def rows(self, i: int) -> list[list[float]]:  # as the cache's readers give them
+        return self.array(i).tolist()
 
     def json(self, i: int):
         text = self.items[i]
@@ -78,7 +81,7 @@ _MODE_SCALARS = ("multiplicity", "geometric_multiplicity", "pair", "natural_freq
 _MODE_COLUMNS = 5 + len(_MODE_SCALARS)
 
 
-def _mode_table(modes) -> "np.ndarray":
+def _mode_table(modes, np):
     rows = [[m.index, m.eigenvalue.real, m.eigenvalue.imag, m.s.real, m.s.imag]
             + [getattr(m, k) for k in _MODE_SCALARS] for m in modes]
     return np.array(rows, dtype=np.float64).reshape(len(rows), _MODE_COLUMNS)
@@ -174,6 +177,8 @@ class CachedSpectrum:
 
 
 def _spectrum_data(sp, blobs: Blobs) -> dict:
+    import numpy as np
+
     modes = list(sp.modes)
     part = np.stack([m.participation for m in modes], axis=1) if modes else np.zeros((0, 0))
     return {
@@ -182,7 +187,7 @@ def _spectrum_data(sp, blobs: Blobs) -> dict:
         "min_damping": sp.min_damping, "n_eigenvalues": sp.n_eigenvalues,
         "n_modes": len(modes),
         "search": None if getattr(sp, "search", None) is None else sp.search.coverage(),
-        "modes": blobs.put_array(_mode_table(modes)),
+        "modes": blobs.put_array(_mode_table(modes, np)),
         "participation": blobs.put_array(part),
     }
 
@@ -196,6 +201,7 @@ def _array(ref: tuple):
     """A stored matrix: one float64 blob, or a sparse one as its CSR arrays."""
     blobs, index = ref
     if isinstance(index, list):  # ["csr", rows, cols, data, indices, indptr]
+        import numpy as np
         import scipy.sparse as sparse
 
         _, rows, cols, data, indices, indptr = index
@@ -208,6 +214,8 @@ def _put_matrix(blobs: Blobs, a):
     """A matrix into the blobs: dense as it is, sparse (A, E of a sparse model) as its CSR
     arrays, each a 1×k float64 blob (indices are exact in float64 below 2⁵³)."""
     if type(a).__module__.startswith("scipy.sparse"):
+        import numpy as np
+
         c = a.tocsr()
         return ["csr", int(c.shape[0]), int(c.shape[1])] + [
             blobs.put_array(np.asarray(x, dtype=np.float64).reshape(1, -1))
@@ -252,6 +260,10 @@ class CachedModel(Model):
     lines = _lazy("lines", _text)
     requirements = _lazy("requirements", _requirements_of)
     known_modes = _lazy("known_modes", _known_modes_of)
+
+    @property
+    def n_states(self) -> int:  # _model_from checked that A is n × n for n states
+        return len(self.states)
 
 
 def _model_data(m, blobs: Blobs) -> dict:
@@ -407,7 +419,7 @@ def _findings_data(findings, states: tuple[str, ...], blobs: Blobs) -> tuple[lis
             table.extend(rows)  # type: ignore[arg-type]
     if not table:
         return out, None
-    return out, blobs.put_array(np.array(table, dtype=np.float64))
+    return out, blobs.put_array(table)
 
 
 def _row_of(r: list, states: tuple[str, ...]) -> ModeRow:
@@ -424,10 +436,10 @@ def _row_of(r: list, states: tuple[str, ...]) -> ModeRow:
 def _findings_from(items: list, table: int | None, states: tuple[str, ...], blobs) -> tuple:
     rows: list = []
     if table is not None:
-        arr = blobs.array(table)
-        if arr.shape[1:] != (_ROW_COLUMNS,):
+        shape = _shape(blobs.shapes(), table)
+        if shape is None or shape[1] != _ROW_COLUMNS:
             raise ValueError("finding mode rows have the wrong width")
-        rows = arr.tolist()
+        rows = blobs.rows(table)  # no numpy: a warm re-check renders these
     out = []
     for d in items:
         if "rows" in d:
@@ -482,12 +494,3 @@ def results_from_data(d: dict, blobs):
         return d["source"], (), ModelError(src, fld, problem, line=line, hint=hint)
     shapes = blobs.shapes()
     return d["source"], tuple([_result_from(r, blobs, shapes) for r in d["results"]]), None
-
-
-def encoded(path: str, config: Any) -> tuple[dict, list, list[str], bool]:
-    """Analyse one file in a worker (of the pool or of a cluster): (JSON-safe data, its blob
-    items, referenced files, whether it loaded). ``config`` is a
-    :class:`~eigengate.scan.config.Config`."""
-    source, results, error, refs = analyse_file(path, config.root, config)
-    data, blobs = results_to_data(source, results, error)
-    return data, blobs.items, refs, error is None

@@ -1,0 +1,94 @@
+"""The result cache as the pytest collector uses it: the command line's cache, shared.
+
+A collected model file whose status (or bytes) matches a cache entry of the policy becomes its
+items straight from the cached, pre-waiver results (:mod:`eigengate.scan.serial`): nothing is
+loaded or analysed, and numpy is not imported for it. A file that misses is loaded and each of
+its items analysed when it runs, as without a cache; once every model of the file has been
+analysed without an error, the file's results go into the cache, written once at the end of
+the session. Entries are the ones ``eigengate check`` reads and writes (same keys: policy
+digest, version, path and bytes), so either fills the cache for the other.
+
+A file whose models came from a vector field is written only when its policy allows Python
+(``allow_python``): pytest loads those always, the command line only when allowed, and the
+command line must never be served a result it would have refused to compute.
+"""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+from typing import TYPE_CHECKING, Any, Sequence
+
+if TYPE_CHECKING:  # pragma: no cover
+    from ..scan.cache import ResultCache
+    from ..scan.config import Config
+    from ..scan.engine import ModelResult
+
+__all__ = ["CollectCache"]
+
+
+class CollectCache:
+    """One per pytest process: lookups at collection, new entries at run time, one save."""
+
+    def __init__(self, policy: "Config") -> None:
+        self.policy = policy
+        self._cache: "ResultCache | None" = None
+
+    def _open(self) -> "ResultCache":
+        if self._cache is None:
+            from ..scan.cache import ResultCache
+
+            self._cache = ResultCache(self.policy.root, self.policy.digest)
+        return self._cache
+
+    def _name(self, path: Path) -> str | None:
+        from ..scan.runner import cache_name
+
+        root = os.path.realpath(self.policy.root)
+        real = os.path.realpath(path)
+        if os.path.commonpath([root, real]) != root:
+            return None  # outside the repository: not cached
+        return cache_name(self.policy, os.path.relpath(real, root).replace(os.sep, "/"))
+
+    def lookup(self, path: Path) -> tuple[str | None, "tuple[ModelResult, ...] | None"]:
+        """``(key, results)``: the file's cache key and, on a hit, its cached pre-waiver
+        results (None on a miss, or when the entry is damaged: then analysed again)."""
+        from ..scan.serial import results_from_data
+
+        name = self._name(path)
+        if name is None:
+            return None, None
+        try:
+            st = os.stat(path)
+        except OSError:
+            return None, None
+        cache = self._open()
+        key = cache.file_key(name, st, str(path))
+        hit = None if key is None else cache.get(key)
+        if hit is not None:
+            try:
+                _, results, error = results_from_data(*hit)
+                if error is None and results:
+                    return key, results
+            except (KeyError, TypeError, ValueError, IndexError):
+                pass
+        return key, None
+
+    def put(self, key: str, path: Path, results: Sequence["ModelResult"],
+            refs: list[str]) -> None:
+        """Keep a file's analysed pre-waiver results (every model of it) for the save."""
+        from ..scan.serial import results_to_data
+
+        rel = self._name(path)
+        if rel is None or not results:
+            return
+        if any(r.model.nonlinear is not None for r in results) and \
+                not self.policy.policy_for(rel.split("\0")[0]).allow_python:
+            return
+        data, blobs = results_to_data(results[0].model.source, results, None)
+        self._open().put(key, data, blobs.items, refs)
+
+    def save(self) -> None:
+        if self._cache is not None:
+            self._cache.save()
+

@@ -1,0 +1,213 @@
+"""The process pool of a local scan: ``--jobs N`` is this process and N−1 workers.
+
+Workers are started once, at the start of the scan, each with a duplex pipe; they are fed
+chunks of file paths and send back, per chunk, compact records: each file's JSON-safe data,
+its blobs as ``(bytes, shape)`` (what the cache pack stores; :class:`~eigengate.scan.cache.RawBlobs`
+reads them), its referenced files and whether it loaded. Nothing is pickled but plain data.
+
+Workers take chunks from the front of the list, this process four files at a time from the
+back, between collecting what the workers send, so it analyses while the workers start (their
+imports), and there are never more busy processes than jobs. Each worker has two chunks in
+hand, so it never waits for this process; chunks shrink as the two ends meet, so everyone
+finishes at about the same time.
+
+Start method: ``fork`` on Linux while this process has loaded no numpy and runs one thread
+(the command line: nothing heavy is loaded before the analysis starts, so no BLAS thread is
+forked), else ``forkserver`` (numpy, scipy and eigengate preloaded in the server), else
+``spawn``. When the pool closes every worker has exited and been joined, and a forkserver or
+resource tracker that the pool started is stopped: nothing of the pool outlives the scan.
+"""
+
+from __future__ import annotations
+
+import gc
+import sys
+from collections import deque
+from typing import Any, Callable
+
+__all__ = ["encoded", "item_bytes", "pool_run"]
+
+#: Files per chunk sent to a worker: at most this many ...
+CHUNK_MAX = 64
+#: ... and at least this many (also what this process takes at a time).
+CHUNK_MIN = 4
+#: Chunks a worker holds: the one it analyses and the next.
+AHEAD = 2
+
+
+def encoded(path: str, config: Any) -> tuple[dict, list, list[str], bool]:
+    """Analyse one file in a worker (of the pool or of a cluster): (JSON-safe data, its blobs
+    as ``(bytes, shape)``, referenced files, whether it loaded). ``config`` is a
+    :class:`~eigengate.scan.config.Config`."""
+    from .engine import analyse_file
+    from .serial import results_to_data
+
+    source, results, error, refs = analyse_file(path, config.root, config)
+    data, blobs = results_to_data(source, results, error)
+    return data, [item_bytes(x) for x in blobs.items], refs, error is None
+
+
+def item_bytes(item) -> tuple[bytes, list | None]:
+    """A blob item (a float64 matrix or a JSON text) as its bytes and shape; one already in
+    that form is kept."""
+    if isinstance(item, tuple):
+        return item
+    if isinstance(item, str):
+        return item.encode("utf-8"), None
+    if item.ndim != 2:
+        raise ValueError(f"blob arrays are matrices, got {item.ndim} dimensions")
+    return item.astype("<f8", copy=False).tobytes(), list(item.shape)
+
+
+def _serve(conn, config) -> None:
+    """A worker: analyse each chunk of paths received, send back its records; stop at None
+    or when the pipe closes. A chunk that raises is sent back as None: this process then
+    analyses it itself, so an eigengate bug surfaces there, as in a run without a pool."""
+    # As in the parent's scan, the cyclic collector stays off while the worker analyses;
+    # what it imported is moved out of the collector's sight for good.
+    gc.freeze()
+    gc.disable()
+    try:
+        while True:
+            try:
+                paths = conn.recv()
+            except EOFError:
+                return
+            if paths is None:
+                return
+            try:
+                out: list | None = [encoded(p, config) for p in paths]
+            except Exception:  # noqa: BLE001 - reported by the parent's own run of the chunk
+                out = None
+            conn.send(out)
+    finally:
+        conn.close()
+
+
+def _context():
+    import multiprocessing as mp
+    import threading
+
+    methods = mp.get_all_start_methods()
+    if sys.platform.startswith("linux") and "fork" in methods and "numpy" not in sys.modules \
+            and threading.active_count() == 1:
+        return mp.get_context("fork")
+    if "forkserver" in methods:
+        ctx = mp.get_context("forkserver")
+        # Import the heavy modules once in the server; every worker forks from it ready.
+        ctx.set_forkserver_preload(["eigengate.scan.engine", "eigengate.analysis.modes",
+                                    "eigengate.load.loader", "numpy", "scipy.linalg", "yaml"])
+        return ctx
+    return mp.get_context("spawn")  # pragma: no cover - not on Linux
+
+
+def _helpers_running() -> tuple[bool, bool]:
+    """Whether multiprocessing's forkserver and resource tracker processes are running."""
+    from multiprocessing import forkserver, resource_tracker
+
+    server = getattr(forkserver, "_forkserver", None)
+    tracker = getattr(resource_tracker, "_resource_tracker", None)
+    return (getattr(server, "_forkserver_pid", None) is not None,
+            getattr(tracker, "_pid", None) is not None)
+
+
+def _stop_helpers(before: tuple[bool, bool]) -> None:
+    """Stop the forkserver and resource tracker when this pool started them (their ``_stop``
+    is what the standard library's own tests use; absent, they exit with this process)."""
+    from multiprocessing import forkserver, resource_tracker
+
+    now = _helpers_running()
+    for was, running, helper in ((before[0], now[0], getattr(forkserver, "_forkserver", None)),
+                                 (before[1], now[1],
+                                  getattr(resource_tracker, "_resource_tracker", None))):
+        stop = getattr(helper, "_stop", None)
+        if running and not was and stop is not None:
+            try:
+                stop()
+            except (OSError, ChildProcessError):  # pragma: no cover - already gone
+                pass
+
+
+def pool_run(todo: list, config: Any, jobs: int, local: Callable, remote: Callable,
+             step: Callable[[int], None]) -> None:
+    """Analyse ``todo`` (``(slot, path, key)`` items) in ``jobs`` processes: ``local(item)``
+    here, ``remote(items, records)`` for what a worker sent; ``step(n)`` after each n files."""
+    ctx = _context()
+    before = _helpers_running()
+    front, back = 0, len(todo)
+
+    def take() -> int:  # a quarter of each process's share of what is left, within limits
+        return min(back - front, max(CHUNK_MIN, min(CHUNK_MAX, (back - front) // (4 * jobs))))
+
+    sys.stdout.flush()  # a forked worker must not inherit unwritten output
+    sys.stderr.flush()
+    workers = []
+    held: dict[Any, deque] = {}  # pipe → the chunks its worker holds, oldest first
+    try:
+        for _ in range(jobs - 1):
+            mine, theirs = ctx.Pipe(duplex=True)
+            proc = ctx.Process(target=_serve, args=(theirs, config), daemon=True)
+            proc.start()
+            theirs.close()
+            workers.append(proc)
+            held[mine] = deque()
+
+        def feed(conn) -> None:
+            nonlocal front
+            while front < back and len(held[conn]) < AHEAD:
+                n = take()
+                items = todo[front:front + n]
+                front += n
+                try:
+                    conn.send([p for _, p, _ in items])
+                except OSError:  # the worker is gone (its pipe says so at the next read)
+                    for item in items:
+                        local(item)
+                    step(n)
+                    continue
+                held[conn].append(items)
+
+        for conn in held:
+            feed(conn)
+        from multiprocessing.connection import wait
+
+        while front < back or any(held.values()):
+            busy = [c for c, chunks in held.items() if chunks]
+            for conn in wait(busy, timeout=0 if front < back else None) if busy else ():
+                items = held[conn].popleft()
+                try:
+                    records = conn.recv()
+                except (EOFError, OSError):  # the worker died: its chunks are done here
+                    records = None
+                    for rest in (items, *held.pop(conn)):
+                        for item in rest:
+                            local(item)
+                        step(len(rest))
+                    continue
+                if records is None:
+                    for item in items:
+                        local(item)
+                else:
+                    remote(items, records)
+                step(len(items))
+                feed(conn)
+            if front < back:  # a few files at a time, to be back soon to collect
+                n = min(CHUNK_MIN, back - front)
+                back -= n
+                for item in todo[back:back + n]:
+                    local(item)
+                step(n)
+    finally:
+        for conn in list(held):
+            try:
+                conn.send(None)
+            except OSError:
+                pass
+        for proc in workers:
+            proc.join(timeout=10)
+            if proc.is_alive():  # pragma: no cover - a worker stuck in a file
+                proc.terminate()
+                proc.join()
+        for conn in held:
+            conn.close()
+        _stop_helpers(before)
