@@ -119,7 +119,7 @@ def test_damping_and_frequency_regressions_in_full():
     assert sorted(by) == ["EG202", "EG203"]
     f = by["EG203"]
     assert place(f)[:3] == ("EG203", "damping-regressed", "error") and f.unit == ""
-    assert f.message == ("x1 mode -1±1.73205j → -0.6±1.90788j: damping ratio 0.5 → 0.3 "
+    assert f.message == ("x1-x2 mode -1±1.73205j → -0.6±1.90788j: damping ratio 0.5 → 0.3 "
                          "(-0.2, -40.0 %; allowed ±0.025)")
     assert f.measured == pytest.approx(0.3) and f.threshold == pytest.approx(0.5)
     assert f.margin == pytest.approx(0.025 - 0.2)
@@ -127,7 +127,7 @@ def test_damping_and_frequency_regressions_in_full():
     c = check(result(osc(0.3, 2.0)), result(osc(0.3, 2.5)))
     (f,) = c.regressions
     assert place(f)[:3] == ("EG205", "frequency-shifted", "warning") and f.unit == "rad/s"
-    assert f.message == ("x1 mode -0.6±1.90788j → -0.75±2.38485j: natural frequency 2 → 2.5 "
+    assert f.message == ("x1-x2 mode -0.6±1.90788j → -0.75±2.38485j: natural frequency 2 → 2.5 "
                          "rad/s (+0.5, +25.0 %; allowed ±0.1)")
     assert not c.failed and [i.figure for i in c.improvements] == ["decay_rate"]
 
@@ -147,7 +147,7 @@ def test_crossing_into_instability_in_full():
     assert place(f) == ("EG201", "crossed-into-instability", "error", "models/pitch.yaml",
                         None, "pitch", None, "baseline", "1/s", SUGGESTION)
     # Re s: -ζωn = -0.2 → +0.1; allowed max(1e-6, 0.05·0.2) = 0.01
-    assert f.message == ("x1 mode -0.2±1.98997j → 0.1±1.9975j crossed into instability: decay "
+    assert f.message == ("x1-x2 mode -0.2±1.98997j → 0.1±1.9975j crossed into instability: decay "
                          "rate 0.2 → -0.1 1/s (-0.3, -150.0 %; allowed ±0.01)")
     assert f.measured == pytest.approx(-0.1) and f.threshold == pytest.approx(0.2)
     assert f.margin == pytest.approx(-0.1)
@@ -164,7 +164,7 @@ def test_stabilised_mode_in_full():
     c = check(result(osc(-0.05, 2.0), [[-5.0]]), result(osc(0.1, 2.0), [[-5.0]]))
     assert c.regressions == ()
     by = {i.figure: i for i in c.improvements}
-    assert by["stability"].message == "x1 mode 0.1±1.9975j → -0.2±1.98997j is stable now"
+    assert by["stability"].message == "x1-x2 mode 0.1±1.9975j → -0.2±1.98997j is stable now"
     assert by["equilibrium"].message == ("equilibrium saddle (1 stable, 2 unstable, 0 center) "
                                          "→ stable-focus (3 stable, 0 unstable, 0 center)")
     assert by["stability"].modes[0].s.real == pytest.approx(-0.2)
@@ -217,7 +217,7 @@ def test_modes_disappearing_in_full():
     # part of a multiple eigenvalue: a double -70 that keeps one copy
     c = check(diag(-1.0, -70.0, -70.0), diag(-1.0, -70.0))
     (f,) = [f for f in c.regressions if f.rule == "EG207"]
-    assert f.message == ("baseline x2 mode -70 ×2 (ζ=1, ωn=70 rad/s) has no counterpart in the "
+    assert f.message == ("baseline x2-x3 mode -70 ×2 (ζ=1, ωn=70 rad/s) has no counterpart in the "
                          "model (1 of its 2)")
 
 

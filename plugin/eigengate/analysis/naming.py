@@ -11,8 +11,8 @@ decimals, is at least :data:`SHARE` of the largest, ordered by rounded factor (l
 and then by name, so that round-off between runs (or between a fresh result and a cached or
 baseline one, which keep 4 significant digits) cannot reorder or swap them. The stem of the
 name is the longest run of name words (split at ``_``, ``.``, ``-``, blanks and lower→upper
-case changes) that every dominant state starts with; without one, it is the first dominant
-state's own name.
+case changes) that every dominant state starts with; without one, the two leading states joined by a
+hyphen (``angle-rate mode: angle, rate``); a single dominant state names it alone.
 """
 
 from __future__ import annotations
@@ -57,8 +57,10 @@ def mode_name(top_states: Iterable[tuple[str, float]]) -> str:
         if len(set(group)) != 1:
             break
         stem.append(group[0])
-    if len(names) == 1 or not stem:
+    if len(names) == 1:
         head = names[0]
+    elif not stem:  # no common word: the two leading states, as "angle-rate"
+        head = "-".join(names[:2])
     else:
-        head = "_".join(stem)
+        head = " ".join(stem)
     return f"{head} mode: {', '.join(names)}"

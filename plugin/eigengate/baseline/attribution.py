@@ -34,7 +34,7 @@ __all__ = ["attribute", "MAX_RANKED", "AGREEMENT", "NOT_RECORDED"]
 #: further ones are listed without a share.
 MAX_RANKED = 48
 #: The first-order total agrees with the actual move when within this fraction of it.
-AGREEMENT = 0.25
+AGREEMENT = 0.1
 #: The note of an entry accepted before inputs were recorded.
 NOT_RECORDED = "inputs not recorded in the baseline; accept again to record them"
 #: Changes listed in full; further ones are counted.

@@ -85,7 +85,11 @@ class ModelInputs:
         name = ".".join(path)
         if value is None:
             return {}
+        from ..model.core import as_matrix, is_sparse
+
         arr = _matrix(value, ctx, name)
+        if not is_sparse(arr):
+            arr = as_matrix(arr, ctx.source, ctx.prefix + name, line=ctx.line(name))
         file = ctx.refs[-1] if is_reference(value) and ctx.refs else None
         return {name: (path, arr, file)}
 
