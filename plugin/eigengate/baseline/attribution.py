@@ -141,6 +141,7 @@ def _rank(changes: Sequence[InputChange], source: Any, before: Any, after: Any
     sign = -1.0 if whole else 1.0  # at the current model the entries move back
     shifts = []
     for c in entries:
+        assert c.before is not None and c.after is not None  # an entry change has both
         step = (c.after - c.before) * sign
 
         def moved(t: float, c: InputChange = c, step: float = step) -> tuple[Any, Any]:

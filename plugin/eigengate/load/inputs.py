@@ -131,7 +131,7 @@ class ModelInputs:
         if self.kind == "field":
             dotted = "vector_field." + dotted
         lines = self._ctx.lines
-        shape = getattr(arr, "shape", ())
+        shape: tuple[int, ...] = tuple(getattr(arr, "shape", ()))
         if index is not None and len(shape) == 2 and shape[1]:
             row = lines.get(f"{dotted}.{index // shape[1]}")
             if row is not None:
