@@ -91,7 +91,8 @@ def test_decay_rate_regression_in_full():
     assert place(f) == ("EG202", "decay-rate-regressed", "error", "models/pitch.yaml", None,
                         "pitch", None, "baseline", "1/s", SUGGESTION)
     # allowed: max(1e-6, 0.05·1) = 0.05; margin = 0.05 - 0.5
-    assert f.message == "x1 mode -1 → -0.5: decay rate 1 → 0.5 1/s (-0.5, -50.0 %; allowed ±0.05)"
+    assert f.message == ("x1 mode -1 → -0.5: decay rate 1 → 0.5 1/s (-0.5, -50.0 %; "
+                         "allowed ±0.05)")
     assert (f.measured, f.threshold, f.margin) == (0.5, 1.0, pytest.approx(-0.45))
     assert [(r.index, r.s) for r in f.modes] == [(1, -0.5)]
     assert [(r.index, r.s) for r in f.before] == [(1, -1.0)]

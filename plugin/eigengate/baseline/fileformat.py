@@ -372,7 +372,8 @@ def _inputs(r: _Reader, value: Any, where: tuple) -> tuple:
         r.obj(b, wb, INPUT_FIELDS, ("file", "values"))
         shape, values, file = b["shape"], b.get("values"), b.get("file")
         if not isinstance(b["digest"], str) or not re.fullmatch(r"[0-9a-f]{16}", b["digest"]):
-            raise r.fail(wb + ("digest",), f"must be 16 hexadecimal digits, got {b['digest']!r:.40}")
+            raise r.fail(wb + ("digest",),
+                         f"must be 16 hexadecimal digits, got {b['digest']!r:.40}")
         if not isinstance(shape, list) or len(shape) > 2:
             raise r.fail(wb + ("shape",), f"must be a list of at most 2 sizes, got {shape!r:.40}")
         dims = tuple(r.num(d, wb + ("shape", i), integer=True) for i, d in enumerate(shape))

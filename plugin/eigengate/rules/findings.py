@@ -15,7 +15,8 @@ if TYPE_CHECKING:  # pragma: no cover
     from ..analysis.modes import Mode
     from .catalogue import Verdict
 
-__all__ = ["Finding", "ModeRow", "Cause", "findings_of", "error_finding", "INVALID_RULE", "RulePolicy"]
+__all__ = ["Finding", "ModeRow", "Cause", "findings_of", "error_finding", "INVALID_RULE",
+           "RulePolicy"]
 
 
 class RulePolicy(Protocol):
