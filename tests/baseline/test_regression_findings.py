@@ -91,7 +91,8 @@ def test_decay_rate_regression_in_full():
     assert place(f) == ("EG202", "decay-rate-regressed", "error", "models/pitch.yaml", None,
                         "pitch", None, "baseline", "1/s", SUGGESTION)
     # allowed: max(1e-6, 0.05·1) = 0.05; margin = 0.05 - 0.5
-    assert f.message == "mode -1 → -0.5: decay rate 1 → 0.5 1/s (-0.5, -50.0 %; allowed ±0.05)"
+    assert f.message == ("x1 mode -1 → -0.5: decay rate 1 → 0.5 1/s (-0.5, -50.0 %; "
+                         "allowed ±0.05)")
     assert (f.measured, f.threshold, f.margin) == (0.5, 1.0, pytest.approx(-0.45))
     assert [(r.index, r.s) for r in f.modes] == [(1, -0.5)]
     assert [(r.index, r.s) for r in f.before] == [(1, -1.0)]
@@ -107,7 +108,7 @@ def test_decay_rate_improvement_in_full():
     (i,) = c.improvements
     assert (i.figure, i.source, i.model, i.label, i.title) == (
         "decay_rate", "models/pitch.yaml", "roll", "hover", "roll[hover]")
-    assert i.message == "mode -1 → -2: decay rate 1 → 2 1/s (+1, +100.0 %; allowed ±0.05)"
+    assert i.message == "x1 mode -1 → -2: decay rate 1 → 2 1/s (+1, +100.0 %; allowed ±0.05)"
     assert [r.s for r in i.modes] == [-2.0] and [r.s for r in i.before] == [-1.0]
     assert i.before[0].index == 1
 
@@ -119,7 +120,7 @@ def test_damping_and_frequency_regressions_in_full():
     assert sorted(by) == ["EG202", "EG203"]
     f = by["EG203"]
     assert place(f)[:3] == ("EG203", "damping-regressed", "error") and f.unit == ""
-    assert f.message == ("mode -1±1.73205j → -0.6±1.90788j: damping ratio 0.5 → 0.3 "
+    assert f.message == ("x1-x2 mode -1±1.73205j → -0.6±1.90788j: damping ratio 0.5 → 0.3 "
                          "(-0.2, -40.0 %; allowed ±0.025)")
     assert f.measured == pytest.approx(0.3) and f.threshold == pytest.approx(0.5)
     assert f.margin == pytest.approx(0.025 - 0.2)
@@ -127,7 +128,7 @@ def test_damping_and_frequency_regressions_in_full():
     c = check(result(osc(0.3, 2.0)), result(osc(0.3, 2.5)))
     (f,) = c.regressions
     assert place(f)[:3] == ("EG205", "frequency-shifted", "warning") and f.unit == "rad/s"
-    assert f.message == ("mode -0.6±1.90788j → -0.75±2.38485j: natural frequency 2 → 2.5 "
+    assert f.message == ("x1-x2 mode -0.6±1.90788j → -0.75±2.38485j: natural frequency 2 → 2.5 "
                          "rad/s (+0.5, +25.0 %; allowed ±0.1)")
     assert not c.failed and [i.figure for i in c.improvements] == ["decay_rate"]
 
@@ -147,7 +148,7 @@ def test_crossing_into_instability_in_full():
     assert place(f) == ("EG201", "crossed-into-instability", "error", "models/pitch.yaml",
                         None, "pitch", None, "baseline", "1/s", SUGGESTION)
     # Re s: -ζωn = -0.2 → +0.1; allowed max(1e-6, 0.05·0.2) = 0.01
-    assert f.message == ("mode -0.2±1.98997j → 0.1±1.9975j crossed into instability: decay "
+    assert f.message == ("x1-x2 mode -0.2±1.98997j → 0.1±1.9975j crossed into instability: decay "
                          "rate 0.2 → -0.1 1/s (-0.3, -150.0 %; allowed ±0.01)")
     assert f.measured == pytest.approx(-0.1) and f.threshold == pytest.approx(0.2)
     assert f.margin == pytest.approx(-0.1)
@@ -164,7 +165,7 @@ def test_stabilised_mode_in_full():
     c = check(result(osc(-0.05, 2.0), [[-5.0]]), result(osc(0.1, 2.0), [[-5.0]]))
     assert c.regressions == ()
     by = {i.figure: i for i in c.improvements}
-    assert by["stability"].message == "mode 0.1±1.9975j → -0.2±1.98997j is stable now"
+    assert by["stability"].message == "x1-x2 mode 0.1±1.9975j → -0.2±1.98997j is stable now"
     assert by["equilibrium"].message == ("equilibrium saddle (1 stable, 2 unstable, 0 center) "
                                          "→ stable-focus (3 stable, 0 unstable, 0 center)")
     assert by["stability"].modes[0].s.real == pytest.approx(-0.2)
@@ -196,7 +197,7 @@ def test_modes_appearing_in_full():
     c = check(diag(-1.0, -4.0), diag(-1.0, -4.0, -70.0))
     (f,) = c.regressions
     assert place(f)[:3] == ("EG206", "mode-appeared", "warning")
-    assert f.message == "mode -70 (ζ=1, ωn=70 rad/s) has no counterpart in the baseline"
+    assert f.message == "x3 mode -70 (ζ=1, ωn=70 rad/s) has no counterpart in the baseline"
     assert [r.s for r in f.modes] == [-70.0] and (f.measured, f.threshold) == (None, None)
 
 
@@ -212,12 +213,12 @@ def test_modes_disappearing_in_full():
     c = check(diag(-1.0, -4.0, -70.0), diag(-1.0, -4.0))
     (f,) = c.regressions
     assert place(f)[:3] == ("EG207", "mode-disappeared", "warning")
-    assert f.message == "baseline mode -70 (ζ=1, ωn=70 rad/s) has no counterpart in the model"
+    assert f.message == "baseline x3 mode -70 (ζ=1, ωn=70 rad/s) has no counterpart in the model"
     assert [(r.index, r.s) for r in f.modes] == [(3, -70.0)] and f.before == ()
     # part of a multiple eigenvalue: a double -70 that keeps one copy
     c = check(diag(-1.0, -70.0, -70.0), diag(-1.0, -70.0))
     (f,) = [f for f in c.regressions if f.rule == "EG207"]
-    assert f.message == ("baseline mode -70 ×2 (ζ=1, ωn=70 rad/s) has no counterpart in the "
+    assert f.message == ("baseline x2-x3 mode -70 ×2 (ζ=1, ωn=70 rad/s) has no counterpart in the "
                          "model (1 of its 2)")
 
 
@@ -261,7 +262,8 @@ def test_whole_model_figures_use_their_own_tolerance():
 
 
 def test_the_finding_line_is_the_feedback_block_of_a_closed_loop(tmp_path):
-    # lift_axis: plant on line 3, feedback on line 7 (support.lift_axis); k2 2.08 → 1.2
+    # lift_axis: plant on line 3, feedback on line 7, the gain on 8 (support.lift_axis);
+    # k2 2.08 → 1.2
     path = tmp_path / "lift.yaml"
     path.write_text(lift_axis(2.08), encoding="utf-8")
     before = check_file(path, root=tmp_path).results[0]
@@ -270,7 +272,11 @@ def test_the_finding_line_is_the_feedback_block_of_a_closed_loop(tmp_path):
     lines = lift_axis(1.2).splitlines()
     assert lines[2] == "plant:" and lines[6] == "feedback:"
     c = compare(after, baseline_entry_from(before))
-    assert c.regressions and {f.line for f in c.regressions} == {7}
+    # a moved mode's finding points at the input that changed (k2, line 8), the whole
+    # model's figures at the feedback block
+    assert c.regressions and {f.line for f in c.regressions} <= {7, 8}
+    assert {f.line for f in c.regressions if f.cause} == {8}
+    assert {f.line for f in c.regressions if not f.cause} <= {7}
     path.write_text(textwrap.dedent("""\
         model_format: 1
         name: plain
@@ -441,7 +447,7 @@ def test_a_mode_turning_oscillatory_is_reported_as_that_mode():
     # whole model's
     c = check(diag(-2.0, -2.5), result(osc(0.3, 2.0)))
     msgs = [f.message for f in c.regressions if f.rule == "EG203"]
-    assert len(msgs) == 1 and msgs[0].startswith("mode ") and "damping ratio 1 → 0.3" in msgs[0]
+    assert len(msgs) == 1 and msgs[0].startswith("x2 mode ") and "damping ratio 1 → 0.3" in msgs[0]
 
 
 def test_the_slowest_mode_on_a_tie_is_the_first_listed():

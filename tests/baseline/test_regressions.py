@@ -236,7 +236,10 @@ def test_findings_carry_place_and_modes(tmp_path):
     c = compare(after, baseline_entry_from(before))
     f = next(f for f in c.regressions if f.rule == "EG203")
     assert (f.source, f.model, f.label, f.title) == ("mast.yaml", "mast", "storm", "mast[storm]")
-    assert f.line == 5 and f.name == RULES["EG203"].name and f.requirement == "baseline"
+    # the line of the entry that changed (A's -0.6 → -0.3, line 7), not of the point
+    assert f.line == 7 and f.name == RULES["EG203"].name and f.requirement == "baseline"
+    assert f.cause[0].input == "plant.A[1][1]" and (f.cause[0].before, f.cause[0].after) == (
+        -0.6, -0.3)
     # zeta = 0.6 / (2 * 3) = 0.1 → 0.05 (standard form)
     assert "0.1 → 0.05" in f.message
     assert {s for s, _ in f.modes[0].top_states} == {"sway", "sway rate"}

@@ -83,13 +83,20 @@ def test_retune_fails_with_the_moved_mode_and_accepting_again_passes(project):
     result.assert_outcomes(passed=1, failed=1)
     result.stdout.fnmatch_lines([
         "*_ models/lift.yaml::lift _*",
-        # line 7 of the lift file holds the feedback block the regression is reported at
-        "models/lift.yaml:7: lift regressed from its baseline entry (.eigengate/baseline.json)",
+        # line 8 of the lift file holds the gain that changed, where the moved mode's
+        # regressions are reported (the whole model's, EG204, at the feedback block, line 7)
+        "models/lift.yaml:8: lift regressed from its baseline entry (.eigengate/baseline.json)",
         "    pass  EG101 asymptotic-stability  [[]stable: true[]]*",
-        "  FAIL  EG202 decay-rate-regressed  [[]baseline[]]  (line 7)",
+        "  FAIL  EG202 decay-rate-regressed  [[]baseline[]]  (line 8)",
         # the accepted pole -4 moved to the pair -1.9 ± 2.09523j: decay rate -Re s 4 → 1.9,
         # -52.5 %; the default tolerance is 5 % of 4 = 0.2 (docs/baselines.md)
-        "        mode -4 → -1.9±2.09523j: decay rate 4 → 1.9 1/s (-2.1, -52.5 %; allowed ±0.2)",
+        "        vel mode -4 → -1.9±2.09523j: decay rate 4 → 1.9 1/s (-2.1, -52.5 %; allowed "
+        "±0.2)",
+        # the cause: the one input that changed; a real pole turning into a pair is far from
+        # a first-order move, and the note says so
+        "        cause: mode -4 → -1.9±2.1j: 100 % of the first-order shift comes from "
+        "feedback.state_gain[[]0[]][[]1[]] 2.08 → 1.2 (line 8)",
+        "        cause: first-order total * differs from the actual move *",
         "        mode  eigenvalue     ζ      ωn [[]rad/s[]]*participating states",
         # ζ 0.672 and ωn 2.828 from the standard form (see lift()); a 2×2 pair's participation
         # factors (λ - a22)/(λ - λ̄) and (λ - a11)/(λ - λ̄) have equal magnitude: 0.50 each
@@ -97,8 +104,8 @@ def test_retune_fails_with_the_moved_mode_and_accepting_again_passes(project):
     ])
     result.stdout.fnmatch_lines([
         # a real pole (ζ = 1) became a pair with ζ = 0.672: -32.8 %
-        "  FAIL  EG203 damping-regressed  [[]baseline[]]  (line 7)",
-        "        mode -4 → -1.9±2.09523j: damping ratio 1 → 0.6718 (-0.3282, -32.8 %*",
+        "  FAIL  EG203 damping-regressed  [[]baseline[]]  (line 8)",
+        "        vel mode -4 → -1.9±2.09523j: damping ratio 1 → 0.6718 (-0.3282, -32.8 %*",
     ])
     result.stdout.fnmatch_lines([
         "*= eigengate: baseline =*",
@@ -133,7 +140,7 @@ def test_warnings_do_not_fail_and_improvements_and_stale_entries_are_reported(pr
         "stale: models/drive.yaml::drive[[]loaded[]]: its model file no longer defines it",
         "stale: models/spare.yaml::spare: its model file is gone",
         # decay rate -Re s of ẋ = a x is -a: 4 → 5, +25 % (first-order system)
-        "improved: drive[[]empty[]] (models/drive.yaml): mode -4 → -5: decay rate 4 → 5 1/s*",
+        "improved: drive[[]empty[]] (models/drive.yaml): x mode -4 → -5: decay rate 4 → 5 1/s*",
         "after review, accept the current models with: pytest --eigengate-accept",
         "remove stale entries with: eigengate baseline accept",
     ])

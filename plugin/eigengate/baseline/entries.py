@@ -31,6 +31,7 @@ class BaselineMode(ModeFigures):
 
     def row(self, index: int) -> Any:
         """This mode as a :class:`~eigengate.rules.findings.ModeRow` (``index`` is 1-based)."""
+        from ..analysis.naming import mode_name
         from ..rules.findings import ModeRow
 
         return ModeRow(index=index, eigenvalue=self.eigenvalue, s=self.s, pair=self.pair,
@@ -38,7 +39,8 @@ class BaselineMode(ModeFigures):
                        damping_ratio=self.damping_ratio,
                        natural_frequency=self.natural_frequency,
                        time_constant=self.time_constant, uncertainty=self.uncertainty,
-                       condition=self.condition, top_states=self.states)
+                       condition=self.condition, top_states=self.states,
+                       name=mode_name(self.states))
 
 
 @dataclass(frozen=True)
@@ -64,6 +66,10 @@ class Entry:
     #: Robustness figures of the requirements the model had when accepted
     #: (``rules.robustness.figures_of``), sorted by name; empty when it had none.
     robustness: tuple[tuple[str, float], ...] = ()
+    #: The model's input blocks as accepted (:class:`~eigengate.baseline.inputs.InputBlock`:
+    #: digest, shape and, up to a size limit, values), sorted by name; empty in an entry
+    #: written before they were recorded.
+    inputs: tuple[Any, ...] = ()
 
     @property
     def key(self) -> Key:

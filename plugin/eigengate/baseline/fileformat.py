@@ -33,10 +33,12 @@ FIGURES = ("spectral_abscissa", "spectral_radius", "min_damping", "equilibrium",
            "unstable", "center")
 MODE_FIELDS = ("eigenvalue", "s", "multiplicity", "pair", "defective", "damping_ratio",
                "natural_frequency", "time_constant", "uncertainty", "condition", "states")
-ENTRY_FIELDS = ("domain", "figures", "modes", "point", "robustness", "sample_period",
+ENTRY_FIELDS = ("domain", "figures", "inputs", "modes", "point", "robustness", "sample_period",
                 "written_by")
 #: Fields an entry may leave out (written only when set; older files lack them).
-OPTIONAL_FIELDS = ("point", "robustness")
+OPTIONAL_FIELDS = ("inputs", "point", "robustness")
+#: Fields of one input block (``inputs``; see :mod:`eigengate.baseline.inputs`).
+INPUT_FIELDS = ("digest", "file", "shape", "values")
 TOP_FIELDS = ("format_version", "models")
 _README = """\
 This folder holds eigengate's baseline: the modes of every model as they were last accepted.
@@ -87,6 +89,17 @@ def _entry_lines(e: "Entry", pad: str) -> list[str]:
     modes = [{k: getattr(m, k) for k in MODE_FIELDS} for m in e.modes]
     out = [f'{pad}"domain": {_compact(e.domain)},',
            f'{pad}"figures": {_compact({k: getattr(e, k) for k in FIGURES})},']
+    if e.inputs:  # one block per line
+        out.append(f'{pad}"inputs": {{')
+        for i, b in enumerate(e.inputs):
+            rec = {"digest": b.digest, "shape": list(b.shape)}
+            if b.file is not None:
+                rec["file"] = b.file
+            if b.values is not None:
+                rec["values"] = list(b.values)
+            out.append(f"{pad}  {_compact(b.name)}: {_compact(rec)}"
+                       + ("," if i < len(e.inputs) - 1 else ""))
+        out.append(f"{pad}}},")
     if modes:
         out.append(f'{pad}"modes": [')
         out += [f"{pad}  {_compact(m)}" + ("," if i < len(modes) - 1 else "")
@@ -331,6 +344,7 @@ def parse(text: str, path: str) -> tuple[list["Entry"], Mapping[tuple[str, str],
             figures = tuple(sorted((k, r.num(v, we + ("robustness", k)))
                                    for k, v in robust.items()))
             period = e["sample_period"]
+            inputs = _inputs(r, e.get("inputs", {}), we + ("inputs",))
             entries.append(Entry(
                 source=source, title=title,
                 domain=r.choice(e["domain"], we + ("domain",), ("continuous", "discrete"),
@@ -342,8 +356,38 @@ def parse(text: str, path: str) -> tuple[list["Entry"], Mapping[tuple[str, str],
                                      EQUILIBRIUM_TYPES, "an equilibrium type ("
                                      + ", ".join(EQUILIBRIUM_TYPES) + ")"),
                 **{k: r.num(fig[k], wf + (k,), integer=True) for k in FIGURES[4:]},
-                written_by=e["written_by"], point=point, robustness=figures))
+                written_by=e["written_by"], point=point, robustness=figures, inputs=inputs))
     return entries, _EntryLines(r, [e.key for e in entries])
+
+
+def _inputs(r: _Reader, value: Any, where: tuple) -> tuple:
+    """The ``inputs`` of an entry (absent in files written before they were recorded)."""
+    from .inputs import InputBlock
+
+    if not isinstance(value, dict):
+        raise r.fail(where, f"must be an object of input blocks by name, got {_kind(value)}")
+    out = []
+    for name, b in sorted(value.items()):
+        wb = where + (name,)
+        r.obj(b, wb, INPUT_FIELDS, ("file", "values"))
+        shape, values, file = b["shape"], b.get("values"), b.get("file")
+        if not isinstance(b["digest"], str) or not re.fullmatch(r"[0-9a-f]{16}", b["digest"]):
+            raise r.fail(wb + ("digest",),
+                         f"must be 16 hexadecimal digits, got {b['digest']!r:.40}")
+        if not isinstance(shape, list) or len(shape) > 2:
+            raise r.fail(wb + ("shape",), f"must be a list of at most 2 sizes, got {shape!r:.40}")
+        dims = tuple(r.num(d, wb + ("shape", i), integer=True) for i, d in enumerate(shape))
+        size = 1
+        for d in dims:
+            size *= d
+        if values is not None and (not isinstance(values, list) or len(values) != size):
+            raise r.fail(wb + ("values",), f"must be a list of {size} numbers (the shape "
+                         f"{list(dims)}), got {values!r:.40}")
+        if file is not None and not isinstance(file, str):
+            raise r.fail(wb + ("file",), "must be a path (a string)")
+        out.append(InputBlock(name, dims, b["digest"], None if values is None else tuple(
+            r.num(x, wb + ("values", i)) for i, x in enumerate(values)), file))
+    return tuple(out)
 
 
 class _EntryLines(Mapping):

@@ -232,15 +232,18 @@ class _Judge:
         self.findings: list[Finding] = []
         self.better: list[Improvement] = []
         self.was = ""  # which entry a relabelled operating point was compared with
+        self.moved: list[tuple[int, "Match"]] = []  # findings of a matched mode that moved
         m = self.model
         self.line = (m.line_of("feedback") or m.line_of("plant")) if m.lines else None
 
     def add(self, rule: str, message: str, *, after: Iterable[ModeRow] = (),
             before: Iterable[ModeRow] = (), measured: Any = None, threshold: Any = None,
-            margin: float | None = None) -> None:
+            margin: float | None = None, match: "Match | None" = None) -> None:
         severity = self.sev.get(rule, "error")
         if severity == "off":
             return
+        if match is not None:
+            self.moved.append((len(self.findings), match))
         m, info = self.model, RULES[rule]
         self.findings.append(Finding(
             rule=rule, name=info.name, severity=severity, source=m.source, line=self.line,
@@ -260,10 +263,38 @@ class _Judge:
                    for f in self.findings)
 
 
-def _rows(mt: "Match") -> dict[str, tuple[ModeRow, ...]]:
+def _rows(mt: "Match") -> dict[str, Any]:
     """A matched mode as a finding shows it, after and before (built only when reported)."""
     assert mt.before is not None and mt.after is not None and mt.before_index is not None
-    return dict(after=(ModeRow.of(mt.after),), before=(mt.before.row(mt.before_index + 1),))
+    return dict(after=(ModeRow.of(mt.after),), before=(mt.before.row(mt.before_index + 1),),
+                match=mt)
+
+
+def _named(m: Any) -> str:
+    """``sway mode`` (the name's head, from the baseline's participating states) where a
+    message says "mode" ahead of an eigenvalue; plain ``mode`` without states."""
+    from ..analysis.naming import mode_name
+
+    name = mode_name(m.states)
+    return name.split(":", 1)[0] if name else "mode"
+
+
+def _explain(j: _Judge, entry: "Entry", result: Any, inputs_for: Any) -> None:
+    """Add the causes (inputs that changed, ranked) to the findings of moved modes."""
+    if not j.moved:
+        return
+    from .attribution import attribute
+
+    source = None if not entry.inputs else inputs_for(result)
+    done: dict[int, tuple] = {}
+    for pos, mt in j.moved:
+        key = id(mt)
+        if key not in done:
+            done[key] = attribute(entry, source, mt.before, mt.after)
+        cause = done[key]
+        line = next((c.line for c in cause if c.line is not None), None)
+        f = j.findings[pos]
+        j.findings[pos] = replace(f, cause=cause, line=line or f.line)
 
 
 def _figure(j: _Judge, mt: "Match", rule: str, what: str, b: float, a: float, tol: Tolerance,
@@ -272,11 +303,13 @@ def _figure(j: _Judge, mt: "Match", rule: str, what: str, b: float, a: float, to
     if verdict not in ("worse", "better"):
         return
     rows = _rows(mt)
-    text = f"mode {_ev(mt.before)} → {_ev(mt.after)}: {what} {_change(b, a, tol, unit)}"
+    text = (f"{_named(mt.before)} {_ev(mt.before)} → {_ev(mt.after)}: {what} "
+            f"{_change(b, a, tol, unit)}")
     if verdict == "worse":
         margin = tol.allowed(b) - abs(a - b)
         j.add(rule, text, measured=a, threshold=b, margin=margin, **rows)
     elif verdict == "better":
+        rows.pop("match")
         j.improve(what.replace(" ", "_"), text, **rows)
 
 
@@ -318,13 +351,17 @@ def _robustness(j: _Judge, entry: "Entry", result: Any, tol: Tolerances) -> None
 
 
 def compare(result: Any, entry: "Entry | None", tolerances: Tolerances | None = None, *,
-            severities: Mapping[str, str] | None = None, unreadable: str | None = None
-            ) -> Comparison:
+            severities: Mapping[str, str] | None = None, unreadable: str | None = None,
+            inputs_for: Callable[[Any], Any] | None = None) -> Comparison:
     """Compare an analysed model (:class:`~eigengate.scan.engine.ModelResult`) with its entry.
 
     ``entry`` None gives one EG208 new-model finding, or, with ``unreadable`` (where and why
     the model file could not be loaded, "at REV (commit): reason"), one EG210 finding.
     ``severities`` overrides :data:`DEFAULT_SEVERITY` per rule (``"off"`` drops the rule).
+    A finding about a matched mode that moved gets its causes
+    (:func:`eigengate.baseline.attribution.attribute`) and the line of the first changed input;
+    ``inputs_for(result)`` gives the model's inputs (default: ``result.model.file_inputs``),
+    asked for only then.
     """
     from ..analysis.matching import match_modes
 
@@ -349,7 +386,7 @@ def compare(result: Any, entry: "Entry | None", tolerances: Tolerances | None = 
         b, a = mt.before, mt.after
         if a is None:
             assert b is not None and mt.before_index is not None  # a mode that disappeared
-            j.add("EG207", f"baseline mode {_ev(b)} (ζ={b.damping_ratio:.3g}, ωn="
+            j.add("EG207", f"baseline {_named(b)} {_ev(b)} (ζ={b.damping_ratio:.3g}, ωn="
                   f"{_f(b.natural_frequency)} rad/s) has no counterpart in the model"
                   + (f" ({mt.count} of its {b.multiplicity})" if mt.count < b.multiplicity
                      else ""), after=(b.row(mt.before_index + 1),))
@@ -360,19 +397,23 @@ def compare(result: Any, entry: "Entry | None", tolerances: Tolerances | None = 
                       "appeared with no counterpart in the baseline", after=(ModeRow.of(a),),
                       measured=-a.decay_rate, threshold=0.0)
             else:
-                j.add("EG206", f"mode {_ev(a)} (ζ={a.damping_ratio:.3g}, ωn="
-                      f"{_f(a.natural_frequency)} rad/s) has no counterpart in the baseline",
-                      after=(ModeRow.of(a),))
+                row = ModeRow.of(a)
+                j.add("EG206", f"{row.name.split(':', 1)[0] or 'mode'} {_ev(a)} (ζ="
+                      f"{a.damping_ratio:.3g}, ωn={_f(a.natural_frequency)} rad/s) has no "
+                      "counterpart in the baseline", after=(row,))
             continue
         sb, sa = _side(b), _side(a)
         if sb <= 0 and sa > 0:
-            j.add("EG201", f"mode {_ev(b)} → {_ev(a)} crossed into instability: decay rate "
+            j.add("EG201", f"{_named(b)} {_ev(b)} → {_ev(a)} crossed into instability: "
+                  "decay rate "
                   + _change(b.decay_rate, a.decay_rate, tol.decay_rate, "1/s"),
                   measured=a.decay_rate, threshold=b.decay_rate, margin=a.decay_rate,
                   **_rows(mt))
             continue
         if sb > 0 and sa < 0:
-            j.improve("stability", f"mode {_ev(b)} → {_ev(a)} is stable now", **_rows(mt))
+            rows = _rows(mt)
+            rows.pop("match")
+            j.improve("stability", f"{_named(b)} {_ev(b)} → {_ev(a)} is stable now", **rows)
         _figure(j, mt, "EG202", "decay rate", b.decay_rate, a.decay_rate, tol.decay_rate,
                 "1/s")
         if b.oscillatory or a.oscillatory:
@@ -402,13 +443,14 @@ def compare(result: Any, entry: "Entry | None", tolerances: Tolerances | None = 
                       after=(ModeRow.of(low),), measured=a_z, threshold=b_z)
     _equilibrium(j, entry, eq, after)
     _robustness(j, entry, result, tol)
+    _explain(j, entry, result, inputs_for or (lambda r: getattr(r.model, "file_inputs", None)))
     return Comparison(m.source, m.title, tuple(j.findings), tuple(j.better), tuple(matches))
 
 
 def compare_all(file_results: Iterable[Any], baseline: "Baseline",
                 tolerances_for: "Tolerances | Callable[[Any], Tolerances] | None" = None, *,
-                complete: bool = False, severities: Mapping[str, str] | None = None
-                ) -> Outcome:
+                complete: bool = False, severities: Mapping[str, str] | None = None,
+                inputs_for: Callable[[Any], Any] | None = None) -> Outcome:
     """Compare every model of ``file_results`` (:class:`~eigengate.scan.engine.FileResult`) with
     ``baseline``.
 
@@ -444,7 +486,8 @@ def compare_all(file_results: Iterable[Any], baseline: "Baseline",
                 new_list.append(key)
             tol = tolerances_for(r) if callable(tolerances_for) else tolerances_for
             comparisons.append(compare(r, entry, tol, severities=severities,
-                                       unreadable=baseline.unreadable.get(key[0])))
+                                       unreadable=baseline.unreadable.get(key[0]),
+                                       inputs_for=inputs_for))
     new = tuple(sorted(new_list))
     stale = tuple(k for k in baseline.keys() if k not in seen and k[0] not in broken
                   and (complete or k[0] in checked))

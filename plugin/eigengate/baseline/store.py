@@ -72,10 +72,14 @@ def mode_record(m: Any) -> BaselineMode:
 
 
 def baseline_entry_from(result: Any, source: str | None = None,
-                        written_by: str | None = None) -> Entry:
+                        written_by: str | None = None, inputs: Any = None) -> Entry:
     """The baseline entry of an analysed model (an :class:`~eigengate.scan.engine.ModelResult`);
-    ``source`` replaces the model's own (a file read from git under its old name)."""
+    ``source`` replaces the model's own (a file read from git under its old name). The input
+    blocks come from ``inputs`` (an :class:`~eigengate.baseline.inputs.InputSource`), else from
+    the model's own ``file_inputs``; without either the entry records none."""
     from ..version import __version__
+
+    inputs = inputs if inputs is not None else getattr(result.model, "file_inputs", None)
 
     model, sp, eq = result.model, result.spectrum, result.equilibrium
     return Entry(source=source or model.source, title=model.title,
@@ -88,14 +92,16 @@ def baseline_entry_from(result: Any, source: str | None = None,
                  written_by=written_by or f"eigengate {__version__}",
                  point=getattr(model, "point_id", None),
                  robustness=tuple(sorted((k, _r(v)) for k, v in
-                                         figures_of(result.verdicts).items())))
+                                         figures_of(result.verdicts).items())),
+                 inputs=() if inputs is None else tuple(sorted(inputs.records(),
+                                                               key=lambda b: b.name)))
 
 
 def _same(a: Entry, b: Entry) -> bool:
     """Equal up to round-off: figures within 1e-9 relative, diagnostics within 1e-3."""
     if (a.key, a.point, a.domain, a.equilibrium, a.stable, a.unstable, a.center,
-            len(a.modes)) != (b.key, b.point, b.domain, b.equilibrium, b.stable, b.unstable,
-                              b.center, len(b.modes)):
+            len(a.modes), a.inputs) != (b.key, b.point, b.domain, b.equilibrium, b.stable,
+                                        b.unstable, b.center, len(b.modes), b.inputs):
         return False
     scale = max([1.0] + [abs(m.s) for m in a.modes + b.modes if math.isfinite(abs(m.s))])
 

@@ -8,6 +8,7 @@ from typing import Any, Mapping
 from ..model.formats import suggest
 from .context import (CONTROLLER_SS_KEYS, CONTROLLER_TF_KEYS, FEEDBACK_KEYS, FEEDBACK_KINDS,
                      SO_PLANT_KEYS, SS_KEYS, TF_KEYS, _check_keys, _Ctx, _mapping, _matrix, _requirements)
+from .inputs import ModelInputs
 from .parameters import parse_parameters
 from ..model.core import Model, as_matrix, from_arrays
 
@@ -96,7 +97,8 @@ def build_model(doc: Mapping[str, Any], ctx: _Ctx, name: str, label: str | None)
     return dataclasses.replace(model, lines=dict(ctx.lines), loop_parts=_loop(doc, ctx, parts,
                                                                               requirements,
                                                                               box is not None),
-                               allowed_drift=drift, require=require, parameters=box)
+                               allowed_drift=drift, require=require, parameters=box,
+                               file_inputs=ModelInputs.linear(doc, ctx))
 
 
 def _loop(doc: Mapping[str, Any], ctx: _Ctx, parts: list[dict[str, Any]],

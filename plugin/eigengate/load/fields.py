@@ -12,6 +12,7 @@ from typing import Any, Callable, Mapping
 
 from ..analysis.nonlinear import FieldPoint, VectorField, _vec, import_function, linearise
 from ..model.core import Model
+from .inputs import ModelInputs
 from .context import _check_keys, _mapping, label_shape, point_identity
 
 __all__ = ["load_vector_field", "VECTOR_FIELD_KEYS"]
@@ -177,5 +178,6 @@ def load_vector_field(data: Mapping[str, Any], ctx: Any, name: str,
             # location) with the shape of its label
             row = (idents[j] if points is not None else None) or f"#{j}:{label_shape(full)}"
             models.append(dataclasses.replace(model, lines=dict(ctx.lines), nonlinear=info,
-                                              point_id=at_sweep + row))
+                                              point_id=at_sweep + row,
+                                              file_inputs=ModelInputs.field(info, ctx)))
     return models

@@ -89,6 +89,10 @@ class Model:
     #: without a ``parameters`` block. Not stored in the result cache (a cached result is
     #: never analysed again).
     parameters: Any = None
+    #: The numeric inputs of the model file (:class:`eigengate.load.inputs.ModelInputs`), kept
+    #: for baselines and cause attribution; None for models not read from a file and results
+    #: from the cache.
+    file_inputs: Any = None
 
     @property
     def discrete(self) -> bool:

@@ -311,9 +311,9 @@ class BaselineRun:
         ``compared``; ``regressed``; ``improvements``)."""
         own = self.policy.policy_for(result.model.source)
         if self.accept:
-            from ..baseline.store import baseline_entry_from
+            from ..scan.baseline_check import entry_of
 
-            entry = baseline_entry_from(result)
+            entry = entry_of(result, self.policy)
             if own is self.policy:
                 self.entries.append(entry)
             else:

@@ -7,7 +7,7 @@ import math
 from html import escape
 from typing import TYPE_CHECKING, Any, Mapping, Sequence
 
-from .render import DECIDED_NOTES, UNCERTAIN_NOTE, figure_line
+from .render import DECIDED_NOTES, UNCERTAIN_NOTE, cause_lines, figure_line
 
 if TYPE_CHECKING:  # pragma: no cover
     from ..rules.findings import Finding
@@ -152,6 +152,10 @@ def _finding(f: "Finding", discrete: bool) -> list[str]:
     if getattr(f, "decided_by", ""):
         out.append(f'<p class="eg-note">Decided: {_e(f.decided_by)} '
                    f'({_e(DECIDED_NOTES[f.decided_by])}).</p>')
+    causes = cause_lines(f)
+    if causes:
+        out.append('<ul class="eg-cause">' + "".join(f"<li>{_e(c)}</li>" for c in causes)
+                   + "</ul>")
     if f.suggestion:
         out.append(f'<p class="eg-hint">Hint: {_e(f.suggestion)}</p>')
     if f.before:

@@ -12,8 +12,8 @@ import re
 from typing import Any, Iterable, Sequence
 
 from .escape import printable
-from .render import (CAUTION, DECIDED_NOTES, UNCERTAIN_NOTE, figure_line, mode_cells,
-                     own_findings, plural, status_of, tally, text_number)
+from .render import (CAUTION, DECIDED_NOTES, UNCERTAIN_NOTE, cause_lines, figure_line,
+                     mode_cells, own_findings, plural, status_of, tally, text_number)
 
 __all__ = ["render_markdown", "escape"]
 
@@ -77,6 +77,7 @@ def _finding_block(f: Any, discrete: bool) -> list[str]:
         lines.append(f"  - figure: {escape(figure)}")
     if getattr(f, "decided_by", ""):
         lines.append(f"  - decided: {f.decided_by} ({DECIDED_NOTES[f.decided_by]})")
+    lines += [f"  - cause: {escape(c)}" for c in cause_lines(f)]
     if f.suggestion:
         lines.append(f"  - hint: {escape(f.suggestion)}")
     reason = getattr(f, "waived", None)

@@ -19,7 +19,8 @@ from ..rules.findings import DECIDED_NOTES, UNCERTAIN_NOTE, Finding, ModeRow
 
 __all__ = ["UNCERTAIN_NOTE", "DECIDED_NOTES", "json_number", "json_value", "json_complex", "mode_data", "finding_data",
            "text_number", "mode_cells", "mode_summary", "finding_summary", "own_findings",
-           "model_findings", "all_findings", "status_of", "tally", "plural", "CAUTION"]
+           "model_findings", "all_findings", "status_of", "tally", "plural", "CAUTION",
+           "cause_lines", "cause_data"]
 
 #: Said by every report meant for people: what the tool is, and what it is not.
 CAUTION = ("eigengate is an engineering aid for model regression checks; it is not a safety "
@@ -74,7 +75,26 @@ def mode_data(row: ModeRow) -> dict[str, Any]:
         "condition": json_number(row.condition),
         "top_states": [{"state": name, "participation": json_number(p)}
                        for name, p in row.top_states],
+        "name": getattr(row, "name", ""),
     }
+
+
+def cause_lines(f: Finding) -> list[str]:
+    """A regression's causes for people, one line each (the first names the input that moved
+    the mode most), with the line of the input in the model file; every writer shows these
+    (plain text: each writer escapes it its own way)."""
+    out = []
+    for c in getattr(f, "cause", ()):
+        out.append(c.text + (f" (line {c.line})" if c.input and c.line else ""))
+    return out
+
+
+def cause_data(f: Finding) -> list[dict[str, Any]]:
+    """A regression's causes as JSON data."""
+    return [{"text": c.text, "input": c.input or None, "before": json_number(c.before),
+             "after": json_number(c.after), "share": json_number(c.share),
+             "shift": None if c.shift is None else json_complex(c.shift), "line": c.line,
+             "file": c.file} for c in getattr(f, "cause", ())]
 
 
 def figure_data(fig: Any) -> dict[str, Any] | None:
@@ -112,6 +132,7 @@ def finding_data(f: Finding) -> dict[str, Any]:
         "waived": getattr(f, "waived", None), "figure": figure_data(getattr(f, "figure", None)),
         "modes": [mode_data(m) for m in f.modes],
         "before": [mode_data(m) for m in getattr(f, "before", ())],
+        "cause": cause_data(f),
     }
 
 
@@ -141,9 +162,12 @@ def mode_cells(row: ModeRow) -> list[str]:
 
 
 def mode_summary(row: ModeRow) -> str:
-    """``#1 -0.2±1.98997j (ζ=0.1, ωn=2 rad/s, τ=5 s; angle 0.50, rate 0.50)``."""
+    """``#1 swing mode -0.2±1.98997j (ζ=0.1, ωn=2 rad/s, τ=5 s; swing_angle 0.50, swing_rate
+    0.50)``."""
     index, ev, zeta, wn, tau, states = mode_cells(row)
-    return f"{index} {ev} (ζ={zeta}, ωn={wn} rad/s, τ={tau} s; {states})"
+    name = getattr(row, "name", "").split(":", 1)[0]
+    return f"{index} {name + ' ' if name else ''}{ev} (ζ={zeta}, ωn={wn} rad/s, τ={tau} s; " \
+        f"{states})"
 
 
 def finding_summary(f: Finding, *, with_title: bool = True) -> list[str]:
@@ -156,6 +180,7 @@ def finding_summary(f: Finding, *, with_title: bool = True) -> list[str]:
     before = getattr(f, "before", ())
     if before:
         lines.append("in the baseline: " + "; ".join(mode_summary(m) for m in before))
+    lines += [f"cause: {c}" for c in cause_lines(f)]
     if f.suggestion:
         lines.append(f"hint: {f.suggestion}")
     return lines

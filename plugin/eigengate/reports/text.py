@@ -7,7 +7,7 @@ from typing import TYPE_CHECKING, Iterable, Sequence
 
 from ..rules.findings import DECIDED_NOTES, UNCERTAIN_NOTE, Finding, ModeRow
 from .escape import printable as _p
-from .render import figure_line
+from .render import cause_lines, figure_line
 from .render import format_eigenvalue  # shared by every writer; re-exported
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -74,6 +74,7 @@ def finding_lines(f: Finding, discrete: bool, color: bool = False) -> list[str]:
         out.append(f"        figure: {_p(figure)}")
     if getattr(f, "decided_by", ""):
         out.append(f"        decided: {f.decided_by} ({DECIDED_NOTES[f.decided_by]})")
+    out += [f"        cause: {_p(c)}" for c in cause_lines(f)]
     if f.suggestion:
         out.append(f"        hint: {_p(f.suggestion)}")
     if f.modes:

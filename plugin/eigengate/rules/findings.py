@@ -15,7 +15,8 @@ if TYPE_CHECKING:  # pragma: no cover
     from ..analysis.modes import Mode
     from .catalogue import Verdict
 
-__all__ = ["Finding", "ModeRow", "findings_of", "error_finding", "INVALID_RULE", "RulePolicy"]
+__all__ = ["Finding", "ModeRow", "Cause", "findings_of", "error_finding", "INVALID_RULE",
+           "RulePolicy"]
 
 
 class RulePolicy(Protocol):
@@ -55,14 +56,36 @@ class ModeRow:
     uncertainty: float
     condition: float
     top_states: tuple[tuple[str, float], ...]
+    name: str = ""
 
     @classmethod
     def of(cls, mode: "Mode") -> "ModeRow":
+        from ..analysis.naming import mode_name
+
+        top = tuple(mode.top_states())
         return cls(index=mode.index, eigenvalue=mode.eigenvalue, s=mode.s, pair=mode.pair,
                    multiplicity=mode.multiplicity, defective=mode.defective,
                    damping_ratio=mode.damping_ratio, natural_frequency=mode.natural_frequency,
                    time_constant=mode.time_constant, uncertainty=mode.uncertainty,
-                   condition=mode.condition, top_states=tuple(mode.top_states()))
+                   condition=mode.condition, top_states=top, name=mode_name(top))
+
+
+@dataclass(frozen=True)
+class Cause:
+    """One line of a regression's cause: an input that changed (``input`` with ``before`` →
+    ``after``, its ``line`` in the model file, the referenced ``file`` it was read from) and,
+    when it was ranked, its first-order ``shift`` of the regressed mode's eigenvalue and its
+    ``share`` of the first-order total; or, with ``input`` empty, a note on the attribution
+    (``text`` is always the sentence a report prints)."""
+
+    text: str
+    input: str = ""
+    before: float | None = None
+    after: float | None = None
+    share: float | None = None
+    shift: complex | None = None
+    line: int | None = None
+    file: str | None = None
 
 
 @dataclass(frozen=True)
@@ -95,6 +118,9 @@ class Finding:
     #: The robustness figure behind the verdict (:class:`~eigengate.rules.catalogue.Figure`)
     #: with its bracket, or None.
     figure: Any = None
+    #: Regressions: which inputs changed and how much each moved the mode
+    #: (:class:`Cause` records, the largest first); empty for every other finding.
+    cause: tuple[Cause, ...] = ()
 
     @property
     def title(self) -> str:

@@ -16,7 +16,39 @@ if TYPE_CHECKING:  # pragma: no cover
     from ..baseline.regressions import Comparison, Outcome
 
 __all__ = ["reference_baseline", "compare_files", "compare_result", "with_regressions",
-           "accept", "accept_command", "stale_entries"]
+           "accept", "accept_command", "stale_entries", "inputs_reader", "entry_of"]
+
+
+def inputs_reader(config: "Config"):
+    """``result → its model's inputs``: the loader's own when the result has them, else the
+    model file read again (a result from the cache or a worker process; each file read once
+    per reader). None when the file cannot be read (it changed, or is gone)."""
+    from ..errors import EigengateError
+
+    files: dict[str, dict] = {}
+
+    def inputs_of(result: "ModelResult"):
+        model = result.model
+        if getattr(model, "file_inputs", None) is not None:
+            return model.file_inputs
+        if model.source not in files:
+            from ..load.inputs import inputs_by_title
+
+            try:
+                files[model.source] = inputs_by_title(config.root / model.source, config.root,
+                                                      allow_python=config.allow_python)
+            except (EigengateError, OSError):
+                files[model.source] = {}
+        return files[model.source].get(model.title)
+
+    return inputs_of
+
+
+def entry_of(result: "ModelResult", config: "Config", reader=None):
+    """The baseline entry of ``result``, with its inputs (read again when it has none)."""
+    from ..baseline.store import baseline_entry_from
+
+    return baseline_entry_from(result, inputs=(reader or inputs_reader(config))(result))
 
 
 def reference_baseline(config: "Config", against: str | None = None) -> "Baseline | None":
@@ -65,11 +97,12 @@ def compare_files(files: Sequence["FileResult"], config: "Config", baseline: "Ba
     # the stored baselines are per policy; a git revision's models are one baseline
     stored = baseline.path is None or Path(baseline.path) == config.baseline_path
     groups = _by_policy(files, config) if stored else [(config, list(files))]
+    reader = inputs_reader(config)
     parts = []
     for policy, group in groups:
         ref = _policy_baseline(policy, config, baseline) if stored else baseline
         outcome = compare_all(group, ref, config.tolerances_for, complete=complete,
-                              severities=dict(policy.severity))
+                              severities=dict(policy.severity), inputs_for=reader)
         kept = tuple(f for f in outcome.findings if policy.rule_enabled(f.rule))
         parts.append(replace(outcome, findings=kept))
     if len(parts) == 1:
@@ -92,7 +125,8 @@ def compare_result(result: "ModelResult", config: "Config", baseline: "Baseline"
     policy = config.policy_for(result.model.source)
     comparison = compare(result, entry, config.tolerances_for(result),
                          severities=dict(policy.severity),
-                         unreadable=baseline.unreadable.get(result.model.source))
+                         unreadable=baseline.unreadable.get(result.model.source),
+                         inputs_for=inputs_reader(config))
     kept = tuple(f for f in comparison.regressions if policy.rule_enabled(f.rule))
     comparison = replace(comparison, regressions=kept)
     return (replace(result, findings=result.findings + kept) if kept else result), comparison
@@ -152,11 +186,12 @@ def accept(files: Sequence["FileResult"], config: "Config", *, complete: bool
     what is there). With ``complete`` (the whole repository was checked), entries of models
     that no longer exist are removed; otherwise only entries of the checked files that lost a
     model are. Files that failed to load keep their entries."""
-    from ..baseline.store import Baseline, MergeSummary, baseline_entry_from, merge_write
+    from ..baseline.store import Baseline, MergeSummary, merge_write
 
     parts = []
+    reader = inputs_reader(config)
     for policy, group in _by_policy(files, config) or [(config, [])]:
-        entries = [baseline_entry_from(r) for fr in group if fr.error is None
+        entries = [entry_of(r, config, reader) for fr in group if fr.error is None
                    for r in fr.results]
         path = policy.baseline_path
         current = Baseline.load(path) if path.is_file() else Baseline()

@@ -45,7 +45,8 @@ _SPECIAL = {
     "ModeRow": {"eigenvalue": "c", "s": "c", "top_states": "t2"},
     "KnownMode": {"eigenvalue": "c?", "states": "t"},
     "Waiver": {"expires": "d?", "paths": "t"},
-    "Finding": {"modes": "skip", "before": "t", "figure": "f?"},  # before: () for every cached finding
+    # before and cause: () for every cached finding (regressions are judged after the cache)
+    "Finding": {"modes": "skip", "before": "t", "figure": "f?", "cause": "t"},
     "Verdict": {"offending": "skip", "figure": "f?"},
     "Figure": {"at": "t", "notes": "t", "curve": "t2", "grid": "t2"},
     "MinStabilityRadius": {"B": "t2?", "C": "t2?"},

@@ -19,6 +19,7 @@ from typing import Any, cast
 from .engine import ModelResult
 from ..analysis.equilibrium import Equilibrium
 from ..errors import ModelError
+from ..analysis.naming import mode_name
 from ..rules.findings import Finding, ModeRow
 from ..rules.known_modes import KnownMode
 from .records import record, requirement_classes, unrecord
@@ -29,7 +30,7 @@ from ..rules.waivers import Waiver
 
 __all__ = ["results_to_data", "results_from_data", "CachedSpectrum", "Blobs", "FORMAT"]
 
-FORMAT = 7
+FORMAT = 8
 
 
 class Blobs:
@@ -430,6 +431,7 @@ def _row_of(r: list, states: tuple[str, ...]) -> ModeRow:
         multiplicity=int(mult), defective=bool(defective), damping_ratio=zeta,
         natural_frequency=wn, time_constant=tau, uncertainty=bound, condition=kappa,
         top_states=tuple([(states[int(top[j])], top[j + 1]) for j in range(0, 2 * int(k), 2)]))
+    row.__dict__["name"] = mode_name(row.top_states)
     return row
 
 
