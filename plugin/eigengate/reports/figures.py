@@ -24,8 +24,17 @@ _REGION_EDGE = "#3f7f68"
 _ERROR = "#c0392b"
 _WARNING = "#d68910"
 _BASELINE = "#8e99a4"
-_STABLE_DIR = "#2e7d5b"
-_UNSTABLE_DIR = "#c0392b"
+# Marks of the loop and phase-portrait pictures: a teal/amber/violet set chosen to stay apart
+# for red-green and blue-yellow colour-vision deficiencies (they differ in lightness and
+# hue), and always paired with a shape or line style of its own, so colour is never the only
+# cue (docs/report.md lists the marks).
+_GAIN_MARK = "#0e6b82"
+_PHASE_MARK = "#a35a00"
+_DISK_EDGE = "#5b3d8f"
+_DISK_FILL = "#ebe5f3"
+_CRITICAL = "#14202c"
+_STABLE_DIR = _GAIN_MARK
+_UNSTABLE_DIR = _PHASE_MARK
 
 _RC = {
     "font.family": "DejaVu Sans",  # shipped with matplotlib: the same glyphs everywhere
