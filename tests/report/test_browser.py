@@ -17,9 +17,6 @@ from pathlib import Path
 
 import pytest
 
-from support import run_cli
-
-REPO = Path(__file__).resolve().parents[2]
 FLAGS = ("--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
          "--disable-background-networking", "--disable-component-update", "--disable-sync")
 
@@ -69,15 +66,9 @@ def _browser(tmp: Path, *args: str) -> subprocess.CompletedProcess:
                           env={**os.environ, "HOME": str(tmp)})
 
 
-@pytest.fixture(scope="module")
-def report(tmp_path_factory):
-    work = tmp_path_factory.mktemp("browser")
-    shutil.copytree(REPO / "example_repo", work / "repo",
-                    ignore=shutil.ignore_patterns("__pycache__", ".eigengate-cache"))
-    out = run_cli("check", ".", "--no-cache", "-q", "-o", f"html:{work / 'report.html'}",
-                  cwd=work / "repo")
-    assert out.returncode == 1, out.stderr  # the example repository has failing models
-    return work / "report.html"
+@pytest.fixture
+def report(example_report):
+    return example_report / "report.html"
 
 
 def test_report_loads_cleanly_in_chromium(report, tmp_path):

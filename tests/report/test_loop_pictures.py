@@ -178,3 +178,24 @@ def test_pictures_survive_the_result_cache(shade):
     assert [type(p) for p in back.pictures] == [type(p) for p in shade.pictures]
     assert json.dumps([record(p) for p in back.pictures]) == \
         json.dumps([record(p) for p in shade.pictures])
+
+
+@pytest.mark.parametrize("kind", ["bode", "nyquist"])
+def test_titles_fit_the_figure_even_for_long_model_names(shade, mpl, kind):
+    from eigengate.reports.figures import _style
+    from eigengate.reports.loop_plots import bode_figure, nyquist_figure
+
+    (curve,) = loop_curves_of(shade)
+    draw = bode_figure if kind == "bode" else nyquist_figure
+    long = "greenhouse-north-wing-shade-motor-position-loop[winter, high wind, night]"
+    with _style() as m:
+        fig = draw(curve, title=long, channels=2, mpl=m)
+        fig.canvas.draw()
+        renderer = fig.canvas.get_renderer()
+        (title,) = [ax.title if False else ax._left_title for ax in fig.axes
+                    if ax._left_title.get_text()]
+        extent = title.get_window_extent(renderer)
+        width = fig.bbox.width
+    text = title.get_text()
+    assert "…" in text and text.endswith(curve.channel), text  # shortened, channel kept
+    assert extent.x0 >= 0 and extent.x1 <= width, (text, extent, width)

@@ -30,9 +30,13 @@ _BASELINE = "#8e99a4"
 # cue (docs/report.md lists the marks).
 _GAIN_MARK = "#0e6b82"
 _PHASE_MARK = "#a35a00"
-_DISK_EDGE = "#5b3d8f"
+_DISK_EDGE = "#5b2f96"
 _DISK_FILL = "#ebe5f3"
 _CRITICAL = "#14202c"
+_MARK_FAIL = "#d1495b"  # a margin whose requirement failed (also drawn thicker, and so named)
+#: The marks' colours, checked for colour-vision deficiencies by tests/report/test_palette.py.
+MARK_COLOURS = {"curve": _INK, "gain": _GAIN_MARK, "phase": _PHASE_MARK, "disk": _DISK_EDGE,
+                "failing": _MARK_FAIL}
 _STABLE_DIR = _GAIN_MARK
 _UNSTABLE_DIR = _PHASE_MARK
 
@@ -99,6 +103,19 @@ def _new_figure(mpl: Any) -> Any:
     fig = Figure(figsize=FIGSIZE, facecolor="white")
     FigureCanvasAgg(fig)
     return fig
+
+
+def _fit_title(fig: Any, ax: Any, name: str, tail: str) -> Any:
+    """Set ``name + tail`` as the axes' left title, shortening ``name`` (with an ellipsis)
+    until the title fits inside the figure; the tail (what the picture is) is always kept."""
+    renderer = fig.canvas.get_renderer()
+    room = fig.bbox.width - 4.0
+    text = ax.set_title(name + tail, color=_INK, loc="left")
+    keep = len(name)
+    while keep > 4 and text.get_window_extent(renderer).x1 > room:
+        keep -= 2
+        text.set_text(name[:keep].rstrip() + "…" + tail)
+    return text
 
 
 # -- encoders --------------------------------------------------------------------------------

@@ -19,8 +19,8 @@ from __future__ import annotations
 import math
 from typing import TYPE_CHECKING, Any, Collection
 
-from .figures import (FIGSIZE, _CRITICAL, _DISK_EDGE, _DISK_FILL, _ERROR, _GAIN_MARK, _GRID, _INK,
-                      _MUTED, _PHASE_MARK, _new_figure, _require)
+from .figures import (FIGSIZE, _CRITICAL, _DISK_EDGE, _DISK_FILL, _GAIN_MARK, _GRID, _INK,
+                      _MARK_FAIL, _MUTED, _PHASE_MARK, _fit_title, _new_figure, _require)
 
 if TYPE_CHECKING:  # pragma: no cover
     from ..analysis.loop_curves import LoopCurve
@@ -49,12 +49,8 @@ def _mark(artist: Any, gid: str, value: float) -> Any:
     return artist
 
 
-def _title(model_title: str, what: str, channel: str, channels: int) -> str:
-    """A title that fits a 4.5-inch figure: the model name shortened when needed."""
-    tail = f" — {what}" + (f", {channel}" if channels > 1 else "")
-    room = 62 - len(tail)
-    name = model_title if len(model_title) <= room else model_title[: max(room - 1, 8)] + "…"
-    return name + tail
+def _tail(what: str, channel: str, channels: int) -> str:
+    return f" — {what}" + (f", {channel}" if channels > 1 else "")
 
 
 def bode_figure(curve: "LoopCurve", *, title: str, failed: Collection[str] = (),
@@ -95,7 +91,7 @@ def bode_figure(curve: "LoopCurve", *, title: str, failed: Collection[str] = (),
     gm_fail, pm_fail = "EG301" in failed, "EG302" in failed
     wg = curve.gain_margin_frequency
     if math.isfinite(curve.gain_margin_db) and math.isfinite(wg) and wg > 0:
-        color = _ERROR if gm_fail else _GAIN_MARK
+        color = _MARK_FAIL if gm_fail else _GAIN_MARK
         _mark(_bar(top, wg, -curve.gain_margin_db, 0.0, color, gm_fail),
               GIDS["gain_margin"], curve.gain_margin_db)
         handles.append(mpl.lines.Line2D(
@@ -104,7 +100,7 @@ def bode_figure(curve: "LoopCurve", *, title: str, failed: Collection[str] = (),
                                 + (_FAILS if gm_fail else "")))
     wp = curve.phase_margin_frequency
     if math.isfinite(curve.phase_margin_deg) and math.isfinite(wp) and wp > 0:
-        color = _ERROR if pm_fail else _PHASE_MARK
+        color = _MARK_FAIL if pm_fail else _PHASE_MARK
         _mark(_bar(bottom, wp, curve.pm_reference_deg,
                    curve.pm_reference_deg + curve.phase_margin_deg, color, pm_fail),
               GIDS["phase_margin"], curve.phase_margin_deg)
@@ -118,8 +114,7 @@ def bode_figure(curve: "LoopCurve", *, title: str, failed: Collection[str] = (),
     top.tick_params(labelbottom=False)
     if curve.sample_period:
         bottom.axvline(math.pi / curve.sample_period, color=_MUTED, linewidth=0.6)
-    top.set_title(_title(title, "Bode plot of the loop", curve.channel, channels),
-                  color=_INK, loc="left")
+    _fit_title(fig, top, title, _tail("Bode plot of the loop", curve.channel, channels))
     fig.legend(handles=handles, loc="lower center", ncol=3, frameon=False, handlelength=1.8,
                columnspacing=1.0, bbox_to_anchor=(0.5, 0.0))
     return fig
@@ -159,7 +154,7 @@ def nyquist_figure(curve: "LoopCurve", *, title: str, failed: Collection[str] = 
                mpl.lines.Line2D([], [], color=_INK, linewidth=0.6, linestyle=(0, (1, 1.5)),
                                 label="ω ≤ 0")]
     dk_fail = "EG305" in failed
-    edge = _ERROR if dk_fail else _DISK_EDGE
+    edge = _MARK_FAIL if dk_fail else _DISK_EDGE
     # the view: the critical point, the disk and the part of the curve near them
     view = 2.5
     if curve.disk_kind == "disk" and math.isfinite(curve.disk_radius):
@@ -188,7 +183,7 @@ def nyquist_figure(curve: "LoopCurve", *, title: str, failed: Collection[str] = 
     ax.set_ylim(-view * _ASPECT, view * _ASPECT)  # equal scales: the disk stays round
     ax.set_xlabel("Re L")
     ax.set_ylabel("Im L")
-    ax.set_title(_title(title, "Nyquist plot", curve.channel, channels), color=_INK, loc="left")
+    _fit_title(fig, ax, title, _tail("Nyquist plot", curve.channel, channels))
     fig.legend(handles=handles, loc="lower center", ncol=3, frameon=False, handlelength=1.6,
                columnspacing=1.0, bbox_to_anchor=(0.5, 0.0))
     return fig

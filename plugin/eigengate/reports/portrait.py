@@ -14,7 +14,8 @@ import math
 from typing import TYPE_CHECKING, Any, Sequence
 
 from .figures import (_CRITICAL, _DISK_EDGE, _GAIN_MARK, _GRID, _INK, _MUTED, _PHASE_MARK,
-                      _STABLE_DIR, _UNSTABLE_DIR, _new_figure, _png_bytes, _require, _style)
+                      _STABLE_DIR, _UNSTABLE_DIR, _fit_title, _new_figure, _png_bytes,
+                      _require, _style)
 
 if TYPE_CHECKING:  # pragma: no cover
     from ..rules.results import ModelResult
@@ -140,7 +141,7 @@ def phase_portrait_figure(result: "ModelResult", *, mpl: Any = None) -> Any:
     ax.set_xlim(-hx, hx)
     ax.set_ylim(-hy, hy)
     ax.plot([0.0], [0.0], marker="o", markersize=4, color=_INK, zorder=4, linestyle="none")
-    ax.set_title(f"{model.title} — phase portrait, {kind}", color=_INK, loc="left")
+    _fit_title(fig, ax, model.title, f" — phase portrait, {kind}")
     if handles:
         fig.legend(handles=handles, loc="lower center", ncol=min(2, len(handles)),
                    frameon=False, bbox_to_anchor=(0.5, 0.0))
@@ -191,8 +192,7 @@ def field_portrait_figure(grid: Any, *, title: str, mpl: Any = None) -> Any:
     ax.set_ylim(y0, y1)
     ax.set_xlabel(grid.states[0])
     ax.set_ylabel(grid.states[1])
-    name = title if len(title) <= 34 else title[:33] + "…"
-    ax.set_title(f"{name} — vector field, {grid.whence}", color=_INK, loc="left")
+    _fit_title(fig, ax, title, f" — vector field, {grid.whence}")
     if handles:
         fig.legend(handles=handles, loc="lower center", ncol=3, frameon=False,
                    handlelength=1.2, columnspacing=1.0, bbox_to_anchor=(0.5, 0.0))
