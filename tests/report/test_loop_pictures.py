@@ -199,3 +199,19 @@ def test_titles_fit_the_figure_even_for_long_model_names(shade, mpl, kind):
     text = title.get_text()
     assert "…" in text and text.endswith(curve.channel), text  # shortened, channel kept
     assert extent.x0 >= 0 and extent.x1 <= width, (text, extent, width)
+
+
+@pytest.mark.parametrize("sample_period", [None, 0.1])
+def test_batched_response_equals_the_margins_resolvent(shade, sample_period):
+    # the curves' batched dense solve and the margins' Schur resolvent are two evaluations
+    # of the same C (λE − A)⁻¹ B + D (backward-stable solves: agreement to rounding)
+    from dataclasses import replace
+
+    from eigengate.analysis.loop_curves import _response
+    from eigengate.analysis.margins import Resolvent, loop_transfer
+
+    lt = replace(loop_transfer(shade.model.loop_parts), sample_period=sample_period)
+    w = np.geomspace(0.01, 30.0 if sample_period else 100.0, 57)
+    ours = _response(lt, w)
+    ref = Resolvent(lt)(w)[:, 0, 0]
+    assert np.allclose(ours, ref, rtol=1e-11, atol=0)

@@ -24,7 +24,7 @@ import math
 from dataclasses import dataclass
 from typing import Any
 
-__all__ = ["LoopCurve", "loop_curves", "exclusion_disk", "CURVE_POINTS"]
+__all__ = ["LoopCurve", "loop_curves", "exclusion_disk", "CURVE_POINTS", "BATCH_ORDER"]
 
 #: Log-spaced frequencies of a curve, before the points added at resonances and crossovers.
 CURVE_POINTS = 200
@@ -126,19 +126,44 @@ def _branch(value_deg: float, near_deg: float) -> float:
     return value_deg + 360.0 * round((near_deg - value_deg) / 360.0)
 
 
-def _channel_curve(lt: Any, cm: Any, at: str, omega_range) -> LoopCurve:
+#: Loops up to this order are evaluated at every frequency in one batched dense solve
+#: (a few hundred small solves at once); larger ones through the margins' Schur resolvent.
+BATCH_ORDER = 64
+
+
+def _response(lt: Any, omegas: Any) -> Any:
+    """``L`` of a SISO loop at ``omegas`` (rad/s): NaN at a pole on the axis."""
     import numpy as np
 
     from .margins import Resolvent
+
+    w = np.atleast_1d(np.asarray(omegas, dtype=float))
+    n = lt.A.shape[0]
+    if n == 0:
+        return np.full(w.shape, complex(lt.D[0, 0]))
+    if n <= BATCH_ORDER:
+        lam = 1j * w if lt.sample_period is None else np.exp(1j * w * lt.sample_period)
+        e = np.eye(n) if lt.E is None else lt.E
+        m = lam[:, None, None] * e[None] - lt.A[None]
+        try:
+            x = np.linalg.solve(m, np.broadcast_to(lt.B.astype(complex), (w.size,) + lt.B.shape))
+        except np.linalg.LinAlgError:  # exactly singular somewhere: a pole on the axis
+            pass
+        else:
+            return (lt.C @ x)[:, 0, 0] + lt.D[0, 0]
+    return Resolvent(lt)(w)[:, 0, 0]
+
+
+def _channel_curve(lt: Any, cm: Any, at: str, omega_range) -> LoopCurve:
+    import numpy as np
 
     def finite(xs):
         return [float(x) for x in xs if x is not None and 0 < x < math.inf]
 
     marks = finite(cm.gain_crossovers) + finite(cm.phase_crossovers) + finite(
         [cm.disk_margin_frequency, cm.sensitivity_peak_frequency])
-    res = Resolvent(lt)
     w = _grid(lt, marks, omega_range)
-    h = res(w)[:, 0, 0]
+    h = _response(lt, w)
     ok = np.isfinite(h) & (np.abs(h) > 0)
     w, h = w[ok], h[ok]
     mag = 20.0 * np.log10(np.abs(h))
@@ -146,8 +171,11 @@ def _channel_curve(lt: Any, cm: Any, at: str, omega_range) -> LoopCurve:
     if phase.size and phase[0] > 0.0:  # the first point's branch: (-360°, 0°]
         phase = phase - 360.0 * math.ceil(phase[0] / 360.0)
 
+    def value(x: float) -> complex:
+        return complex(_response(lt, [x])[0])
+
     def phase_at(x: float) -> float:
-        raw = math.degrees(np.angle(res.scalar(x)))
+        raw = math.degrees(np.angle(value(x)))
         return _branch(raw, float(np.interp(x, w, phase)) if w.size else raw)
 
     gx = finite(cm.gain_crossovers)
@@ -160,7 +188,7 @@ def _channel_curve(lt: Any, cm: Any, at: str, omega_range) -> LoopCurve:
     dw = cm.disk_margin_frequency
     touch: tuple[float, ...] = ()
     if dw is not None and math.isfinite(dw):
-        z = res.scalar(float(dw))
+        z = value(float(dw))
         if np.isfinite(z):
             touch = (float(z.real), float(z.imag))
     return LoopCurve(
@@ -170,7 +198,7 @@ def _channel_curve(lt: Any, cm: Any, at: str, omega_range) -> LoopCurve:
         imag=tuple(float(x) for x in h.imag),
         gain_crossovers=tuple(gx), gain_crossover_phase_deg=tuple(phase_at(x) for x in gx),
         phase_crossovers=tuple(px),
-        phase_crossover_magnitude_db=tuple(20 * math.log10(abs(res.scalar(x))) for x in px),
+        phase_crossover_magnitude_db=tuple(20 * math.log10(abs(value(x))) for x in px),
         gain_margin_db=cm.gain_margin_db, gain_margin_frequency=_nan(cm.gain_margin_frequency),
         lower_gain_margin_db=_nan(cm.lower_gain_margin_db),
         lower_gain_margin_frequency=_nan(cm.lower_gain_margin_frequency),
