@@ -2,8 +2,11 @@
 
 Layout: a summary and the caution, an index with one row per model (failing ones first), then
 a collapsible section per model (failing ones open) with the pole map over the allowed region,
-the phase portrait of two-state models, the findings, the requirements checked, loop margins,
-the modes and, for nonlinear models, the equilibria found. No JavaScript and nothing fetched at
+the phase portrait of two-state models (of a vector field: drawn from the field over its
+search box), the Bode and Nyquist plots of loops with margin requirements
+(:mod:`eigengate.reports.pictures`), the findings, the requirements checked, loop margins,
+the modes and, for nonlinear models, the equilibria found. Headings run h1 → h2 → h3 (a
+model, in its summary line) → h4 (its parts); every image has alt text. No JavaScript and nothing fetched at
 view time. Like every report it renders what the engine found and decides nothing itself.
 
 The figures need matplotlib (``pip install "eigengate[report]"``); without it
