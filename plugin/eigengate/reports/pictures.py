@@ -75,10 +75,14 @@ def _loop_pictures(result: Any) -> list[Picture]:
             marks, words = texts[kind]
             out.append(Picture(
                 kind, f"{kind}{suffix}", f"{name} of {title}, {where}: {marks}{fail_note}",
-                f"{name} of L, {where}. {words}",
-                lambda mpl, c=c, draw=draw: draw(c, title=title, failed=failed,
-                                                 channels=len(curves), mpl=mpl)))
+                f"{name} of L, {where}. {words}", _drawer(draw, c, title, failed, len(curves))))
     return out
+
+
+def _drawer(draw: Callable[..., Any], curve: Any, title: str, failed: frozenset[str],
+            channels: int) -> Callable[[Any], Any]:
+    """``draw`` of one curve, waiting for matplotlib."""
+    return lambda mpl: draw(curve, title=title, failed=failed, channels=channels, mpl=mpl)
 
 
 def _field_picture(result: Any) -> Picture | None:

@@ -130,7 +130,7 @@ def phase_portrait_figure(result: "ModelResult", *, mpl: Any = None) -> Any:
     for (vx, vy), m in dirs:
         stable = m.s.real < 0
         color = _STABLE_DIR if stable else _UNSTABLE_DIR
-        style = "-" if stable else (0, (4, 2))  # the line style says it too
+        style: Any = "-" if stable else (0.0, (4.0, 2.0))  # the line style says it too
         t = 3.0 * max(hx / max(abs(vx), 1e-300), hy / max(abs(vy), 1e-300))
         t = min(t, 1e6 * max(hx, hy))
         ax.plot([-t * vx, t * vx], [-t * vy, t * vy], color=color, linewidth=1.3,
