@@ -75,6 +75,11 @@ def _parser() -> argparse.ArgumentParser:
     check.add_argument("--pole-maps", metavar="DIR", default=None,
                        help="write PNG and SVG pole maps of every model with findings into DIR "
                             "(needs the report extra: pip install \"eigengate[report]\")")
+    check.add_argument("--figures", metavar="DIR", default=None,
+                       help="write the Bode, Nyquist and vector-field pictures of every model "
+                            "that has them into DIR (needs the report extra)")
+    check.add_argument("--figure-format", choices=("png", "svg"), default="png",
+                       help="file format of --figures (default: png)")
     check.add_argument("--jobs", "-j", type=int, default=None, metavar="N",
                        help="processes that analyse at once, this one included "
                             "(default: the number of cores)")
@@ -307,30 +312,26 @@ def _baseline_poles(baseline) -> dict:
 def _write_pole_maps(folder: Path, files: list, baseline_poles, root: Path | None = None
                      ) -> int:
     """PNG and SVG pole maps of every model with findings, named after file and model."""
-    import re
+    from .reports.pictures import pole_map_files
 
-    from .reports.plots import pole_map_png, pole_map_svg
+    return _write_files(folder, pole_map_files(files, baseline_poles), root, "pole maps")
 
+
+def _write_files(folder: Path, items, root: Path | None, what: str) -> int:
+    """Write ``(file name, bytes)`` items into ``folder`` (made inside the repository only);
+    the names are plain (no folders), and a link in their place is not followed."""
+    where = f"{what} to {os.fspath(folder)!r}"
     try:
-        _make_folder(folder, root, f"pole maps to {os.fspath(folder)!r}")
-    except OSError as exc:
-        raise OutputError(f"cannot write pole maps to {os.fspath(folder)!r}: "
-                          f"{exc.strerror or exc}") from None
-    count = 0
-    for fr in files:
-        for r in fr.results:
-            if not r.findings:
-                continue
-            key = (r.model.source, r.model.title)
-            stem = re.sub(r"[^A-Za-z0-9._-]+", "-", f"{r.model.source}--{r.model.title}").strip("-")
-            poles = (baseline_poles or {}).get(key)
-            try:
-                (folder / f"{stem}.png").write_bytes(pole_map_png(r, baseline_poles=poles))
-            except OSError as exc:
-                raise OutputError(f"cannot write pole maps to {os.fspath(folder)!r}: "
-                                  f"{exc.strerror or exc}") from None
-            _write_atomic(folder / f"{stem}.svg", pole_map_svg(r, baseline_poles=poles))
+        _make_folder(folder, root, where)
+        count = 0
+        for name, data in items:
+            path = folder / name
+            if path.is_symlink():
+                raise OutputError(f"cannot write {where}: {name} is a link")
+            path.write_bytes(data)
             count += 1
+    except OSError as exc:
+        raise OutputError(f"cannot write {where}: {exc.strerror or exc}") from None
     return count
 
 
@@ -441,6 +442,11 @@ def _check(args) -> int:
                           f"the {fmt} report to {os.fspath(path)!r}")
         if args.pole_maps:
             _write_pole_maps(Path(args.pole_maps), files, poles, config.root)
+        if args.figures:
+            from .reports.pictures import picture_files
+
+            _write_files(Path(args.figures), picture_files(files, args.figure_format),
+                         config.root, "figures")
         text = render(args.format, files, color=_use_color(args.color), quiet=args.quiet,
                       baseline_poles=poles)
     except ReportDependencyError as exc:

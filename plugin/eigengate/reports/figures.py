@@ -24,8 +24,21 @@ _REGION_EDGE = "#3f7f68"
 _ERROR = "#c0392b"
 _WARNING = "#d68910"
 _BASELINE = "#8e99a4"
-_STABLE_DIR = "#2e7d5b"
-_UNSTABLE_DIR = "#c0392b"
+# Marks of the loop and phase-portrait pictures: a teal/amber/violet set chosen to stay apart
+# for red-green and blue-yellow colour-vision deficiencies (they differ in lightness and
+# hue), and always paired with a shape or line style of its own, so colour is never the only
+# cue (docs/report.md lists the marks).
+_GAIN_MARK = "#0e6b82"
+_PHASE_MARK = "#a35a00"
+_DISK_EDGE = "#5b2f96"
+_DISK_FILL = "#ebe5f3"
+_CRITICAL = "#14202c"
+_MARK_FAIL = "#d1495b"  # a margin whose requirement failed (also drawn thicker, and so named)
+#: The marks' colours, checked for colour-vision deficiencies by tests/report/test_palette.py.
+MARK_COLOURS = {"curve": _INK, "gain": _GAIN_MARK, "phase": _PHASE_MARK, "disk": _DISK_EDGE,
+                "failing": _MARK_FAIL}
+_STABLE_DIR = _GAIN_MARK
+_UNSTABLE_DIR = _PHASE_MARK
 
 _RC = {
     "font.family": "DejaVu Sans",  # shipped with matplotlib: the same glyphs everywhere
@@ -90,6 +103,19 @@ def _new_figure(mpl: Any) -> Any:
     fig = Figure(figsize=FIGSIZE, facecolor="white")
     FigureCanvasAgg(fig)
     return fig
+
+
+def _fit_title(fig: Any, ax: Any, name: str, tail: str) -> Any:
+    """Set ``name + tail`` as the axes' left title, shortening ``name`` (with an ellipsis)
+    until the title fits inside the figure; the tail (what the picture is) is always kept."""
+    renderer = fig.canvas.get_renderer()
+    room = fig.bbox.width - 4.0
+    text = ax.set_title(name + tail, color=_INK, loc="left")
+    keep = len(name)
+    while keep > 4 and text.get_window_extent(renderer).x1 > room:
+        keep -= 2
+        text.set_text(name[:keep].rstrip() + "…" + tail)
+    return text
 
 
 # -- encoders --------------------------------------------------------------------------------

@@ -2,8 +2,11 @@
 
 Layout: a summary and the caution, an index with one row per model (failing ones first), then
 a collapsible section per model (failing ones open) with the pole map over the allowed region,
-the phase portrait of two-state models, the findings, the requirements checked, loop margins,
-the modes and, for nonlinear models, the equilibria found. No JavaScript and nothing fetched at
+the phase portrait of two-state models (of a vector field: drawn from the field over its
+search box), the Bode and Nyquist plots of loops with margin requirements
+(:mod:`eigengate.reports.pictures`), the findings, the requirements checked, loop margins,
+the modes and, for nonlinear models, the equilibria found. Headings run h1 → h2 → h3 (a
+model, in its summary line) → h4 (its parts); every image has alt text. No JavaScript and nothing fetched at
 view time. Like every report it renders what the engine found and decides nothing itself.
 
 The figures need matplotlib (``pip install "eigengate[report]"``); without it
@@ -186,6 +189,7 @@ def _figures(e: _Entry, mpl: Any, baseline: Sequence[complex] | None, dpi: int) 
     from .plots import marked_modes, pole_map_figure, pseudospectral_grid
     from .transient import growth_verdict, transient_figure
     from .portrait import can_draw_phase_portrait, phase_portrait_figure
+    from .pictures import pictures_for
 
     r = e.result
     assert r is not None  # figures are drawn for analysed models only
@@ -208,12 +212,19 @@ def _figures(e: _Entry, mpl: Any, baseline: Sequence[complex] | None, dpi: int) 
     png = _png_bytes(pole_map_figure(r, baseline_poles=baseline, mpl=mpl), dpi)
     out = ['<div class="eg-figs">', f"<figure>{_img(png, alt)}<figcaption>{_e(caption)}"
            "</figcaption></figure>"]
-    if can_draw_phase_portrait(m):
+    pictures = pictures_for(r)
+    if can_draw_phase_portrait(m) and not any(p.kind == "field" for p in pictures):
         png = _png_bytes(phase_portrait_figure(r, mpl=mpl), dpi)
-        cap = ("Phase portrait of the linear model around the origin; straight lines: "
-               "eigenvector directions of real eigenvalues (green stable, red unstable).")
+        where = "the origin" if m.nonlinear is None else "the operating point (deviations)"
+        cap = (f"Phase portrait of the linear model around {where}; straight lines: "
+               "eigenvector directions of real eigenvalues (solid teal: stable, dashed amber: "
+               "unstable).")
         out.append(f"<figure>{_img(png, 'Phase portrait of ' + m.title)}<figcaption>{_e(cap)}"
                    "</figcaption></figure>")
+    for p in pictures:
+        png = _png_bytes(p.draw(mpl), dpi)
+        out.append(f'<figure class="eg-{p.kind}">{_img(png, p.alt)}<figcaption>'
+                   f"{_e(p.caption)}</figcaption></figure>")
     growth = growth_verdict(r)
     if growth is not None:
         png = _png_bytes(transient_figure(r, mpl=mpl), dpi)
@@ -318,7 +329,8 @@ def _section(e: _Entry, figures: list[str] | None, max_images: int | None) -> li
     note = f"{n} finding{'s' if n != 1 else ''}" if n else "no findings"
     out = [f'<details class="eg-model {e.status}" id="{e.anchor}"{opened}>',
            f'<summary><span class="eg-badge {e.status}">{_STATUS_WORD[e.status]}</span> '
-           f"<b>{_e(e.title)}</b><span class=\"eg-sum-file\">{_e(e.file.source)}</span>"
+           f"<h3 class=\"eg-title\">{_e(e.title)}</h3>"
+           f"<span class=\"eg-sum-file\">{_e(e.file.source)}</span>"
            f'<span class="eg-sum-note">{_e(note)}</span></summary>', '<div class="eg-body">']
     r = e.result
     if r is None:

@@ -48,6 +48,7 @@ list-style-position:inside}
 details.eg-model[open]>summary{border-bottom:1px solid var(--line)}
 details.eg-model.fail,details.eg-model.invalid{border-left:4px solid var(--fail)}
 details.eg-model.warn{border-left:4px solid var(--warn)}
+summary h3.eg-title{display:inline;font-size:14px;margin:0 0 0 4px}
 .eg-sum-file{color:var(--muted);font-size:12.5px;margin-left:8px}
 .eg-sum-note{color:var(--muted);font-size:12.5px;float:right}
 .eg-body{padding:6px 16px 14px}

@@ -428,16 +428,25 @@ def pole_map_figure(result: "ModelResult", *, baseline_poles: Sequence[complex] 
     h = ax.scatter([p.real for p, _, _ in pts], [p.imag for p, _, _ in pts], s=size,
                    marker="D", c=face, edgecolors="white", linewidths=0.5, zorder=5)
     h.set_gid(POLE_GID)
+    # A shape as well as a colour (colour is never the only cue): a ring round a pole named
+    # by a failed check, a square frame round one named by a warning.
+    rings = {"error": ("o", "eg-poles-failed"), "warning": ("s", "eg-poles-warned")}
+    for kind, (shape, gid) in rings.items():
+        hit = [p for p, i, _ in pts if marks.get(i) == kind]
+        if hit:
+            ax.scatter([p.real for p in hit], [p.imag for p in hit], s=size * 3.4,
+                       marker=shape, facecolors="none", edgecolors=colors[kind],
+                       linewidths=1.1, zorder=5).set_gid(gid)
 
     handles.append(Line2D([], [], linestyle="none", marker="D", markersize=5,
                           markerfacecolor=_INK, markeredgecolor="white", label="pole"))
     if any(v == "error" for v in marks.values()):
-        handles.append(Line2D([], [], linestyle="none", marker="D", markersize=5,
-                              markerfacecolor=_ERROR, markeredgecolor="white",
+        handles.append(Line2D([], [], linestyle="none", marker="o", markersize=8,
+                              markerfacecolor="none", markeredgecolor=_ERROR,
                               label="pole in a failed check"))
     if any(v == "warning" for v in marks.values()):
-        handles.append(Line2D([], [], linestyle="none", marker="D", markersize=5,
-                              markerfacecolor=_WARNING, markeredgecolor="white",
+        handles.append(Line2D([], [], linestyle="none", marker="s", markersize=7,
+                              markerfacecolor="none", markeredgecolor=_WARNING,
                               label="pole in a warning"))
     labelled: set[complex] = set()
     for p, _, mult in pts:

@@ -1,17 +1,41 @@
-"""The phase portrait of a two-state model: streamlines or orbits and its eigenvector lines."""
+"""Phase portraits of two-state models: of a linear model, streamlines (or orbits) of
+``x' = A x`` with its eigenvector lines; of a vector field, streamlines of ``f`` itself over
+the equilibria search box (:class:`~eigengate.analysis.field_grid.FieldGrid`, the analysis's
+grid) with every equilibrium found marked by its type.
+
+Equilibrium marks (our own; docs/report.md): stable node or focus a filled teal circle,
+unstable node or focus a hollow amber circle, saddle a filled amber cross, center a hollow
+violet diamond, degenerate or non-hyperbolic a hollow violet square; the model's own
+operating point a bold ink plus. The legend names each in words."""
 
 from __future__ import annotations
 
 import math
 from typing import TYPE_CHECKING, Any, Sequence
 
-from .figures import (_GRID, _INK, _MUTED, _STABLE_DIR, _UNSTABLE_DIR, _new_figure, _png_bytes,
-                       _require, _style)
+from .figures import (_CRITICAL, _DISK_EDGE, _GAIN_MARK, _GRID, _INK, _MUTED, _PHASE_MARK,
+                      _STABLE_DIR, _UNSTABLE_DIR, _fit_title, _new_figure, _png_bytes,
+                      _require, _style)
 
 if TYPE_CHECKING:  # pragma: no cover
     from ..rules.results import ModelResult
 
-__all__ = ["can_draw_phase_portrait", "phase_portrait_figure", "phase_portrait_png"]
+__all__ = ["can_draw_phase_portrait", "phase_portrait_figure", "phase_portrait_png",
+           "field_portrait_figure", "EQUILIBRIUM_MARKS", "EQUILIBRIUM_GID"]
+
+#: Equilibrium type → (marker, face colour or "none", edge colour, words for the legend).
+EQUILIBRIUM_MARKS = {
+    "stable-node": ("o", _GAIN_MARK, _GAIN_MARK, "stable node"),
+    "stable-focus": ("o", _GAIN_MARK, _GAIN_MARK, "stable focus"),
+    "unstable-node": ("o", "none", _PHASE_MARK, "unstable node"),
+    "unstable-focus": ("o", "none", _PHASE_MARK, "unstable focus"),
+    "saddle": ("X", _PHASE_MARK, _PHASE_MARK, "saddle"),
+    "center": ("D", "none", _DISK_EDGE, "center"),
+    "degenerate": ("s", "none", _DISK_EDGE, "degenerate"),
+    "non-hyperbolic": ("s", "none", _DISK_EDGE, "non-hyperbolic"),
+}
+#: SVG id prefix of the equilibrium marks (``eg-equilibrium-<type>``).
+EQUILIBRIUM_GID = "eg-equilibrium"
 
 
 def _null_vector(a: Sequence[Sequence[float]], lam: complex) -> tuple[complex, complex] | None:
@@ -106,16 +130,18 @@ def phase_portrait_figure(result: "ModelResult", *, mpl: Any = None) -> Any:
     for (vx, vy), m in dirs:
         stable = m.s.real < 0
         color = _STABLE_DIR if stable else _UNSTABLE_DIR
+        style: Any = "-" if stable else (0.0, (4.0, 2.0))  # the line style says it too
         t = 3.0 * max(hx / max(abs(vx), 1e-300), hy / max(abs(vy), 1e-300))
         t = min(t, 1e6 * max(hx, hy))
-        ax.plot([-t * vx, t * vx], [-t * vy, t * vy], color=color, linewidth=1.3, zorder=3)
+        ax.plot([-t * vx, t * vx], [-t * vy, t * vy], color=color, linewidth=1.3,
+                linestyle=style, zorder=3)
         word = "stable" if stable else ("unstable" if m.s.real > 0 else "boundary")
-        handles.append(Line2D([], [], color=color, linewidth=1.3,
+        handles.append(Line2D([], [], color=color, linewidth=1.3, linestyle=style,
                               label=f"λ = {m.eigenvalue.real:.4g} ({word} direction)"))
     ax.set_xlim(-hx, hx)
     ax.set_ylim(-hy, hy)
     ax.plot([0.0], [0.0], marker="o", markersize=4, color=_INK, zorder=4, linestyle="none")
-    ax.set_title(f"{model.title} — phase portrait, {kind}", color=_INK, loc="left")
+    _fit_title(fig, ax, model.title, f" — phase portrait, {kind}")
     if handles:
         fig.legend(handles=handles, loc="lower center", ncol=min(2, len(handles)),
                    frameon=False, bbox_to_anchor=(0.5, 0.0))
@@ -127,3 +153,47 @@ def phase_portrait_png(result: "ModelResult", *, dpi: int = 100) -> bytes:
     models)."""
     with _style() as mpl:
         return _png_bytes(phase_portrait_figure(result, mpl=mpl), dpi)
+
+
+def field_portrait_figure(grid: Any, *, title: str, mpl: Any = None) -> Any:
+    """Streamlines of a vector field over its box (:class:`FieldGrid`) with the equilibria
+    found, each marked by its type, and the model's operating point."""
+    import numpy as np
+    from matplotlib.lines import Line2D
+
+    mpl = mpl or _require("the phase portrait")
+    fig = _new_figure(mpl)
+    ax = fig.add_axes((0.14, 0.22, 0.82, 0.68))
+    x0, x1, y0, y1 = grid.box
+    dx, dy = np.array(grid.dx, dtype=float), np.array(grid.dy, dtype=float)
+    speed = np.hypot(dx, dy)
+    if np.any(np.isfinite(speed) & (speed > 0)):
+        with np.errstate(all="ignore"):
+            ax.streamplot(np.array(grid.xs), np.array(grid.ys), dx, dy, density=0.9,
+                          color=_MUTED, linewidth=0.6, arrowsize=0.7, zorder=2)
+    handles, seen = [], set()
+    for (x, y), kind in zip(grid.equilibria, grid.types):
+        marker, face, edge, words = EQUILIBRIUM_MARKS.get(kind, ("s", "none", _DISK_EDGE, kind))
+        line = ax.plot([x], [y], marker=marker, markersize=7, markerfacecolor=face,
+                       markeredgecolor=edge, markeredgewidth=1.5, linestyle="none", zorder=5)[0]
+        line.set_gid(f"{EQUILIBRIUM_GID}-{kind}")
+        if kind not in seen:
+            seen.add(kind)
+            handles.append(Line2D([], [], marker=marker, markersize=6, markerfacecolor=face,
+                                  markeredgecolor=edge, markeredgewidth=1.5, linestyle="none",
+                                  label=words))
+    if len(grid.point) == 2:
+        ax.plot([grid.point[0]], [grid.point[1]], marker="+", markersize=9, color=_CRITICAL,
+                markeredgewidth=1.8, linestyle="none", zorder=6)[0].set_gid("eg-operating-point")
+        handles.append(Line2D([], [], marker="+", markersize=8, color=_CRITICAL,
+                              markeredgewidth=1.8, linestyle="none",
+                              label="operating point (linearised here)"))
+    ax.set_xlim(x0, x1)
+    ax.set_ylim(y0, y1)
+    ax.set_xlabel(grid.states[0])
+    ax.set_ylabel(grid.states[1])
+    _fit_title(fig, ax, title, f" — vector field, {grid.whence}")
+    if handles:
+        fig.legend(handles=handles, loc="lower center", ncol=3, frameon=False,
+                   handlelength=1.2, columnspacing=1.0, bbox_to_anchor=(0.5, 0.0))
+    return fig

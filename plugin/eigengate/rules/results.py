@@ -30,6 +30,8 @@ class ModelResult:
     findings: tuple[Finding, ...]
     waived: tuple[Finding, ...] = ()
     used_waivers: tuple[Waiver, ...] = ()
+    #: Plot data for the reports (:func:`eigengate.rules.pictures.pictures_of`).
+    pictures: tuple = ()
 
     @property
     def passed(self) -> bool:

@@ -44,8 +44,11 @@ def analyse_model(model: Model, config: "Config | None" = None) -> ModelResult:
         equilibrium = replace(equilibrium, uncertain=True, detail=f"from the "
                               f"{spectrum.n_eigenvalues} eigenvalues a sparse search found "
                               f"of {model.n_states}, not the whole spectrum")
+    from ..rules.pictures import pictures_of
+
     return ModelResult(model=model, spectrum=spectrum, equilibrium=equilibrium,
-                       verdicts=verdicts, findings=tuple(findings_of(model, verdicts, config)))
+                       verdicts=verdicts, findings=tuple(findings_of(model, verdicts, config)),
+                       pictures=pictures_of(model, verdicts))
 
 
 def _nothing_checked():

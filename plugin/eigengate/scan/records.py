@@ -17,7 +17,7 @@ import functools
 from ..rules import requirements as _requirements
 from ..rules.catalogue import Figure
 
-__all__ = ["record", "unrecord", "requirement_classes"]
+__all__ = ["record", "unrecord", "requirement_classes", "pictures_from"]
 
 
 @functools.lru_cache(maxsize=None)
@@ -51,7 +51,35 @@ _SPECIAL = {
     "Figure": {"at": "t", "notes": "t", "curve": "t2", "grid": "t2"},
     "MinStabilityRadius": {"B": "t2?", "C": "t2?"},
     "RobustOverRange": {"inner": "reqs"},
+    # plot data of a result (eigengate.rules.pictures)
+    "LoopCurve": {k: "t" for k in (
+        "omega", "magnitude_db", "phase_deg", "real", "imag", "gain_crossovers",
+        "gain_crossover_phase_deg", "phase_crossovers", "phase_crossover_magnitude_db",
+        "disk_touch")},
+    "FieldGrid": {"states": "t", "box": "t", "xs": "t", "ys": "t", "dx": "t2", "dy": "t2",
+                  "equilibria": "t2", "types": "t", "point": "t"},
 }
+
+
+@functools.lru_cache(maxsize=None)
+def _picture_classes() -> dict[str, type]:
+    from ..analysis.field_grid import FieldGrid
+    from ..analysis.loop_curves import LoopCurve
+
+    return {"LoopCurve": LoopCurve, "FieldGrid": FieldGrid}
+
+
+def pictures_from(items) -> tuple:
+    """A result's plot data from its records (``[[class name, record], ...]``)."""
+    return _named_records(items, _picture_classes(), "pictures")
+
+
+def _named_records(items, classes: dict[str, type], what: str) -> tuple:
+    """Instances from ``[[class name, record], ...]``, each class one of ``classes``."""
+    if type(items) is not list or not all(type(x) is list and len(x) == 2 and x[0] in classes
+                                          for x in items):
+        raise ValueError(f"{what} are not records of known classes")
+    return tuple(unrecord(classes[name], rec) for name, rec in items)
 
 
 def _complex_or_none(v) -> complex | None:
@@ -75,11 +103,7 @@ def _figure_or_none(v) -> Figure | None:
 
 
 def _requirements_from(v) -> tuple:
-    classes = requirement_classes()
-    if type(v) is not list or not all(type(x) is list and len(x) == 2 and x[0] in classes
-                                      for x in v):
-        raise ValueError("inner requirements are not records of known classes")
-    return tuple(unrecord(classes[name], rec) for name, rec in v)
+    return _named_records(v, requirement_classes(), "inner requirements")
 
 
 _SKIP = object()

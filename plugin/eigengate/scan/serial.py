@@ -22,7 +22,7 @@ from ..errors import ModelError
 from ..analysis.naming import mode_name
 from ..rules.findings import Finding, ModeRow
 from ..rules.known_modes import KnownMode
-from .records import record, requirement_classes, unrecord
+from .records import pictures_from, record, requirement_classes, unrecord
 from ..model.core import Model
 from ..analysis.modes import Mode, Spectrum
 from ..rules.catalogue import Verdict
@@ -30,7 +30,7 @@ from ..rules.waivers import Waiver
 
 __all__ = ["results_to_data", "results_from_data", "CachedSpectrum", "Blobs", "FORMAT"]
 
-FORMAT = 8
+FORMAT = 9  # 8: mode names; 9: results carry their pictures (plot data)
 
 
 class Blobs:
@@ -464,7 +464,8 @@ def _result_data(r, blobs: Blobs) -> dict:
     return {"model": _model_data(r.model, blobs), "spectrum": _spectrum_data(r.spectrum, blobs),
             "equilibrium": record(r.equilibrium),
             "verdicts": [_verdict_data(v) for v in r.verdicts],
-            "findings": findings, "rows": rows}
+            "findings": findings, "rows": rows,
+            "pictures": [[type(p).__name__, record(p)] for p in r.pictures]}
 
 
 def _result_from(d: dict, blobs, shapes: list):
@@ -476,7 +477,8 @@ def _result_from(d: dict, blobs, shapes: list):
     return ModelResult(model=model, spectrum=cast(Spectrum, spectrum),
                        equilibrium=unrecord(Equilibrium, d["equilibrium"]),
                        verdicts=tuple(verdicts),
-                       findings=_findings_from(d["findings"], d["rows"], model.states, blobs))
+                       findings=_findings_from(d["findings"], d["rows"], model.states, blobs),
+                       pictures=pictures_from(d["pictures"]))
 
 
 def results_to_data(source: str, results: Sequence, error) -> tuple[dict, Blobs]:
