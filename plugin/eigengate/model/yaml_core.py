@@ -108,7 +108,7 @@ def _yaml_loader_class() -> type:
     return _Loader
 
 
-def _fast_resolution(loader: type, yaml: Any) -> None:
+def _fast_resolution(loader: Any, yaml: Any) -> None:
     """Give ``loader`` the resolution PyYAML's ``BaseResolver.resolve`` performs with the
     loader's tables, without its per-node work for path resolvers (the loader has none):
     libyaml's composer calls these three methods for every node."""

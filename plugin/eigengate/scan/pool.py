@@ -176,7 +176,7 @@ def pool_run(todo: list, config: Any, jobs: int, local: Callable, remote: Callab
             for conn in wait(busy, timeout=0 if front < back else None) if busy else ():
                 items = held[conn].popleft()
                 try:
-                    records = conn.recv()
+                    records = conn.recv()  # type: ignore[union-attr,call-arg]
                 except (EOFError, OSError):  # the worker died: its chunks are done here
                     records = None
                     for rest in (items, *held.pop(conn)):
