@@ -89,6 +89,9 @@ class Model:
     #: without a ``parameters`` block. Not stored in the result cache (a cached result is
     #: never analysed again).
     parameters: Any = None
+    #: The coordinates of a point of an operating-point grid (``grid:`` in the model file),
+    #: as ``((axis, value), ...)`` in the axes' order; None for a model not on a grid.
+    grid: tuple[tuple[str, float], ...] | None = None
 
     @property
     def discrete(self) -> bool:

@@ -17,6 +17,7 @@ from typing import TYPE_CHECKING, Any, Callable, Iterable, Mapping, Sequence
 
 from .html_parts import _CSS, _STATUS_WORD, _e, _finding, _img, _mode_rows_table, _num
 from .figures import ReportDependencyError
+from .html_grid import grid_sections
 
 if TYPE_CHECKING:  # pragma: no cover
     from ..rules.results import FileResult, ModelResult
@@ -75,7 +76,10 @@ def _entries(results: Iterable["FileResult"]) -> list[_Entry]:
             continue
         shown = {id(f) for r in fr.results for f in r.findings}
         own = [f for f in fr.findings if id(f) not in shown]  # expired or unused waivers
+        grid = fr.grid is not None  # a grid: its table stands for the points without findings
         for k, r in enumerate(fr.results):
+            if grid and k and not r.findings and not getattr(r, "waived", ()):
+                continue
             out.append(_Entry(fr, r, own if k == 0 else (), len(out)))
     # Failing models first: the index reads as a to-do list. Stable within each status.
     out.sort(key=lambda e: (_STATUS_RANK[e.status], e.order))
@@ -415,9 +419,11 @@ def render_html(results: Sequence["FileResult"], *, tool_version: str,
            "</header>", f'<p class="eg-caution" id="eg-caution">{_e(CAUTION)}</p>',
            '<div class="eg-wrap">', '<h2 id="eg-index">Index</h2>']
     doc.extend(_index(entries))
-    doc.append("<h2>Models</h2>")
     drawn = 0
     with _style() as mpl:
+        doc.extend(grid_sections(results, {(e.file.source, e.title): e.anchor
+                                           for e in entries if e.result is not None}, mpl, dpi))
+        doc.append("<h2>Models</h2>")
         for k, e in enumerate(entries, 1):
             figures = None
             if e.result is not None and (max_images is None or drawn < max_images):

@@ -8,7 +8,8 @@ file is one testcase (named after the file) with an ``<error>``; the file's own 
 (expired or unused waivers, policy findings) are a testcase of the same name. Warnings, waived
 findings and the key figures of the model go to ``<system-out>``. Nothing is skipped, and no
 testcase has ``<properties>`` (xunit2 does not allow them). Times are 0: the report does not
-depend on the clock.
+depend on the clock. An operating-point grid has a testcase per point with findings and one
+more for all its other points, whose ``<system-out>`` is the grid's table (worst first).
 """
 
 from __future__ import annotations
@@ -21,7 +22,7 @@ from typing import Any, Iterable, Sequence
 
 from .escape import printable
 from .render import own_findings
-from .text import finding_lines, model_lines
+from .text import finding_lines, grid_lines, model_lines
 
 __all__ = ["render_junit"]
 
@@ -89,10 +90,18 @@ def render_junit(results: Iterable[Any]) -> str:
     for fr in results:
         classname = _classname(fr.source)
         file_name = PurePosixPath(fr.source.replace("\\", "/")).name or fr.source
+        grid = fr.grid
         for r in fr.results:
             m = r.model
+            if grid is not None and not r.findings and not getattr(r, "waived", ()):
+                continue  # a grid's quiet points are one testcase, below
             out = textwrap.dedent("\n".join(model_lines(r, verbose=True))) + "\n"
             s.case(classname, m.title, _errors(r.findings), m.discrete, out)
+        if grid is not None:
+            quiet = len(grid.points) - sum(1 for r in fr.results
+                                           if r.findings or getattr(r, "waived", ()))
+            out = textwrap.dedent("\n".join(grid_lines(grid))) + "\n"
+            s.case(classname, f"{grid.name}[grid: {quiet} passing points]", [], False, out)
         own = own_findings(fr)
         if own or fr.error is not None:
             failing = _errors(own)
