@@ -78,7 +78,8 @@ def _entries(results: Iterable["FileResult"]) -> list[_Entry]:
         own = [f for f in fr.findings if id(f) not in shown]  # expired or unused waivers
         grid = fr.grid is not None  # a grid: its table stands for the points without findings
         for k, r in enumerate(fr.results):
-            if grid and k and not r.findings and not getattr(r, "waived", ()):
+            if grid and not (k == 0 and own) and not r.findings and not getattr(r, "waived",
+                                                                                 ()):
                 continue
             out.append(_Entry(fr, r, own if k == 0 else (), len(out)))
     # Failing models first: the index reads as a to-do list. Stable within each status.
