@@ -37,7 +37,11 @@ def grid_cells(p: "GridPoint") -> list[str]:
             ", ".join(p.rules) or "—"]
 
 
-def rest_line(left_out: int) -> str:
-    """The line under a short table: how many passing points it does not list."""
-    return (f"… and {left_out} more passing point{'s' if left_out != 1 else ''} "
-            "(the JSON report lists every point)")
+def rest_line(summary: "GridSummary", left_out: int) -> str:
+    """The line under a short table: how many points it does not list, of which failing or
+    warned."""
+    bad = sum(1 for p in summary.points if p.status != "pass")
+    bad_left = bad - min(bad, len([p for p in summary.shown()[0] if p.status != "pass"]))
+    what = f"{left_out} more point{'s' if left_out != 1 else ''}"
+    what += f" ({bad_left} of them with findings)" if bad_left else " (all passing)"
+    return f"… and {what}; the JSON report lists every point"

@@ -76,10 +76,10 @@ def _entries(results: Iterable["FileResult"]) -> list[_Entry]:
             continue
         shown = {id(f) for r in fr.results for f in r.findings}
         own = [f for f in fr.findings if id(f) not in shown]  # expired or unused waivers
-        grid = fr.grid is not None  # a grid: its table stands for the points without findings
+        # a grid: its table stands for every point but its worst ones with findings
+        detailed = fr.grid.detailed() if fr.grid is not None else None
         for k, r in enumerate(fr.results):
-            if grid and not (k == 0 and own) and not r.findings and not getattr(r, "waived",
-                                                                                 ()):
+            if detailed is not None and not (k == 0 and own) and r.model.title not in detailed:
                 continue
             out.append(_Entry(fr, r, own if k == 0 else (), len(out)))
     # Failing models first: the index reads as a to-do list. Stable within each status.

@@ -28,7 +28,7 @@ def _table(summary: Any, anchors: Mapping[str, str]) -> list[str]:
                    + f"<td>{_e(cells[6])}</td></tr>")
     out.append("</tbody></table>")
     if left:
-        out.append(f'<p class="eg-note">{_e(rest_line(left))}</p>')
+        out.append(f'<p class="eg-note">{_e(rest_line(summary, left))}</p>')
     return out
 
 

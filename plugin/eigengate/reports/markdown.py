@@ -122,7 +122,7 @@ def _grid_section(grid: Any) -> list[str]:
            "", "Points worst first:", ""]
     out += _table(grid_head(grid), ([escape(c) for c in grid_cells(p)] for p in shown))
     if left:
-        out += ["", escape(rest_line(left))]
+        out += ["", escape(rest_line(grid, left))]
     return out
 
 
@@ -141,7 +141,10 @@ def render_markdown(results: Iterable[Any]) -> str:
     for fr in results:
         if fr.grid is not None:
             lines += _grid_section(fr.grid)
+        detailed = fr.grid.detailed() if fr.grid is not None else None
         for r in fr.results:
+            if detailed is not None and r.model.title not in detailed:
+                continue  # a row of the grid's table
             shown = [*r.findings, *getattr(r, "waived", ())]
             if shown:
                 title = f"{escape(fr.source)} · {escape(r.model.title)}"

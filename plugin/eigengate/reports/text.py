@@ -130,7 +130,11 @@ def grid_lines(summary, color: bool = False) -> list[str]:
             cells[1] = cells[1].replace(row[1].split()[0], _paint(row[1].split()[0], color), 1)
         lines.append(("    " + "  ".join(cells)).rstrip())
     if left:
-        lines.append("    " + rest_line(left))
+        lines.append("    " + rest_line(summary, left))
+    if summary.left_out():
+        lines.append(f"    findings in full below for the {len(summary.detailed())} worst "
+                     f"points; {summary.left_out()} more points with findings are rows of "
+                     "the JSON report")
     return lines
 
 
@@ -153,12 +157,16 @@ def render_results(results: Iterable[FileResult], *, verbose: bool = True,
             lines.append(_p(fr.source))
         shown: set[int] = set()
         grid = fr.grid
-        if grid is not None:  # a grid: its table, then only the points with something to say
+        detailed = grid.detailed() if grid is not None else frozenset()
+        if grid is not None:  # a grid: its table, then its worst points with findings
             lines.extend(grid_lines(grid, color))
         for r in fr.results:
             models += 1
             failing += 0 if r.passed else 1
-            if (verbose and grid is None) or r.findings or getattr(r, "waived", ()):
+            if grid is not None and r.model.title not in detailed:
+                shown.update(id(f) for f in r.findings)  # a row of the table, no block
+                continue
+            if verbose or r.findings or getattr(r, "waived", ()):
                 lines.extend(model_lines(r, verbose=verbose, color=color))
             shown.update(id(f) for f in r.findings)
         for f in fr.findings:

@@ -18,8 +18,11 @@ from typing import TYPE_CHECKING, Any
 if TYPE_CHECKING:  # pragma: no cover
     from .results import FileResult
 
-__all__ = ["GridPoint", "GridSummary", "summarise_grid", "STATUS_ORDER"]
+__all__ = ["GridPoint", "GridSummary", "summarise_grid", "STATUS_ORDER", "MAX_DETAILED"]
 
+#: Points with findings whose findings a text, Markdown, JUnit or HTML report writes out in
+#: full, worst first; the others are rows of the grid's table (all of them in JSON and SARIF).
+MAX_DETAILED = 10
 #: Point statuses, worst first.
 STATUS_ORDER = ("fail", "warn", "pass")
 
@@ -69,6 +72,10 @@ class GridSummary:
         """``speed (4) × load (3)``."""
         return " × ".join(f"{n} ({len(v)})" for n, v in self.axes)
 
+    def left_out(self, limit: int = MAX_DETAILED) -> int:
+        """Points with findings beyond the ``limit`` written out in full."""
+        return max(0, sum(1 for p in self.points if p.status != "pass") - limit)
+
     def headline(self) -> str:
         """One line: axes, point count, and how many fail, warn and pass."""
         n = len(self.points)
@@ -77,12 +84,17 @@ class GridSummary:
                  if self.count(s)]
         return f"grid {self.shape_text()}: {n} point{'s' if n != 1 else ''}, " + ", ".join(parts)
 
-    def shown(self, passing: int = 3) -> tuple[tuple[GridPoint, ...], int]:
-        """The points a short table lists (every failing and warned one, then the ``passing``
-        worst passing ones) and how many it leaves out."""
-        keep = [p for p in self.points if p.status != "pass"]
+    def shown(self, passing: int = 3, limit: int = 20) -> tuple[tuple[GridPoint, ...], int]:
+        """The points a short table lists (the failing and warned ones, at most ``limit``,
+        then the ``passing`` worst passing ones) and how many it leaves out."""
+        keep = [p for p in self.points if p.status != "pass"][:limit]
         keep += [p for p in self.points if p.status == "pass"][:passing]
         return tuple(keep), len(self.points) - len(keep)
+
+    def detailed(self, limit: int = MAX_DETAILED) -> frozenset[str]:
+        """Titles of the points whose findings a report writes out in full: the ``limit``
+        worst points with findings (the table and the JSON report name the others)."""
+        return frozenset([p.title for p in self.points if p.status != "pass"][:limit])
 
 
 _REGRESSION = {"EG201", "EG202", "EG203", "EG204", "EG205", "EG206", "EG207", "EG211",
