@@ -200,7 +200,9 @@ def _pick(names: list[str], key: str | None, rel: str, bad: Any) -> str:
     return key
 
 
-def _read_npz(path: "Path | Any", rel: str, key: str | None, bad: Any) -> "np.ndarray":
+def _read_npz(path: "Path | Any", rel: str, key: str | None, bad: Any,
+              check: "Callable[[tuple, Any, str, str, Any], None] | None" = None
+              ) -> "np.ndarray":
     import zipfile
     import zlib
 
@@ -219,7 +221,10 @@ def _read_npz(path: "Path | Any", rel: str, key: str | None, bad: Any) -> "np.nd
                               "scipy.sparse.save_npz)", "remove key from the reference", ".key")
                 return _sparse_npz(archive, rel, bad)
             name = _pick(list(archive.files), key, rel, bad)
-            _check_npy_header(archive.zip, name, rel, bad)
+            if check is None:
+                _check_npy_header(archive.zip, name, rel, bad)
+            else:  # another reader's rule for the header (model.stacked's stacks)
+                check(*_npy_header(archive.zip, name, rel, bad), name, rel, bad)
             try:
                 return np.asarray(archive[name])
             except ValueError:
@@ -360,7 +365,9 @@ def _check_shape(shape: tuple, name: str, rel: str, bad: Any) -> None:
                   f"{MAX_MATRIX_ENTRIES} entries", "a model has at most 4000 states")
 
 
-def _read_mat(path: "Path | Any", rel: str, key: str | None, bad: Any) -> "np.ndarray":
+def _read_mat(path: "Path | Any", rel: str, key: str | None, bad: Any,
+              check: "Callable[[tuple, Any, str, str, Any], None] | None" = None
+              ) -> "np.ndarray":
     import warnings
 
     import numpy as np
@@ -377,7 +384,10 @@ def _read_mat(path: "Path | Any", rel: str, key: str | None, bad: Any) -> "np.nd
             found = scipy.io.whosmat(path)
             shapes = {n: s for n, s, _ in found}
             name = _pick(list(shapes), key, rel, bad)
-            if dict((n, c) for n, _, c in found)[name] == "sparse":
+            kind = dict((n, c) for n, _, c in found)[name]
+            if check is not None:  # another reader's rule (model.stacked's stacks)
+                check(tuple(shapes[name]), kind, name, rel, bad)
+            elif kind == "sparse":
                 rows, cols = (int(d) for d in shapes[name])
                 _check_sparse(rows, cols, _mat_nonzeros(path, name, rel, bad), rel, bad)
             else:

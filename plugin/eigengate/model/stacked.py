@@ -10,12 +10,13 @@ every entry for NaN or infinity, naming the grid point where one is found.
 
 from __future__ import annotations
 
+import functools
 import math
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Callable, Mapping, Sequence
 
 from ..errors import ModelError
-from .matrixfiles import MAX_MATRIX_ENTRIES, _npy_header, _pick, load_reference
+from .matrixfiles import MAX_MATRIX_ENTRIES, _read_mat, _read_npz, load_reference
 
 if TYPE_CHECKING:  # pragma: no cover
     import numpy as np
@@ -26,10 +27,18 @@ __all__ = ["MAX_STACK_ENTRIES", "load_stack"]
 MAX_STACK_ENTRIES = 4 * MAX_MATRIX_ENTRIES
 
 
-def _check_header(shape: tuple, kind: str, name: str, rel: str, bad: Any) -> None:
-    if kind not in "iuf":
-        raise bad(f"refers to the array {name!r} in {rel!r}, which holds {kind!r}-kind "
-                  "values, not real numbers", "save float arrays")
+_MAT_NUMERIC = ("double", "single", "int8", "int16", "int32", "int64", "uint8", "uint16",
+                "uint32", "uint64")
+
+
+def _check_header(shape: tuple, kind: Any, name: str, rel: str, bad: Any) -> None:
+    """A stack's header: real numbers (a numpy dtype or a MATLAB class), at least three
+    dimensions, at most :data:`MAX_STACK_ENTRIES` entries."""
+    real = kind in _MAT_NUMERIC if isinstance(kind, str) else kind.kind in "iuf"
+    if not real:
+        raise bad(f"refers to the array {name!r} in {rel!r}, which holds "
+                  f"{kind if isinstance(kind, str) else kind.name} values, not real numbers",
+                  "save a dense float array")
     if len(shape) < 3:
         raise bad(f"refers to the array {name!r} in {rel!r}, shaped "
                   f"{'×'.join(map(str, shape)) or 'scalar'}, which is not a stack of matrices",
@@ -40,60 +49,8 @@ def _check_header(shape: tuple, kind: str, name: str, rel: str, bad: Any) -> Non
                   "entries")
 
 
-def _read_npz(path: "Path | Any", rel: str, key: str | None, bad: Any) -> "np.ndarray":
-    import zipfile
-    import zlib
-
-    import numpy as np
-
-    try:
-        with (open(path, "rb") if isinstance(path, Path) else path) as fh, \
-                np.load(fh, allow_pickle=False) as archive:
-            if not isinstance(archive, np.lib.npyio.NpzFile):
-                raise bad(f"refers to {rel!r}, which is not a .npz archive", sub=".file")
-            name = _pick(list(archive.files), key, rel, bad)
-            shape, dtype = _npy_header(archive.zip, name, rel, bad)
-            _check_header(tuple(shape), dtype.kind, name, rel, bad)
-            return np.asarray(archive[name], dtype=float)
-    except ModelError:
-        raise
-    except (OSError, zipfile.BadZipFile, EOFError, ValueError, zlib.error) as exc:
-        raise bad(f"refers to {rel!r}, which is not a readable .npz archive ({exc})",
-                  sub=".file") from None
-
-
-def _read_mat(path: "Path | Any", rel: str, key: str | None, bad: Any) -> "np.ndarray":
-    import warnings
-
-    import numpy as np
-    import scipy.io
-
-    try:
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
-            found = scipy.io.whosmat(path)
-            name = _pick([n for n, _, _ in found], key, rel, bad)
-            shape, kind = next((tuple(s), c) for n, s, c in found if n == name)
-            if kind not in ("double", "single", "int8", "int16", "int32", "int64", "uint8",
-                            "uint16", "uint32", "uint64"):
-                raise bad(f"refers to the variable {name!r} in {rel!r}, of MATLAB class "
-                          f"{kind!r}, not a dense numeric array", "save a dense double array")
-            _check_header(shape, "f", name, rel, bad)
-            if hasattr(path, "seek"):
-                path.seek(0)
-            content = scipy.io.loadmat(path, variable_names=[name])
-    except ModelError:
-        raise
-    except NotImplementedError:
-        raise bad(f"refers to {rel!r}, a MATLAB v7.3 (HDF5) file, which is not supported",
-                  "save it with save(..., '-v7')", ".file") from None
-    except (OSError, ValueError, TypeError, scipy.io.matlab.MatReadError) as exc:
-        raise bad(f"refers to {rel!r}, which is not a readable .mat file ({exc})",
-                  sub=".file") from None
-    return np.asarray(content[name], dtype=float)
-
-
-_STACK_READERS = {".npz": _read_npz, ".mat": _read_mat}
+_STACK_READERS = {".npz": functools.partial(_read_npz, check=_check_header),
+                  ".mat": functools.partial(_read_mat, check=_check_header)}
 
 
 def load_stack(ref: Mapping[str, Any], axes: Sequence[tuple[str, Sequence[str]]], *,
@@ -110,6 +67,10 @@ def load_stack(ref: Mapping[str, Any], axes: Sequence[tuple[str, Sequence[str]]]
 
     arr, rel = load_reference(ref, source=source, field=field, line=line, base_dir=base_dir,
                               root=root, read=read, readers=_STACK_READERS)
+    if not isinstance(arr, np.ndarray):  # a sparse matrix (save_npz) is no stack
+        raise ModelError(source, field, f"refers to {rel!r}, which holds one sparse matrix, "
+                         "not a stack of matrices", line=line)
+    arr = np.asarray(arr, dtype=float)
     lead = tuple(len(values) for _, values in axes)
     if arr.ndim != len(lead) + 2 or arr.shape[:len(lead)] != lead:
         want = "×".join(map(str, lead)) + "×rows×columns"
