@@ -118,11 +118,19 @@ def _crossover(v: Any) -> str:
 
 # -- the index -------------------------------------------------------------------------------
 
-def _summary(entries: Sequence[_Entry], n_files: int) -> str:
-    models = sum(1 for e in entries if e.result is not None)
-    failing = sum(1 for e in entries if e.status in ("fail", "invalid"))
-    errors = sum(1 for e in entries for f in e.findings if f.severity == "error")
-    warnings = sum(1 for e in entries for f in e.findings if f.severity != "error")
+def _summary(results: Sequence["FileResult"], n_files: int) -> str:
+    # from the results, not the sections: a grid has sections for its worst points only
+    models = sum(len(fr.results) for fr in results if fr.error is None)
+    failing = 0
+    for fr in results:  # as the sections count: a file's own errors go with its first model
+        if fr.error is not None or not fr.results:
+            failing += 1
+            continue
+        theirs = {id(f) for r in fr.results for f in r.findings}
+        own = any(f.severity == "error" for f in fr.findings if id(f) not in theirs)
+        failing += sum(1 for k, r in enumerate(fr.results) if not r.passed or (k == 0 and own))
+    errors = sum(1 for fr in results for f in fr.findings if f.severity == "error")
+    warnings = sum(1 for fr in results for f in fr.findings if f.severity != "error")
 
     def plural(n: int, word: str) -> str:
         return f"{n} {word}{'' if n == 1 else 's'}"
@@ -416,7 +424,7 @@ def render_html(results: Sequence["FileResult"], *, tool_version: str,
            f"<title>{_e(title)}</title>", f"<style>{_CSS}</style></head><body>",
            '<header class="eg-head">', f"<h1>{_e(title)}</h1>",
            f'<p class="eg-tool">eigengate {_e(tool_version)}</p>',
-           f'<p class="eg-summary" id="eg-summary">{_e(_summary(entries, len(results)))}</p>',
+           f'<p class="eg-summary" id="eg-summary">{_e(_summary(results, len(results)))}</p>',
            "</header>", f'<p class="eg-caution" id="eg-caution">{_e(CAUTION)}</p>',
            '<div class="eg-wrap">', '<h2 id="eg-index">Index</h2>']
     doc.extend(_index(entries))
