@@ -135,3 +135,57 @@ def test_the_html_report_has_the_grid_section_and_only_the_failing_points_block(
     table = html.split('<table class="eg-index eg-grid">', 1)[1].split("</table>", 1)[0]
     first = re.search(r"<tr class=\"eg-(\w+)\"><td>(.*?)</td>", table)
     assert first.group(1) == "fail" and 'href="#m-' in first.group(2)
+
+
+def _three_axes(root):
+    # A at (speed, load, temp): s² + (load + 0.01 temp) s + speed, ζ = (load + 0.01 temp) /
+    # (2 √speed) (second-order standard form); the worst point is speed=2, load=0, temp=10
+    (root / ".git").mkdir(parents=True)
+    a = np.zeros((2, 2, 3, 2, 2))
+    for i, s in enumerate((1.0, 2.0)):
+        for j, l in enumerate((0.0, 1.0)):
+            for k, t in enumerate((10.0, 20.0, 30.0)):
+                a[i, j, k] = [[0.0, 1.0], [-s, -(l + 0.01 * t)]]
+    np.savez(root / "a.npz", A=a)
+    (root / "m.yaml").write_text("""\
+model_format: 1
+name: fan
+plant: {states: [x, v]}
+requirements: {min_damping: 0.09}
+waivers:
+  - {rule: EG103, label: "speed=2,load=0,temp=10", reason: accepted at the design review}
+grid:
+  axes: {speed: [1, 2], load: [0, 1], temp: [10, 20, 30]}
+  matrices: {plant.A: {file: a.npz, key: A}}
+""", encoding="utf-8")
+    return check_file(root / "m.yaml", root=root)
+
+
+def test_a_three_axis_grid_gets_a_map_per_value_of_its_third_axis_worst_first(tmp_path):
+    pytest.importorskip("matplotlib")
+    from eigengate.reports.figures import _style
+    from eigengate.reports.grid_plots import HEATMAP_GID, grid_slices, heatmap_figure
+
+    result = _three_axes(tmp_path)
+    grid = result.grid
+    slices = grid_slices(grid)
+    # ζ per slice: temp 10 holds the worst point (ζ = 0.1 / (2 √2) = 0.035)
+    assert [fixed for fixed, _ in slices] == [(("temp", 10.0),), (("temp", 20.0),),
+                                               (("temp", 30.0),)]
+    with _style() as mpl:
+        fig = heatmap_figure(grid, slices[0][0], mpl=mpl)
+    data = np.asarray([im for im in fig.axes[0].images if im.get_gid() == HEATMAP_GID][0]
+                      .get_array())
+    assert data.shape == (2, 2)
+    assert data[1, 0] == pytest.approx(0.1 / (2 * np.sqrt(2)) - 0.09, abs=1e-9)
+
+
+def test_a_waiver_names_a_grid_point_by_its_identity(tmp_path):
+    result = _three_axes(tmp_path)
+    waived = [r.model.point_id for r in result.results if r.waived]
+    failing = sorted(r.model.point_id for r in result.results if not r.passed)
+    # ζ < 0.09 at speed=1, load=0, temp=10 (0.05) and at speed=2, load=0 for temp 10
+    # (0.035) and 20 (0.071); 0.1 and more elsewhere (second-order standard form); the
+    # waiver accepts the one it names
+    assert waived == ["speed=2,load=0,temp=10"]
+    assert failing == ["speed=1,load=0,temp=10", "speed=2,load=0,temp=20"]

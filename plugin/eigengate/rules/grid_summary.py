@@ -129,15 +129,18 @@ def _rank(p: GridPoint) -> tuple:
 def summarise_grid(fr: "FileResult") -> GridSummary | None:
     """The grid summary of ``fr``, or None when its models are not the points of a grid."""
     results = fr.results
-    if fr.error is not None or not results or any(r.model.grid is None for r in results):
+    coords = [r.model.grid for r in results]
+    if fr.error is not None or not results or any(c is None for c in coords):
         return None
-    names = [a for a, _ in results[0].model.grid]
+    grids = [c for c in coords if c is not None]  # all of them (checked just above)
+    names = [a for a, _ in grids[0]]
     values: dict[str, list[float]] = {a: [] for a in names}
-    for r in results:  # the axes' values in the order the points came (the file's order)
-        for a, v in r.model.grid:
+    for c in grids:  # the axes' values in the order the points came (the file's order)
+        for a, v in c:
             if a in values and v not in values[a]:
                 values[a].append(v)
-    points = [_point(r, tuple(values[a].index(v) for a, v in r.model.grid)) for r in results]
+    points = [_point(r, tuple(values[a].index(v) for a, v in c))
+              for r, c in zip(results, grids)]
     first = results[0].model
     return GridSummary(source=fr.source, name=first.name,
                        axes=tuple((a, tuple(values[a])) for a in names),
