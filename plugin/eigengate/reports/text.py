@@ -158,7 +158,7 @@ def render_results(results: Iterable[FileResult], *, verbose: bool = True,
         shown: set[int] = set()
         grid = fr.grid
         detailed = grid.detailed() if grid is not None else frozenset()
-        if grid is not None:  # a grid: its table, then its worst points with findings
+        if grid is not None and not quiet_file:  # its table, then its worst points' findings
             lines.extend(grid_lines(grid, color))
         for r in fr.results:
             models += 1
