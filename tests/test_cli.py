@@ -80,9 +80,12 @@ def test_example_repo_shows_the_deliberate_regression():
     assert out.returncode == 1, out.stderr
     text = out.stdout
     assert "mast-sway-damper: FAILED" in text
-    assert text.count(": FAILED") == 1  # exactly one model fails
+    # exactly two models fail: the mast's retune and the one retuned point of the belt grid
+    assert "belt-tension[speed=1.5,load=800]: FAILED" in text
+    assert text.count(": FAILED") == 2
     assert "sway_rate" in text and "sway_angle" in text
     for rule in ("EG103 damping-ratio", "EG202 decay-rate-regressed", "EG203 damping-regressed"):
         assert rule in text
     assert "EG001" not in text
-    assert "1 failing, 3 errors" in text
+    assert "2 failing, 5 errors" in text
+    assert "speed=1.5,load=800  FAILED (regressed)" in text  # the grid's table names it

@@ -285,5 +285,5 @@ def test_a_text_report_from_the_cache_reads_no_matrix_and_builds_no_mode(tmp_pat
     assert warm.analysed == 0
     render("text", list(warm.files))
     results = [r for f in warm.files for r in f.results]
-    assert len(results) == 18 and not any("A" in r.model.__dict__ or r.spectrum.modes._built is not None
+    assert len(results) == 30 and not any("A" in r.model.__dict__ or r.spectrum.modes._built is not None
                                for r in results)

@@ -1,6 +1,7 @@
 """Tallowmere Works (invented): stability checks written as tests, next to the collected
 model files. Run from example_repo/: ``pytest``."""
 
+import eigengate
 import numpy as np
 import pytest
 
@@ -32,3 +33,10 @@ class TestMastDamper:
     def test_model_file_meets_its_spec(self, stability):
         # The committed model file; fails while the retune of this change is in place.
         stability.check("../models/mast/sway.yaml")
+
+
+@pytest.mark.parametrize("model", eigengate.points("../models/conveyor/belt_tension.yaml"))
+def test_belt_tension_grid_decays(model, stability):
+    # One test per grid point (ids like speed=1.5,load=800): the file's own requirements
+    # and, for every point, a decay rate of 0.5 1/s (tension settles within ~8 s).
+    stability.check(model, min_decay_rate=0.5)

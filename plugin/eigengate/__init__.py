@@ -61,6 +61,7 @@ _EXPORTS = {
     "check": "pytest.assertions", "of": "pytest.assertions", "Checker": "pytest.assertions",
     "StabilityAssertionError": "pytest.assertions", "NotAModelError": "pytest.assertions",
     "RequirementArgumentError": "pytest.assertions",
+    "points": "pytest.points", "GridSummary": "rules.grid_summary",
 }
 
 __all__ = sorted(_EXPORTS) + ["__version__"]
@@ -78,6 +79,8 @@ if TYPE_CHECKING:  # pragma: no cover - the same names, for type checkers
     from .baseline.store import DEFAULT_PATH as DEFAULT_BASELINE_PATH
     from .baseline.store import Baseline, baseline_entry_from, merge_write
     from .errors import EigengateError, ModelError
+    from .pytest.points import points
+    from .rules.grid_summary import GridSummary
     from .load.loader import load_models
     from .model.core import Model, from_arrays, from_control
     from .model.second_order import from_second_order

@@ -1,5 +1,6 @@
 """The reviewer's report of the example repository, made by the real command line."""
 
+import re
 import shutil
 import subprocess
 import sys
@@ -24,18 +25,30 @@ def test_example_repository_report(tmp_path):
                          capture_output=True, text=True, env=env, timeout=600)
     assert out.returncode == 1, out.stderr  # the deliberate regression
     doc = Doc((repo / "report.html").read_text(encoding="utf-8"))
-    # 18 models: lift axis, 6 drive-speed points, heading, mast, heater, humidity, vent,
-    # inverter current loop and dc link, cart, panel array, and the boom at two points.
-    assert len(doc.rows) == 18 and len(doc.sections) == 18
+    # 19 sections: lift axis, 6 drive-speed points, heading, mast, heater, humidity, vent,
+    # inverter current loop and dc link, cart, panel array, the boom at two points, and of
+    # the 12 points of the belt-tension grid the one with findings (its table stands for the
+    # others).
+    assert len(doc.sections) == 19
+    assert "m-models-conveyor-belt-tension-yaml-belt-tension-speed-1-5-load-800" in doc.sections
+    assert len(doc.rows) == 19
     failing = [row for row in doc.rows if "mast-sway-damper" in row[2]]
     assert len(failing) == 1
+    html = (repo / "report.html").read_text(encoding="utf-8")
+    table = html.split('<table class="eg-index eg-grid">', 1)[1].split("</table>", 1)[0]
+    rows = re.findall(r'<tr class="eg-(\w+)"><td>(.*?)</td>', table)
+    # worst first: the regressed point (linked to its section), then the 3 worst passing ones
+    assert [status for status, _ in rows] == ["fail", "pass", "pass", "pass"]
+    assert "speed=1.5,load=800</a>" in rows[0][1] and "FAILED (regressed)" in table
     sizes = [decode_png(img["src"]) for img in doc.images]
     assert sizes and all(200 <= w <= 1200 and 150 <= h <= 1000 for w, h in sizes)
     assert "engineering aid for model regression checks" in doc.all_text
     maps = sorted(p.name for p in (repo / "maps").iterdir())
-    assert maps == ["models-mast-sway.yaml--mast-sway-damper.png",
+    assert maps == ["models-conveyor-belt_tension.yaml--belt-tension-speed-1.5-load-800.png",
+                    "models-conveyor-belt_tension.yaml--belt-tension-speed-1.5-load-800.svg",
+                    "models-mast-sway.yaml--mast-sway-damper.png",
                     "models-mast-sway.yaml--mast-sway-damper.svg"]
-    svg = (repo / "maps" / maps[1]).read_text(encoding="utf-8")
+    svg = (repo / "maps" / maps[3]).read_text(encoding="utf-8")
     assert svg.count("eg-pole-move") >= 2  # the sway pair moved away from its baseline poles
 
 

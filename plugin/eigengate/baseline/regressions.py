@@ -372,6 +372,10 @@ def compare(result: Any, entry: "Entry | None", tolerances: Tolerances | None = 
         j.add("EG210", f"{m.title} was not compared: its model file could not be loaded "
               f"{unreadable}")
         return Comparison(m.source, m.title, tuple(j.findings))
+    if entry is None and getattr(m, "grid", None) is not None:
+        j.add("EG208", f"{m.title}: the grid gained the point {m.point_id}, which has no "
+              "baseline entry: accept it to start comparing its modes with later changes")
+        return Comparison(m.source, m.title, tuple(j.findings))
     if entry is None:
         j.add("EG208", f"{m.title} has no baseline entry: accept it to start comparing its "
               "modes with later changes")
@@ -465,6 +469,7 @@ def compare_all(file_results: Iterable[Any], baseline: "Baseline",
     checked: set[str] = set()
     broken: set[str] = set()
     files = list(file_results)
+    grids = {fr.source for fr in files if fr.error is None and getattr(fr, "grid", None)}
     # titles the current models claim: an operating point matched by its identity (its label
     # changed) never takes an entry that a current model has by its own title
     taken = {(r.model.source, r.model.title) for fr in files if fr.error is None
@@ -498,6 +503,7 @@ def compare_all(file_results: Iterable[Any], baseline: "Baseline",
         assert entry is not None  # stale keys are keys of the baseline
         line = baseline.line_of(key)
         gone = "its model file is gone" if key[0] not in checked else \
+            f"the grid lost the point {entry.point or entry.label}" if key[0] in grids else \
             "its model file no longer defines it"
         findings.append(Finding(
             rule="EG209", name=RULES["EG209"].name, severity=sev,

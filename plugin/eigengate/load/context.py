@@ -17,7 +17,7 @@ from ..errors import ModelError
 FORMAT_VERSIONS = (1,)
 TOP_KEYS = ("model_format", "name", "description", "domain", "sample_period", "plant",
             "feedback", "requirements", "known_modes", "on_uncertain", "require",
-            "operating_points",
+            "operating_points", "grid",
             "waivers", "loop", "vector_field", "allowed_drift", "parameters")
 POINT_KEYS = ("label", "id", "plant", "feedback", "requirements", "known_modes", "on_uncertain",
               "require", "loop", "allowed_drift")
@@ -153,3 +153,14 @@ def point_identity(point: Mapping[str, Any], index: int, ctx: _Ctx, ids: dict[st
                       "ids must be unique in the file")
     ids[ident] = index
     return ident
+
+
+def check_waiver_labels(ctx: _Ctx, labels: list[str]) -> None:
+    """Refuse a waiver of the file whose ``label`` names none of its points' ``labels``."""
+    known = set(labels)
+    for i, w in enumerate(ctx.waivers):
+        if w.label is not None and w.label not in known:
+            close = suggest(w.label, labels)
+            raise ctx.err(f"waivers[{i}].label", f"names no operating point (got {w.label!r})",
+                          f"did you mean {close!r}?" if close else
+                          "labels: " + ", ".join(labels[:20]))

@@ -42,7 +42,8 @@ def load_vector_field(data: Mapping[str, Any], ctx: Any, name: str,
     from ..rules.loop_requirements import LOOP_RULES, POINT_RULES, SET_RULES
     from ..rules.requirements import apply_layers
 
-    for key in [k for k in ("plant", "feedback", "operating_points", "loop") if k in data]:
+    for key in [k for k in ("plant", "feedback", "operating_points", "grid", "loop")
+                if k in data]:
         raise ctx.err(key, "cannot be combined with vector_field", "a vector field file "
                       "gives its operating points under vector_field.at")
     if ctx.domain != "continuous":

@@ -20,7 +20,7 @@ from ..model.core import Model, sample_period_problem
 __all__ = ["FORMAT_VERSIONS", "TOP_KEYS", "load_models", "load_models_with_refs",
            "load_models_from_bytes", "load_document", "find_root"]
 
-from .context import label_shape, point_identity
+from .context import check_waiver_labels, label_shape, point_identity
 from .context import (  # noqa: F401 (re-exported: the loader's schema and helpers)
     FORMAT_VERSIONS, TOP_KEYS, POINT_KEYS, SS_KEYS, TF_KEYS, FEEDBACK_KEYS,
     FEEDBACK_KINDS, CONTROLLER_SS_KEYS, CONTROLLER_TF_KEYS, DOMAINS, _Ctx,
@@ -198,7 +198,7 @@ def _load(data: dict[str, Any], *, source: str, root: Path | None, base_dir: Pat
         from .fields import load_vector_field
 
         return load_vector_field(data, ctx, name, _requirements)
-    if "plant" not in data and "operating_points" not in data:
+    if "plant" not in data and "operating_points" not in data and "grid" not in data:
         raise ctx.err("plant", "is missing", "describe the plant with A (state space) or "
                       "num and den (transfer function)")
     points = data.get("operating_points")
@@ -209,6 +209,10 @@ def _load(data: dict[str, Any], *, source: str, root: Path | None, base_dir: Pat
         ctx.waivers = parse_waivers(data["waivers"], source, "waivers", lines)
     from .blocks import build_model
 
+    if "grid" in data:  # an operating-point grid: a model per grid point
+        from .grid import load_grid
+
+        return load_grid(data, ctx, name, build_model, _merge)
     if points is None:
         return [build_model(base, ctx, name, None)]
     if not isinstance(points, list) or not points:
@@ -241,12 +245,7 @@ def _load(data: dict[str, Any], *, source: str, root: Path | None, base_dir: Pat
         merged = _merge(base, {k: v for k, v in point.items() if k not in ("label", "id")})
         models.append(dataclasses.replace(build_model(merged, pctx, name, label),
                                           point_id=ident))
-    for i, w in enumerate(ctx.waivers):
-        if w.label is not None and w.label not in seen:
-            close = suggest(w.label, list(seen))
-            raise ctx.err(f"waivers[{i}].label", f"names no operating point (got {w.label!r})",
-                          f"did you mean {close!r}?" if close else
-                          "labels: " + ", ".join(seen))
+    check_waiver_labels(ctx, list(seen))
     return models
 
 

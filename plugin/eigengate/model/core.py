@@ -93,6 +93,9 @@ class Model:
     #: for baselines and cause attribution; None for models not read from a file and results
     #: from the cache.
     file_inputs: Any = None
+    #: The coordinates of a point of an operating-point grid (``grid:`` in the model file),
+    #: as ``((axis, value), ...)`` in the axes' order; None for a model not on a grid.
+    grid: tuple[tuple[str, float], ...] | None = None
 
     @property
     def discrete(self) -> bool:

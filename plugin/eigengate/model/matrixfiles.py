@@ -66,6 +66,7 @@ def load_reference(
     base_dir: Path | None,
     root: Path | None,
     read: Callable[[str], bytes] | None = None,
+    readers: Mapping[str, Callable[..., Any]] | None = None,
 ) -> tuple[Any, str]:
     """Load the matrix a reference mapping points at (a numpy array, or a scipy.sparse
     matrix for a sparse file).
@@ -86,6 +87,10 @@ def load_reference(
         repository-relative POSIX path and returns the bytes (``FileNotFoundError`` when there
         is no such file, ``IsADirectoryError`` or ``OSError`` otherwise); ``base_dir`` is then
         the model file's folder relative to the root (``root`` is not used).
+    readers
+        Readers by suffix, ``reader(path or stream, rel, key, bad)``, in place of this
+        module's (the stacked arrays of ``model.stacked``): other suffixes are refused; the
+        path is confined and the size checked the same way.
 
     Returns
     -------
@@ -120,8 +125,9 @@ def load_reference(
     if Path(name).is_absolute() or name.startswith(("/", "\\")) or Path(name).drive:
         raise bad(f"must be a path relative to the model file's folder, got the absolute "
                   f"path {name!r}", "absolute paths do not travel between machines", ".file")
+    use = _READERS if readers is None else readers
     if read is not None:
-        return _load_through(read, name, key, str(base_dir), bad)
+        return _load_through(read, name, key, str(base_dir), bad, use)
     base_dir = Path(base_dir)
     root = Path(root) if root is not None else base_dir
     root_real = root.resolve()
@@ -143,11 +149,14 @@ def load_reference(
     if size > MAX_MATRIX_FILE_BYTES:
         raise bad(f"refers to {rel!r}, {size} bytes, larger than the limit of "
                   f"{MAX_MATRIX_FILE_BYTES} bytes", sub=".file")
-    return _READERS[suffix](target, rel, key, bad), rel
+    if suffix not in use:
+        raise bad(f"refers to {rel!r}, a {suffix} file, which cannot hold this array",
+                  "such arrays are read from " + ", ".join(sorted(use)) + " files", ".file")
+    return use[suffix](target, rel, key, bad), rel
 
 
 def _load_through(read: Callable[[str], bytes], name: str, key: str | None, base_dir: str,
-                  bad: Any) -> tuple[Any, str]:
+                  bad: Any, use: Mapping[str, Callable[..., Any]]) -> tuple[Any, str]:
     """Resolve ``name`` lexically against ``base_dir`` (repository-relative) and read it with
     ``read``; the same confinement, type and size rules as for files on disk."""
     import io
@@ -170,7 +179,10 @@ def _load_through(read: Callable[[str], bytes], name: str, key: str | None, base
     if len(data) > MAX_MATRIX_FILE_BYTES:
         raise bad(f"refers to {rel!r}, {len(data)} bytes, larger than the limit of "
                   f"{MAX_MATRIX_FILE_BYTES} bytes", sub=".file")
-    return _READERS[suffix](io.BytesIO(data), rel, key, bad), rel
+    if suffix not in use:
+        raise bad(f"refers to {rel!r}, a {suffix} file, which cannot hold this array",
+                  "such arrays are read from " + ", ".join(sorted(use)) + " files", ".file")
+    return use[suffix](io.BytesIO(data), rel, key, bad), rel
 
 
 def _pick(names: list[str], key: str | None, rel: str, bad: Any) -> str:
@@ -188,7 +200,9 @@ def _pick(names: list[str], key: str | None, rel: str, bad: Any) -> str:
     return key
 
 
-def _read_npz(path: "Path | Any", rel: str, key: str | None, bad: Any) -> "np.ndarray":
+def _read_npz(path: "Path | Any", rel: str, key: str | None, bad: Any,
+              check: "Callable[[tuple, Any, str, str, Any], None] | None" = None
+              ) -> "np.ndarray":
     import zipfile
     import zlib
 
@@ -207,7 +221,10 @@ def _read_npz(path: "Path | Any", rel: str, key: str | None, bad: Any) -> "np.nd
                               "scipy.sparse.save_npz)", "remove key from the reference", ".key")
                 return _sparse_npz(archive, rel, bad)
             name = _pick(list(archive.files), key, rel, bad)
-            _check_npy_header(archive.zip, name, rel, bad)
+            if check is None:
+                _check_npy_header(archive.zip, name, rel, bad)
+            else:  # another reader's rule for the header (model.stacked's stacks)
+                check(*_npy_header(archive.zip, name, rel, bad), name, rel, bad)
             try:
                 return np.asarray(archive[name])
             except ValueError:
@@ -348,7 +365,9 @@ def _check_shape(shape: tuple, name: str, rel: str, bad: Any) -> None:
                   f"{MAX_MATRIX_ENTRIES} entries", "a model has at most 4000 states")
 
 
-def _read_mat(path: "Path | Any", rel: str, key: str | None, bad: Any) -> "np.ndarray":
+def _read_mat(path: "Path | Any", rel: str, key: str | None, bad: Any,
+              check: "Callable[[tuple, Any, str, str, Any], None] | None" = None
+              ) -> "np.ndarray":
     import warnings
 
     import numpy as np
@@ -365,7 +384,10 @@ def _read_mat(path: "Path | Any", rel: str, key: str | None, bad: Any) -> "np.nd
             found = scipy.io.whosmat(path)
             shapes = {n: s for n, s, _ in found}
             name = _pick(list(shapes), key, rel, bad)
-            if dict((n, c) for n, _, c in found)[name] == "sparse":
+            kind = dict((n, c) for n, _, c in found)[name]
+            if check is not None:  # another reader's rule (model.stacked's stacks)
+                check(tuple(shapes[name]), kind, name, rel, bad)
+            elif kind == "sparse":
                 rows, cols = (int(d) for d in shapes[name])
                 _check_sparse(rows, cols, _mat_nonzeros(path, name, rel, bad), rel, bad)
             else:

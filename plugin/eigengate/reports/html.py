@@ -20,6 +20,7 @@ from typing import TYPE_CHECKING, Any, Callable, Iterable, Mapping, Sequence
 
 from .html_parts import _CSS, _STATUS_WORD, _e, _finding, _img, _mode_rows_table, _num
 from .figures import ReportDependencyError
+from .html_grid import grid_sections
 
 if TYPE_CHECKING:  # pragma: no cover
     from ..rules.results import FileResult, ModelResult
@@ -78,7 +79,11 @@ def _entries(results: Iterable["FileResult"]) -> list[_Entry]:
             continue
         shown = {id(f) for r in fr.results for f in r.findings}
         own = [f for f in fr.findings if id(f) not in shown]  # expired or unused waivers
+        # a grid: its table stands for every point but its worst ones with findings
+        detailed = fr.grid.detailed() if fr.grid is not None else None
         for k, r in enumerate(fr.results):
+            if detailed is not None and not (k == 0 and own) and r.model.title not in detailed:
+                continue
             out.append(_Entry(fr, r, own if k == 0 else (), len(out)))
     # Failing models first: the index reads as a to-do list. Stable within each status.
     out.sort(key=lambda e: (_STATUS_RANK[e.status], e.order))
@@ -116,11 +121,19 @@ def _crossover(v: Any) -> str:
 
 # -- the index -------------------------------------------------------------------------------
 
-def _summary(entries: Sequence[_Entry], n_files: int) -> str:
-    models = sum(1 for e in entries if e.result is not None)
-    failing = sum(1 for e in entries if e.status in ("fail", "invalid"))
-    errors = sum(1 for e in entries for f in e.findings if f.severity == "error")
-    warnings = sum(1 for e in entries for f in e.findings if f.severity != "error")
+def _summary(results: Sequence["FileResult"], n_files: int) -> str:
+    # from the results, not the sections: a grid has sections for its worst points only
+    models = sum(len(fr.results) for fr in results if fr.error is None)
+    failing = 0
+    for fr in results:  # as the sections count: a file's own errors go with its first model
+        if fr.error is not None or not fr.results:
+            failing += 1
+            continue
+        theirs = {id(f) for r in fr.results for f in r.findings}
+        own = any(f.severity == "error" for f in fr.findings if id(f) not in theirs)
+        failing += sum(1 for k, r in enumerate(fr.results) if not r.passed or (k == 0 and own))
+    errors = sum(1 for fr in results for f in fr.findings if f.severity == "error")
+    warnings = sum(1 for fr in results for f in fr.findings if f.severity != "error")
 
     def plural(n: int, word: str) -> str:
         return f"{n} {word}{'' if n == 1 else 's'}"
@@ -423,13 +436,15 @@ def render_html(results: Sequence["FileResult"], *, tool_version: str,
            f"<title>{_e(title)}</title>", f"<style>{_CSS}</style></head><body>",
            '<header class="eg-head">', f"<h1>{_e(title)}</h1>",
            f'<p class="eg-tool">eigengate {_e(tool_version)}</p>',
-           f'<p class="eg-summary" id="eg-summary">{_e(_summary(entries, len(results)))}</p>',
+           f'<p class="eg-summary" id="eg-summary">{_e(_summary(results, len(results)))}</p>',
            "</header>", f'<p class="eg-caution" id="eg-caution">{_e(CAUTION)}</p>',
            '<div class="eg-wrap">', '<h2 id="eg-index">Index</h2>']
     doc.extend(_index(entries))
-    doc.append("<h2>Models</h2>")
     drawn = 0
     with _style() as mpl:
+        doc.extend(grid_sections(results, {(e.file.source, e.title): e.anchor
+                                           for e in entries if e.result is not None}, mpl, dpi))
+        doc.append("<h2>Models</h2>")
         for k, e in enumerate(entries, 1):
             figures = None
             if e.result is not None and (max_images is None or drawn < max_images):

@@ -55,14 +55,32 @@ def _model_data(r: Any) -> dict[str, Any]:
             for v in r.verdicts],
         "findings": [finding_data(f) for f in r.findings],
         "waived": [finding_data(f) for f in getattr(r, "waived", ())],
+        **({} if getattr(m, "grid", None) is None
+           else {"grid": {a: json_number(v) for a, v in m.grid}}),
     }
+
+
+def _grid_data(grid: Any) -> dict[str, Any]:
+    status = {"fail": "failed", "warn": "warning", "pass": "passed"}
+    return {"headline": grid.headline(), "figure": grid.figure_name,
+            "axes": [{"name": n, "values": [json_number(v) for v in vs]} for n, vs in grid.axes],
+            "points": [{"id": p.ident, "title": p.title, "status": status[p.status],
+                        "coordinates": {a: json_number(v) for a, v in p.coords},
+                        "errors": p.errors, "warnings": p.warnings, "rules": list(p.rules),
+                        "worst": p.worst, "regressed": p.regressed,
+                        "margin": json_number(p.margin), "margin_of": p.margin_of,
+                        "figure": json_number(p.figure),
+                        "min_damping": json_number(p.min_damping)} for p in grid.points]}
 
 
 def _file_data(fr: Any) -> dict[str, Any]:
     status = "invalid" if fr.error is not None else status_of(fr.findings)
-    return {"source": fr.source, "status": status, "error": _error_data(fr.error),
-            "models": [_model_data(r) for r in fr.results],
-            "findings": [finding_data(f) for f in own_findings(fr)]}
+    out = {"source": fr.source, "status": status, "error": _error_data(fr.error),
+           "models": [_model_data(r) for r in fr.results],
+           "findings": [finding_data(f) for f in own_findings(fr)]}
+    if fr.grid is not None:  # only for a grid, so other files' reports keep their bytes
+        out["grid"] = _grid_data(fr.grid)
+    return out
 
 
 def render_json(results: Iterable[Any], *, tool_version: str) -> str:

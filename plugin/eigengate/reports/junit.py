@@ -8,7 +8,9 @@ file is one testcase (named after the file) with an ``<error>``; the file's own 
 (expired or unused waivers, policy findings) are a testcase of the same name. Warnings, waived
 findings and the key figures of the model go to ``<system-out>``. Nothing is skipped, and no
 testcase has ``<properties>`` (xunit2 does not allow them). Times are 0: the report does not
-depend on the clock.
+depend on the clock. An operating-point grid has a testcase for each of its worst points with
+findings (``rules.grid_summary.MAX_DETAILED``) and one more for all its other points, whose
+``<system-out>`` is the grid's table (worst first) and whose failure holds their errors.
 """
 
 from __future__ import annotations
@@ -21,7 +23,7 @@ from typing import Any, Iterable, Sequence
 
 from .escape import printable
 from .render import own_findings
-from .text import finding_lines, model_lines
+from .text import finding_lines, grid_lines, model_lines
 
 __all__ = ["render_junit"]
 
@@ -89,10 +91,23 @@ def render_junit(results: Iterable[Any]) -> str:
     for fr in results:
         classname = _classname(fr.source)
         file_name = PurePosixPath(fr.source.replace("\\", "/")).name or fr.source
+        grid = fr.grid
+        detailed = grid.detailed() if grid is not None else frozenset()
+        rest: list[Any] = []  # a grid's points beyond the detailed ones
         for r in fr.results:
             m = r.model
+            if grid is not None and m.title not in detailed:
+                rest.append(r)  # one testcase for all of them, below
+                continue
             out = textwrap.dedent("\n".join(model_lines(r, verbose=True))) + "\n"
             s.case(classname, m.title, _errors(r.findings), m.discrete, out)
+        if grid is not None:
+            flagged = sum(1 for r in rest if r.findings)
+            what = f"{len(rest) - flagged} passing points" + (
+                f", {flagged} more with findings" if flagged else "")
+            out = textwrap.dedent("\n".join(grid_lines(grid))) + "\n"
+            s.case(classname, f"{grid.name}[grid: {what}]",
+                   [f for r in rest for f in _errors(r.findings)], False, out)
         own = own_findings(fr)
         if own or fr.error is not None:
             failing = _errors(own)

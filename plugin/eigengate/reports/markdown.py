@@ -12,6 +12,7 @@ import re
 from typing import Any, Iterable, Sequence
 
 from .escape import printable
+from .grid_table import grid_cells, grid_head, rest_line
 from .render import (CAUTION, DECIDED_NOTES, UNCERTAIN_NOTE, cause_lines, figure_line,
                      mode_cells, own_findings, plural, status_of, tally, text_number)
 
@@ -55,7 +56,18 @@ def _verdict(results: Sequence[Any]) -> str:
 def _summary_rows(results: Sequence[Any]) -> Iterable[list[str]]:
     for fr in results:
         src = escape(fr.source)
-        for r in fr.results:
+        grid = fr.grid
+        if grid is not None:  # one row for the whole grid; its own table follows
+            worst = grid.points[0]
+            yield [src, escape(f"{grid.name} ({grid.shape_text()} grid, "
+                               f"{plural(len(grid.points), 'point')})"),
+                   status_of([f for r in fr.results for f in r.findings]),
+                   text_number(max(p.figure for p in grid.points), 6,
+                               "" if grid.discrete else "1/s"),
+                   text_number(min(p.min_damping for p in grid.points), 3),
+                   _rule_list([f for r in fr.results for f in r.findings])
+                   + (f" (worst: {escape(worst.ident)})" if worst.status != "pass" else "")]
+        for r in fr.results if grid is None else ():
             sp = r.spectrum
             yield [src, escape(r.model.title), status_of(r.findings),
                    text_number(sp.spectral_abscissa, 6, "1/s"),
@@ -103,6 +115,18 @@ def _section(title: str, findings: Sequence[Any], discrete: bool) -> list[str]:
     return out
 
 
+def _grid_section(grid: Any) -> list[str]:
+    """The grid's headline and its table of points, worst first (failing and warned points
+    all, then the worst passing ones)."""
+    shown, left = grid.shown()
+    out = ["", f"### {escape(grid.source)} · {escape(grid.name)} — {escape(grid.headline())}",
+           "", "Points worst first:", ""]
+    out += _table(grid_head(grid), ([escape(c) for c in grid_cells(p)] for p in shown))
+    if left:
+        out += ["", escape(rest_line(grid, left))]
+    return out
+
+
 def render_markdown(results: Iterable[Any]) -> str:
     """Render :class:`~eigengate.scan.engine.FileResult` objects as GitHub-flavoured Markdown.
 
@@ -116,7 +140,12 @@ def render_markdown(results: Iterable[Any]) -> str:
     lines += _table(["file", "model", "status", "spectral abscissa", "min ζ", "findings"],
                     _summary_rows(results))
     for fr in results:
+        if fr.grid is not None:
+            lines += _grid_section(fr.grid)
+        detailed = fr.grid.detailed() if fr.grid is not None else None
         for r in fr.results:
+            if detailed is not None and r.model.title not in detailed:
+                continue  # a row of the grid's table
             shown = [*r.findings, *getattr(r, "waived", ())]
             if shown:
                 title = f"{escape(fr.source)} · {escape(r.model.title)}"

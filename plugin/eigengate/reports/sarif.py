@@ -70,7 +70,8 @@ def fingerprint(f: Any) -> str:
     return hashlib.sha256(key.encode("utf-8")).hexdigest()
 
 
-def _result(f: Any, index: dict[str, int]) -> dict[str, Any]:
+def _result(f: Any, index: dict[str, int], grid_point: dict[str, Any] | None = None
+            ) -> dict[str, Any]:
     uri, base = _uri(f.source)
     artifact: dict[str, Any] = {"uri": uri}
     if base is not None:
@@ -97,6 +98,8 @@ def _result(f: Any, index: dict[str, int]) -> dict[str, Any]:
             "before": [mode_data(m) for m in getattr(f, "before", ())],
         },
     }
+    if grid_point is not None:
+        out["properties"]["gridPoint"] = grid_point
     reason = getattr(f, "waived", None)
     if reason:
         out["suppressions"] = [{"kind": "external", "status": "accepted",
@@ -121,9 +124,16 @@ def render_sarif(results: Iterable[Any], *, tool_version: str) -> str:
     """
     results = list(results)
     findings = []
+    points: dict[tuple[str, str], dict[str, Any]] = {}  # (source, title) → grid coordinates
+    grids = []
     for fr in results:  # file by file: its findings, then the waived ones
         findings += [f for _, _, f in all_findings([fr])]
         findings += [f for r in fr.results for f in getattr(r, "waived", ())]
+        if fr.grid is not None:
+            grids.append({"source": fr.source, "headline": fr.grid.headline(),
+                          "failing": [p.ident for p in fr.grid.failing]})
+            points.update({(fr.source, p.title): {a: json_number(v) for a, v in p.coords}
+                           for p in fr.grid.points})
     rules = _rules(f.rule for f in findings)
     index = {rule["id"]: i for i, rule in enumerate(rules)}
     run = {
@@ -131,7 +141,9 @@ def render_sarif(results: Iterable[Any], *, tool_version: str) -> str:
         "originalUriBaseIds": {"%SRCROOT%": {"description": {
             "text": "The repository root; model file paths are relative to it."}}},
         "columnKind": "unicodeCodePoints",
-        "results": [_result(f, index) for f in findings],
+        "results": [_result(f, index, points.get((f.source, f.title))) for f in findings],
     }
+    if grids:  # operating-point grids: each one's headline and failing points
+        run["properties"] = {"grids": grids}
     log = {"$schema": SARIF_SCHEMA, "version": "2.1.0", "runs": [run]}
     return json.dumps(log, indent=2, sort_keys=True, ensure_ascii=False, allow_nan=False) + "\n"

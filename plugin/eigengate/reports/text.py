@@ -7,6 +7,7 @@ from typing import TYPE_CHECKING, Iterable, Sequence
 
 from ..rules.findings import DECIDED_NOTES, UNCERTAIN_NOTE, Finding, ModeRow
 from .escape import printable as _p
+from .grid_table import grid_cells, grid_head, rest_line
 from .render import cause_lines, figure_line
 from .render import format_eigenvalue  # shared by every writer; re-exported
 
@@ -14,7 +15,7 @@ if TYPE_CHECKING:  # pragma: no cover
     from ..rules.results import FileResult, ModelResult
 
 __all__ = ["render_results", "render_model", "model_lines", "finding_lines", "mode_table",
-           "format_eigenvalue"]
+           "format_eigenvalue", "grid_lines"]
 
 _COLORS = {"FAIL": "\x1b[1;31m", "warn": "\x1b[33m", "ok": "\x1b[32m", "FAILED": "\x1b[1;31m",
            "pass": "\x1b[32m"}
@@ -116,6 +117,28 @@ def model_lines(r: ModelResult, *, verbose: bool = True, color: bool = False) ->
     return lines
 
 
+def grid_lines(summary, color: bool = False) -> list[str]:
+    """A grid's summary: its headline, then a table of its failing and warned points and its
+    worst passing ones, worst first (:class:`~eigengate.rules.grid_summary.GridSummary`)."""
+    shown, left = summary.shown()
+    body = [[_p(c) for c in grid_cells(p)] for p in shown]
+    head = grid_head(summary)
+    widths = [max(len(r[i]) for r in (head, *body)) for i in range(len(head))]
+    lines = [f"  {_p(summary.headline())} (worst first)"]
+    for k, row in enumerate((head, *body)):
+        cells = [c.ljust(w) for c, w in zip(row, widths)]
+        if k and color:
+            cells[1] = cells[1].replace(row[1].split()[0], _paint(row[1].split()[0], color), 1)
+        lines.append(("    " + "  ".join(cells)).rstrip())
+    if left:
+        lines.append("    " + rest_line(summary, left))
+    if summary.left_out():
+        lines.append(f"    findings in full below for the {len(summary.detailed())} worst "
+                     f"points; {summary.left_out()} more points with findings are rows of "
+                     "the JSON report")
+    return lines
+
+
 def render_results(results: Iterable[FileResult], *, verbose: bool = True,
                    color: bool = False) -> str:
     """Render :class:`~eigengate.scan.engine.FileResult` objects as text, grouped by file, with a
@@ -134,9 +157,16 @@ def render_results(results: Iterable[FileResult], *, verbose: bool = True,
         if not quiet_file:
             lines.append(_p(fr.source))
         shown: set[int] = set()
+        grid = fr.grid
+        detailed = grid.detailed() if grid is not None else frozenset()
+        if grid is not None and not quiet_file:  # its table, then its worst points' findings
+            lines.extend(grid_lines(grid, color))
         for r in fr.results:
             models += 1
             failing += 0 if r.passed else 1
+            if grid is not None and r.model.title not in detailed:
+                shown.update(id(f) for f in r.findings)  # a row of the table, no block
+                continue
             if verbose or r.findings or getattr(r, "waived", ()):
                 lines.extend(model_lines(r, verbose=verbose, color=color))
             shown.update(id(f) for f in r.findings)

@@ -3,12 +3,14 @@ per model file (made by :mod:`eigengate.scan.engine`, read by every report)."""
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
 
 from ..errors import ModelError
 from ..model.core import Model
 from .findings import Finding
+from .grid_summary import GridSummary, summarise_grid
 
 if TYPE_CHECKING:  # pragma: no cover
     from ..analysis.equilibrium import Equilibrium
@@ -59,3 +61,9 @@ class FileResult:
     @property
     def used_waivers(self) -> tuple[Waiver, ...]:
         return tuple(w for r in self.results for w in r.used_waivers)
+
+    @functools.cached_property
+    def grid(self) -> GridSummary | None:
+        """The summary of an operating-point grid (every point, worst first), or None when
+        the file is not a grid (:func:`eigengate.rules.grid_summary.summarise_grid`)."""
+        return summarise_grid(self)

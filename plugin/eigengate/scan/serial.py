@@ -283,6 +283,7 @@ def _model_data(m, blobs: Blobs) -> dict:
         "waivers": [record(w) for w in m.waivers],
         "allowed_drift": m.allowed_drift,
         "nonlinear": _field_data(m.nonlinear), "point_id": m.point_id,
+        "grid": None if m.grid is None else [[k, v] for k, v in m.grid],
     })
     return out
 
@@ -383,7 +384,8 @@ def _model_from(d: dict, blobs, shapes: list) -> CachedModel:
         on_uncertain=d["on_uncertain"], require=d["require"], disabled=tuple(d["disabled"]),
         waivers=tuple(unrecord(Waiver, w) for w in d["waivers"]),
         allowed_drift=d["allowed_drift"], loop_parts=None,
-        nonlinear=_field_from(d["nonlinear"]), point_id=d.get("point_id"))
+        nonlinear=_field_from(d["nonlinear"]), point_id=d.get("point_id"),
+        grid=None if d.get("grid") is None else tuple((str(k), float(v)) for k, v in d["grid"]))
     return m
 
 
