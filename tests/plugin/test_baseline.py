@@ -3,6 +3,7 @@
 accepting at once lose nothing); the summary counts what changed and prints the commands."""
 
 import json
+import re
 import subprocess
 import sys
 

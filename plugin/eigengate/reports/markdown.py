@@ -231,10 +231,10 @@ def render_markdown(results: Iterable[Any], *, accept: str | None = None,
             if not out.add([item]):
                 left[word] = len(items) - i
                 break
-    c = tally(results)
-    tail = ["", f"{plural(c['models'] - c['failed_models'], 'model')} "
-                f"{'passes' if c['models'] - c['failed_models'] == 1 else 'pass'} "
-                "every check (not listed)."]
+    clean = sum(1 for fr in results for r in fr.results
+                if not r.findings and not getattr(r, "waived", ()))
+    tail = ["", f"{plural(clean, 'model')} {'passes' if clean == 1 else 'pass'} every check "
+                "(not listed)."]
     if left:
         tail.append("Left out to keep this comment under "
                     f"{max_chars:,} characters: "
