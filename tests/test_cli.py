@@ -31,7 +31,7 @@ def test_failing_requirement_names_mode_and_states(repo):
     assert "-0.2±1.98997j" in text  # -ζωn ± jωn√(1-ζ²) with ζ = 0.1, ωn = 2
     assert "angle" in text and "rate" in text
     assert "fine: ok" in text
-    assert "\n2 files, 2 models checked: 1 failing, 1 error, 0 warnings\n" in text
+    assert "\n2 files, 2 models checked: 1 failing model (1 error finding), 0 warnings\n" in text
 
 
 def test_clean_repository_exits_zero(repo):
@@ -87,5 +87,5 @@ def test_example_repo_shows_the_deliberate_regression():
     for rule in ("EG103 damping-ratio", "EG202 decay-rate-regressed", "EG203 damping-regressed"):
         assert rule in text
     assert "EG001" not in text
-    assert "2 failing, 5 errors" in text
+    assert "2 failing models (5 error findings)" in text
     assert "speed=1.5,load=800  FAILED (regressed)" in text  # the grid's table names it

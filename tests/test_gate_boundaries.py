@@ -179,8 +179,15 @@ def test_waiver_expiry_day(on, live):
         assert waived[0][0].waived == "retune in review" and waived[0][1] is w
     report = waiver_findings([w], [x for _, x in waived], on, model="arm")
     if live:
-        assert report == []
+        # a live waiver 0 or 1 day before its expiry is within the default 30-day warning
+        (f,) = report
+        assert (f.rule, f.severity) == ("EG006", "warning")
+        assert "on 2027-03-31" in f.message and f.waiver_note.startswith("until 2027-03-31")
+        assert waived[0][0].waiver_note == "until 2027-03-31 (models/arm.yaml waivers[0])"
+        assert waiver_findings([w], [x for _, x in waived], on, model="arm",
+                               warning_days=0) == ([] if on < EXPIRES else report)
     else:
+        assert kept[0].waiver_note == "expired on 2027-03-31 (models/arm.yaml waivers[0])"
         (f,) = report
         assert (f.rule, f.severity, f.source, f.model) == ("EG002", "error", "models/arm.yaml",
                                                            "arm")
@@ -220,10 +227,39 @@ def test_waiver_expiry_day_in_a_model_file_and_in_the_policy(tmp_path, monkeypat
                for f in ("a.yaml", "b.yaml")]
     for fr in results:
         rules = sorted(f.rule for f in fr.findings)
-        assert rules == (["EG002", "EG103"] if fails and fr.source.endswith("a.yaml") else
-                         ["EG103"] if fails else [])
+        own = fr.source.endswith("a.yaml")
+        # on the expiry day the waivers still waive, and say that they expire today (EG006)
+        assert rules == (["EG002", "EG103"] if fails and own else ["EG103"] if fails else
+                         ["EG006"] if own else [])
     policy = policy_findings(config, results)
-    assert [f.rule for f in policy] == (["EG002"] if fails else [])
+    assert [f.rule for f in policy] == (["EG002"] if fails else ["EG006"])
+    if not fails:
+        assert "expires today, on 2027-03-31" in policy[0].message
+
+
+@pytest.mark.parametrize("days_left, days, warned", [
+    (31, 30, False), (30, 30, True), (1, 30, True), (10, 7, False), (7, 7, True),
+    (0, 0, True), (1, 0, False)])
+def test_expiring_waiver_window(days_left, days, warned):
+    # EG006 from waiver_warning_days before the expiry day up to it, both ends included
+    on = EXPIRES - dt.timedelta(days=days_left)
+    (w,) = parse_waivers([{"rule": "EG103", "reason": "r", "expires": "2027-03-31"}],
+                         "models/arm.yaml")
+    report = waiver_findings([w], [w], on, warning_days=days)
+    assert [f.rule for f in report] == (["EG006"] if warned else [])
+    if warned and days_left:
+        assert f"in {days_left} day{'' if days_left == 1 else 's'}" in report[0].message
+
+
+def test_waiver_warning_days_is_a_policy_key(tmp_path):
+    from eigengate.scan.config import ConfigError, parse_config
+
+    assert parse_config({}, root=tmp_path).waiver_warning_days == 30
+    assert parse_config({"waiver_warning_days": 7}, root=tmp_path).waiver_warning_days == 7
+    for bad in (-1, 1.5, "30", True):
+        with pytest.raises(ConfigError) as e:
+            parse_config({"waiver_warning_days": bad}, root=tmp_path)
+        assert "waiver_warning_days" in str(e.value)
 
 
 def test_today_reads_the_environment_or_the_calendar(monkeypatch):

@@ -276,8 +276,10 @@ def _outputs(specs: list[str]) -> list[tuple[str, Path]]:
 
 
 def render(fmt: str, results: list, *, color: bool = False, quiet: bool = False,
-           baseline_poles=None) -> str:
-    """Render ``results`` (FileResult objects) in ``fmt``."""
+           baseline_poles=None, accept: str | None = None,
+           improvements: Sequence[str] = ()) -> str:
+    """Render ``results`` (FileResult objects) in ``fmt`` (the Markdown comment also shows
+    the ``accept`` command and the ``improvements``)."""
     import importlib
 
     from .version import __version__
@@ -286,6 +288,8 @@ def render(fmt: str, results: list, *, color: bool = False, quiet: bool = False,
     func = getattr(importlib.import_module(f".{module}", __package__), name)
     if fmt == "text":
         return func(results, verbose=not quiet, color=color)
+    if fmt == "markdown":
+        return func(results, accept=accept, improvements=improvements)
     if fmt == "html":
         from .scan.runner import terminal_progress
 
@@ -402,32 +406,38 @@ def _check(args) -> int:
     notes = []
     failed = result.failed
     poles = None
+    accept_cmd, improvements = None, []
     if not args.no_baseline:
         from .scan.baseline_check import accept_command, compare_files, with_regressions
 
         baseline = _reference(config, args.against)
+        accept_cmd = accept_command(paths if args.changed_files else args.paths, args.config,
+                                    files=files, root=config.root) \
+            if args.against is None else None
         if baseline is not None:
             poles = _baseline_poles(baseline)
             outcome = compare_files(files, config, baseline, complete=complete)
             files = with_regressions(files, outcome, config)
             failed = failed or outcome.failed
-            notes += [f"improved: {i.title} ({i.source}): {i.message}"
-                      for i in outcome.improvements]
+            improvements = [f"{i.title} ({i.source}): {i.message}" for i in outcome.improvements]
+            notes += [f"improved: {line}" for line in improvements]
             if outcome.new_keys or outcome.failed or outcome.stale_keys:
                 what = []
                 if outcome.new_keys:
-                    what.append(f"{len(outcome.new_keys)} model(s) without a baseline entry")
+                    what.append(_count(len(outcome.new_keys), "model") + " without a baseline "
+                                "entry")
                 if outcome.stale_keys:
-                    what.append(f"{len(outcome.stale_keys)} stale entr(ies)")
+                    what.append(_count(len(outcome.stale_keys), "stale entry", "stale entries"))
                 if outcome.failed:
                     what.append("regressions")
-                if args.against is None:
+                if accept_cmd is not None:
                     notes.append(f"baseline {config.baseline}: {', '.join(what)}; after review, "
-                                 f"accept the current models with: "
-                                 f"{accept_command(args.paths, args.config)}")
-        elif args.against is None and files:
+                                 f"accept the current models with: {accept_cmd}")
+                elif args.against is None:
+                    notes.append(f"baseline {config.baseline}: {', '.join(what)}")
+        elif accept_cmd is not None and files:
             notes.append(f"no baseline yet ({config.baseline}); to accept the current models "
-                         f"as the baseline: {accept_command(args.paths, args.config)}")
+                         f"as the baseline: {accept_cmd}")
     if result.policy:
         files.append(FileResult(source=config.source or "pyproject.toml",
                                 findings=result.policy))
@@ -438,7 +448,8 @@ def _check(args) -> int:
 
     try:
         for fmt, path in outputs:
-            _write_atomic(path, render(fmt, files, baseline_poles=poles), config.root,
+            _write_atomic(path, render(fmt, files, baseline_poles=poles, accept=accept_cmd,
+                                       improvements=improvements), config.root,
                           f"the {fmt} report to {os.fspath(path)!r}")
         if args.pole_maps:
             _write_pole_maps(Path(args.pole_maps), files, poles, config.root)
@@ -448,7 +459,7 @@ def _check(args) -> int:
             _write_files(Path(args.figures), picture_files(files, args.figure_format),
                          config.root, "figures")
         text = render(args.format, files, color=_use_color(args.color), quiet=args.quiet,
-                      baseline_poles=poles)
+                      baseline_poles=poles, accept=accept_cmd, improvements=improvements)
     except ReportDependencyError as exc:
         raise UsageError(str(exc)) from None
     sys.stdout.write(text)
@@ -464,8 +475,24 @@ def _reference(config, against: str | None):
 
     try:
         return reference_baseline(config, against)
-    except (BaselineError, GitError) as exc:
+    except BaselineError as exc:
+        raise UsageError(_baseline_message(exc, config)) from None
+    except GitError as exc:
         raise UsageError(str(exc)) from None
+
+
+def _baseline_message(exc, config) -> str:
+    """A BaselineError's text with its file relative to the repository."""
+    path = exc.path
+    if os.path.isabs(path):
+        rel = os.path.relpath(path, config.root)
+        path = path if rel.startswith("..") else rel.replace(os.sep, "/")
+    where = path if exc.line is None else f"{path}:{exc.line}"
+    return f"{where}: {exc.problem}" + (f" ({exc.hint})" if exc.hint else "")
+
+
+def _count(n: int, one: str, many: str | None = None) -> str:
+    return f"{n} {one if n == 1 else many or one + 's'}"
 
 
 def _accept(args) -> int:
@@ -481,7 +508,7 @@ def _accept(args) -> int:
     try:
         summary = accept(result.files, config, complete=not args.paths)
     except BaselineError as exc:
-        raise UsageError(str(exc)) from None
+        raise UsageError(_baseline_message(exc, config)) from None
     for error in (fr.error for fr in broken if fr.error is not None):
         print(f"not accepted (invalid model file): {error.render()}", file=sys.stderr)
     print(f"baseline {config.baseline}: {len(summary.added)} added, {len(summary.changed)} "
@@ -513,10 +540,12 @@ def _show(args) -> int:
 def _rules() -> int:
     from .rules.catalogue import RULES
 
-    width = max(len(r.name) for r in RULES.values())
-    for r in sorted(RULES.values(), key=lambda r: r.id):
-        key = f"  [{r.key}]" if r.key else ""
-        print(f"{r.id}  {r.name.ljust(width)}{key}".rstrip())
+    rows = [(r.id, r.name, r.key or "–", r.unit or "–", r.severity)
+            for r in sorted(RULES.values(), key=lambda r: r.id)]
+    head = ("rule", "name", "key", "unit", "default severity")
+    widths = [max(len(row[i]) for row in (head, *rows)) for i in range(len(head))]
+    for row in (head, *rows):
+        print("  ".join(c.ljust(w) for c, w in zip(row, widths)).rstrip())
     return Exit.CLEAN
 
 

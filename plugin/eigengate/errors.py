@@ -60,3 +60,10 @@ class ModelError(EigengateError, ValueError):
 
 def _rebuild(source, field, problem, line, hint):
     return ModelError(source, field, problem, line=line, hint=hint)
+
+
+def counted(n: int, one: str, many: str | None = None) -> str:
+    """``1 eigenvalue``, ``2 eigenvalues``, ``1 equilibrium``, ``3 equilibria``: a count
+    with its noun in the right number, for every message (``many`` where the plural is not
+    ``one + "s"``)."""
+    return f"{n} {one if n == 1 else many or one + 's'}"

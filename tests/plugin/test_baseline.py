@@ -3,6 +3,7 @@
 accepting at once lose nothing); the summary counts what changed and prints the commands."""
 
 import json
+import re
 import subprocess
 import sys
 
@@ -97,11 +98,22 @@ def test_retune_fails_with_the_moved_mode_and_accepting_again_passes(project):
         "        cause: mode -4 → -1.9±2.1j: 100 % of the first-order shift comes from "
         "feedback.state_gain[[]0[]][[]1[]] 2.08 → 1.2 (line 8)",
         "        cause: first-order total * differs from the actual move *",
-        "        mode  eigenvalue     ζ      ωn [[]rad/s[]]*participating states",
+    ])
+    result.stdout.fnmatch_lines([
+        # one block for the mode all three regressions name, the figures of each first
+        "    modes:",
+        "        vel mode",
+        "          EG202 decay-rate-regressed 1.9 1/s (baseline 4 1/s, margin *)",
+        "          EG203 damping-regressed 0.6718 (baseline 1, margin *)",
         # ζ 0.672 and ωn 2.828 from the standard form (see lift()); a 2×2 pair's participation
         # factors (λ - a22)/(λ - λ̄) and (λ - a11)/(λ - λ̄) have equal magnitude: 0.50 each
-        "        #1    -1.9±2.09523j  0.672  2.828 * pos 0.50, vel 0.50",
+        "          eigenvalue -1.9±2.09523j · ωn 2.828 rad/s · ζ 0.672 · τ * · states pos 0.50, "
+        "vel 0.50",
+        "            in the baseline: eigenvalue -4 · *",
     ])
+    # one block for the mode, not one per rule: the two figures on consecutive lines
+    assert re.search(r"\n +mode 1\n +EG202 decay-rate-regressed [^\n]*\n +EG203 damping-regressed",
+                     result.stdout.str())
     result.stdout.fnmatch_lines([
         # a real pole (ζ = 1) became a pair with ζ = 0.672: -32.8 %
         "  FAIL  EG203 damping-regressed  [[]baseline[]]  (line 8)",

@@ -28,12 +28,12 @@ def test_two_workers_end_to_end(project):
         "*EG001 invalid-model: models/broken.yaml:4: plant.A must be square, got 2×3",
         "models/mast/sway.yaml:14: mast-sway-damper  (models/mast/sway.yaml::mast-sway-damper)",
         "  EG103 damping-ratio [[]min_damping: 0.3[]]: 1 mode violates damping ratio ≥ 0.3*",
-        "*mode  eigenvalue*participating states",
+        "    mode 1",
         # the sway file's closed-loop pair (numpy.linalg.eigvals of A - BK, see test_junit.py)
-        "*#1    -0.512815±3.02882j*sway_rate *sway_angle *",
+        "*eigenvalue -0.512815±3.02882j *sway_rate *sway_angle *",
         "2×2 matrix A  (tests/test_loops.py::test_light)",
         # ζ = 0.1 from the standard form above: the pair -ζωn ± jωn√(1-ζ²) = -0.2 ± 1.98997j
-        "*#1    -0.2±1.98997j  0.1*angle *rate *",
+        "*eigenvalue -0.2±1.98997j · ωn 2 rad/s · ζ 0.1 *angle *rate *",
     ])
     suite = next(iter(JUnitXml.fromfile(str(project.path / "report.xml"))))
     props = {p.name: p.value for p in suite.properties()}

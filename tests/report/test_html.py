@@ -37,7 +37,7 @@ class Doc(HTMLParser):
         self.tags.add(tag)
         if "id" in a:
             self.ids.append(a["id"])
-        if tag == "details":
+        if tag == "details" and "eg-model" in a.get("class", "").split():
             self.sections[a["id"]] = a
         elif tag == "table" and a.get("class") == "eg-index":
             self._in_index = True
@@ -120,7 +120,7 @@ def test_index_figures(html):
 def test_summary_caution_and_no_network_or_script(html):
     doc = Doc(html)
     text = doc.all_text
-    assert "6 files, 5 models checked: 4 failing, 4 errors, 0 warnings" in text
+    assert "6 files, 5 models checked: 3 failing models, 1 invalid file (4 error findings), 0 warnings" in text
     assert CAUTION in text
     assert CAUTION.startswith("eigengate is an engineering aid for model regression checks.")
     assert "script" not in doc.tags and "link" not in doc.tags

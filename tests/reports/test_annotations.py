@@ -17,7 +17,7 @@ def test_one_line_per_unwaived_finding(results):
     assert all(LINE.match(x) for x in lines), lines
     assert lines[0].startswith("::error file=models/osc.yaml,line=8,"
                                "title=EG103 damping-ratio::osc: 1 mode violates")
-    assert "%0Aoffending modes: #1 angle-rate mode -0.2±1.98997j (ζ=0.1" in lines[0]
+    assert "%0Amodes: angle-rate mode: eigenvalue -0.2±1.98997j · ωn 2 rad/s · ζ 0.1" in lines[0]
     assert [x.split(" ", 1)[0] for x in lines] == ["::error"] * 3 + ["::warning", "::error"]
     assert not any("EG103" in x and "arm" in x for x in lines)  # the waived one
 

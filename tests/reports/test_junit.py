@@ -53,7 +53,7 @@ def test_failure_has_first_line_and_mode_table(suite):
     assert failure.get("message") == ("EG103 damping-ratio: 1 mode violates damping ratio "
                                       "≥ 0.3: worst 0.1 (margin -0.2)")
     assert failure.get("type") == "EG103 damping-ratio"
-    assert "participating states" in failure.text and "-0.2±1.98997j" in failure.text
+    assert "states angle 0.50, rate 0.50" in failure.text and "-0.2±1.98997j" in failure.text
     assert "key" not in case.attrib and case.find("properties") is None
     out = case.find("system-out").text
     assert "spectral abscissa -0.2 1/s" in out and "stable-focus" in out

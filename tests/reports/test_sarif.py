@@ -85,7 +85,7 @@ def test_results_levels_and_locations(log, repo):
 def test_message_and_properties_carry_the_modes(log):
     osc = next(r for r in log["runs"][0]["results"] if r["ruleId"] == "EG103"
                and "suppressions" not in r)
-    assert "ζ=0.1" in osc["message"]["text"] and "-0.2±1.98997j" in osc["message"]["text"]
+    assert "ζ 0.1" in osc["message"]["text"] and "-0.2±1.98997j" in osc["message"]["text"]
     props = osc["properties"]
     assert props["threshold"] == 0.3 and props["margin"] == pytest.approx(-0.2)
     assert props["modes"][0]["eigenvalue"]["re"] == pytest.approx(-0.2)

@@ -14,6 +14,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Iterable
 
+from ..errors import counted
 from .modes import Mode
 
 __all__ = ["Equilibrium", "classify", "EQUILIBRIUM_TYPES"]
@@ -119,7 +120,7 @@ def classify(modes: Iterable[Mode], *, declared: int = 0, set_aside: bool = True
                            "pair")
     if declared:
         detail += ("; " if detail else "") + (
-            f"{declared} declared known eigenvalue(s) set aside" if set_aside else
+            f"{counted(declared, 'declared known eigenvalue')} set aside" if set_aside else
             "every eigenvalue is a declared known mode, so the type is theirs")
     if reasons:
         detail += ("; " if detail else "") + "; ".join(reasons)

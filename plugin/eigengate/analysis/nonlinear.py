@@ -183,7 +183,9 @@ class EquilibriumSearch:
     errors: tuple[str, ...] = ()
 
     def summary(self) -> str:
-        return f"{len(self.equilibria)} equilibria" + "".join(
+        from ..errors import counted
+
+        return counted(len(self.equilibria), "equilibrium", "equilibria") + "".join(
             (": " if i == 0 else "; ") + e.describe() for i, e in enumerate(self.equilibria))
 
     def describe(self) -> str:

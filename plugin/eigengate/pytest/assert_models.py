@@ -16,7 +16,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Sequence
 
-from ..errors import EigengateError, ModelError
+from ..errors import EigengateError, ModelError, counted
 
 if TYPE_CHECKING:  # pragma: no cover
     from ..scan.config import Config
@@ -192,8 +192,8 @@ def open_loop(model: "Model") -> "Model":
     p, m = model.C.shape[0], model.B.shape[1]
     if p != m or not m:
         raise ModelError(model.source, "loop", f"is 'open', so the system is the loop transfer "
-                         f"L, which must be square and have inputs: got {p} output(s) and "
-                         f"{m} input(s)", hint="give L with one output per input (unity "
+                         f"L, which must be square and have inputs: got "
+                         f"{counted(p, 'output')} and {counted(m, 'input')}", hint="give L with one output per input (unity "
                          "feedback closes output i onto input i)")
     plant: dict[str, Any] = {"A": model.A, "B": model.B, "C": model.C, "D": model.D,
                              "states": list(model.states), "inputs": list(model.inputs),

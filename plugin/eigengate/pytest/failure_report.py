@@ -58,17 +58,16 @@ def _measured_line(f: "Finding") -> str | None:
 
 def failure_report(what: str, failures: Sequence[tuple], checked: int) -> str:
     """The text of a failed assertion on ``what``: each failing model, finding and figures."""
-    from ..reports.text import finding_lines, model_lines
+    from ..reports.text import findings_lines, model_lines
 
     failed = sum(len(errors) for _, errors, *_ in failures)
     noun = "requirement" if checked == 1 else "requirements"
     lines = [f"{failed} of {checked} stability {noun} not met by {what}"]
     for result, errors, origin, _ in failures:
         lines.append(model_lines(result, verbose=False)[0])
-        for f in errors:
-            block = finding_lines(f, result.model.discrete)
-            extra = _measured_line(f)
-            lines.extend(block[:2] + ([extra] if extra else []) + block[2:])
+        # a finding that names modes has its figures at the head of each mode's block
+        lines.extend(findings_lines(errors, result.model.discrete, extra=lambda f: [] if (
+            f.modes or _measured_line(f) is None) else [_measured_line(f)]))
         stated = ", ".join(f"{v.requirement} ({origin.get(v.rule) or 'given'})"
                            for v in result.verdicts if v.rule in origin)
         lines.append(f"  checked: {stated}")
@@ -82,17 +81,20 @@ def _figure(x: float) -> float | str:
 def result_record(result: "ModelResult", verdict: str) -> dict[str, Any]:
     """One model's key figures and findings as plain, JSON-serialisable data (what pytest
     reports carry between xdist workers, the terminal summary and JUnit properties read)."""
-    from ..reports.text import mode_table
+    from ..reports.render import mode_groups
+    from ..reports.text import mode_block
 
     m, sp = result.model, result.spectrum
     findings = []
     for f in result.findings:
         findings.append({"severity": f.severity, "rule": f.rule, "name": f.name,
                          "requirement": f.requirement, "message": f.message, "line": f.line,
-                         "table": mode_table(f.modes, m.discrete, indent="      ")
-                         if f.modes else []})
+                         "table": []})
+    errors = [f for f in result.findings if f.severity == "error"]
+    modes = [line for g in mode_groups(errors) for line in mode_block(g, m.discrete, "    ")]
     return {"model": m.title, "source": m.source, "discrete": m.discrete,
             "line": next((f.line for f in result.findings if f.line), None),
             "spectral_abscissa": _figure(sp.spectral_abscissa),
             "spectral_radius": _figure(sp.spectral_radius),
-            "min_damping": _figure(sp.min_damping), "verdict": verdict, "findings": findings}
+            "min_damping": _figure(sp.min_damping), "verdict": verdict, "findings": findings,
+            "modes": modes}

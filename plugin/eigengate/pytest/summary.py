@@ -109,17 +109,35 @@ class Reporter:
         if not self.failing:
             return
         tr = terminalreporter
-        tr.write_sep("=", "eigengate: models failing their requirements")
-        for nodeid, r in sorted(self.failing, key=lambda t: t[0]):
-            where = r["source"] if not r["line"] else f"{r['source']}:{r['line']}"
-            what = r["model"] if r["source"].startswith("<") else f"{where}: {r['model']}"
-            tr.write_line(f"{what}  ({nodeid})")
-            for f in r["findings"]:
-                if f["severity"] != "error":
-                    continue
-                head = f"{f['rule']} {f['name']}"
-                if f["requirement"] and f["rule"] != "EG001":
-                    head += f" [{f['requirement']}]"
-                tr.write_line(f"  {head}: {f['message']}")
-                for line in f["table"]:
-                    tr.write_line(line)
+
+        def regressed_only(r: dict) -> bool:
+            errors = [f for f in r["findings"] if f["severity"] == "error"]
+            return bool(errors) and all(f["requirement"] == "baseline" for f in errors)
+
+        ordered = sorted(self.failing, key=lambda t: t[0])
+        for title, group in (
+                ("eigengate: models failing their requirements",
+                 [t for t in ordered if not regressed_only(t[1])]),
+                ("eigengate: models that meet their requirements but regressed from the "
+                 "baseline", [t for t in ordered if regressed_only(t[1])])):
+            if group:
+                tr.write_sep("=", title)
+            for nodeid, r in group:
+                self._failing_model(tr, nodeid, r)
+
+    @staticmethod
+    def _failing_model(tr, nodeid: str, r: dict) -> None:
+        where = r["source"] if not r["line"] else f"{r['source']}:{r['line']}"
+        what = r["model"] if r["source"].startswith("<") else f"{where}: {r['model']}"
+        tr.write_line(f"{what}  ({nodeid})")
+        for f in r["findings"]:
+            if f["severity"] != "error":
+                continue
+            head = f"{f['rule']} {f['name']}"
+            if f["requirement"] and f["rule"] != "EG001":
+                head += f" [{f['requirement']}]"
+            tr.write_line(f"  {head}: {f['message']}")
+            for line in f["table"]:
+                tr.write_line(line)
+        for line in r.get("modes", ()):
+            tr.write_line(line)

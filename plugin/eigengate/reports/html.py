@@ -18,7 +18,9 @@ from __future__ import annotations
 import re
 from typing import TYPE_CHECKING, Any, Callable, Iterable, Mapping, Sequence
 
-from .html_parts import _CSS, _STATUS_WORD, _e, _finding, _img, _mode_rows_table, _num
+from .html_parts import (_CSS, _STATUS_WORD, _e, _finding, _img, _mode_cards,
+                         _mode_rows_table, _num)
+from .render import waiver_text
 from .figures import ReportDependencyError
 from .html_grid import grid_sections
 
@@ -122,12 +124,14 @@ def _crossover(v: Any) -> str:
 # -- the index -------------------------------------------------------------------------------
 
 def _summary(results: Sequence["FileResult"], n_files: int) -> str:
+    from .render import summary_line
+
     # from the results, not the sections: a grid has sections for its worst points only
     models = sum(len(fr.results) for fr in results if fr.error is None)
-    failing = 0
+    failing = invalid = 0
     for fr in results:  # as the sections count: a file's own errors go with its first model
         if fr.error is not None or not fr.results:
-            failing += 1
+            invalid += 1
             continue
         theirs = {id(f) for r in fr.results for f in r.findings}
         own = any(f.severity == "error" for f in fr.findings if id(f) not in theirs)
@@ -135,11 +139,7 @@ def _summary(results: Sequence["FileResult"], n_files: int) -> str:
     errors = sum(1 for fr in results for f in fr.findings if f.severity == "error")
     warnings = sum(1 for fr in results for f in fr.findings if f.severity != "error")
 
-    def plural(n: int, word: str) -> str:
-        return f"{n} {word}{'' if n == 1 else 's'}"
-
-    return (f"{plural(n_files, 'file')}, {plural(models, 'model')} checked: {failing} failing, "
-            f"{plural(errors, 'error')}, {plural(warnings, 'warning')}")
+    return summary_line(n_files, models, failing, errors, warnings, invalid)
 
 
 def _index(entries: Sequence[_Entry]) -> list[str]:
@@ -357,7 +357,8 @@ def _section(e: _Entry, figures: list[str] | None, max_images: int | None) -> li
     figure = (f"spectral radius {_num(sp.spectral_radius, 6)}, " if m.discrete else "") + \
         f"spectral abscissa {_num(sp.spectral_abscissa, 6, '1/s')}"
     n_modes = len(sp.modes)
-    facts = (f"{m.structure}, {kind}, {m.n_states} states, {sp.n_eigenvalues} eigenvalues in "
+    facts = (f"{m.structure}, {kind}, {m.n_states} state{'' if m.n_states == 1 else 's'}, "
+             f"{sp.n_eigenvalues} eigenvalue{'' if sp.n_eigenvalues == 1 else 's'} in "
              f"{n_modes} mode{'' if n_modes == 1 else 's'}"
              + (f", {sp.infinite} infinite" if sp.infinite else "")
              + f"; {figure}; origin: {r.equilibrium.describe()}")
@@ -370,12 +371,16 @@ def _section(e: _Entry, figures: list[str] | None, max_images: int | None) -> li
     if e.findings:
         out.append("<h4>Findings</h4>")
         for f in e.findings:
-            out.extend(_finding(f, m.discrete))
+            out.extend(_finding(f, m.discrete, modes=False))
+        out.extend(_mode_cards(e.findings, m.discrete))
     for f in getattr(r, "waived", ()):
+        text = waiver_text(f)
         out.append(f'<div class="eg-finding"><p><span class="eg-badge waived">WAIVED</span> '
                    f'<span class="eg-rule">{_e(f.rule)} {_e(f.name)}</span> '
                    f'<span class="eg-req">[{_e(f.requirement)}]</span></p>'
-                   f"<p>{_e(f.message)}</p><p class=\"eg-hint\">Reason: {_e(f.waived)}</p></div>")
+                   f"<p>{_e(f.message)}</p>"
+                   + (f'<p class="eg-note">{_e(text[0].upper() + text[1:])}.</p>' if text else "")
+                   + f"<p class=\"eg-hint\">Reason: {_e(f.waived)}</p></div>")
     out.extend(_verdicts(r))
     out.extend(_margins(r))
     from ..rules.findings import ModeRow

@@ -7,7 +7,9 @@ import math
 from html import escape
 from typing import TYPE_CHECKING, Any, Mapping, Sequence
 
-from .render import DECIDED_NOTES, UNCERTAIN_NOTE, cause_lines, figure_line
+from .render import (DECIDED_NOTES, UNCERTAIN_NOTE, cause_lines, eigenvalue_text,
+                     figure_line, finding_figure, mode_detail, mode_figures, mode_name,
+                     pairs_text, states_text)
 
 if TYPE_CHECKING:  # pragma: no cover
     from ..rules.findings import Finding
@@ -60,6 +62,8 @@ figcaption{font-size:12px;color:var(--muted);max-width:420px}
 .eg-finding{border-left:3px solid var(--line);padding:4px 10px;margin:8px 0}
 .eg-finding.error{border-left-color:var(--fail)}.eg-finding.warning{border-left-color:var(--warn)}
 .eg-finding p{margin:3px 0}
+.eg-mode{border:1px solid var(--line);border-radius:4px;padding:4px 10px;margin:8px 0}
+.eg-mode p{margin:3px 0}.eg-lead{font-weight:600}
 .eg-rule{font-weight:600}
 .eg-req{font-family:ui-monospace,Menlo,Consolas,monospace;font-size:12.5px;color:var(--muted)}
 .eg-hint{color:var(--muted)}
@@ -111,31 +115,62 @@ def _img(png: bytes, alt: str) -> str:
 def _mode_rows_table(rows: Sequence[Any], discrete: bool,
                      hits: Mapping[int, str] | None = None, limit: int | None = None
                      ) -> list[str]:
-    """The fields of report_text.mode_table (detail form) as an HTML table."""
+    """Every mode of a model: name, eigenvalue, ωn, ζ, τ, participating states; the error
+    bounds and condition numbers in a collapsed detail table below."""
     head = ["mode", "z" if discrete else "eigenvalue"] + (["s equivalent"] if discrete else [])
-    head += ["ζ", "ωn [rad/s]", "τ [s]", "± bound", "κ", "participating states"]
+    head += ["ωn [rad/s]", "ζ", "τ [s]", "participating states"]
     out = ["<table><thead><tr>" + "".join(f"<th>{_e(h)}</th>" for h in head)
            + "</tr></thead><tbody>"]
     shown = rows if limit is None else rows[:limit]
     for row in shown:
-        ev = _ev(row.eigenvalue, row.pair)
-        if row.multiplicity > 1:
-            ev += f" ×{row.multiplicity}" + (" (defective)" if row.defective else "")
-        states = ", ".join(f"{n} {p:.2f}" for n, p in row.top_states)
-        cells = [f"#{row.index}", ev] + ([_ev(row.s, row.pair)] if discrete else [])
-        cells += [_num(row.damping_ratio, 3), _num(row.natural_frequency),
-                  _num(row.time_constant), _num(row.uncertainty, 2), _num(row.condition, 3)]
-        tds = "".join(f'<td class="num">{_e(c)}</td>' for c in cells) + f"<td>{_e(states)}</td>"
+        cells = [eigenvalue_text(row)] + ([_ev(row.s, row.pair)] if discrete else [])
+        cells += [_num(row.natural_frequency), _num(row.damping_ratio, 3),
+                  _num(row.time_constant)]
+        tds = f"<td>{_e(mode_name(row))}</td>" + "".join(
+            f'<td class="num">{_e(c)}</td>' for c in cells) + f"<td>{_e(states_text(row))}</td>"
         cls = ' class="eg-hit"' if hits and row.index in hits else ""
         out.append(f"<tr{cls}>{tds}</tr>")
     out.append("</tbody></table>")
+    out += ["<details class=\"eg-detail\"><summary>Error bounds and condition numbers</summary>",
+            "<table><thead><tr><th>mode</th><th>± bound</th><th>κ</th></tr></thead><tbody>"]
+    out += [f"<tr><td>{_e(mode_name(row))}</td><td class=\"num\">{_e(_num(row.uncertainty, 2))}"
+            f"</td><td class=\"num\">{_e(_num(row.condition, 3))}</td></tr>" for row in shown]
+    out.append("</tbody></table></details>")
     if limit is not None and len(rows) > limit:
         out.append(f'<p class="eg-note">{len(rows) - limit} more modes not listed (the '
                    f"{limit} least stable are).</p>")
     return out
 
 
-def _finding(f: "Finding", discrete: bool) -> list[str]:
+def _mode_card(group: Any, discrete: bool) -> list[str]:
+    """One mode the findings name: its name and each finding's figure (threshold, margin),
+    then its figures, then a collapsed detail view (the baseline's mode, bounds)."""
+    row = group.row
+    out = [f'<div class="eg-mode"><p><b>{_e(group.title)}</b></p>']
+    out += [f'<p class="eg-lead">{_e(finding_figure(f))}</p>' for f in group.findings]
+    out.append(f"<p>{_e(pairs_text(mode_figures(row, discrete)))}</p>")
+    detail = []
+    if group.before is not None:
+        detail.append(f"<p>In the baseline: {_e(pairs_text(mode_figures(group.before, discrete)))}"
+                      "</p>")
+    detail.append(f"<p>{_e(pairs_text(mode_detail(row)))}</p>")
+    out += ["<details class=\"eg-detail\"><summary>Baseline, error bound, condition number"
+            "</summary>", *detail,
+            "</details></div>"]
+    return out
+
+
+def _mode_cards(findings: Sequence[Any], discrete: bool) -> list[str]:
+    from .render import mode_groups
+
+    groups = mode_groups(findings)
+    if not groups:
+        return []
+    return ["<h4>Modes the findings name</h4>"] + [x for g in groups
+                                                    for x in _mode_card(g, discrete)]
+
+
+def _finding(f: "Finding", discrete: bool, modes: bool = True) -> list[str]:
     sev = "error" if f.severity == "error" else "warning"
     word = "FAIL" if sev == "error" else "WARN"
     head = (f'<span class="eg-badge {"fail" if sev == "error" else "warn"}">{word}</span> '
@@ -159,11 +194,9 @@ def _finding(f: "Finding", discrete: bool) -> list[str]:
                    + "</ul>")
     if f.suggestion:
         out.append(f'<p class="eg-hint">Hint: {_e(f.suggestion)}</p>')
-    if f.before:
-        out.append('<p class="eg-note">Before (baseline):</p>')
-        out.extend(_mode_rows_table(f.before, discrete))
-        out.append('<p class="eg-note">Now:</p>')
-    if f.modes:
-        out.extend(_mode_rows_table(f.modes, discrete))
+    if getattr(f, "waiver_note", ""):
+        out.append(f'<p class="eg-note">Waiver: {_e(f.waiver_note)}.</p>')
     out.append("</div>")
+    if modes:
+        out.extend(_mode_cards([f], discrete))
     return out

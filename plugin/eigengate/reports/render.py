@@ -13,13 +13,17 @@ from __future__ import annotations
 
 import math
 from numbers import Integral
+from dataclasses import dataclass
 from typing import Any, Iterable, Iterator
 
 from ..rules.findings import DECIDED_NOTES, UNCERTAIN_NOTE, Finding, ModeRow
 
 __all__ = ["UNCERTAIN_NOTE", "DECIDED_NOTES", "json_number", "json_value", "json_complex", "mode_data", "finding_data",
-           "text_number", "mode_cells", "mode_summary", "finding_summary", "own_findings",
-           "model_findings", "all_findings", "status_of", "tally", "plural", "CAUTION",
+           "text_number", "mode_cells", "mode_summary", "mode_name", "eigenvalue_text",
+           "states_text", "mode_figures", "mode_detail", "pairs_text", "finding_figure",
+           "measured_text", "waiver_text",
+           "ModeGroup", "mode_groups", "finding_summary", "own_findings",
+           "model_findings", "all_findings", "status_of", "tally", "plural", "CAUTION", "summary_line",
            "cause_lines", "cause_data"]
 
 #: Said by every report meant for people: what the tool is, and what it is not.
@@ -151,23 +155,128 @@ def text_number(x: float | None, digits: int = 4, unit: str = "") -> str:
     return f"{text} {unit}" if unit else text
 
 
-def mode_cells(row: ModeRow) -> list[str]:
-    """Mode, eigenvalue (×multiplicity), ζ, ωn [rad/s], τ [s], participating states."""
+def mode_name(row: ModeRow) -> str:
+    """What people call the mode: its name from the participating states, else its number."""
+    # the name's head ("sway mode"); its states are shown beside it with their factors
+    return getattr(row, "name", "").split(":", 1)[0] or f"mode {row.index}"
+
+
+def eigenvalue_text(row: ModeRow) -> str:
+    """The eigenvalue (the pair as ``a±bj``), with its multiplicity when it repeats."""
     ev = format_eigenvalue(row.eigenvalue, row.pair)
     if row.multiplicity > 1:
         ev += f" ×{row.multiplicity}" + (" (defective)" if row.defective else "")
-    states = ", ".join(f"{name} {p:.2f}" for name, p in row.top_states)
-    return [f"#{row.index}", ev, text_number(row.damping_ratio, 3),
-            text_number(row.natural_frequency), text_number(row.time_constant), states]
+    return ev
 
 
-def mode_summary(row: ModeRow) -> str:
-    """``#1 swing mode -0.2±1.98997j (ζ=0.1, ωn=2 rad/s, τ=5 s; swing_angle 0.50, swing_rate
-    0.50)``."""
-    index, ev, zeta, wn, tau, states = mode_cells(row)
-    name = getattr(row, "name", "").split(":", 1)[0]
-    return f"{index} {name + ' ' if name else ''}{ev} (ζ={zeta}, ωn={wn} rad/s, τ={tau} s; " \
-        f"{states})"
+def states_text(row: ModeRow) -> str:
+    """``sway_rate 0.50, sway_angle 0.48``: the dominant states and their participation."""
+    return ", ".join(f"{name} {p:.2f}" for name, p in row.top_states)
+
+
+def mode_figures(row: ModeRow, discrete: bool = False) -> list[tuple[str, str]]:
+    """(label, value) of a mode after its name: eigenvalue (and its s-plane equivalent for a
+    discrete model), natural frequency, damping ratio, time constant, participating states."""
+    out = [("z" if discrete else "eigenvalue", eigenvalue_text(row))]
+    if discrete:
+        out.append(("s equivalent", format_eigenvalue(row.s, row.pair)))
+    out += [("ωn", text_number(row.natural_frequency, 4, "rad/s")),
+            ("ζ", text_number(row.damping_ratio, 3)),
+            ("τ", text_number(row.time_constant, 4, "s"))]
+    if row.top_states:
+        out.append(("states", states_text(row)))
+    return out
+
+
+def mode_detail(row: ModeRow) -> list[tuple[str, str]]:
+    """(label, value) of the detail view: the eigenvalue's error bound and condition number."""
+    return [("error bound", text_number(row.uncertainty, 2)),
+            ("condition number", text_number(row.condition, 3))]
+
+
+def pairs_text(pairs: Iterable[tuple[str, str]]) -> str:
+    """``ωn 3.072 rad/s · ζ 0.167``."""
+    return " · ".join(f"{label} {value}" for label, value in pairs)
+
+
+def measured_text(f: Finding) -> str:
+    """The measured value with its threshold (the baseline's value, for a regression) and
+    margin: ``0.1669 (threshold 0.3, margin -0.1331)``; empty when the finding has none."""
+    if f.measured is None or isinstance(f.measured, str):
+        return str(f.measured or "")
+    unit = f" {f.unit}" if f.unit else ""
+    parts = []
+    if f.threshold is not None and not isinstance(f.threshold, str):
+        word = "baseline" if f.requirement == "baseline" else "threshold"
+        parts.append(f"{word} {text_number(f.threshold)}{unit}")
+    if f.margin is not None:
+        parts.append(f"margin {text_number(f.margin)}")
+    return f"{text_number(f.measured)}{unit}" + (f" ({', '.join(parts)})" if parts else "")
+
+
+def finding_figure(f: Finding) -> str:
+    """The figure a finding is about, with threshold and margin:
+    ``EG103 damping-ratio 0.1669 (threshold 0.3, margin -0.1331)``."""
+    worst = " (the worst of its modes)" if len(f.modes) > 1 else ""
+    return " ".join(x for x in (f"{f.rule} {f.name}", measured_text(f)) if x) + worst
+
+
+def waiver_text(f: Finding) -> str:
+    """``measured 0.2611 (threshold 0.3, margin -0.03892); waiver until 2027-03-31 (x:14)``."""
+    measured = measured_text(f)
+    note = getattr(f, "waiver_note", "")
+    return "; ".join(x for x in (f"measured {measured}" if measured else "",
+                                 f"waiver {note}" if note else "") if x)
+
+
+@dataclass(frozen=True)
+class ModeGroup:
+    """One mode of a model and every finding that names it (one table per mode)."""
+
+    row: ModeRow
+    findings: tuple[Finding, ...]
+    before: ModeRow | None = None  # the same mode as the baseline has it, for a regression
+    gone: bool = False  # a mode of the baseline that the model no longer has
+
+    @property
+    def title(self) -> str:
+        name = mode_name(self.row)
+        return f"{name} of the baseline (no longer found)" if self.gone else name
+
+
+def mode_groups(findings: Iterable[Finding]) -> list[ModeGroup]:
+    """The modes the findings name, each once, in the order first named, with the findings
+    that name it (and its baseline counterpart, where a regression gives one)."""
+    order: list[tuple] = []
+    rows: dict[tuple, ModeRow] = {}
+    by: dict[tuple, list[Finding]] = {}
+    before: dict[tuple, ModeRow] = {}
+    for f in findings:
+        old = tuple(getattr(f, "before", ()))
+        gone = f.requirement == "baseline" and not old  # the modes are the baseline's
+        for i, row in enumerate(f.modes):
+            key = (row.index, row.eigenvalue, row.multiplicity, gone)
+            if key not in rows:
+                order.append(key)
+                rows[key] = row
+                by[key] = []
+            if f not in by[key]:
+                by[key].append(f)
+            if i < len(old) and key not in before:
+                before[key] = old[i]
+    return [ModeGroup(rows[k], tuple(by[k]), before.get(k), k[3]) for k in order]
+
+
+def mode_cells(row: ModeRow) -> list[str]:
+    """Name, eigenvalue (×multiplicity), ωn [rad/s], ζ, τ [s], participating states."""
+    return [mode_name(row), eigenvalue_text(row), text_number(row.natural_frequency),
+            text_number(row.damping_ratio, 3), text_number(row.time_constant),
+            states_text(row)]
+
+
+def mode_summary(row: ModeRow, discrete: bool = False) -> str:
+    """``sway mode: eigenvalue -0.2±1.98997j · ωn 2 rad/s · ζ 0.1 · τ 5 s · states …``."""
+    return f"{mode_name(row)}: {pairs_text(mode_figures(row, discrete))}"
 
 
 def finding_summary(f: Finding, *, with_title: bool = True) -> list[str]:
@@ -176,7 +285,7 @@ def finding_summary(f: Finding, *, with_title: bool = True) -> list[str]:
     head = f"{f.title}: {f.message}" if with_title and f.title else f.message
     lines = [head]
     if f.modes:
-        lines.append("offending modes: " + "; ".join(mode_summary(m) for m in f.modes))
+        lines.append("modes: " + "; ".join(mode_summary(m) for m in f.modes))
     before = getattr(f, "before", ())
     if before:
         lines.append("in the baseline: " + "; ".join(mode_summary(m) for m in before))
@@ -232,6 +341,21 @@ def tally(results: Iterable[Any]) -> dict[str, int]:
         for f in fr.findings:
             out["errors" if f.severity == "error" else "warnings"] += 1
     return out
+
+
+def summary_line(files: int, models: int, failing: int, errors: int, warnings: int,
+                 invalid: int = 0) -> str:
+    """``12 files, 18 models checked: 1 failing model (3 error findings), 0 warnings``: the
+    failing models (and, apart, the files that could not be read) kept apart from the
+    findings that fail them."""
+    what = [plural(failing, "failing model")] if failing or not invalid else []
+    if invalid:
+        what.append(plural(invalid, "invalid file"))
+    text = ", ".join(what)
+    if errors:
+        text += f" ({plural(errors, 'error finding')})"
+    return (f"{plural(files, 'file')}, {plural(models, 'model')} checked: {text}, "
+            f"{plural(warnings, 'warning')}")
 
 
 def plural(n: int, word: str) -> str:

@@ -2,19 +2,21 @@
 
 from __future__ import annotations
 
-import math
-from typing import TYPE_CHECKING, Iterable, Sequence
+from typing import TYPE_CHECKING, Callable, Iterable, Sequence
 
 from ..rules.findings import DECIDED_NOTES, UNCERTAIN_NOTE, Finding, ModeRow
 from .escape import printable as _p
 from .grid_table import grid_cells, grid_head, rest_line
-from .render import cause_lines, figure_line
+from .render import (ModeGroup, cause_lines, figure_line, finding_figure, mode_detail,
+                     mode_figures, mode_groups, mode_name, pairs_text, plural, summary_line,
+                     waiver_text)
 from .render import format_eigenvalue  # shared by every writer; re-exported
 
 if TYPE_CHECKING:  # pragma: no cover
     from ..rules.results import FileResult, ModelResult
 
 __all__ = ["render_results", "render_model", "model_lines", "finding_lines", "mode_table",
+           "findings_lines", "mode_block", "waived_lines",
            "format_eigenvalue", "grid_lines"]
 
 _COLORS = {"FAIL": "\x1b[1;31m", "warn": "\x1b[33m", "ok": "\x1b[32m", "FAILED": "\x1b[1;31m",
@@ -25,41 +27,36 @@ def _paint(word: str, color: bool) -> str:
     return f"{_COLORS[word]}{word}\x1b[0m" if color and word in _COLORS else word
 
 
-def _num(x: float, unit: str = "") -> str:
-    if math.isinf(x):
-        return ("-" if x < 0 else "") + "∞"
-    text = f"{x:.4g}"
-    return f"{text} {unit}".rstrip()
-
-
 def mode_table(rows: Sequence[ModeRow], discrete: bool = False, indent: str = "    ",
                detail: bool = False) -> list[str]:
-    """Rows of a fixed-width table: mode, eigenvalue, ζ, ωn, τ, participating states (and,
-    with ``detail``, the error bound and condition number)."""
-    head = ["mode", "z" if discrete else "eigenvalue", "ζ", "ωn [rad/s]", "τ [s]",
-            "participating states"]
-    if detail:
-        head[5:5] = ["± bound", "κ"]
-    body = []
+    """One line per mode: its name, then eigenvalue, ωn, ζ, τ and participating states (and,
+    with ``detail``, an indented line with the error bound and condition number)."""
+    out = []
     for r in rows:
-        ev = format_eigenvalue(r.eigenvalue, r.pair)
-        if r.multiplicity > 1:
-            ev += f" ×{r.multiplicity}" + (" (defective)" if r.defective else "")
-        states = ", ".join([f"{_p(n)} {p:.2f}" for n, p in r.top_states])
-        row = [f"#{r.index}", ev, f"{r.damping_ratio:.3g}", _num(r.natural_frequency),
-               _num(r.time_constant), states]
+        out.append(f"{indent}{_p(mode_name(r))}: {_p(pairs_text(mode_figures(r, discrete)))}")
         if detail:
-            row[5:5] = [f"{r.uncertainty:.2g}", f"{r.condition:.3g}"]
-        body.append(row)
-    # one format for every line: each column padded to its widest cell
-    line = indent + "  ".join(f"{{:<{max(map(len, column))}}}"
-                              for column in zip(head, *body))
-    return [line.format(*cells).rstrip() for cells in (head, *body)]
+            out.append(f"{indent}    detail: {pairs_text(mode_detail(r))}")
+    return out
 
 
-def finding_lines(f: Finding, discrete: bool, color: bool = False) -> list[str]:
+def mode_block(group: ModeGroup, discrete: bool, indent: str = "        ") -> list[str]:
+    """One mode and what was found on it: the name, the figure of each finding that names it
+    (threshold, margin), the mode's figures, then detail lines (the baseline's mode, bounds)."""
+    row = group.row
+    out = [f"{indent}{_p(group.title)}"]
+    out += [f"{indent}  {_p(finding_figure(f))}" for f in group.findings]
+    out.append(f"{indent}  {_p(pairs_text(mode_figures(row, discrete)))}")
+    if group.before is not None:
+        out.append(f"{indent}    in the baseline: "
+                   f"{_p(pairs_text(mode_figures(group.before, discrete)))}")
+    out.append(f"{indent}    detail: {pairs_text(mode_detail(row))}")
+    return out
+
+
+def finding_lines(f: Finding, discrete: bool, color: bool = False, *,
+                  modes: bool = True) -> list[str]:
     """Lines of one finding: head (mark, rule, requirement, line), message, then the
-    uncertainty note, the hint and the mode table when there are any."""
+    uncertainty note, the hint and (with ``modes``) a block for each mode it names."""
     mark = _paint("FAIL" if f.severity == "error" else "warn", color)
     where = f"line {f.line}" if f.line else ""
     head = f"  {mark}  {f.rule} {f.name}"
@@ -78,8 +75,36 @@ def finding_lines(f: Finding, discrete: bool, color: bool = False) -> list[str]:
     out += [f"        cause: {_p(c)}" for c in cause_lines(f)]
     if f.suggestion:
         out.append(f"        hint: {_p(f.suggestion)}")
-    if f.modes:
-        out.extend(mode_table(f.modes, discrete, indent="        "))
+    if getattr(f, "waiver_note", "") and not f.waived:
+        out.append(f"        waiver: {_p(f.waiver_note)}")
+    if modes:
+        for group in mode_groups([f]):
+            out.extend(mode_block(group, discrete))
+    return out
+
+
+def waived_lines(f: Finding) -> list[str]:
+    """A waived finding: rule, requirement, the measured value and the waiver's expiry, then
+    the reason given."""
+    head = f"    waived  {f.rule} {f.name}  [{_p(f.requirement)}]"
+    text = waiver_text(f)
+    return [head + (f": {_p(text)}" if text else ""), f"        reason: {_p(f.waived)}"]
+
+
+def findings_lines(findings: Sequence[Finding], discrete: bool, color: bool = False,
+                   extra: Callable[[Finding], list[str]] | None = None) -> list[str]:
+    """Each finding without its modes, then one block per mode the findings name (a mode
+    that three rules fired on is shown once, with the three figures). ``extra`` adds lines
+    after a finding's first two."""
+    out: list[str] = []
+    for f in findings:
+        block = finding_lines(f, discrete, color, modes=False)
+        out += block[:2] + (extra(f) if extra else []) + block[2:]
+    groups = mode_groups(findings)
+    if groups:
+        out.append("    modes:")
+        for group in groups:
+            out.extend(mode_block(group, discrete))
     return out
 
 
@@ -100,7 +125,7 @@ def model_lines(r: ModelResult, *, verbose: bool = True, color: bool = False) ->
     partial = getattr(sp, "search", None) is not None  # a sparse search: the modes found
     found = f" found of {m.n_states} by a sparse search" if partial else ""
     origin = "not classified (partial spectrum)" if partial else r.equilibrium.type
-    lines = [f"  {_p(m.title)}: {status} — {sp.n_eigenvalues} eigenvalues{found} in {nm} "
+    lines = [f"  {_p(m.title)}: {status} — {plural(sp.n_eigenvalues, 'eigenvalue')}{found} in {nm} "
              f"mode{'' if nm == 1 else 's'}{extra}, {figure}, "
              f"min ζ {sp.min_damping:.3g}; origin: {origin}"]
     if verbose:
@@ -110,10 +135,9 @@ def model_lines(r: ModelResult, *, verbose: bool = True, color: bool = False) ->
                     f" (margin {v.margin:.4g})"
                 lines.append(f"    {_paint('pass', color)}  {v.rule} {v.name}  "
                              f"[{_p(v.requirement)}]{margin}")
-    for f in r.findings:
-        lines.extend(finding_lines(f, m.discrete, color))
+    lines.extend(findings_lines(r.findings, m.discrete, color))
     for f in getattr(r, "waived", ()):
-        lines.append(f"    waived  {f.rule} {f.name}  [{_p(f.requirement)}]: {_p(f.waived)}")
+        lines.extend(waived_lines(f))
     return lines
 
 
@@ -144,14 +168,14 @@ def render_results(results: Iterable[FileResult], *, verbose: bool = True,
     """Render :class:`~eigengate.scan.engine.FileResult` objects as text, grouped by file, with a
     one-line summary; ANSI colour only when ``color``."""
     lines: list[str] = []
-    files = models = failing = 0
+    files = models = failing = invalid = 0
     errors = warnings = 0
     checked = unselected = 0  # model files checked, model files no include glob selects
     for fr in results:
         files += 1
         checked += 1 if fr.results or fr.error is not None else 0
         unselected += sum(1 for f in fr.findings if f.rule == "EG004")
-        failing += 1 if fr.error is not None else 0
+        invalid += 1 if fr.error is not None else 0
         quiet_file = not verbose and not fr.findings and not any(
             getattr(r, "waived", ()) for r in fr.results)
         if not quiet_file:
@@ -179,9 +203,7 @@ def render_results(results: Iterable[FileResult], *, verbose: bool = True,
                 warnings += 1
         if not quiet_file:
             lines.append("")
-    lines.append(f"{files} file{'s' if files != 1 else ''}, {models} model"
-                 f"{'s' if models != 1 else ''} checked: {failing} failing, {errors} error"
-                 f"{'s' if errors != 1 else ''}, {warnings} warning{'s' if warnings != 1 else ''}"
+    lines.append(summary_line(files, models, failing, errors, warnings, invalid)
                  + (f"; {checked + unselected} model files found, {checked} checked"
                     if unselected else ""))
     return "\n".join(lines) + "\n"
@@ -210,5 +232,5 @@ def render_model(result: ModelResult) -> str:
                      f"  · {v.decided_by}")
         lines.append(f"          {_p(v.message)}")
     for f in result.waived:
-        lines.append(f"    waived  {f.rule} {f.name}: {_p(f.waived)}")
+        lines.extend(waived_lines(f))
     return "\n".join(lines) + "\n"

@@ -126,6 +126,10 @@ RULES: dict[str, Rule] = {r.id: r for r in (
     Rule("EG005", "no-requirement", "requirements", "",
          "No requirement applies to the model (none in the file, none from the policy), so "
          "nothing was checked: it is reported instead of passing."),
+    Rule("EG006", "expiring-waiver", "waivers", "",
+         "A waiver expires soon (within waiver_warning_days of the policy, 30 days unless "
+         "set): review the finding it covers before the check starts failing on it again.",
+         severity="warning"),
     Rule("EG109", "known-modes", "known_modes", "",
          "Every declared known mode (integrator, rigid-body mode, conserved quantity) is present "
          "exactly as declared; known modes are left out of every other requirement."),
@@ -243,6 +247,7 @@ _EXAMPLES = {
     "EG002": "waivers:\n  - {rule: EG103, reason: 'retune in review', expires: 2027-03-31}",
     "EG003": "waivers:\n  - {rule: EG103, reason: 'retune in review'}",
     "EG004": "[tool.eigengate]\ninclude = [\"models/**/*.yaml\", \"models/**/*.yml\"]",
+    "EG006": "waivers:\n  - {rule: EG103, reason: 'retune in review', expires: 2027-06-30}",
     "EG005": "requirements:\n  stable: true   # or [tool.eigengate.requirements] for every model",
     "EG001": "model_format: 1\nplant:\n  A: [[-1.0]]",
     "EG110": "requirements:\n  min_stability_radius: 0.05\n  # or {min: 0.05, structure: {B: [[...]], C: [[...]]}, real: true}",

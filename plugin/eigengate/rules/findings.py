@@ -109,6 +109,9 @@ class Finding:
     modes: tuple[ModeRow, ...] = ()
     suggestion: str | None = None
     waived: str | None = None  # the waiver's reason, when a waiver accepts this finding
+    #: The waiver that covers (or, expired, no longer covers) this finding: its expiry and
+    #: where it is written, ``until 2027-03-31 (models/x.yaml:14)``; empty when none.
+    waiver_note: str = ""
     #: Regressions: the offending modes as the baseline has them, aligned with ``modes``
     #: (a disappeared mode is in ``modes``, as the baseline has it, and ``before`` is empty).
     before: tuple[ModeRow, ...] = ()

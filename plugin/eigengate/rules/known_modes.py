@@ -35,9 +35,13 @@ class KnownMode:
     reason: str = ""
 
     def describe(self) -> str:
-        sel = (f"eigenvalue {self.eigenvalue}" if self.eigenvalue is not None else
-               f"states {', '.join(self.states)}" if self.states else "on the stability boundary")
-        return f"{self.count} eigenvalue(s) {sel}" + (f" ({self.reason})" if self.reason else "")
+        sel = (f"{self.eigenvalue}" if self.eigenvalue is not None else
+               f"the states {', '.join(self.states)}" if self.states else
+               "the stability boundary")
+        from ..errors import counted
+
+        return f"{counted(self.count, 'eigenvalue')} at {sel}" + (
+            f" ({self.reason})" if self.reason else "")
 
     def matches(self, mode: Mode, spectrum: Spectrum) -> bool:
         if self.eigenvalue is not None:

@@ -20,6 +20,7 @@ from typing import Any, Callable, Mapping, Sequence
 from .applicability import not_evaluable, why_not
 from ..analysis.equilibrium import EQUILIBRIUM_TYPES, side
 from ..errors import ModelError
+from ..errors import counted
 from .requirements import Requirement
 
 __all__ = ["MinGainMargin", "MinPhaseMargin", "MinDelayMargin", "MaxSensitivityPeak",
@@ -67,10 +68,10 @@ class _LoopRequirement(Requirement):
             n_out = sum(m.count for m in bad if side(m) > 0)
             n_on = sum(m.count for m in bad if side(m) == 0)
             where = "outside the unit circle" if model.discrete else "in the right half-plane"
-            text = (f"the closed loop is unstable ({n_out} closed-loop pole(s) {where}"
+            text = (f"the closed loop is unstable ({counted(n_out, 'closed-loop pole')} {where}"
                     + (f", {n_on} on the stability boundary" if n_on else "") + ")"
-                    if n_out else f"the closed loop is not asymptotically stable ({n_on} "
-                    "closed-loop pole(s) on the stability boundary)")
+                    if n_out else f"the closed loop is not asymptotically stable "
+                    f"({counted(n_on, 'closed-loop pole')} on the stability boundary)")
             return self._verdict(passed=False, uncertain=False, measured="unstable",
                                  threshold=self._threshold(), margin=None,
                                  offending=tuple(bad), message=text + "; margins are not "
@@ -251,7 +252,7 @@ class NoSaddleInBox(_SetRequirement):
         saddles = [e for e in search.equilibria if e.equilibrium.type == "saddle"]
         unsure = any(e.equilibrium.uncertain for e in search.equilibria)
         passed = not saddles and (not unsure or on_uncertain == "pass")
-        text = (f"{len(saddles)} saddle(s): " + "; ".join(e.describe() for e in saddles)
+        text = (f"{counted(len(saddles), 'saddle')}: " + "; ".join(e.describe() for e in saddles)
                 if saddles else f"no saddle among {search.summary()}")
         return self._verdict(passed=passed, uncertain=unsure, measured=len(saddles),
                              threshold=0, margin=None, offending=(), message=text)
@@ -279,7 +280,8 @@ class EquilibriumCount(_SetRequirement):
         passed = ok or (unsure and on_uncertain == "pass")
         return self._verdict(passed=passed, uncertain=unsure, measured=found,
                              threshold=self.count, margin=None, offending=(),
-                             message=f"expected {self.count} equilibria, found {found}: "
+                             message=f"expected {counted(self.count, 'equilibrium', 'equilibria')}, "
+                             f"found {found}: "
                              f"{search.summary()}; {search.describe()}")
 
 
@@ -300,7 +302,7 @@ class EquilibriaStable(_SetRequirement):
                if e.equilibrium.unstable or e.equilibrium.center]
         unsure = any(e.equilibrium.uncertain for e in search.equilibria)
         passed = not bad and (not unsure or on_uncertain == "pass")
-        text = (f"{len(bad)} equilibrium(s) not asymptotically stable: "
+        text = (f"{counted(len(bad), 'equilibrium', 'equilibria')} not asymptotically stable: "
                 + "; ".join(e.describe() for e in bad) if bad
                 else f"all asymptotically stable: {search.summary()}")
         return self._verdict(passed=passed, uncertain=unsure, measured=len(bad), threshold=0,

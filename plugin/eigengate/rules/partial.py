@@ -22,6 +22,7 @@ spectrum", never passes unseen.
 
 from __future__ import annotations
 
+from ..errors import counted
 from dataclasses import replace
 from typing import Any, Iterable, Sequence
 
@@ -80,7 +81,7 @@ def partial_verdict(req: Any, modes: Sequence[Any], spectrum: Any, policy: str) 
         t, (x0, x1, y0, y1) = gaps[0]
         return replace(v, passed=passed, uncertain=True, decided_by="uncertain",
                        message=f"no eigenvalue found where {where} beyond the modes listed, "
-                       f"but the search did not cover all of it: {len(gaps)} part(s) not "
+                       f"but the search did not cover all of it: {counted(len(gaps), 'part')} not "
                        f"searched, e.g. {x0:.6g} ≤ Re s ≤ {x1:.6g}, {y0:.6g} ≤ |Im s| ≤ "
                        f"{y1:.6g} ({t.describe()}); {label}; verdict "
                        f"{'passed' if passed else 'failed'} by the on_uncertain={policy} policy",

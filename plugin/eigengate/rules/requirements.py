@@ -13,6 +13,7 @@ threshold in 1/s or rad/s means the same thing for both kinds of model.
 from __future__ import annotations
 
 import math
+from ..errors import counted
 from dataclasses import dataclass
 from typing import Any, Callable, Iterable, Sequence
 
@@ -164,7 +165,7 @@ class Stability(Requirement):
         measured = spectrum.spectral_radius if discrete else abscissa
         parts = []
         if unstable:
-            parts.append(f"{sum(m.count for m in unstable)} unstable eigenvalue(s), worst "
+            parts.append(f"{counted(sum(m.count for m in unstable), 'unstable eigenvalue')}, worst "
                          + unstable[0].describe())
         if defective:
             parts.append(f"defective eigenvalue on the stability boundary ({defective[0].describe()}):"
@@ -180,7 +181,7 @@ class Stability(Requirement):
             decided = (f"verdict {'passed' if passed else 'failed'} by the "
                        f"on_uncertain={on_uncertain} policy") if not certain else \
                 "the verdict fails for the reasons above"
-            parts.append(f"{sum(m.count for m in inexact)} eigenvalue(s) within their numerical "
+            parts.append(f"{counted(sum(m.count for m in inexact), 'eigenvalue')} within the numerical "
                          f"uncertainty of the boundary (±{_fmt(max(m.uncertainty for m in inexact))}"
                          f" 1/s), worst {inexact[0].describe()}: could be {could}, not decided; "
                          + decided)

@@ -29,6 +29,7 @@ from typing import Any, Callable, Mapping, Sequence
 
 from ..analysis.equilibrium import side
 from ..errors import ModelError
+from ..errors import counted
 from .applicability import not_evaluable
 from .catalogue import Figure, Verdict
 from .requirements import Requirement
@@ -92,7 +93,7 @@ class _RobustRequirement(Requirement):
         if bad:
             where = "outside the unit circle" if model.discrete else "in the right half-plane"
             n_out = sum(m.count for m in bad if side(m) > 0)
-            text = (f"the model is unstable ({n_out} eigenvalue(s) {where})" if n_out else
+            text = (f"the model is unstable ({counted(n_out, 'eigenvalue')} {where})" if n_out else
                     "the model is not asymptotically stable (eigenvalues on or within their "
                     "uncertainty of the stability boundary)")
             value = self._unstable_value()

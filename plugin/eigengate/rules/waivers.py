@@ -22,7 +22,7 @@ if TYPE_CHECKING:  # pragma: no cover
     from .findings import Finding
 
 __all__ = ["Waiver", "parse_waivers", "today", "split_waived", "waiver_findings",
-           "scope_checked", "WAIVER_KEYS", "CONFIG_WAIVER_KEYS"]
+           "scope_checked", "WAIVER_KEYS", "CONFIG_WAIVER_KEYS", "WARNING_DAYS"]
 
 WAIVER_KEYS = ("rule", "reason", "expires", "label")
 CONFIG_WAIVER_KEYS = ("rule", "reason", "expires", "label", "paths", "model")
@@ -55,6 +55,18 @@ class Waiver:
 
     def expired(self, on: _dt.date) -> bool:
         return self.expires is not None and self.expires < on
+
+    def expiring(self, on: _dt.date, days: int) -> bool:
+        """Live on ``on`` but expires within ``days`` days."""
+        return self.expires is not None and not self.expired(on) and \
+            (self.expires - on).days <= days
+
+    def note(self, on: _dt.date) -> str:
+        """``until 2027-03-31 (models/x.yaml:14)``, ``expired on …``, or ``no expiry (…)``."""
+        if self.expires is None:
+            return f"no expiry ({self.origin})"
+        word = "expired on" if self.expired(on) else "until"
+        return f"{word} {self.expires.isoformat()} ({self.origin})"
 
 
 def today() -> _dt.date:
@@ -147,16 +159,29 @@ def parse_waivers(raw: Any, source: str, prefix: str = "waivers",
 
 def split_waived(findings: Iterable["Finding"], waivers: Sequence[Waiver], on: _dt.date
                  ) -> tuple[list["Finding"], list[tuple["Finding", Waiver]]]:
-    """Separate the findings covered by a live (unexpired) waiver from the rest."""
+    """Separate the findings covered by a live (unexpired) waiver from the rest. A finding that
+    only an expired waiver covers is kept with that waiver's note (expiry and line)."""
     kept, waived = [], []
     live = [w for w in waivers if not w.expired(on)]
+    dead = [w for w in waivers if w.expired(on)]
     for f in findings:
         w = next((w for w in live if w.covers(f)), None)
-        if w is None or f.rule in ("EG001", "EG002", "EG003"):
+        if f.rule in _OWN_RULES:
             kept.append(f)
+        elif w is None:
+            old = next((x for x in dead if x.covers(f)), None)
+            kept.append(f if old is None else replace(f, waiver_note=old.note(on)))
         else:
-            waived.append((replace(f, waived=w.reason), w))
+            waived.append((replace(f, waived=w.reason, waiver_note=w.note(on)), w))
     return kept, waived
+
+
+#: Findings about waivers and files themselves, which no waiver can waive.
+_OWN_RULES = ("EG001", "EG002", "EG003", "EG006")
+
+#: Days before its expiry that a waiver is reported (EG006), unless the policy says otherwise
+#: (``waiver_warning_days``).
+WARNING_DAYS = 30
 
 
 def scope_checked(waiver: Waiver, checked: Iterable[str], complete: bool,
@@ -181,10 +206,11 @@ def scope_checked(waiver: Waiver, checked: Iterable[str], complete: bool,
 
 
 def waiver_findings(waivers: Sequence[Waiver], used: Iterable[Waiver], on: _dt.date,
-                    model: str = "", judged: Callable[[Waiver], bool] | None = None
-                    ) -> list["Finding"]:
-    """EG002 for every expired waiver, EG003 for every live waiver that covered nothing;
-    with ``judged``, EG003 only for waivers it accepts (see :func:`scope_checked`)."""
+                    model: str = "", judged: Callable[[Waiver], bool] | None = None,
+                    warning_days: int = WARNING_DAYS) -> list["Finding"]:
+    """EG002 for every expired waiver, EG003 for every live waiver that covered nothing
+    (with ``judged``, only for waivers it accepts, see :func:`scope_checked`), EG006 for every
+    live waiver that expires within ``warning_days`` days."""
     from .findings import Finding
     from .catalogue import RULES
 
@@ -202,8 +228,22 @@ def waiver_findings(waivers: Sequence[Waiver], used: Iterable[Waiver], on: _dt.d
                        "remove it if the problem is gone")
             sev = "warning"
         else:
-            continue
-        out.append(Finding(rule=rule.id, name=rule.name, severity=sev, source=w.source,
-                           line=w.line, model=w.model or model, label=w.label, message=message,
-                           requirement=f"waiver of {w.rule}"))
+            rule = None
+        if rule is not None:
+            out.append(Finding(rule=rule.id, name=rule.name, severity=sev, source=w.source,
+                               line=w.line, model=w.model or model, label=w.label,
+                               message=message, requirement=f"waiver of {w.rule}",
+                               waiver_note=w.note(on)))
+        if w.expiring(on, warning_days):
+            days = (w.expires - on).days if w.expires is not None else 0
+            rule = RULES["EG006"]
+            when = "today" if days == 0 else f"in {days} day{'' if days == 1 else 's'}"
+            out.append(Finding(
+                rule=rule.id, name=rule.name, severity="warning", source=w.source,
+                line=w.line, model=w.model or model, label=w.label,
+                message=f"waiver of {w.rule} expires {when}, on {w.expires.isoformat()} "
+                        f"(reason given: {w.reason}); after that the finding it covers fails "
+                        "the check again",
+                requirement=f"waiver of {w.rule}", waiver_note=w.note(on),
+                suggestion="fix the finding, or extend the waiver's expires date after review"))
     return out

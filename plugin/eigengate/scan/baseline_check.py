@@ -16,7 +16,8 @@ if TYPE_CHECKING:  # pragma: no cover
     from ..baseline.regressions import Comparison, Outcome
 
 __all__ = ["reference_baseline", "compare_files", "compare_result", "with_regressions",
-           "accept", "accept_command", "stale_entries", "inputs_reader", "entry_of"]
+           "accept", "accept_command", "stale_entries", "inputs_reader", "entry_of",
+           "accept_paths"]
 
 
 def inputs_reader(config: "Config"):
@@ -210,10 +211,52 @@ def accept(files: Sequence["FileResult"], config: "Config", *, complete: bool
                         written=any(p.written for p in parts))
 
 
-def accept_command(paths: Sequence[str], config_flag: str | None = None) -> str:
-    """The exact command that accepts what was just checked."""
+def accept_paths(paths: Sequence[str], files: Sequence["FileResult"], root: str | Path
+                 ) -> list[str] | None:
+    """The paths of a check that ``eigengate baseline accept`` takes and accepts without an
+    error: folders as given (or, where one holds a model file that did not load, the files of
+    it that did), and the named files that were checked and loaded; None when nothing
+    checked can be accepted. Non-model files, deleted files and broken model files are left
+    out (the accept command refuses a missing path and fails on a broken file)."""
+    import os
+
+    base = os.path.realpath(root)
+
+    def rel(p: str) -> str:
+        return os.path.relpath(os.path.realpath(p), base).replace(os.sep, "/")
+
+    loaded = sorted(fr.source for fr in files if fr.error is None and fr.results)
+    named = {rel(p) for p in paths if not os.path.isdir(p)}  # left out below when broken
+    broken = {fr.source for fr in files if fr.error is not None} - named
+    keep: list[str] = []
+    for p in paths:
+        here = rel(p)
+        if os.path.isdir(p):
+            inside = (lambda s: True) if here == "." else \
+                (lambda s, h=here: s.startswith(h + "/"))
+            if any(inside(s) for s in broken):
+                keep += [os.path.relpath(os.path.join(base, s)) for s in loaded if inside(s)]
+            else:
+                keep.append(p)
+        elif os.path.isfile(p) and here in loaded:
+            keep.append(p)
+    if paths and not keep:
+        return None
+    return list(dict.fromkeys(keep))
+
+
+def accept_command(paths: Sequence[str], config_flag: str | None = None, *,
+                   files: Sequence["FileResult"] | None = None,
+                   root: str | Path | None = None) -> str | None:
+    """The exact command that accepts what was just checked (with ``files`` and ``root``:
+    only what :func:`accept_paths` keeps; None when that is nothing)."""
     import shlex
 
+    if files is not None and root is not None:
+        kept = accept_paths(paths, files, root)
+        if kept is None:
+            return None
+        paths = kept
     parts = ["eigengate", "baseline", "accept"]
     if config_flag:
         parts += ["--config", config_flag]

@@ -28,6 +28,7 @@ verdict. Keys::
     paths = ["models/legacy/**"]
     reason = "legacy airframe, replaced in the next release"
     expires = 2027-06-30
+    # waiver_warning_days = 30        # (top level) report a waiver this close to its expiry
 
 Requirement layers apply in order: repository defaults, each matching override, the model
 file's own ``requirements:``; each layer replaces rules of the same id and may switch one off
@@ -60,7 +61,7 @@ __all__ = ["Config", "ConfigError", "Override", "load_config", "find_config", "C
 
 CONFIG_KEYS = ("include", "exclude", "on_uncertain", "require", "select", "ignore",
                "requirements", "severity", "overrides", "waivers", "allow_python", "baseline",
-               "allowed_drift", "extend", "cluster")
+               "allowed_drift", "extend", "cluster", "waiver_warning_days")
 OVERRIDE_KEYS = ("paths", "requirements", "on_uncertain", "require", "allowed_drift")
 SEVERITIES = ("error", "warning", "off")
 #: The Dask comm schemes an address may name.
@@ -113,6 +114,7 @@ class Config:
     overrides: tuple[Override, ...] = ()
     waivers: tuple["Waiver", ...] = ()
     allow_python: bool = False
+    waiver_warning_days: int = 30  # EG006: a waiver this close to its expiry is reported
     baseline: str = ".eigengate/baseline.json"  # repository-relative path of the baseline
     allowed_drift: Mapping[str, Any] | None = None
     cluster: str | None = None  # a Dask scheduler's address (the command line's executor)
@@ -394,6 +396,13 @@ def parse_config(table: Mapping[str, Any], *, root: Path, source: str | None = "
             raise ConfigError(shown, "allow_python",
                               f"must be true or false, got {table['allow_python']!r}")
         kw["allow_python"] = table["allow_python"]
+    if "waiver_warning_days" in table:
+        days = table["waiver_warning_days"]
+        if isinstance(days, bool) or not isinstance(days, int) or not 0 <= days <= 3660:
+            raise ConfigError(shown, "waiver_warning_days",
+                              f"must be a whole number of days from 0 to 3660, got {days!r}",
+                              "0 reports no waiver before it expires; the default is 30")
+        kw["waiver_warning_days"] = days
     if "requirements" in table:
         kw["requirements"] = _layer(table["requirements"], shown, "requirements")
     if "severity" in table:
@@ -502,7 +511,8 @@ def _nest(kw: dict[str, Any], base: str, source: str) -> None:
 def _inherit(kw: dict[str, Any], parent: Config) -> None:
     """``extend = true``: what the policy does not set comes from its parent; requirements
     and overrides layer on the parent's; include, exclude, waivers and baseline stay its own."""
-    for key in ("on_uncertain", "require", "select", "ignore", "allow_python", "allowed_drift"):
+    for key in ("on_uncertain", "require", "select", "ignore", "allow_python", "allowed_drift",
+                "waiver_warning_days"):
         kw.setdefault(key, getattr(parent, key))
     kw["severity"] = {**parent.severity, **kw.get("severity", {})}
     kw["overrides"] = parent.overrides + tuple(kw.get("overrides", ()))

@@ -100,12 +100,14 @@ def file_result(source: str, results: Sequence[ModelResult], error: ModelError |
     first = results[0].model
     findings = tuple([f for r in results for f in r.findings])
     if first.waivers:
-        from ..rules.waivers import today, waiver_findings
+        from ..rules.waivers import WARNING_DAYS, today, waiver_findings
 
         on = on or today()
+        days = config.policy_for(source).waiver_warning_days if config is not None else \
+            WARNING_DAYS
         findings += tuple(waiver_findings(first.waivers,
                                           [w for r in results for w in r.used_waivers], on,
-                                          model=first.name))
+                                          model=first.name, warning_days=days))
     return FileResult(source=source, results=results, findings=findings)
 
 
@@ -204,4 +206,5 @@ def policy_findings(config: "Config", results: Sequence[FileResult],
 
     # each policy's own waivers (a nested policy's are resolved within its folder)
     return [f for policy in config.policies()
-            for f in waiver_findings(policy.waivers, used, on or today(), judged=judged)]
+            for f in waiver_findings(policy.waivers, used, on or today(), judged=judged,
+                                     warning_days=policy.waiver_warning_days)]
