@@ -190,7 +190,7 @@ def test_known_integrator_beside_a_stable_mode_is_set_aside_plainly():
     assert result.passed
     eq = result.equilibrium
     assert eq.type == "stable-node" and eq.stable == 1 and eq.center == 0
-    assert "1 declared known eigenvalue(s) set aside" in eq.describe()
+    assert "1 declared known eigenvalue set aside" in eq.describe()
 
 
 # ------------------------------------------------------------ extreme periods and magnitudes

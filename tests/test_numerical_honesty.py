@@ -303,7 +303,7 @@ def test_rigid_body_mode_declared_known_is_excluded():
     # the origin's type sets the declared double zero aside, and says so
     eq = result.equilibrium
     assert eq.stable == 2 and eq.center == 0
-    assert "2 declared known eigenvalue(s) set aside" in eq.describe()
+    assert "2 declared known eigenvalues set aside" in eq.describe()
 
 
 def test_known_mode_that_is_not_there_fails():

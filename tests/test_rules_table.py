@@ -17,6 +17,7 @@ CONTRACT = {
     "EG003": ("unused-waiver", "waivers", ""),
     "EG004": ("unselected-model-file", "include", ""),
     "EG005": ("no-requirement", "requirements", ""),
+    "EG006": ("expiring-waiver", "waivers", ""),
     "EG101": ("asymptotic-stability", "stable", "1/s"),
     "EG102": ("decay-rate", "min_decay_rate", "1/s"),
     "EG103": ("damping-ratio", "min_damping", ""),

@@ -56,7 +56,8 @@ def test_split_keeps_order_and_uses_the_first_live_waiver():
     kept, waived = split_waived(fs, [expired, first, second], ON)
     assert kept == [fs[0], fs[2]]
     ((f, w),) = waived
-    assert w is first and f == Finding(**{**fs[1].__dict__, "waived": "first"})
+    assert w is first and f == Finding(**{**fs[1].__dict__, "waived": "first",
+                                          "waiver_note": "no expiry (models/arm.yaml:9)"})
 
 
 def test_waiver_findings_in_full():
@@ -67,11 +68,13 @@ def test_waiver_findings_in_full():
         Finding(rule="EG003", name="unused-waiver", severity="warning",
                 source="models/arm.yaml", line=9, model="arm", label="hover",
                 message="waiver of EG101 matched no finding (reason given: gone); remove it "
-                        "if the problem is gone", requirement="waiver of EG101"),
+                        "if the problem is gone", requirement="waiver of EG101",
+                waiver_note="no expiry (models/arm.yaml:9)"),
         Finding(rule="EG002", name="expired-waiver", severity="error",
                 source="models/arm.yaml", line=9, model="mast", label=None,
                 message="waiver of EG104 expired on 2026-11-30 (reason given: late); the "
-                        "finding it covered is reported again", requirement="waiver of EG104")]
+                        "finding it covered is reported again", requirement="waiver of EG104",
+                waiver_note="expired on 2026-11-30 (models/arm.yaml:9)")]
     # the model's name is the default only: no model given, none named
     assert waiver_findings([unused], [], ON)[0].model == ""
 

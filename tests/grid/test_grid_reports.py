@@ -57,7 +57,7 @@ def test_text_and_markdown_show_the_failing_point_in_a_short_table(result):
     assert text.count("hoist[") == 1  # one block: the failing point's
     md = render_markdown([result])
     assert "| speed=4,load=0 | FAILED |" in md
-    assert md.count("| hoist (speed (4) × load (3) grid, 12 points) |") == 1
+    assert md.count("## Operating-point grids (1)") == 1  # the grid's own table, once
 
 
 def test_json_lists_every_point_and_validates(result):

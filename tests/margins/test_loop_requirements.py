@@ -43,7 +43,7 @@ def test_unstable_closed_loop_fails_before_any_margin():
     v = verdicts(doc)
     for rule in ("EG301", "EG302"):
         assert not v[rule].passed and v[rule].measured == "unstable"
-        assert "closed loop is unstable (2 closed-loop pole(s) in the right half-plane" \
+        assert "closed loop is unstable (2 closed-loop poles in the right half-plane" \
             in v[rule].message
 
 

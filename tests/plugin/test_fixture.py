@@ -32,7 +32,7 @@ def test_keyword_style_passes_and_fails_with_a_readable_report(project):
         # ζ = 0.1 against 0.3: margin 0.1 - 0.3 = -0.2 (standard form above)
         "E*1 mode violates damping ratio ≥ 0.3: worst 0.1 (margin -0.2)",
         "E*hint: passes with min_damping ≤ 0.1",
-        "E*mode 1",
+        "E*angle-rate mode",
         "E*EG103 damping-ratio 0.1 (threshold 0.3, margin -0.2)",
         # τ = 1/(ζωn) = 5 s; the two participation factors of a two-state oscillatory mode
         # have equal magnitude (standard modal-analysis result), so each state has half

@@ -52,12 +52,12 @@ def test_one_entry_per_mode_leads_with_name_and_figure(text):
     assert r"- **EG103 damping-ratio** (line 8, min\_damping: 0.3): 1 mode violates" in osc
     # ζ = 0.1 against 0.3: margin -0.2; the pair -ζωn ± jωn√(1-ζ²) = -0.2 ± 1.98997j, τ = 5 s
     # (second-order standard form, see conftest.py)
-    assert "- **mode 1**: EG103 damping-ratio 0.1 (threshold 0.3, margin -0.2)\n" \
+    assert "- **angle-rate mode**: EG103 damping-ratio 0.1 (threshold 0.3, margin -0.2)\n" \
            "  - eigenvalue -0.2±1.98997j · ωn 2 rad/s · ζ 0.1 · τ 5 s · states angle 0.50, " \
            "rate 0.50\n" in osc
     details = osc.split("<details>", 1)[1].split("</details>", 1)[0]
     assert "decided: certified" in details and "hint: passes with min\\_damping ≤ 0.1" in details
-    assert "mode 1: error bound " in details and "condition number " in details
+    assert "angle-rate mode: error bound " in details and "condition number " in details
 
 
 def test_warnings_and_waivers_one_line_each(text):
@@ -78,9 +78,9 @@ def test_accept_command_only_when_something_regressed(results, text):
     assert f"accept them after review: `{ACCEPT}`" in out
     assert "— fails its requirements and regressed from the baseline" in out
     # one entry for the mode both findings name, the baseline's mode in the detail view
-    assert out.count("- **mode 1**:") == 1
+    assert out.count("- **angle-rate mode**:") == 1
     assert "EG203 damping-regressed 0.1 (baseline 0.3, margin -0.2)" in out
-    assert "- mode 1 in the baseline: eigenvalue -0.2±1.98997j" in out
+    assert "- angle-rate mode in the baseline: eigenvalue -0.2±1.98997j" in out
     assert f.modes
 
 

@@ -119,7 +119,7 @@ def test_unstable_and_marginal_models_fail_before_any_figure():
                    "max_pseudospectral_abscissa": {"epsilon": 1e-9, "max": 100.0}})
     assert not any(x.passed for x in v.values())
     assert v["EG110"].measured == 0.0 and math.isinf(v["EG111"].measured)
-    assert "unstable (1 eigenvalue(s) in the right half-plane)" in v["EG110"].message
+    assert "unstable (1 eigenvalue in the right half-plane)" in v["EG110"].message
     marginal = _verdicts([[0.0, 1.0], [-1.0, 0.0]], {"min_stability_radius": 1e-6})["EG110"]
     assert not marginal.passed and "not asymptotically stable" in marginal.message
 

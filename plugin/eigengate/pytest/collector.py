@@ -410,7 +410,7 @@ class BaselineTally:
         files = [] if gone else sorted({shown_path(policy.root / source, here)
                                         for (source, _), _ in stale})
         return self._lines(policy.baseline, stale, accept=accept_command(paths, options),
-                           remove=cli_accept_command(files, config_flag))
+                           remove=cli_accept_command(files, config_flag) or "")
 
     def _lines(self, baseline_shown: str, stale: Sequence[tuple[tuple[str, str], str]], *,
                accept: str, remove: str) -> list[str]:

@@ -66,8 +66,11 @@ def failure_report(what: str, failures: Sequence[tuple], checked: int) -> str:
     for result, errors, origin, _ in failures:
         lines.append(model_lines(result, verbose=False)[0])
         # a finding that names modes has its figures at the head of each mode's block
-        lines.extend(findings_lines(errors, result.model.discrete, extra=lambda f: [] if (
-            f.modes or _measured_line(f) is None) else [_measured_line(f)]))
+        def measured(f: Any) -> list[str]:
+            line = None if f.modes else _measured_line(f)
+            return [] if line is None else [line]
+
+        lines.extend(findings_lines(errors, result.model.discrete, extra=measured))
         stated = ", ".join(f"{v.requirement} ({origin.get(v.rule) or 'given'})"
                            for v in result.verdicts if v.rule in origin)
         lines.append(f"  checked: {stated}")
@@ -85,7 +88,7 @@ def result_record(result: "ModelResult", verdict: str) -> dict[str, Any]:
     from ..reports.text import mode_block
 
     m, sp = result.model, result.spectrum
-    findings = []
+    findings: list[dict[str, Any]] = []
     for f in result.findings:
         findings.append({"severity": f.severity, "rule": f.rule, "name": f.name,
                          "requirement": f.requirement, "message": f.message, "line": f.line,

@@ -219,7 +219,7 @@ def waiver_findings(waivers: Sequence[Waiver], used: Iterable[Waiver], on: _dt.d
     for w in waivers:
         if w.expires is not None and w.expired(on):
             rule = RULES["EG002"]
-            message = (f"waiver of {w.rule} expired on {w.expires.isoformat()} "
+            message = (f"waiver of {w.rule} expired on {w.expires} "
                        f"(reason given: {w.reason}); the finding it covered is reported again")
             sev = "error"
         elif id(w) not in used_ids and (judged is None or judged(w)):
@@ -241,7 +241,7 @@ def waiver_findings(waivers: Sequence[Waiver], used: Iterable[Waiver], on: _dt.d
             out.append(Finding(
                 rule=rule.id, name=rule.name, severity="warning", source=w.source,
                 line=w.line, model=w.model or model, label=w.label,
-                message=f"waiver of {w.rule} expires {when}, on {w.expires.isoformat()} "
+                message=f"waiver of {w.rule} expires {when}, on {w.expires} "
                         f"(reason given: {w.reason}); after that the finding it covers fails "
                         "the check again",
                 requirement=f"waiver of {w.rule}", waiver_note=w.note(on),
