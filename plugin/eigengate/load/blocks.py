@@ -98,7 +98,7 @@ def build_model(doc: Mapping[str, Any], ctx: _Ctx, name: str, label: str | None)
                                                                               requirements,
                                                                               box is not None),
                                allowed_drift=drift, require=require, parameters=box,
-                               file_inputs=ModelInputs.linear(doc, ctx))
+                               file_inputs=ModelInputs.linear(doc, ctx, _loop_matrices))
 
 
 def _loop(doc: Mapping[str, Any], ctx: _Ctx, parts: list[dict[str, Any]],

@@ -6,7 +6,7 @@ Public API::
     ModelInputs.records() -> tuple[InputBlock, ...]
     ModelInputs.line_of(block, index) -> int | None
     ModelInputs.realise({block: array}) -> (A, E)
-    inputs_by_title(path, root=None, *, allow_python=False) -> {title: ModelInputs}
+    loader.inputs_by_title(path, root=None, *, allow_python=False) -> {title: ModelInputs}
 
 The loader attaches one to every model it builds (``Model.file_inputs``) and keeps only references
 to what it read (the operating point's merged document and its load context): nothing is
@@ -15,18 +15,17 @@ computed until a baseline is written (:meth:`records`) or a regression is explai
 with some blocks replaced, through the loader's own code (transfer functions realised, loops
 closed, vector fields linearised at the same point), so a sensitivity computed from it is
 that of the matrices the model is analysed with. A result that comes back from the cache or a
-worker process has no inputs; :func:`inputs_by_title` reads its file again.
+worker process has no inputs; :func:`eigengate.load.loader.inputs_by_title` reads its file again.
 """
 
 from __future__ import annotations
 
 import dataclasses
-import os
-from typing import Any, Mapping
+from typing import Any, Callable, Mapping
 
 from ..baseline.inputs import InputBlock, block_of
 
-__all__ = ["ModelInputs", "inputs_by_title"]
+__all__ = ["ModelInputs"]
 
 _SS = ("A", "B", "C", "D", "E")
 _SECOND_ORDER = ("M", "D", "K", "F", "Cq", "Cv")
@@ -36,13 +35,16 @@ class ModelInputs:
     """The input blocks of one model (see the module text)."""
 
     def __init__(self, kind: str, ctx: Any, doc: Mapping[str, Any] | None = None,
-                 point: Any = None) -> None:
+                 point: Any = None, form: Callable[[Any, Any], tuple[Any, Any]] | None = None
+                 ) -> None:
         self.kind, self._ctx, self._doc, self._point = kind, ctx, doc, point
+        self._form = form  # (doc, ctx) -> (A, E): the loader's own closed-loop formation
         self._blocks: dict[str, tuple[tuple, Any, str | None]] | None = None
 
     @classmethod
-    def linear(cls, doc: Mapping[str, Any], ctx: Any) -> "ModelInputs":
-        return cls("linear", ctx, doc=doc)
+    def linear(cls, doc: Mapping[str, Any], ctx: Any,
+               form: Callable[[Any, Any], tuple[Any, Any]]) -> "ModelInputs":
+        return cls("linear", ctx, doc=doc, form=form)
 
     @classmethod
     def field(cls, point: Any, ctx: Any) -> "ModelInputs":
@@ -161,15 +163,14 @@ class ModelInputs:
                 params[blocks[name][0][1]] = float(np.asarray(v).reshape(()))
             a, _, _ = jacobians(dataclasses.replace(p.field, parameters=params), p.x, p.u)
             return a, None
-        from .blocks import _loop_matrices
-
+        assert self._form is not None  # a linear model's inputs always carry it
         doc = _copy(self._doc)
         for name, (path, arr, file) in blocks.items():
             if name in values or file is not None:  # files read once, not once per call
                 v = values.get(name, arr)
                 _put(doc, path, v if getattr(v, "ndim", 2) == 2 or file is not None
                      else np.asarray(v).tolist())
-        a, e = _loop_matrices(doc, self._context())
+        a, e = self._form(doc, self._context())
         return a, e
 
 
@@ -199,11 +200,3 @@ def _put(doc: Any, path: tuple, value: Any) -> None:
         doc = doc[k]
     doc[path[-1]] = value
 
-
-def inputs_by_title(path: str | os.PathLike[str], root: str | os.PathLike[str] | None = None,
-                    *, allow_python: bool = False) -> dict[str, ModelInputs]:
-    """The inputs of every model of the file at ``path``, by title (the file read again)."""
-    from .loader import load_models
-
-    return {m.title: m.file_inputs for m in load_models(path, root, allow_python=allow_python)
-            if m.file_inputs is not None}

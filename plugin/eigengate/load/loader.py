@@ -18,7 +18,7 @@ from ..errors import ModelError
 from ..model.core import Model, sample_period_problem
 
 __all__ = ["FORMAT_VERSIONS", "TOP_KEYS", "load_models", "load_models_with_refs",
-           "load_models_from_bytes", "load_document", "find_root"]
+           "load_models_from_bytes", "load_document", "find_root", "inputs_by_title"]
 
 from .context import check_waiver_labels, label_shape, point_identity
 from .context import (  # noqa: F401 (re-exported: the loader's schema and helpers)
@@ -280,3 +280,11 @@ def _sample_period(block: Mapping[str, Any], domain: str, ctx: _Ctx, path: str) 
     if problem:
         raise ctx.err(path, problem)
     return float(value)
+
+
+def inputs_by_title(path: str | os.PathLike[str], root: str | os.PathLike[str] | None = None,
+                    *, allow_python: bool = False) -> dict[str, Any]:
+    """The inputs (:class:`~eigengate.load.inputs.ModelInputs`) of every model of the file at
+    ``path``, by title: the file read again, for a result from the cache or a worker."""
+    return {m.title: m.file_inputs for m in load_models(path, root, allow_python=allow_python)
+            if m.file_inputs is not None}

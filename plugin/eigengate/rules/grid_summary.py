@@ -13,10 +13,19 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any
+from typing import Any, Protocol, Sequence
 
-if TYPE_CHECKING:  # pragma: no cover
-    from .results import FileResult
+
+class _GridFile(Protocol):
+    """What a summary reads of a file's result (:class:`~eigengate.rules.results.FileResult`,
+    which holds the summary: a protocol here keeps the two modules out of a cycle)."""
+
+    @property
+    def source(self) -> str: ...
+    @property
+    def error(self) -> Any: ...
+    @property
+    def results(self) -> Sequence[Any]: ...
 
 __all__ = ["GridPoint", "GridSummary", "summarise_grid", "STATUS_ORDER", "MAX_DETAILED"]
 
@@ -126,7 +135,7 @@ def _rank(p: GridPoint) -> tuple:
     return (STATUS_ORDER.index(p.status), -p.errors, margin, -p.figure, p.position)
 
 
-def summarise_grid(fr: "FileResult") -> GridSummary | None:
+def summarise_grid(fr: _GridFile) -> GridSummary | None:
     """The grid summary of ``fr``, or None when its models are not the points of a grid."""
     results = fr.results
     coords = [r.model.grid for r in results]

@@ -33,7 +33,7 @@ def inputs_reader(config: "Config"):
         if getattr(model, "file_inputs", None) is not None:
             return model.file_inputs
         if model.source not in files:
-            from ..load.inputs import inputs_by_title
+            from ..load.loader import inputs_by_title
 
             try:
                 files[model.source] = inputs_by_title(config.root / model.source, config.root,
