@@ -20,7 +20,7 @@ from eigengate.analysis import modes
 
 def _general(a):
     with pytest.MonkeyPatch.context() as m:
-        m.setattr(modes, "_small_lapack", lambda A: None)
+        m.setattr(modes, "small_lapack", lambda A: None)
         return modes.analyse(from_arrays(a))
 
 
@@ -72,18 +72,18 @@ def test_small_path_matches_the_general_path(a):
 @given(_matrices())
 def test_small_lapack_calls_match_scipy(a):
     # reference: scipy.linalg.matrix_balance and scipy.linalg.eig(left=True, right=True)
-    small = modes._small_lapack(a)
+    small = modes.small_lapack(a)
     assert small is not None
     bal = small[0](a, scale=1, permute=0, overwrite_a=0)[0]
     ref_bal, _ = la.matrix_balance(a, permute=False, separate=True)
     assert bal.tobytes() == ref_bal.tobytes()
-    for x, y in zip(modes._small_eig(bal, small), la.eig(ref_bal, left=True, right=True)):
+    for x, y in zip(modes.small_eig(bal, small), la.eig(ref_bal, left=True, right=True)):
         assert x.dtype == y.dtype and x.tobytes() == y.tobytes()
 
 
 def test_general_path_above_the_small_order_and_for_non_finite_entries():
-    assert modes._small_lapack(np.eye(modes.SMALL_ORDER + 1)) is None
-    assert modes._small_lapack(np.array([[np.inf]])) is None
-    assert modes._small_lapack(np.eye(3, dtype=np.float32)) is None
+    assert modes.small_lapack(np.eye(modes.SMALL_ORDER + 1)) is None
+    assert modes.small_lapack(np.array([[np.inf]])) is None
+    assert modes.small_lapack(np.eye(3, dtype=np.float32)) is None
     with pytest.raises(ValueError):  # scipy's own refusal, as before
         la.matrix_balance(np.array([[np.nan, 1.0], [0.0, 1.0]]))

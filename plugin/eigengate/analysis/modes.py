@@ -22,7 +22,6 @@ LAPACK returned, nor on the sign of the imaginary parts.
 
 from __future__ import annotations
 
-import functools
 import math
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any, cast
@@ -30,6 +29,7 @@ from typing import TYPE_CHECKING, Any, cast
 from ..errors import ModelError
 from ..model.core import Model
 from .bounds import MAX_BLOCK, cap_defective, hoelder
+from .small_lapack import SMALL_ORDER, small_eig, small_lapack  # noqa: F401 (SMALL_ORDER: public)
 
 if TYPE_CHECKING:  # pragma: no cover
     import numpy as np
@@ -194,7 +194,6 @@ def _decompose(model: Model):
     the norm the bounds scale with, the number of infinite eigenvalues, whether the matrix
     was balanced, and the matrix (or finite pencil part) the eigenpairs belong to."""
     import numpy as np
-    import scipy.linalg as la
 
     A, E = model.A, model.E
     n = A.shape[0]
@@ -202,21 +201,27 @@ def _decompose(model: Model):
         norm_a = float(np.linalg.norm(A, 1))
         balanced = False
         work = A
-        small = _small_lapack(A)
+        small = small_lapack(A)
         if n > 1 and norm_a > 0:
             if small is not None:  # matrix_balance's own LAPACK call, without its wrapper
                 bal = small[0](A, scale=1, permute=0, overwrite_a=0)[0]
             else:
+                import scipy.linalg as la
+
                 bal, _ = la.matrix_balance(A, permute=False, separate=True)
             if np.linalg.norm(bal, 1) < 0.9 * norm_a:
                 work, balanced = bal, True
         if small is not None:
-            lam, vl, vr = _small_eig(work, small)
+            lam, vl, vr = small_eig(work, small)
         else:
+            import scipy.linalg as la
+
             lam, vl, vr = la.eig(work, left=True, right=True, check_finite=False)
         # Participation factors are invariant under diagonal scaling, and the error bounds
         # belong to the matrix LAPACK actually saw, so everything stays in balanced coordinates.
         return lam, vr, vl, vl, float(np.linalg.norm(work, "fro")), 0, balanced, work
+    import scipy.linalg as la
+
     norm_a = float(np.linalg.norm(A, "fro"))
     norm_e = float(np.linalg.norm(E, "fro"))
     ab, vl, vr = la.eig(A, E, left=True, right=True, homogeneous_eigvals=True,
@@ -243,59 +248,6 @@ def _decompose(model: Model):
     vr, vl = vr[:, finite], vl[:, finite]
     ew = E.conj().T @ vl  # E^H w: with it, w^H E v plays the role of w^H v
     return lam, vr, vl, ew, norm_a + norm_e, int((~finite).sum()), False, A
-
-
-#: Up to this order a float64 matrix is balanced and decomposed by calling the LAPACK
-#: routines that ``scipy.linalg.matrix_balance`` and ``scipy.linalg.eig`` call, with the
-#: same arguments, skipping their checks and dispatch (most of their time for small models).
-SMALL_ORDER = 32
-
-
-def _small_lapack(A: "np.ndarray") -> tuple | None:
-    """``(gebal, geev, lwork)`` for a finite float64 matrix up to SMALL_ORDER; None otherwise
-    (the general path, which also raises on non-finite entries as scipy does)."""
-    import numpy as np
-
-    n = A.shape[0]
-    if not (0 < n <= SMALL_ORDER and A.dtype == np.float64 and A.ndim == 2
-            and A.shape == (n, n) and np.isfinite(A).all()):
-        return None
-    return _lapack_for(n)
-
-
-@functools.lru_cache(maxsize=SMALL_ORDER)
-def _lapack_for(n: int) -> tuple | None:
-    import numpy as np
-    from scipy.linalg import get_lapack_funcs
-
-    try:
-        from scipy.linalg._decomp import _make_complex_eigvecs
-        from scipy.linalg.lapack import _compute_lwork
-    except ImportError:  # pragma: no cover - another scipy layout: the general path
-        return None
-    probe = np.zeros((n, n))
-    gebal, = get_lapack_funcs(("gebal",), (probe,))
-    geev, geev_lwork = get_lapack_funcs(("geev", "geev_lwork"), (probe,))
-    lwork = _compute_lwork(geev_lwork, n, compute_vl=True, compute_vr=True)
-    return gebal, geev, lwork, _make_complex_eigvecs
-
-
-def _small_eig(work: "np.ndarray", small: tuple):
-    """``scipy.linalg.eig(work, left=True, right=True, check_finite=False)`` for a real
-    float64 matrix, as scipy computes it (same routine, workspace and post-processing)."""
-    import numpy as np
-
-    _, geev, lwork, complex_vectors = small
-    wr, wi, vl, vr, info = geev(work, lwork=lwork, compute_vl=1, compute_vr=1, overwrite_a=0)
-    if info != 0:  # the general path raises scipy's own error
-        import scipy.linalg as la
-
-        return la.eig(work, left=True, right=True, check_finite=False)
-    w = wr + 1j * wi
-    if not np.all(w.imag == 0.0):
-        vl = complex_vectors(w, vl, w.dtype.char)
-        vr = complex_vectors(w, vr, w.dtype.char)
-    return w, vl, vr
 
 
 def analyse(model: Model) -> Spectrum:

@@ -143,10 +143,20 @@ def _fast_resolution(loader: Any, yaml: Any) -> None:
 def parse_yaml(text: str, source: str) -> tuple[Any, dict[str, int]]:
     import yaml
 
+    from .yaml_events import may_be_plain, plain_document
+
     try:  # the pure-Python reader checks the characters already here
         loader = _yaml_loader_class()(text)
     except yaml.reader.ReaderError as exc:
         raise _unprintable(exc, text, source) from None
+    if may_be_plain(text):  # the short road; anything it declines takes the full one
+        try:
+            plain = plain_document(loader)
+        finally:
+            loader.dispose()
+        if plain is not None:
+            return plain
+        loader = _yaml_loader_class()(text)
     try:
         try:
             node = loader.get_single_node()
