@@ -36,3 +36,11 @@ def test_public_names_resolve():
 
     for name in eigengate.__all__:
         assert getattr(eigengate, name) is not None
+
+
+def test_requirement_names_known_without_their_classes_agree_with_the_classes():
+    # a warm re-check validates cached records against the names without importing the
+    # requirement modules; the names must be exactly the classes' (checked here)
+    from eigengate.scan.records import REQUIREMENT_NAMES, requirement_classes
+
+    assert REQUIREMENT_NAMES == set(requirement_classes())

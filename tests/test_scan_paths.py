@@ -16,7 +16,9 @@ from support import cli_env, lift_axis, oscillator, write
 _GUARDED = """\
 import os, sys
 def heavy():
-    return sorted({m.split('.')[0] for m in sys.modules} & {'numpy', 'scipy'})
+    return sorted({m.split('.')[0] for m in sys.modules} & {'numpy', 'scipy'}) or sorted(
+        {m for m in sys.modules} & {'eigengate.analysis.modes', 'eigengate.scan.cluster',
+                                    'eigengate.rules.requirements'})
 def children():
     me, out = str(os.getpid()), []
     for pid in (p for p in os.listdir('/proc') if p.isdigit()):

@@ -181,7 +181,6 @@ def _normalise(argv: list[str]) -> list[str]:
 
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line; return the exit status."""
-    from .scan.cluster import ClusterError
     from .scan.config import ConfigError
 
     parser = _parser()
@@ -201,13 +200,13 @@ def main(argv: Sequence[str] | None = None) -> int:
     except ConfigError as exc:  # a nested policy, met during the scan
         print(f"eigengate: error: {exc}", file=sys.stderr)
         return Exit.USAGE
-    except ClusterError as exc:  # not installed, not reachable, no workers, connection lost
-        print(f"eigengate: error: {exc}", file=sys.stderr)
-        return Exit.USAGE
     except KeyboardInterrupt:  # pragma: no cover - interactive
         print("eigengate: interrupted", file=sys.stderr)
         return Exit.USAGE
     except Exception as exc:  # an eigengate bug: one line, the traceback on request
+        if _cluster_error(exc):  # not installed, not reachable, no workers, connection lost
+            print(f"eigengate: error: {exc}", file=sys.stderr)
+            return Exit.USAGE
         if os.environ.get("EIGENGATE_DEBUG"):
             raise
         print(f"eigengate: internal error: {type(exc).__name__}: {exc} (set EIGENGATE_DEBUG=1 "
@@ -444,7 +443,7 @@ def _check(args) -> int:
     if not files:
         print("eigengate: no model files found (configure [tool.eigengate] include, or name "
               "the files; a model file has a model_format key)", file=sys.stderr)
-    from .reports.plots import ReportDependencyError
+    from .reports.figures import ReportDependencyError
 
     try:
         for fmt, path in outputs:
@@ -468,7 +467,18 @@ def _check(args) -> int:
     return Exit.FINDINGS if failed else Exit.CLEAN
 
 
+def _cluster_error(exc: BaseException) -> bool:
+    """Whether ``exc`` is a ClusterError (only raised once scan.cluster was imported: a local
+    run does not import it)."""
+    cluster = sys.modules.get("eigengate.scan.cluster")
+    return cluster is not None and isinstance(exc, cluster.ClusterError)
+
+
 def _reference(config, against: str | None):
+    from .scan.baseline_check import has_baseline
+
+    if against is None and not has_baseline(config):
+        return None  # no baseline accepted yet: nothing to read (nor its modules to import)
     from .baseline.store import BaselineError
     from .scan.baseline_check import reference_baseline
     from .scan.gitrev import GitError

@@ -12,10 +12,12 @@ are the precise statement.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Iterable
+from typing import TYPE_CHECKING, Iterable
 
 from ..errors import counted
-from .modes import Mode
+
+if TYPE_CHECKING:  # pragma: no cover - the names of equilibria are read without numpy
+    from .modes import Mode
 
 __all__ = ["Equilibrium", "classify", "EQUILIBRIUM_TYPES"]
 

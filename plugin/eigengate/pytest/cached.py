@@ -43,12 +43,12 @@ class CollectCache:
 
     def _name(self, path: Path) -> str | None:
         from ..scan.runner import cache_name
+        from .collector import real_relative
 
-        root = os.path.realpath(self.policy.root)
-        real = os.path.realpath(path)
-        if os.path.commonpath([root, real]) != root:
+        rel = real_relative(path, self.policy.root)
+        if rel is None or rel == ".":
             return None  # outside the repository: not cached
-        return cache_name(self.policy, os.path.relpath(real, root).replace(os.sep, "/"))
+        return cache_name(self.policy, rel)
 
     def lookup(self, path: Path) -> tuple[str | None, "tuple[ModelResult, ...] | None"]:
         """``(key, results)``: the file's cache key and, on a hit, its cached pre-waiver

@@ -15,6 +15,7 @@ into the terminal summary's counts, stale entries and commands.
 
 from __future__ import annotations
 
+import functools
 import os
 import shlex
 from dataclasses import dataclass
@@ -50,10 +51,8 @@ class Selection:
     globs: tuple[str, ...] = ()
 
     def relative(self, path: Path) -> str | None:
-        try:
-            return path.resolve().relative_to(self.config.root.resolve()).as_posix()
-        except ValueError:
-            return None
+        """``path`` relative to the repository root, links resolved; None outside it."""
+        return real_relative(path, self.config.root)
 
     def wants(self, path: Path) -> bool:
         """Whether ``path`` (a file with a model suffix) is a selected model file."""
@@ -70,6 +69,23 @@ class Selection:
         except ConfigError as exc:  # a nested policy is wrong: stop, as for the root's
             raise pytest.UsageError(f"eigengate: {exc}") from None
         return not self.globs or any(glob_match(rel, g) for g in self.globs)
+
+
+@functools.lru_cache(maxsize=8)
+def _real_root(root: str) -> str:
+    return os.path.realpath(root)
+
+
+def real_relative(path: "Path | str", root: "Path | str") -> str | None:
+    """``path`` relative to ``root`` with links resolved (``/``-separated), None when it lies
+    outside; the root's resolution is kept (one per process)."""
+    base = _real_root(os.fspath(root))
+    real = os.path.realpath(path)
+    if real == base:
+        return "."
+    if not real.startswith(base.rstrip(os.sep) + os.sep):
+        return None
+    return real[len(base.rstrip(os.sep)) + 1:].replace(os.sep, "/")
 
 
 class ModelCheckFailed(Exception):

@@ -9,11 +9,13 @@ says so; when they are all the modes, it is classified from them, see
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Sequence
+from typing import TYPE_CHECKING, Sequence
 
 from ..analysis.equilibrium import side
-from ..analysis.modes import Mode, Spectrum
 from .catalogue import RULES, Verdict
+
+if TYPE_CHECKING:  # pragma: no cover
+    from ..analysis.modes import Mode, Spectrum
 
 __all__ = ["KnownMode", "split_known_modes", "known_modes_verdict"]
 

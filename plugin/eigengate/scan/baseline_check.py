@@ -55,19 +55,24 @@ def entry_of(result: "ModelResult", config: "Config", reader=None):
 def reference_baseline(config: "Config", against: str | None = None) -> "Baseline | None":
     """What to compare with: the models of git revision ``against``, else the stored baseline
     file, else None (no baseline accepted yet: nothing to compare)."""
-    from ..baseline.store import Baseline
-
     if against is not None:
         from .gitrev import revision_baseline
 
         return revision_baseline(against, config.root, config=config).baseline
-    path = config.baseline_path
-    if not path.is_file():
-        # a nested policy with a baseline of its own: compare (the others' models are new)
-        if any(p.baseline_path.is_file() for p in config.policies()[1:]):
-            return Baseline(path=str(path))
+    if not has_baseline(config):
         return None
+    from ..baseline.store import Baseline
+
+    path = config.baseline_path
+    if not path.is_file():  # a nested policy has one: compare (the others' models are new)
+        return Baseline(path=str(path))
     return Baseline.load(path)
+
+
+def has_baseline(config: "Config") -> bool:
+    """Whether the policy or a nested one has a baseline file."""
+    return config.baseline_path.is_file() or \
+        any(p.baseline_path.is_file() for p in config.policies()[1:])
 
 
 def _by_policy(files: Sequence["FileResult"], config: "Config"

@@ -125,14 +125,20 @@ class Config:
     inherited: tuple[Layer, ...] = ()  # requirement layers of the policies it extends
     #: folder (relative to root) → the policy that governs it; shared by a tree of policies
     _folders: dict = field(default_factory=dict, compare=False, repr=False)
+    #: repository-relative path → its policy (policy_for's answers: a scan asks for each
+    #: file several times)
+    _by_path: dict = field(default_factory=dict, compare=False, repr=False)
 
     # ------------------------------------------------------------------ nested policies
     def policy_for(self, rel: str) -> "Config":
         """The policy that judges repository-relative ``rel``: the nearest one at or above its
         folder (a folder with an eigengate.toml, or a pyproject.toml with [tool.eigengate])."""
-        import posixpath
+        got = self._by_path.get(rel)
+        if got is None:
+            import posixpath
 
-        return self._folder_policy(posixpath.dirname(rel.strip("/")))
+            got = self._by_path[rel] = self._folder_policy(posixpath.dirname(rel.strip("/")))
+        return got
 
     def _folder_policy(self, folder: str) -> "Config":
         import posixpath

@@ -14,20 +14,28 @@ import dataclasses
 import datetime as _dt
 import functools
 
-from ..rules import requirements as _requirements
 from ..rules.catalogue import Figure
 
-__all__ = ["record", "unrecord", "requirement_classes", "pictures_from"]
+__all__ = ["record", "unrecord", "requirement_classes", "pictures_from", "REQUIREMENT_NAMES"]
+
+#: The names of :func:`requirement_classes`, known without importing the classes (a warm
+#: re-check checks a cached model's records against them; tests check they agree).
+REQUIREMENT_NAMES = frozenset((
+    "Stability", "MinDecayRate", "MinDamping", "MaxFrequency", "PoleRegion", "EquilibriumType",
+    "NoSaddle", "DirectionCounts", "MinGainMargin", "MinPhaseMargin", "MinDelayMargin",
+    "MaxSensitivityPeak", "MinDiskMargin", "NoSaddleInBox", "EquilibriumAt", "EquilibriumCount",
+    "EquilibriaStable", "MinStabilityRadius", "MaxTransientGrowth", "MaxPseudospectralAbscissa",
+    "RobustOverRange"))
 
 
 @functools.lru_cache(maxsize=None)
 def requirement_classes() -> dict[str, type]:
     """The requirement classes a cached model may hold, by class name."""
     from ..rules import loop_requirements as lr
+    from ..rules import requirements as r
     from ..rules import robustness as rb
     from ..rules.robust_range import RobustOverRange
 
-    r = _requirements
     return {c.__name__: c for c in (r.Stability, r.MinDecayRate, r.MinDamping, r.MaxFrequency,
                                      r.PoleRegion, r.EquilibriumType, r.NoSaddle,
                                      r.DirectionCounts, lr.MinGainMargin, lr.MinPhaseMargin,
@@ -71,6 +79,8 @@ def _picture_classes() -> dict[str, type]:
 
 def pictures_from(items) -> tuple:
     """A result's plot data from its records (``[[class name, record], ...]``)."""
+    if items == []:  # the common case: no classes to import
+        return ()
     return _named_records(items, _picture_classes(), "pictures")
 
 

@@ -14,7 +14,7 @@ from __future__ import annotations
 import functools
 import json
 from collections.abc import Sequence
-from typing import Any, cast
+from typing import TYPE_CHECKING, Any, cast
 
 from .engine import ModelResult
 from ..analysis.equilibrium import Equilibrium
@@ -22,11 +22,13 @@ from ..errors import ModelError
 from ..analysis.naming import mode_name
 from ..rules.findings import Finding, ModeRow
 from ..rules.known_modes import KnownMode
-from .records import pictures_from, record, requirement_classes, unrecord
+from .records import REQUIREMENT_NAMES, pictures_from, record, requirement_classes, unrecord
 from ..model.core import Model
-from ..analysis.modes import Mode, Spectrum
 from ..rules.catalogue import Verdict
 from ..rules.waivers import Waiver
+
+if TYPE_CHECKING:  # pragma: no cover - a warm re-check that builds no mode imports neither
+    from ..analysis.modes import Spectrum
 
 __all__ = ["results_to_data", "results_from_data", "CachedSpectrum", "Blobs", "FORMAT"]
 
@@ -106,6 +108,8 @@ class _LazyModes(Sequence):
                 every = self._source._all()
                 self._built = tuple(every[i] for i in self._pick)
             else:
+                from ..analysis.modes import Mode
+
                 part = self._blobs.array(self._part)  # shapes checked by CachedSpectrum
                 rows = self._blobs.array(self._rows)
                 self._built = tuple(
@@ -174,6 +178,8 @@ class CachedSpectrum:
         self.modes = _LazyModes(blobs, rows, part, model.states, count)
 
     def eigenvalues(self) -> list[complex]:
+        from ..analysis.modes import Spectrum
+
         return Spectrum.eigenvalues(cast(Spectrum, self))  # same logic, reading self.modes
 
 
@@ -352,7 +358,7 @@ def _shape(shapes: list, index) -> tuple[int, int] | None:
 
 
 def _model_from(d: dict, blobs, shapes: list) -> CachedModel:
-    classes = requirement_classes()
+    classes = REQUIREMENT_NAMES  # the classes themselves are imported when first read
     if not all(type(r) is list and len(r) == 2 and r[0] in classes for r in d["requirements"]) \
             or type(d["known_modes"]) is not list:
         raise ValueError("model requirements are not records of known classes")
@@ -476,7 +482,7 @@ def _result_from(d: dict, blobs, shapes: list):
     verdicts = [unrecord(Verdict, v["v"], offending=spectrum.modes.subset(v["offending"]))
                 for v in d["verdicts"]]
     # CachedSpectrum stands in for a Spectrum: the same attributes, read lazily (duck typing)
-    return ModelResult(model=model, spectrum=cast(Spectrum, spectrum),
+    return ModelResult(model=model, spectrum=cast("Spectrum", spectrum),
                        equilibrium=unrecord(Equilibrium, d["equilibrium"]),
                        verdicts=tuple(verdicts),
                        findings=_findings_from(d["findings"], d["rows"], model.states, blobs),
