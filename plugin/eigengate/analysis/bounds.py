@@ -75,10 +75,10 @@ def estimate(A: "np.ndarray", E: "np.ndarray | None", lam: "np.ndarray", vr: "np
     norm_a = frobenius(A)
     norm_e = 1.0 if E is None else frobenius(E)
     floor = EST_FLOOR * math.sqrt(n + 1) * eps * (norm_a + np.abs(lam) * norm_e) * vnorm
+    wnorm = np.linalg.norm(vl, axis=0)
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        kappa = np.linalg.norm(vl, axis=0) * vnorm / dots
-        bound = EST_SAFETY * (np.linalg.norm(R, axis=0) + floor) * np.linalg.norm(vl, axis=0) \
-            / dots
+        kappa = wnorm * vnorm / dots
+        bound = EST_SAFETY * (np.linalg.norm(R, axis=0) + floor) * wnorm / dots
     kappa = np.where(np.isfinite(kappa), kappa, 1.0 / eps)
     bound = np.where(np.isfinite(bound), bound, np.inf)
     bound = np.maximum(bound, FIGURE_FLOOR * eps * np.abs(lam))

@@ -98,7 +98,13 @@ def _complex_vectors(w: "np.ndarray", vin: "np.ndarray") -> "np.ndarray":
     v = np.array(vin, dtype=w.dtype)
     m = w.imag > 0
     m[:-1] |= w.imag[1:] < 0  # scipy's guard against a LAPACK ordering slip (its ticket 709)
-    for i in np.flatnonzero(m):
+    first = np.flatnonzero(m)
+    if first.size and first[-1] + 1 < v.shape[1] and not np.any(np.diff(first) == 1):
+        # pairs that do not overlap (LAPACK's own layout): all at once, the same values
+        v.imag[:, first] = vin[:, first + 1]
+        v[:, first + 1] = np.conj(v[:, first])
+        return v
+    for i in first:
         v.imag[:, i] = vin[:, i + 1]
         np.conj(v[:, i], v[:, i + 1])
     return v
