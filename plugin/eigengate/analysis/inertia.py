@@ -69,10 +69,16 @@ def _abs_norm2(X: Any) -> float:
 
     if X.nnz == 0:
         return 0.0
-    a = abs(X)
-    one = float(np.asarray(a.sum(axis=0)).max())
-    inf = float(np.asarray(a.sum(axis=1)).max())
-    return math.sqrt(one * inf) * (1.0 + _gamma(2 * max(X.shape) + 8))
+    # sums of |entries| straight from the compressed arrays (no canonical copy: an entry
+    # stored twice only adds to the sums, which stay upper bounds)
+    a = np.abs(X.data)
+    indptr = X.indptr
+    starts = np.minimum(indptr[:-1], a.size - 1)
+    major = np.add.reduceat(a, starts)
+    major[indptr[1:] == indptr[:-1]] = 0.0
+    minor = np.bincount(X.indices, weights=a, minlength=X.shape[1 if X.format == "csr" else 0])
+    # no sum has more terms than X stores (duplicates included)
+    return math.sqrt(float(major.max()) * float(minor.max())) * (1.0 + _gamma(2 * X.nnz + 8))
 
 
 def gershgorin(S: Any) -> tuple[float, float]:
@@ -102,14 +108,16 @@ def ldlt_inertia(S: Any) -> Inertia | None:
         return None
     if not np.array_equal(lu.perm_r, lu.perm_c):
         return None
-    L, U = lu.L.tocsc(), lu.U.tocsc()
+    L, U = lu.L.tocsc(), lu.U.tocsr()
     d = U.diagonal()
     if not np.all(np.isfinite(d)) or not np.all(np.isfinite(L.data)) \
             or not np.all(np.isfinite(U.data)):
         return None
-    DLt = (sp.diags(d) @ L.T).tocsc()
+    # D·L̂ᵀ in CSR from L̂'s CSC arrays: row j of L̂ᵀ is column j of L̂, scaled by d_j
+    DLt = sp.csr_matrix((L.data * np.repeat(d, np.diff(L.indptr)), L.indices, L.indptr),
+                        shape=(L.shape[1], L.shape[0]))
     X = U - DLt
-    k = int(np.diff(L.tocsr().indptr).max()) + 1  # most terms of an inner product (a row of L)
+    k = int(np.bincount(L.indices).max()) + 1  # most terms of an inner product (a row of L)
     nl, nu = _abs_norm2(L), _abs_norm2(U)
     # ‖Δ‖ ≤ γ_k‖|L||U|‖ + ‖|L|‖(‖X̂‖ + rounding of X̂: one product and one difference)
     rho = _gamma(k) * nl * nu + nl * (_abs_norm2(X) + 2.0 * _U * (nu + _abs_norm2(DLt)))

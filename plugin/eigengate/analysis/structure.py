@@ -25,6 +25,7 @@ Each proof is a sentence for the verdict message; no proof, no claim.
 
 from __future__ import annotations
 
+import functools
 import math
 from typing import Any, Iterable
 
@@ -81,19 +82,20 @@ def companion_left(A: Any, E: Any) -> Any:
     return left
 
 
-def _sym_target(A: Any, E: Any, t: Any) -> str | None:
-    """The proof for a symmetric pencil that target ``t`` holds no eigenvalue."""
+def _sym_target(E: Any, t: Any, below: Any, above: Any) -> str | None:
+    """The proof for a symmetric pencil (A, E) that target ``t`` holds no eigenvalue
+    (``below``, ``above``: pencil_below and pencil_above of the pencil at c)."""
     what = "A − cE" if E is not None else "A − cI"
     law = (f"every eigenvalue is real (A symmetric{', E symmetric positive definite' if E is not None else ''}); "
            f"Sylvester's law of inertia: the LDLᵀ pivots of {what} (no pivoting, residual "
            "bounded) are all negative")
     if t.kind == "right" or (t.kind == "sector" and 0.0 <= t.value < 1.0):
         c = t.value if t.kind == "right" else 0.0
-        if pencil_below(A, E, c):
+        if below(c):
             return f"{law} at c = {c:.6g}, so every eigenvalue is below {c:.6g}"
         return None
     if t.kind == "outside" and t.value > 0:
-        if pencil_below(A, E, t.value) and pencil_above(A, E, -t.value):
+        if below(t.value) and above(-t.value):
             return (f"{law} at c = {t.value:.6g} and positive at c = {-t.value:.6g}, so every "
                     f"eigenvalue lies strictly between them")
     return None
@@ -180,8 +182,12 @@ def prove(A: Any, E: Any, targets: Iterable[Any], symmetric: bool,
                 out.append((t, why))
         return tuple(out)
     if symmetric:
+        # several targets often share a shift (stable and min_damping both at c = 0): each
+        # LDLᵀ count is made once
+        below = functools.lru_cache(maxsize=None)(lambda c: pencil_below(A, E, c))
+        above = functools.lru_cache(maxsize=None)(lambda c: pencil_above(A, E, c))
         for t in targets:
-            why = _sym_target(A, E, t)
+            why = _sym_target(E, t, below, above)
             if why:
                 out.append((t, why))
         return tuple(out)

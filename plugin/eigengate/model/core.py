@@ -172,6 +172,7 @@ def as_matrix(
             arr = arr.reshape(1, -1)
         elif arr.ndim != 2:
             raise bad(f"must be a 2-D matrix, got a {arr.ndim}-D array of shape {arr.shape}")
+        arr = np.array(arr, dtype=float, copy=True)
     else:
         rows = _rows_of(value, bad, allow_vector)
         width = len(rows[0]) if rows else 0
@@ -191,9 +192,10 @@ def as_matrix(
                     kind = "complex" if isinstance(entry, complex) else type(entry).__name__
                     raise bad(f"must hold real numbers, entry ({i + 1},{j + 1}) is "
                               f"{entry!r} ({kind})")
-        arr = np.array(rows, dtype=float).reshape(len(rows), width)
-    arr = np.array(arr, dtype=float, copy=True)
-    if arr.size:
+        arr = np.array(rows, dtype=float).reshape(len(rows), width)  # a new array already
+    # one reduction in the usual case (NaN fails the comparison too); the checks below run
+    # only to name the first bad entry
+    if arr.size and not np.abs(arr).max() <= MAX_MAGNITUDE:
         finite = np.isfinite(arr)
         if not finite.all():
             i, j = np.argwhere(~finite)[0]
