@@ -10,7 +10,8 @@
   processes at once against the whole script in one: target ≥ 0.9 × the ceiling;
 * ``pytest`` with the collector (cold: cache removed; warm: the cache of the cold run)
   against a parametrised pytest file that checks each model with python-control
-  (``ss``, ``poles``, ``damp``): target ≤ 0.35× (warm).
+  (``ss``, ``poles``, ``damp``): target ≤ 0.35× (warm); beside it, pytest's own floor: as
+  many items from a collector that reads nothing, the same ones failing.
 
 Every process starts fresh, with its bytecode cached outside the folder as on a user's
 machine; each side runs once per round, back to back (the warm check three times in a row,
@@ -73,6 +74,35 @@ def test_model(path):
 """
 
 
+#: pytest's own floor for the collector row: as many items as model files, from a collector
+#: that reads nothing, the same ones failing (with a one-line message) as in the real run.
+FLOOR_CONFTEST = """\
+import pytest
+
+FAILING = set({failing!r})
+
+
+class Nothing(pytest.Item):
+    def runtest(self):
+        if self.name in FAILING:
+            raise AssertionError("does not meet its requirements")
+
+    def reportinfo(self):
+        return self.path, 0, self.name
+
+
+class Listed(pytest.File):
+    def collect(self):
+        for name in self.path.read_text().split():
+            yield Nothing.from_parent(self, name=name)
+
+
+def pytest_collect_file(parent, file_path):
+    if file_path.name == "names.txt":
+        return Listed.from_parent(parent, path=file_path)
+"""
+
+
 def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--files", type=int, default=2000)
@@ -99,6 +129,11 @@ def main(argv=None) -> int:
         (control_repo / "tests" / "test_models.py").write_text(CONTROL_TEST, encoding="utf-8")
         (control_repo / "pytest.ini").write_text("[pytest]\naddopts = -p no:cacheprovider\n",
                                                  encoding="utf-8")
+        floor_repo = work / "floor"
+        floor_repo.mkdir()
+        (floor_repo / "pytest.ini").write_text("[pytest]\naddopts = -p no:cacheprovider "
+                                               "-p no:eigengate\n", encoding="utf-8")
+        (floor_repo / "names.txt").write_text("\n".join(p.stem for p in paths), encoding="utf-8")
         script = work / "script.py"
         script.write_text(SCRIPT, encoding="utf-8")
         half = len(paths) // 2
@@ -135,14 +170,23 @@ def main(argv=None) -> int:
         def pytest_control():
             return run([sys.executable, "-m", "pytest", "-q"], cwd=control_repo)
 
+        def pytest_floor():
+            return run([sys.executable, "-m", "pytest", "-q"], cwd=floor_repo)
+
         # warm the bytecode caches of every side once
         for f in (script_one, cold, warm, script_two):
             f()
         sides = [script_one, cold, warm, lambda: check("--jobs", "1", "--no-cache"),
                  lambda: check("--jobs", "2", "--no-cache"), script_two]
         if not args.no_pytest:
+            # the floor fails the models the collector fails (names from a first run)
+            failing = sorted(line.split("::")[-1].split(" ")[0] for line in
+                             pytest_cold().stdout.splitlines() if line.startswith("FAILED"))
+            (floor_repo / "conftest.py").write_text(FLOOR_CONFTEST.format(failing=failing),
+                                                    encoding="utf-8")
             pytest_control()
-            sides += [pytest_control, pytest_cold, pytest_warm]
+            pytest_floor()
+            sides += [pytest_control, pytest_cold, pytest_warm, pytest_floor]
         t0 = time.perf_counter()
         times, values = rounds(args.repeat, *sides, inner={2: 3})
         t_script, t_cold, t_warm, t_j1, t_j2, t_two = times[:6]
@@ -162,10 +206,12 @@ def main(argv=None) -> int:
               f"share of the ceiling per round median {share[len(share) // 2]:.2f} "
               f"(rounds {share[0]:.2f}-{share[-1]:.2f}) (target >= 0.9)")
         if not args.no_pytest:
-            t_ctl, t_pc, t_pw = times[6:9]
+            t_ctl, t_pc, t_pw, t_floor = times[6:10]
             print(f"pytest: collector warm {min(t_pw):.2f} s, cold {min(t_pc):.2f} s vs "
                   f"python-control parametrised {min(t_ctl):.2f} s: warm {ratio(t_pw, t_ctl)}, "
-                  f"cold {ratio(t_pc, t_ctl)} (target <= 0.35x)")
+                  f"cold {ratio(t_pc, t_ctl)} (target <= 0.35x); pytest's own floor (as many "
+                  f"items doing nothing, as many failing) {min(t_floor):.2f} s: "
+                  f"{ratio(t_floor, t_ctl)}")
             print(f"  collector: {values[7].stdout.strip().splitlines()[-1]}; python-control: "
                   f"{values[6].stdout.strip().splitlines()[-1]}")
     finally:

@@ -13,7 +13,7 @@ finishes at about the same time.
 
 Start method: ``fork`` on Linux while this process has loaded no numpy and runs one thread
 (the command line: nothing heavy is loaded before the analysis starts, so no BLAS thread is
-forked), else ``forkserver`` (numpy, scipy and eigengate preloaded in the server), else
+forked), else ``forkserver`` (numpy and eigengate preloaded in the server), else
 ``spawn``. When the pool closes every worker has exited and been joined, and a forkserver or
 resource tracker that the pool started is stopped: nothing of the pool outlives the scan.
 """
@@ -95,8 +95,9 @@ def _context():
     if "forkserver" in methods:
         ctx = mp.get_context("forkserver")
         # Import the heavy modules once in the server; every worker forks from it ready.
+        # (scipy.linalg is left out: small models never import it, large ones do on demand)
         ctx.set_forkserver_preload(["eigengate.scan.engine", "eigengate.analysis.modes",
-                                    "eigengate.load.loader", "numpy", "scipy.linalg", "yaml"])
+                                    "eigengate.load.loader", "numpy", "yaml"])
         return ctx
     return mp.get_context("spawn")  # pragma: no cover - not on Linux
 
