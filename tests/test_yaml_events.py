@@ -55,7 +55,7 @@ documents = st.recursive(scalars, lambda inner: st.lists(inner, max_size=5)
                          | st.dictionaries(keys, inner, max_size=5), max_leaves=40)
 
 
-@settings(max_examples=300, deadline=None)
+@settings(max_examples=150, deadline=None)
 @given(st.dictionaries(keys, documents, min_size=1, max_size=6), st.sampled_from([None, True, False]))
 def test_generated_documents_read_the_same_on_both_roads(doc, flow):
     text = yaml.safe_dump(doc, default_flow_style=flow, allow_unicode=True, sort_keys=False)
@@ -126,7 +126,7 @@ def test_deep_nesting_is_left_to_the_full_road():
     assert _short(text) is None
 
 
-@settings(max_examples=300, deadline=None)
+@settings(max_examples=100, deadline=None)
 @given(st.from_regex(yaml_events._DECIMAL, fullmatch=True))
 def test_a_decimal_is_a_core_schema_float(s):
     # reference: the loader's own resolver (YAML 1.2 core schema) and its float constructor
