@@ -11,8 +11,10 @@
 4. Second order (``--lattice``): a 2-D mass–spring lattice ``M q'' + D q' + K q = 0`` of n/2
    masses (springs to the four neighbours and to the frame at the edges, masses 1–2,
    Rayleigh damping D = 0.002·M + 0.002·K; invented data) given as ``from_second_order``
-   (sparse companion form, never dense), the same targets plus the structural certificate
-   (inertia counts of M, D, K), against a bare ``eigs(A, k=6, M=E, sigma=0)`` on the same
+   (sparse companion form, never dense), ``stable: true`` and ``min_damping: 0.0015`` with
+   the structural certificates (inertia counts of M, D, K; the proportional-damping bound
+   ζ ≥ min α/(2ω) + βω/2, here √(αβ) = 0.002, which is the lattice's true smallest damping
+   ratio: ``min_damping: 0.05`` fails on it, near ω = 1), against a bare ``eigs(A, k=6, M=E, sigma=0)`` on the same
    companion pencil; time ratio and peak memory as in (1) and (2).
 
 The figure of (1) is the median of the per-round ratios (with their range), so a machine
@@ -64,7 +66,7 @@ def lattice_model(n: int):
 def ours_so(model) -> object:
     from eigengate.analysis.sparse_modes import Target, analyse_sparse
 
-    return analyse_sparse(model, [Target("right", 0.0), Target("sector", 0.05)])
+    return analyse_sparse(model, [Target("right", 0.0), Target("sector", 0.0015)])
 
 
 def bare_so(model) -> object:

@@ -31,9 +31,11 @@ def test_equal_eigenvalues_above_the_svd_limit_are_semisimple(k):
         assert m.uncertainty < 1e-9  # no Hölder bound of a Jordan block
 
 
-@pytest.mark.xfail(strict=True, reason=(
-    "known limit: a rotated 4-block beside 430 eigenvalues near -3 is merged into one cluster "
-    "of 308 eigenvalues with a bound of about 10 (honest, but too coarse to name the block)"))
+@pytest.mark.xfail(strict=False, reason=(
+    "known limit: a rotated 4-block beside 430 eigenvalues near -3 may be merged into one "
+    "cluster of about 308 eigenvalues with a bound of about 10 (honest, but too coarse to name "
+    "the block); whether it is depends on LAPACK's rounding, which changes with the number of "
+    "BLAS threads (with one thread the block is named), so the mark is not strict"))
 def test_a_jordan_block_above_the_svd_limit_stays_defective():
     rng = np.random.default_rng(5)
     J = -np.eye(4) + np.eye(4, k=1)

@@ -19,6 +19,9 @@ structure can. Two structures are recognised from the matrices themselves:
   λ(D)/(2√(μ(M)μ(K)))`` or 1; ``|λ| ≤ max(√(μ(K)/λ(M)), μ(D)/λ(M))``. Upper bounds μ come
   from Gershgorin's rows, lower bounds λ are proved by inertia counts (Tisseur & Meerbergen,
   SIAM Review 2001, on the quadratic eigenvalue problem, from memory, for these relations).
+  Where D is (nearly) proportional to M and K, the damping ratio has a sharper proven bound
+  (:mod:`eigengate.analysis.damping_bound`): ``D − αM − βK ⪰ 0`` gives ``ζ ≥ α/(2ω) + βω/2``
+  at ``ω = √(k/m)``, minimised over the proven range of ω.
 
 Each proof is a sentence for the verdict message; no proof, no claim.
 """
@@ -124,6 +127,13 @@ class _Quadratic:
     def spd_mk(self) -> bool:
         return self.above("M", 0.0) and self.above("K", 0.0)
 
+    @functools.cached_property
+    def proportional(self) -> tuple[float, float, float] | None:
+        """(ζ_min, α, β) of the proportional-damping bound, once (M, K proven SPD first)."""
+        from .damping_bound import proportional_damping_bound
+
+        return proportional_damping_bound(self.M, self.D, self.K)
+
 
 _SO = ("M and K symmetric positive definite{d} (inertia counts of LDLᵀ factorisations, "
        "Sylvester's law of inertia; upper bounds from Gershgorin's rows): for an eigenpair "
@@ -144,10 +154,19 @@ def _so_target(q: _Quadratic, t: Any) -> str | None:
         return None
     if t.kind == "sector" and 0.0 < t.value < 1.0:
         need = 2.0 * t.value * math.sqrt(q.hi["M"] * q.hi["K"]) * grow
-        if q.spd_mk() and q.above("D", need):
+        if not q.spd_mk():
+            return None
+        if q.above("D", need):
             return _SO.format(d=f", D − {need:.6g}·I positive definite",
                               why=f"damping ratio ≥ min(1, λmin(D)/(2√(λmax(M)λmax(K)))) > "
                               f"{t.value:.6g}")
+        bound = q.proportional
+        if bound is not None and bound[0] > t.value * grow:
+            zeta, alpha, beta = bound
+            return _SO.format(d=f", D − {alpha:.6g}·M − {beta:.6g}·K positive definite",
+                              why=f"d ≥ {alpha:.6g}·m + {beta:.6g}·k, so every complex mode "
+                              f"has damping ratio d/(2√(mk)) ≥ min over ω = √(k/m) in its "
+                              f"proven range of α/(2ω) + βω/2 = {zeta:.6g} > {t.value:.6g}")
         return None
     if t.kind == "outside" and t.value > 0:
         need = max(q.hi["K"] / t.value ** 2, q.hi["D"] / t.value) * grow
