@@ -8,8 +8,7 @@ import pytest
 from support import oscillator, run_cli, write
 
 
-@pytest.fixture
-def repo(tmp_path):
+def _make_repo(tmp_path):
     (tmp_path / ".git").mkdir()
     write(tmp_path / "pyproject.toml", """\
         [project]
@@ -28,6 +27,18 @@ def repo(tmp_path):
     write(tmp_path / "models" / "flex" / "panel.yaml", oscillator("panel", None))
     write(tmp_path / "ci" / "pipeline.yaml", "steps: [build, test]\n")
     return tmp_path
+
+
+@pytest.fixture
+def repo(tmp_path):
+    return _make_repo(tmp_path)
+
+
+@pytest.fixture(scope="module")
+def no_cache_stdout(tmp_path_factory):
+    """``check --no-cache`` of a repository equal to ``repo``, run once for the module (the
+    output names files relative to the repository, so it stands for every copy)."""
+    return run_cli("check", "--no-cache", cwd=_make_repo(tmp_path_factory.mktemp("r"))).stdout
 
 
 def test_policy_defaults_and_overrides_apply(repo):
@@ -140,7 +151,7 @@ def _rewrite_heads(repo, change):
 
 @pytest.mark.parametrize("damage", ["garbage", "truncated", "flipped byte", "empty",
                                     "nonsense results", "bad blob spans", "wrong shapes"])
-def test_corrupt_cache_is_ignored_and_rebuilt(repo, damage):
+def test_corrupt_cache_is_ignored_and_rebuilt(repo, damage, no_cache_stdout):
     from eigengate.scan.cache import read_pack
 
     first = run_cli("check", cwd=repo).stdout
@@ -164,7 +175,7 @@ def test_corrupt_cache_is_ignored_and_rebuilt(repo, damage):
     assert again.stdout == first and "Traceback" not in again.stderr
     for pack in _packs(repo):  # rebuilt: a whole pack again
         assert read_pack(pack.read_bytes()).head["entries"]
-    assert run_cli("check", "--no-cache", cwd=repo).stdout == first
+    assert no_cache_stdout == first
     # and what was rebuilt is served whole: every entry a hit, its matrices readable
     from eigengate.scan.config import load_config
     from eigengate.scan.runner import scan
