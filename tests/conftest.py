@@ -44,7 +44,7 @@ def _fixed_waiver_date(monkeypatch):
 
 
 #: The report formats the shared run of example_repo/ writes (``report.FORMAT`` beside ``repo``).
-EXAMPLE_FORMATS = ("json", "sarif", "html")
+EXAMPLE_FORMATS = ("json", "sarif", "junit", "markdown", "annotations", "html")
 
 
 @pytest.fixture(scope="session")
