@@ -12,10 +12,12 @@ A test of another date sets its own.
 """
 
 import os
+import shutil
+from pathlib import Path
 
 import pytest
 from hypothesis import HealthCheck, settings
-from support import FIXED_TODAY
+from support import FIXED_TODAY, run_cli
 
 pytest_plugins = ["pytester"]
 
@@ -39,3 +41,25 @@ settings.load_profile(hypothesis_profile())
 @pytest.fixture(autouse=True)
 def _fixed_waiver_date(monkeypatch):
     monkeypatch.setenv("EIGENGATE_TODAY", FIXED_TODAY)
+
+
+#: The report formats the shared run of example_repo/ writes (``report.FORMAT`` beside ``repo``).
+EXAMPLE_FORMATS = ("json", "sarif", "junit", "markdown", "annotations", "html")
+
+
+@pytest.fixture(scope="session")
+def example_report(tmp_path_factory):
+    """A copy of example_repo/ checked once by the command line (``--no-cache -q``), for the
+    tests that only read what it wrote: its reports ``report.json``, ``report.sarif`` and
+    ``report.html``, its pictures as SVG files (``repo/figs``) and its pole maps
+    (``repo/maps``), in the folder returned. The reports do not depend on the picture
+    options (the command line writes them from the same results)."""
+    here = Path(__file__).resolve().parents[1]
+    work = tmp_path_factory.mktemp("example")
+    shutil.copytree(here / "example_repo", work / "repo",
+                    ignore=shutil.ignore_patterns("__pycache__", ".eigengate-cache"))
+    reports = [a for f in EXAMPLE_FORMATS for a in ("-o", f"{f}:{work / f'report.{f}'}")]
+    out = run_cli("check", ".", "--no-cache", "-q", *reports, "--figures", "figs",
+                  "--figure-format", "svg", "--pole-maps", "maps", cwd=work / "repo")
+    assert out.returncode == 1, out.stderr  # the example repository has failing models
+    return work

@@ -25,6 +25,36 @@ def run_cli(*args, cwd=None, env=None, timeout=180):
                           text=True, cwd=cwd, env=full, timeout=timeout)
 
 
+def run_main(*args, cwd=None, env=None):
+    """``eigengate.cli.main(ARGS)`` in this process, in ``cwd`` with ``env`` added: the exit
+    status and output as :func:`run_cli` gives them, without a new interpreter's start-up and
+    imports. For tests about what a command prints or writes; the command line as a process
+    (entry point, exit statuses, streams) keeps its tests with run_cli."""
+    import contextlib
+    import io
+
+    from eigengate.cli import main
+
+    full = {"EIGENGATE_TODAY": FIXED_TODAY, **(env or {})}
+    saved_env = {key: os.environ.get(key) for key in full}
+    saved_cwd = os.getcwd()
+    out, err = io.StringIO(), io.StringIO()
+    try:
+        os.environ.update(full)
+        os.chdir(cwd or saved_cwd)
+        with contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
+            status = main(list(map(str, args)))
+    finally:
+        os.chdir(saved_cwd)
+        for key, value in saved_env.items():
+            if value is None:
+                os.environ.pop(key, None)
+            else:
+                os.environ[key] = value
+    return subprocess.CompletedProcess(["eigengate", *args], status, out.getvalue(),
+                                       err.getvalue())
+
+
 #: A fixed identity and defaults for git in temporary repositories.
 GIT_ID = ["-c", "user.name=Test Author", "-c", "user.email=author@example.invalid",
           "-c", "commit.gpgsign=false", "-c", "init.defaultBranch=main"]

@@ -8,8 +8,7 @@ from support import oscillator, run_cli, write
 EXAMPLE = Path(__file__).resolve().parents[1] / "example_repo"
 
 
-@pytest.fixture
-def repo(tmp_path):
+def _make_repo(tmp_path):
     (tmp_path / ".git").mkdir()
     write(tmp_path / "models" / "osc.yaml", oscillator())  # ζ = 0.1 < 0.3: EG103
     write(tmp_path / "models" / "fine.yaml", """\
@@ -23,8 +22,20 @@ def repo(tmp_path):
     return tmp_path
 
 
-def test_failing_requirement_names_mode_and_states(repo):
-    out = run_cli("check", "models", cwd=repo)
+@pytest.fixture
+def repo(tmp_path):
+    return _make_repo(tmp_path)
+
+
+@pytest.fixture(scope="module")
+def checked(tmp_path_factory):
+    """(repository, result) of ``check models`` run once for the tests that only read it."""
+    root = _make_repo(tmp_path_factory.mktemp("repo"))
+    return root, run_cli("check", "models", cwd=root)
+
+
+def test_failing_requirement_names_mode_and_states(checked):
+    _, out = checked
     assert out.returncode == 1, out.stderr
     text = out.stdout
     assert "models/osc.yaml" in text and "EG103 damping-ratio" in text
@@ -70,9 +81,9 @@ def test_default_command_checks_the_repository_root(repo):
     assert "models/osc.yaml" in out.stdout and "models/fine.yaml" in out.stdout
 
 
-def test_output_is_deterministic(repo):
-    first = run_cli("check", "models", cwd=repo).stdout
-    assert first == run_cli("check", "models", cwd=repo).stdout
+def test_output_is_deterministic(checked):
+    root, first = checked  # a second process in the same repository
+    assert first.stdout == run_cli("check", "models", cwd=root).stdout
 
 
 def test_example_repo_shows_the_deliberate_regression():

@@ -12,27 +12,18 @@ own version, so a version bump needs a regeneration too.
 """
 
 import os
-import shutil
 from pathlib import Path
 
 import pytest
 
-from support import run_cli
-
-REPO = Path(__file__).resolve().parents[1]
 GOLDEN = Path(__file__).resolve().parent / "golden"
 FORMATS = ("json", "sarif", "html")
 
 
 @pytest.fixture(scope="module")
-def reports(tmp_path_factory):
-    work = tmp_path_factory.mktemp("golden")
-    shutil.copytree(REPO / "example_repo", work / "repo",
-                    ignore=shutil.ignore_patterns("__pycache__", ".eigengate-cache"))
-    args = [a for f in FORMATS for a in ("-o", f"{f}:{work / f'report.{f}'}")]
-    out = run_cli("check", ".", "--no-cache", "-q", *args, cwd=work / "repo")
-    assert out.returncode == 1, out.stderr  # the example repository has failing models
-    return {f: (work / f"report.{f}").read_bytes() for f in FORMATS}
+def reports(example_report):
+    """The reports of the suite's one run of example_repo/ (conftest.example_report)."""
+    return {f: (example_report / f"report.{f}").read_bytes() for f in FORMATS}
 
 
 @pytest.mark.parametrize("fmt", FORMATS)

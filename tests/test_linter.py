@@ -5,11 +5,10 @@ import textwrap
 
 import numpy as np
 import pytest
-from support import oscillator, run_cli, write
+from support import oscillator, run_cli, run_main, write
 
 
-@pytest.fixture
-def repo(tmp_path):
+def _make_repo(tmp_path):
     (tmp_path / ".git").mkdir()
     write(tmp_path / "pyproject.toml", """\
         [project]
@@ -30,8 +29,20 @@ def repo(tmp_path):
     return tmp_path
 
 
+@pytest.fixture
+def repo(tmp_path):
+    return _make_repo(tmp_path)
+
+
+@pytest.fixture(scope="module")
+def no_cache_stdout(tmp_path_factory):
+    """``check --no-cache`` of a repository equal to ``repo``, run once for the module (the
+    output names files relative to the repository, so it stands for every copy)."""
+    return run_cli("check", "--no-cache", cwd=_make_repo(tmp_path_factory.mktemp("r"))).stdout
+
+
 def test_policy_defaults_and_overrides_apply(repo):
-    out = run_cli("check", cwd=repo)
+    out = run_main("check", cwd=repo)
     assert out.returncode == 1, out.stderr
     assert "arm: FAILED" in out.stdout and "EG103 damping-ratio" in out.stdout
     assert "panel: ok" in out.stdout  # the override lowers the threshold to 0.05
@@ -45,10 +56,10 @@ def test_waiver_in_model_file_accepts_the_finding_and_expiry_brings_it_back(repo
             reason: arm retune scheduled, tracked in review
             expires: 2027-01-31
         """))
-    out = run_cli("check", cwd=repo)
+    out = run_main("check", cwd=repo)
     assert out.returncode == 0, out.stdout
     assert "waived  EG103" in out.stdout and "arm retune scheduled" in out.stdout
-    late = run_cli("check", cwd=repo, env={"EIGENGATE_TODAY": "2027-02-01"})
+    late = run_main("check", cwd=repo, env={"EIGENGATE_TODAY": "2027-02-01"})
     assert late.returncode == 1
     assert "EG002 expired-waiver" in late.stdout and "EG103 damping-ratio" in late.stdout
 
@@ -58,13 +69,13 @@ def test_unused_and_invalid_waivers(repo):
         waivers:
           - {rule: EG101, reason: not needed any more}
         """))
-    out = run_cli("check", cwd=repo)
+    out = run_main("check", cwd=repo)
     assert "EG003 unused-waiver" in out.stdout
     write(repo / "models" / "flex" / "panel.yaml", oscillator("panel", None) + textwrap.dedent("""\
         waivers:
           - {rule: EG103}
         """))
-    out = run_cli("check", cwd=repo)
+    out = run_main("check", cwd=repo)
     assert "models/flex/panel.yaml" in out.stdout
     assert "waivers[0].reason is required" in out.stdout
 
@@ -81,7 +92,7 @@ def test_policy_waiver_and_its_unused_report(repo):
             paths = ["models/**"]
             reason = "stale"
             """))
-    out = run_cli("check", cwd=repo)
+    out = run_main("check", cwd=repo)
     assert out.returncode == 0, out.stdout
     assert "accepted for the demonstrator build" in out.stdout
     assert "EG003 unused-waiver" in out.stdout and "pyproject.toml" in out.stdout
@@ -91,7 +102,7 @@ def test_bad_configuration_is_a_usage_error(repo):
     text = (repo / "pyproject.toml").read_text(encoding="utf-8")
     (repo / "pyproject.toml").write_text(text.replace("min_damping = 0.3", "min_damping = 3"),
                                          encoding="utf-8")
-    out = run_cli("check", cwd=repo)
+    out = run_main("check", cwd=repo)
     assert out.returncode == 2
     assert "pyproject.toml: [tool.eigengate] requirements.min_damping" in out.stderr
     assert "got 3" in out.stderr and "Traceback" not in out.stderr
@@ -140,7 +151,7 @@ def _rewrite_heads(repo, change):
 
 @pytest.mark.parametrize("damage", ["garbage", "truncated", "flipped byte", "empty",
                                     "nonsense results", "bad blob spans", "wrong shapes"])
-def test_corrupt_cache_is_ignored_and_rebuilt(repo, damage):
+def test_corrupt_cache_is_ignored_and_rebuilt(repo, damage, no_cache_stdout):
     from eigengate.scan.cache import read_pack
 
     first = run_cli("check", cwd=repo).stdout
@@ -164,7 +175,7 @@ def test_corrupt_cache_is_ignored_and_rebuilt(repo, damage):
     assert again.stdout == first and "Traceback" not in again.stderr
     for pack in _packs(repo):  # rebuilt: a whole pack again
         assert read_pack(pack.read_bytes()).head["entries"]
-    assert run_cli("check", "--no-cache", cwd=repo).stdout == first
+    assert no_cache_stdout == first
     # and what was rebuilt is served whole: every entry a hit, its matrices readable
     from eigengate.scan.config import load_config
     from eigengate.scan.runner import scan
@@ -208,7 +219,8 @@ def test_jobs_two_gives_the_same_findings_as_jobs_one(repo):
 
 
 def test_only_model_files_skips_other_yaml(repo):
-    out = run_cli("check", "--only-model-files", "ci/pipeline.yaml", "models/arm.yaml", cwd=repo)
+    out = run_main("check", "--only-model-files", "ci/pipeline.yaml", "models/arm.yaml",
+                   cwd=repo)
     assert "ci/pipeline.yaml\n" not in out.stdout and "EG001" not in out.stdout
     assert "arm: FAILED" in out.stdout
 
@@ -226,7 +238,8 @@ def test_show_rules_and_explain(repo):
     assert bad.returncode == 2 and "did you mean" in bad.stderr
 
 
-def test_every_report_from_the_cache_has_the_same_bytes_as_from_a_fresh_analysis(tmp_path):
+def test_every_report_from_the_cache_has_the_same_bytes_as_from_a_fresh_analysis(
+        tmp_path, example_report):
     # The example repository has every kind of model (descriptor, discrete, closed loops
     # with margins, operating points, a vector field) and a baseline; the HTML report reads
     # the matrices and the modes (pole maps, phase portraits), which the cache serves lazily.
@@ -241,11 +254,15 @@ def test_every_report_from_the_cache_has_the_same_bytes_as_from_a_fresh_analysis
 
     def reports(tag, *extra):
         args = [a for f in formats for a in ("--output", f"{f}:{tmp_path / tag}.{f}")]
-        out = run_cli("check", *extra, *args, cwd=repo)
+        out = run_cli("check", ".", *extra, *args, cwd=repo)  # "." as in the shared run
         assert out.returncode == 1 and "Traceback" not in out.stderr, out.stderr
         return [out.stdout] + [(tmp_path / f"{tag}.{f}").read_bytes() for f in formats]
 
-    fresh = reports("fresh", "--no-cache")
+    # fresh: the suite's one --no-cache run of example_repo/ (conftest.example_report; its
+    # -q and picture options change no report file), and the text report in this process
+    text = run_main("check", ".", "--no-cache", cwd=repo)
+    assert text.returncode == 1 and not (repo / ".eigengate-cache").exists(), text.stderr
+    fresh = [text.stdout] + [(example_report / f"report.{f}").read_bytes() for f in formats]
     cold = reports("cold")  # analyses and writes the cache
     warm = reports("warm")  # every result from the cache
     assert len(list((repo / ".eigengate-cache").rglob("*.pack"))) == 1  # one configuration

@@ -9,7 +9,8 @@ import numpy  # noqa: F401  # imported once, before the in-process pytester runs
 import pytest
 import scipy.linalg  # noqa: F401
 import yaml  # noqa: F401
-from support import oscillator, run_cli, write
+# the checks run in this process (support.run_main): their output is the subject here
+from support import oscillator, run_main, write
 
 import eigengate.pytest.collector  # noqa: F401
 import eigengate.scan.engine  # noqa: F401
@@ -72,7 +73,7 @@ def mono(tmp_path):
 
 
 def test_a_root_scan_judges_each_model_by_its_nearest_policy(mono):
-    out = run_cli("check", "--format", "json", "--no-baseline", cwd=mono)
+    out = run_main("check", "--format", "json", "--no-baseline", cwd=mono)
     assert out.returncode == 1, out.stderr
     assert verdicts(out) == EXPECTED
 
@@ -86,13 +87,13 @@ def test_a_root_scan_judges_each_model_by_its_nearest_policy(mono):
 ])
 def test_every_way_of_starting_the_run_gives_the_same_verdicts(mono, where, args):
     (mono / "README.md").write_text("notes\n", encoding="utf-8")
-    out = run_cli("check", "--format", "json", "--no-baseline", *args, cwd=mono / where)
+    out = run_main("check", "--format", "json", "--no-baseline", *args, cwd=mono / where)
     assert out.returncode == 1, out.stderr
     assert verdicts(out) == EXPECTED
 
 
 def test_each_policy_keeps_its_own_baseline(mono):
-    out = run_cli("baseline", "accept", cwd=mono)
+    out = run_main("baseline", "accept", cwd=mono)
     assert out.returncode == 0, out.stdout + out.stderr
     keys = {}
     for folder in ("", "teamA", "teamA/sub"):
@@ -101,7 +102,7 @@ def test_each_policy_keeps_its_own_baseline(mono):
     assert keys == {"": ["models/r.yaml"], "teamA": ["teamA/models/a.yaml"],
                     "teamA/sub": ["teamA/sub/m.yaml"]}
     # from the sub-folder, the sub-project's model is compared with its own baseline
-    again = run_cli("check", "m.yaml", cwd=mono / "teamA" / "sub")
+    again = run_main("check", "m.yaml", cwd=mono / "teamA" / "sub")
     assert "without a baseline entry" not in again.stdout + again.stderr
     assert "EG208" not in again.stdout
 
@@ -129,7 +130,7 @@ def test_pytest_accepts_into_each_policys_baseline(pytester):
 
 def test_a_bad_nested_policy_is_a_usage_error_naming_its_file(mono, pytester):
     write(mono / "teamA" / "pyproject.toml", '[tool.eigengate]\nextend = "yes"\n')
-    out = run_cli("check", cwd=mono)
+    out = run_main("check", cwd=mono)
     assert out.returncode == 2
     assert out.stderr.strip() == (
         "eigengate: error: teamA/pyproject.toml: [tool.eigengate] extend must be true or "
@@ -195,7 +196,7 @@ def test_waivers_and_overrides_of_a_nested_policy_are_relative_to_its_folder(mon
         reason = "retune in review"
         """)
     for where, args in (("", []), ("teamA/models", ["a.yaml"])):
-        out = run_cli("check", "--format", "json", "--no-baseline", *args, cwd=mono / where)
+        out = run_main("check", "--format", "json", "--no-baseline", *args, cwd=mono / where)
         data = json.loads(out.stdout)
         models = {fr["source"]: m for fr in data["files"] for m in fr["models"]}
         a = models["teamA/models/a.yaml"]

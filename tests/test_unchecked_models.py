@@ -6,7 +6,8 @@ many checked."""
 import json
 
 import pytest
-from support import run_cli, write
+# the checks run in this process (support.run_main): their output is the subject here
+from support import run_main, write
 
 import eigengate.scan.cache as cache_mod
 from eigengate.scan.config import load_config
@@ -47,7 +48,7 @@ def repo(tmp_path):
 
 
 def test_model_files_the_include_patterns_miss_are_reported_with_a_pattern(repo):
-    out = run_cli("check", cwd=repo)
+    out = run_main("check", cwd=repo)
     assert out.returncode == 0, out.stdout + out.stderr  # a warning by default
     text = out.stdout
     assert text.count("EG004 unselected-model-file") == 2
@@ -58,7 +59,7 @@ def test_model_files_the_include_patterns_miss_are_reported_with_a_pattern(repo)
 
 
 def test_unselected_model_files_in_json_sarif_junit_and_markdown(repo):
-    out = run_cli("check", "--format", "json", "-o", "sarif:r.sarif", "-o", "junit:r.xml",
+    out = run_main("check", "--format", "json", "-o", "sarif:r.sarif", "-o", "junit:r.xml",
                   "-o", "markdown:r.md", cwd=repo)
     assert out.returncode == 0, out.stderr
     rows = [f for fr in json.loads(out.stdout)["files"] for f in fr["findings"]
@@ -77,7 +78,7 @@ def test_unselected_model_files_in_json_sarif_junit_and_markdown(repo):
 def test_the_unselected_rule_is_configurable_like_the_others(repo, level, code, count):
     with open(repo / "pyproject.toml", "a", encoding="utf-8") as fh:
         fh.write(f'[tool.eigengate.severity]\nEG004 = "{level}"\n')
-    out = run_cli("check", cwd=repo)
+    out = run_main("check", cwd=repo)
     assert out.returncode == code, out.stdout + out.stderr
     assert out.stdout.count("EG004 unselected-model-file") == count
 
@@ -85,11 +86,11 @@ def test_the_unselected_rule_is_configurable_like_the_others(repo, level, code, 
 def test_a_model_with_no_requirement_is_never_ok(tmp_path):
     (tmp_path / ".git").mkdir()
     write(tmp_path / "models" / "drifter.yaml", UNSTABLE_NO_REQUIREMENT)
-    out = run_cli("check", cwd=tmp_path)
+    out = run_main("check", cwd=tmp_path)
     assert out.returncode == 1, out.stdout + out.stderr
     assert "drifter: ok" not in out.stdout
     assert "EG005 no-requirement" in out.stdout
-    data = json.loads(run_cli("check", "--format", "json", cwd=tmp_path).stdout)
+    data = json.loads(run_main("check", "--format", "json", cwd=tmp_path).stdout)
     (finding,) = [f for fr in data["files"] for m in fr["models"] for f in m["findings"]]
     assert (finding["rule"], finding["severity"]) == ("EG005", "error")
 
@@ -98,7 +99,7 @@ def test_a_policy_requirement_is_a_check(tmp_path):
     (tmp_path / ".git").mkdir()
     write(tmp_path / "pyproject.toml", "[tool.eigengate.requirements]\nstable = true\n")
     write(tmp_path / "models" / "drifter.yaml", UNSTABLE_NO_REQUIREMENT)
-    out = run_cli("check", cwd=tmp_path)
+    out = run_main("check", cwd=tmp_path)
     assert out.returncode == 1
     assert "EG101 asymptotic-stability" in out.stdout and "EG005" not in out.stdout
 
@@ -107,7 +108,7 @@ def test_nothing_checked_as_a_warning_is_still_not_called_ok(tmp_path):
     (tmp_path / ".git").mkdir()
     write(tmp_path / "pyproject.toml", '[tool.eigengate.severity]\nEG005 = "warning"\n')
     write(tmp_path / "models" / "drifter.yaml", UNSTABLE_NO_REQUIREMENT)
-    out = run_cli("check", cwd=tmp_path)
+    out = run_main("check", cwd=tmp_path)
     assert out.returncode == 0, out.stdout + out.stderr
     assert "drifter: unchecked" in out.stdout and "EG005 no-requirement" in out.stdout
 

@@ -18,7 +18,8 @@ import textwrap
 
 import numpy as np
 import pytest
-from support import git, run_cli
+# the checks run in this process (support.run_main): their output is the subject here
+from support import git, run_main
 
 from eigengate.analysis.sensitivity import directional, eigenpair, shares
 from eigengate.baseline.attribution import NOT_RECORDED
@@ -319,7 +320,7 @@ def test_against_a_git_revision_names_the_changed_gain(tmp_path):
     git(tmp_path, "add", "-A")
     git(tmp_path, "commit", "-qm", "crane tuned")
     crane(tmp_path / "models", k2=2.0)
-    out = run_cli("check", "--against", "HEAD", "--format", "json", cwd=tmp_path)
+    out = run_main("check", "--against", "HEAD", "--format", "json", cwd=tmp_path)
     assert out.returncode == 1, out.stderr
     data = json.loads(out.stdout)
     (model,) = data["files"][0]["models"]
@@ -329,7 +330,7 @@ def test_against_a_git_revision_names_the_changed_gain(tmp_path):
     assert (top["input"], top["before"], top["after"], top["line"]) == (
         "feedback.state_gain[0][1]", 2.5, 2.0, 10)
     assert path is not None
-    text = run_cli("check", "--against", "HEAD", cwd=tmp_path).stdout
+    text = run_main("check", "--against", "HEAD", cwd=tmp_path).stdout
     assert "cause: mode " in text and "feedback.state_gain[0][1] 2.5 → 2 (line 10)" in text
 
 
@@ -337,13 +338,13 @@ def test_the_stored_baseline_with_a_cached_run_reads_the_file_again(tmp_path):
     (tmp_path / "pyproject.toml").write_text("[tool.eigengate]\n", encoding="utf-8")
     (tmp_path / "models").mkdir()
     crane(tmp_path / "models")
-    assert run_cli("baseline", "accept", cwd=tmp_path).returncode == 0
+    assert run_main("baseline", "accept", cwd=tmp_path).returncode == 0
     stored = json.loads((tmp_path / ".eigengate" / "baseline.json").read_text())
     entry = stored["models"]["models/crane.yaml"]["crane"]
     assert entry["inputs"]["feedback.state_gain"]["values"] == [7, 2.5]
     crane(tmp_path / "models", k2=2.0)
     for _ in range(2):  # the second run's results come from the cache
-        out = run_cli("check", "--format", "json", cwd=tmp_path)
+        out = run_main("check", "--format", "json", cwd=tmp_path)
         f = next(f for f in json.loads(out.stdout)["files"][0]["models"][0]["findings"]
                  if f["cause"])
         assert f["cause"][0]["input"] == "feedback.state_gain[0][1]"

@@ -11,7 +11,8 @@ import pytest
 
 from eigengate.baseline.store import Baseline
 from eigengate.baseline.store import BaselineError
-from support import cruise_points, run_cli, write
+# the checks run in this process (support.run_main): their output is the subject here
+from support import cruise_points, run_main, write
 
 
 
@@ -19,7 +20,7 @@ points = cruise_points  # zeta = k2 / 4, see support.cruise_points
 
 
 def rules(repo, *args):
-    proc = run_cli("check", "--format", "json", "--no-cache", *args, cwd=repo)
+    proc = run_main("check", "--format", "json", "--no-cache", *args, cwd=repo)
     doc = json.loads(proc.stdout)
     found = [f for fr in doc["files"] for f in
              fr["findings"] + [g for m in fr["models"] for g in m["findings"]]]
@@ -33,7 +34,7 @@ def repo(tmp_path):
 
 
 def accept(repo):
-    proc = run_cli("baseline", "accept", cwd=repo)
+    proc = run_main("baseline", "accept", cwd=repo)
     assert proc.returncode == 0, proc.stdout + proc.stderr
 
 
@@ -114,10 +115,10 @@ def test_sweep_point_keeps_its_grid_position(repo):
 def test_point_ids_are_checked(repo):
     model = repo / "models" / "cruise.yaml"
     write(model, points(("id: same, ", "a", 2.0), ("id: same, ", "b", 2.0)))
-    proc = run_cli("check", "--no-baseline", cwd=repo)
+    proc = run_main("check", "--no-baseline", cwd=repo)
     assert proc.returncode == 1 and "operating_points[1]" in proc.stdout and "id" in proc.stdout
     write(model, points(("id: '#1', ", "a", 2.0)))
-    proc = run_cli("check", "--no-baseline", cwd=repo)
+    proc = run_main("check", "--no-baseline", cwd=repo)
     assert proc.returncode == 1 and "operating_points[0]" in proc.stdout, proc.stdout
 
 

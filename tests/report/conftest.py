@@ -105,21 +105,3 @@ def shared_results(tmp_path_factory):
 
     root = write_repo(tmp_path_factory.mktemp("repo"))
     return check_paths([root / "models"], root=root)
-
-
-@pytest.fixture(scope="session")
-def example_report(tmp_path_factory):
-    """A copy of example_repo/ checked once by the command line: its HTML report
-    (``report.html``) and its pictures as SVG files (``repo/figs``), in the folder returned."""
-    import shutil
-
-    from support import run_cli
-
-    here = Path(__file__).resolve().parents[2]
-    work = tmp_path_factory.mktemp("example")
-    shutil.copytree(here / "example_repo", work / "repo",
-                    ignore=shutil.ignore_patterns("__pycache__", ".eigengate-cache"))
-    out = run_cli("check", ".", "--no-cache", "-q", "-o", f"html:{work / 'report.html'}",
-                  "--figures", "figs", "--figure-format", "svg", cwd=work / "repo")
-    assert out.returncode == 1, out.stderr  # the example repository has failing models
-    return work

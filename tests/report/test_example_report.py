@@ -14,17 +14,12 @@ from test_html import Doc, decode_png  # the same HTML reader as the report test
 EXAMPLE = Path(__file__).resolve().parents[2] / "example_repo"
 
 
-def test_example_repository_report(tmp_path):
-    pytest.importorskip("matplotlib")
-    repo = tmp_path / "example_repo"
-    shutil.copytree(EXAMPLE, repo, ignore=shutil.ignore_patterns(".eigengate-cache",
-                                                                "__pycache__"))
-    env = cli_env()  # waivers judged on a fixed date, not the calendar
-    out = subprocess.run([sys.executable, "-m", "eigengate", "check", "-q", "--no-cache",
-                          "-o", "html:report.html", "--pole-maps", "maps"], cwd=repo,
-                         capture_output=True, text=True, env=env, timeout=600)
-    assert out.returncode == 1, out.stderr  # the deliberate regression
-    doc = Doc((repo / "report.html").read_text(encoding="utf-8"))
+def test_example_repository_report(mpl, example_report):
+    # the suite's one run of example_repo/ (``check -q --no-cache -o html:report.html
+    # --pole-maps maps``, conftest.example_report); mpl first: it skips without matplotlib
+    repo = example_report / "repo"
+    report = example_report / "report.html"
+    doc = Doc(report.read_text(encoding="utf-8"))
     # 19 sections: lift axis, 6 drive-speed points, heading, mast, heater, humidity, vent,
     # inverter current loop and dc link, cart, panel array, the boom at two points, and of
     # the 12 points of the belt-tension grid the one with findings (its table stands for the
@@ -34,7 +29,7 @@ def test_example_repository_report(tmp_path):
     assert len(doc.rows) == 19
     failing = [row for row in doc.rows if "mast-sway-damper" in row[2]]
     assert len(failing) == 1
-    html = (repo / "report.html").read_text(encoding="utf-8")
+    html = report.read_text(encoding="utf-8")
     table = html.split('<table class="eg-index eg-grid">', 1)[1].split("</table>", 1)[0]
     rows = re.findall(r'<tr class="eg-(\w+)"><td>(.*?)</td>', table)
     # worst first: the regressed point (linked to its section), then the 3 worst passing ones

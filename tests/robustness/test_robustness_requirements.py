@@ -227,7 +227,9 @@ def test_the_command_line_reports_figures_in_every_format(tmp_path):
     (tmp_path / "models").mkdir()
     _write(tmp_path / "models", {"stable": True, "max_transient_growth": 2.0,
                                  "min_stability_radius": 0.01})
-    out = run_cli("check", str(tmp_path), "--format", "json", cwd=tmp_path)
+    # one run writes the JSON (standard output), SARIF and Markdown reports
+    out = run_cli("check", str(tmp_path), "--format", "json", "-o", "sarif:r.sarif",
+                  "-o", "markdown:r.md", cwd=tmp_path)
     assert out.returncode == 1, out.stderr
     data = json.loads(out.stdout)
     (model,) = data["files"][0]["models"]
@@ -245,11 +247,10 @@ def test_the_command_line_reports_figures_in_every_format(tmp_path):
     jsonschema.validate(data, schema)
     text = run_cli("check", str(tmp_path), cwd=tmp_path).stdout
     assert "figure: transient growth" in text and "method: " in text
-    sarif = json.loads(run_cli("check", str(tmp_path), "--format", "sarif",
-                               cwd=tmp_path).stdout)
+    sarif = json.loads((tmp_path / "r.sarif").read_text(encoding="utf-8"))
     props = sarif["runs"][0]["results"][0]["properties"]
     assert props["figure"]["name"] == "transient_growth"
-    md = run_cli("check", str(tmp_path), "--format", "markdown", cwd=tmp_path).stdout
+    md = (tmp_path / "r.md").read_text(encoding="utf-8")
     assert "figure: transient growth" in md
     # the same bytes twice, and through the cache (a second run reads it)
     again = run_cli("check", str(tmp_path), "--format", "json", cwd=tmp_path)
