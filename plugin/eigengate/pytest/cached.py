@@ -15,6 +15,7 @@ command line must never be served a result it would have refused to compute.
 
 from __future__ import annotations
 
+import functools
 import os
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Sequence
@@ -24,7 +25,24 @@ if TYPE_CHECKING:  # pragma: no cover
     from ..scan.config import Config
     from ..scan.engine import ModelResult
 
-__all__ = ["CollectCache"]
+__all__ = ["CollectCache", "real_relative"]
+
+
+@functools.lru_cache(maxsize=8)
+def _real_root(root: str) -> str:
+    return os.path.realpath(root)
+
+
+def real_relative(path: "Path | str", root: "Path | str") -> str | None:
+    """``path`` relative to ``root`` with links resolved (``/``-separated), None when it lies
+    outside; the root's resolution is kept (one per process)."""
+    base = _real_root(os.fspath(root))
+    real = os.path.realpath(path)
+    if real == base:
+        return "."
+    if not real.startswith(base.rstrip(os.sep) + os.sep):
+        return None
+    return real[len(base.rstrip(os.sep)) + 1:].replace(os.sep, "/")
 
 
 class CollectCache:
@@ -43,7 +61,6 @@ class CollectCache:
 
     def _name(self, path: Path) -> str | None:
         from ..scan.runner import cache_name
-        from .collector import real_relative
 
         rel = real_relative(path, self.policy.root)
         if rel is None or rel == ".":

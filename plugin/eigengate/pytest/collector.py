@@ -15,7 +15,6 @@ into the terminal summary's counts, stale entries and commands.
 
 from __future__ import annotations
 
-import functools
 import os
 import shlex
 from dataclasses import dataclass
@@ -52,6 +51,8 @@ class Selection:
 
     def relative(self, path: Path) -> str | None:
         """``path`` relative to the repository root, links resolved; None outside it."""
+        from .cached import real_relative
+
         return real_relative(path, self.config.root)
 
     def wants(self, path: Path) -> bool:
@@ -69,23 +70,6 @@ class Selection:
         except ConfigError as exc:  # a nested policy is wrong: stop, as for the root's
             raise pytest.UsageError(f"eigengate: {exc}") from None
         return not self.globs or any(glob_match(rel, g) for g in self.globs)
-
-
-@functools.lru_cache(maxsize=8)
-def _real_root(root: str) -> str:
-    return os.path.realpath(root)
-
-
-def real_relative(path: "Path | str", root: "Path | str") -> str | None:
-    """``path`` relative to ``root`` with links resolved (``/``-separated), None when it lies
-    outside; the root's resolution is kept (one per process)."""
-    base = _real_root(os.fspath(root))
-    real = os.path.realpath(path)
-    if real == base:
-        return "."
-    if not real.startswith(base.rstrip(os.sep) + os.sep):
-        return None
-    return real[len(base.rstrip(os.sep)) + 1:].replace(os.sep, "/")
 
 
 class ModelCheckFailed(Exception):
