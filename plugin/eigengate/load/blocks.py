@@ -72,12 +72,18 @@ def build_model(doc: Mapping[str, Any], ctx: _Ctx, name: str, label: str | None)
     require = doc.get("require")
     if require not in (None, "certified", "estimated"):
         raise ctx.err("require", f"must be 'certified' or 'estimated', got {require!r}")
-    model = from_arrays(*matrices, e, sample_period=ctx.sample_period, name=name,
-                        states=states, inputs=plant.inputs, outputs=plant.outputs, label=label,
-                        source=ctx.source, structure=structure, requirements=requirements,
-                        known_modes=known_modes, on_uncertain=on_uncertain,
-                        disabled=disabled, waivers=ctx.waivers, lines=ctx.prefixed_lines(),
-                        prefix=ctx.prefix, sparse=plant.sparse)
+    fields = dict(sample_period=ctx.sample_period, name=name, label=label, source=ctx.source,
+                  structure=structure, requirements=tuple(requirements),
+                  known_modes=tuple(known_modes), on_uncertain=on_uncertain,
+                  disabled=tuple(disabled), waivers=tuple(ctx.waivers))
+    if matrices[0] is plant.A and e is plant.E:
+        # no loop closed: the plant's matrices and names are checked already (the loader
+        # checked the sample period), so the plant is the model, with the file's fields
+        model = dataclasses.replace(plant, **fields)
+    else:
+        model = from_arrays(*matrices, e, states=states, inputs=plant.inputs,
+                            outputs=plant.outputs, lines=ctx.prefixed_lines(),
+                            prefix=ctx.prefix, sparse=plant.sparse, **fields)
     for req in requirements:  # a requirement the model cannot be judged by is refused here
         why = req.unfit(model)
         if why is not None:
