@@ -3,7 +3,8 @@
 from __future__ import annotations
 
 import dataclasses
-from typing import Any, Mapping
+from collections.abc import Mapping
+from typing import Any
 
 from ..model.formats import suggest
 from .context import (CONTROLLER_SS_KEYS, CONTROLLER_TF_KEYS, FEEDBACK_KEYS, FEEDBACK_KINDS,
@@ -72,14 +73,14 @@ def build_model(doc: Mapping[str, Any], ctx: _Ctx, name: str, label: str | None)
     require = doc.get("require")
     if require not in (None, "certified", "estimated"):
         raise ctx.err("require", f"must be 'certified' or 'estimated', got {require!r}")
-    fields = dict(sample_period=ctx.sample_period, name=name, label=label, source=ctx.source,
-                  structure=structure, requirements=tuple(requirements),
-                  known_modes=tuple(known_modes), on_uncertain=on_uncertain,
-                  disabled=tuple(disabled), waivers=tuple(ctx.waivers))
+    fields: dict[str, Any] = dict(
+        sample_period=ctx.sample_period, name=name, label=label, source=ctx.source,
+        structure=structure, requirements=tuple(requirements), known_modes=tuple(known_modes),
+        on_uncertain=on_uncertain, disabled=tuple(disabled), waivers=tuple(ctx.waivers))
     if matrices[0] is plant.A and e is plant.E:
         # no loop closed: the plant's matrices and names are checked already (the loader
         # checked the sample period), so the plant is the model, with the file's fields
-        model = dataclasses.replace(plant, **fields)
+        model = plant.with_fields(**fields)
     else:
         model = from_arrays(*matrices, e, states=states, inputs=plant.inputs,
                             outputs=plant.outputs, lines=ctx.prefixed_lines(),
@@ -100,11 +101,10 @@ def build_model(doc: Mapping[str, Any], ctx: _Ctx, name: str, label: str | None)
             raise ctx.err("requirements.robust", "is not evaluated on a model with known_modes "
                           "(they are matched at the nominal values only)",
                           "remove known_modes, or check the range without robust")
-    return dataclasses.replace(model, lines=dict(ctx.lines), loop_parts=_loop(doc, ctx, parts,
-                                                                              requirements,
-                                                                              box is not None),
-                               allowed_drift=drift, require=require, parameters=box,
-                               file_inputs=ModelInputs.linear(doc, ctx, _loop_matrices))
+    return model.with_fields(lines=dict(ctx.lines),
+                             loop_parts=_loop(doc, ctx, parts, requirements, box is not None),
+                             allowed_drift=drift, require=require, parameters=box,
+                             file_inputs=ModelInputs.linear(doc, ctx, _loop_matrices))
 
 
 def _loop(doc: Mapping[str, Any], ctx: _Ctx, parts: list[dict[str, Any]],

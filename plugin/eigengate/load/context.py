@@ -7,7 +7,8 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, Callable, Mapping
+from collections.abc import Mapping
+from typing import Any, Callable
 
 from ..model.formats import suggest
 from ..model.core import as_matrix, is_sparse

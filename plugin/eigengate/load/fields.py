@@ -8,7 +8,8 @@ import dataclasses
 import itertools
 import math
 from pathlib import Path
-from typing import Any, Callable, Mapping
+from collections.abc import Mapping
+from typing import Any, Callable
 
 from ..analysis.nonlinear import FieldPoint, VectorField, _vec, import_function, linearise
 from ..model.core import Model

@@ -14,7 +14,8 @@ import dataclasses
 import itertools
 import math
 import re
-from typing import Any, Callable, Mapping
+from collections.abc import Mapping
+from typing import Any, Callable
 
 from ..errors import ModelError
 from ..model.core import Model
@@ -220,7 +221,7 @@ def load_grid(data: Mapping[str, Any], ctx: _Ctx, name: str,
                 doc["requirements"] = merge(doc.get("requirements") or {}, reqs)
         pctx = dataclasses.replace(ctx, prefix=f"grid[{ident}].")
         model = build(doc, pctx, name, ident)
-        models.append(dataclasses.replace(model, point_id=ident, grid=coords))
+        models.append(model.with_fields(point_id=ident, grid=coords))
     if missing:
         raise ctx.err("grid.matrices", f"names files that do not exist for {len(missing)} "
                       f"grid point{'s' if len(missing) != 1 else ''}: " + "; ".join(

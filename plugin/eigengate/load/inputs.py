@@ -21,7 +21,8 @@ worker process has no inputs; :func:`eigengate.load.loader.inputs_by_title` read
 from __future__ import annotations
 
 import dataclasses
-from typing import Any, Callable, Mapping
+from collections.abc import Mapping
+from typing import Any, Callable
 
 from ..baseline.inputs import InputBlock, block_of
 

@@ -11,7 +11,8 @@ import dataclasses
 import functools
 import os
 from pathlib import Path
-from typing import Any, Callable, Mapping
+from collections.abc import Mapping
+from typing import Any, Callable
 
 from ..model.formats import read_document, suggest
 from ..errors import ModelError
@@ -243,8 +244,7 @@ def _load(data: dict[str, Any], *, source: str, root: Path | None, base_dir: Pat
         _check_keys(point, POINT_KEYS, pctx, "", "an operating point")
         ident = point_identity(point, i, pctx, ids) or f"#{i}:{label_shape(label)}"
         merged = _merge(base, {k: v for k, v in point.items() if k not in ("label", "id")})
-        models.append(dataclasses.replace(build_model(merged, pctx, name, label),
-                                          point_id=ident))
+        models.append(build_model(merged, pctx, name, label).with_fields(point_id=ident))
     check_waiver_labels(ctx, list(seen))
     return models
 

@@ -16,7 +16,8 @@ values the model's matrices are formed by the same code that formed the nominal 
 from __future__ import annotations
 
 import math
-from typing import Any, Callable, Mapping
+from collections.abc import Mapping
+from typing import Any, Callable
 
 from ..analysis.parametric import ParameterBox
 from ..model.core import Model, as_matrix

@@ -7,7 +7,8 @@ same errors with the same wording.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, fields
+from itertools import chain
 from typing import TYPE_CHECKING, Any, Mapping, Sequence
 
 from ..errors import ModelError
@@ -101,6 +102,17 @@ class Model:
     def discrete(self) -> bool:
         return self.sample_period is not None
 
+    def with_fields(self, **changes: Any) -> "Model":
+        """A copy with ``changes`` (what ``dataclasses.replace`` gives, without its per-field
+        pass: a Model has no ``__post_init__``, so copying the fields is the same)."""
+        unknown = changes.keys() - _FIELD_NAMES
+        if unknown:
+            raise TypeError(f"Model has no field {sorted(unknown)[0]!r}")
+        new = object.__new__(Model)
+        new.__dict__.update(self.__dict__)
+        new.__dict__.update(changes)
+        return new
+
     @property
     def n_states(self) -> int:
         return self.A.shape[0]
@@ -128,6 +140,9 @@ class Model:
                 return line
             parts.pop()
         return None
+
+
+_FIELD_NAMES = frozenset(f.name for f in fields(Model))
 
 
 def as_matrix(
@@ -174,15 +189,13 @@ def as_matrix(
             raise bad(f"must be a 2-D matrix, got a {arr.ndim}-D array of shape {arr.shape}")
         arr = np.array(arr, dtype=float, copy=True)
     else:
-        rows = _rows_of(value, bad, allow_vector)
+        rows = value if type(value) is list and value and \
+            all(type(row) is list for row in value) else _rows_of(value, bad, allow_vector)
         width = len(rows[0]) if rows else 0
         # Fast path: one pass in C over the entry types; the loop below only runs to find
         # and name the first bad entry.
-        if all(len(row) == width for row in rows) and \
-                {type(x) for row in rows for x in row} <= _NUMBER_TYPES:
-            rows_ok = True
-        else:
-            rows_ok = False
+        rows_ok = all(len(row) == width for row in rows) and \
+            set(map(type, chain.from_iterable(rows))) <= _NUMBER_TYPES
         for i, row in enumerate(() if rows_ok else rows):
             if len(row) != width:
                 raise bad(f"must have rows of equal length, row 1 has {width} entries "

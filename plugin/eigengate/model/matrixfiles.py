@@ -24,7 +24,8 @@ resolved lexically (``..`` may not climb above the root) and nothing touches the
 from __future__ import annotations
 
 from pathlib import Path
-from typing import TYPE_CHECKING, Any, Callable, Mapping
+from collections.abc import Mapping
+from typing import TYPE_CHECKING, Any, Callable
 
 from .formats import suggest
 from ..errors import ModelError
