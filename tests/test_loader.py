@@ -338,3 +338,50 @@ def test_fast_number_path_reads_yaml_like_pyyaml(row):
     ref = yaml.safe_load(f"m: [{row}]\n")
     assert ours == ref
     assert [type(x) for x in ours["m"][0]] == [type(x) for x in ref["m"][0]]
+
+
+def test_model_without_feedback_matches_the_checked_closed_loop_path():
+    """A model with no loop closed takes the plant as built (the second pass through
+    from_arrays is skipped): every field equals what from_arrays gives on the same matrices,
+    for a state-space, a descriptor and a discrete transfer-function plant."""
+    import dataclasses
+
+    from eigengate.model.core import from_arrays
+
+    docs = [
+        {"model_format": 1, "plant": {"A": [[0, 1], [-2, -3]], "B": [[0], [1]],
+                                      "C": [[1, 0]], "states": ["p", "v"]},
+         "requirements": {"stable": True}, "on_uncertain": "pass"},
+        {"model_format": 1, "plant": {"A": [[-1, 0], [0, -2]], "E": [[2, 0], [0, 1]]}},
+        {"model_format": 1, "domain": "discrete", "sample_period": 0.1,
+         "plant": {"num": [1], "den": [1, -0.5]}},
+    ]
+    for doc in docs:
+        (model,) = load_document(doc, source="m.yaml")
+        again = from_arrays(model.A, model.B, model.C, model.D, model.E,
+                            sample_period=model.sample_period, name=model.name,
+                            states=model.states, inputs=model.inputs, outputs=model.outputs,
+                            source=model.source, structure=model.structure,
+                            requirements=model.requirements, on_uncertain=model.on_uncertain,
+                            lines=model.lines)
+        for f in dataclasses.fields(model):
+            if f.name in ("file_inputs", "loop_parts"):
+                continue
+            a, b = getattr(model, f.name), getattr(again, f.name)
+            if isinstance(a, np.ndarray):
+                assert a.dtype == b.dtype and np.array_equal(a, b), f.name
+            else:
+                assert a == b, f.name
+
+
+def test_with_fields_is_dataclasses_replace():
+    import dataclasses
+
+    (model,) = load_document({"model_format": 1, "plant": {"A": [[-1.0]]}}, source="m.yaml")
+    changed = model.with_fields(label="x", point_id="#1")
+    assert {f.name: getattr(changed, f.name) for f in dataclasses.fields(model)} == \
+        {f.name: getattr(dataclasses.replace(model, label="x", point_id="#1"), f.name)
+         for f in dataclasses.fields(model)}
+    assert model.label is None  # the original is unchanged
+    with pytest.raises(TypeError, match="no field 'colour'"):
+        model.with_fields(colour="red")

@@ -79,8 +79,9 @@ def load_models_with_refs(path: str | os.PathLike[str],
 
 
 @functools.lru_cache(maxsize=256)
-def _real_folder(folder: str) -> str:
-    # the repository root and model folders are resolved once per run, not once per file
+def real_folder(folder: str) -> str:
+    """``os.path.realpath`` of a folder, once per process: the repository root and model
+    folders are resolved once per run, not once per file."""
     return os.path.realpath(folder)
 
 
@@ -91,12 +92,12 @@ def model_source(file: Path, root: Path) -> str:
     escapes). A file outside ``root`` that is not such a link keeps the path it was given."""
     from ..model.formats import printable_name
 
-    root_real = _real_folder(os.fspath(root))
+    root_real = real_folder(os.fspath(root))
     real = os.path.realpath(file)
     if real.startswith(root_real) and real[len(root_real):len(root_real) + 1] in ("", os.sep):
         source = Path(os.path.relpath(real, root_real)).as_posix()
     else:
-        here = os.path.join(_real_folder(os.path.dirname(os.path.abspath(file))), file.name)
+        here = os.path.join(real_folder(os.path.dirname(os.path.abspath(file))), file.name)
         if here.startswith(root_real + os.sep):
             raise ModelError(printable_name(Path(os.path.relpath(here, root_real)).as_posix()),
                              "", "is a link that points outside the repository; it was not "

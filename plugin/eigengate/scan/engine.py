@@ -116,7 +116,7 @@ def analyse_file(path: str | Path, root: str | Path | None = None,
                  ) -> tuple[str, tuple[ModelResult, ...], ModelError | None, list[str]]:
     """Load and analyse a model file without waivers: (source, results, error, referenced
     matrix files). The cache stores exactly this."""
-    from ..load.loader import load_models_with_refs
+    from ..load.loader import load_models_with_refs, real_folder
 
     if root is None and config is not None:
         root = config.root
@@ -124,7 +124,7 @@ def analyse_file(path: str | Path, root: str | Path | None = None,
     if config is not None:
         import os
 
-        rel = os.path.relpath(os.path.realpath(path), os.path.realpath(config.root))
+        rel = os.path.relpath(os.path.realpath(path), real_folder(os.fspath(config.root)))
         allow = config.policy_for(rel.replace(os.sep, "/")).allow_python
     try:
         models, refs = load_models_with_refs(path, root=root, allow_python=allow)
