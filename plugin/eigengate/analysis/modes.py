@@ -22,6 +22,7 @@ LAPACK returned, nor on the sign of the imaginary parts.
 
 from __future__ import annotations
 
+import collections
 import math
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any, cast
@@ -271,7 +272,8 @@ def analyse(model: Model) -> Spectrum:
     """
     import numpy as np
 
-    from .bounds import ENCLOSE_LIMIT, cluster_radius, components, enclose, estimate
+    from .bounds import (ENCLOSE_LIMIT, TOUCH, cluster_radius, components, enclose, estimate,
+                         touching_small)
 
     if model.sparse:  # the dense analysis of a sparse model
         import dataclasses
@@ -287,36 +289,55 @@ def analyse(model: Model) -> Spectrum:
         model = dataclasses.replace(model, A=sparse_a.toarray(),
                                     E=None if sparse_e is None else sparse_e.toarray())
     n = model.n_states
-    lam, vr, vl, ew, norm, infinite, balanced, work = _decompose(model)
+    small = small_lapack(model.A) if model.E is None else None
+    if small is not None:  # a small standard model: the same arithmetic, fewer numpy calls
+        from . import small_modes
+
+        lam, vr, vl, norm, balanced, work, absw = small_modes.decompose(model.A, small)
+        infinite = 0
+    else:
+        lam, vr, vl, ew, norm, infinite, balanced, work = _decompose(model)
     if not (np.isfinite(lam).all() and math.isfinite(norm)):  # never a verdict from inf/nan
         raise ModelError(model.source, "plant.A", "has eigenvalues beyond the range of double "
                          "precision", line=model.line_of("plant.A"), hint="rescale the units")
-    eps = float(np.finfo(float).eps)
-
-    # A posteriori bounds from the residuals A v - λ v (descriptor: A v - λ E v) and the left
-    # vectors; κ_i = ‖w‖‖v‖/|w^H v| (w^H E v for descriptor models) is reported alongside.
-    delta, kappa, residual = estimate(work, model.E, lam, vr, vl, ew)
+    eps = 2.0 ** -52  # float64 machine epsilon
     # Defective eigenvalues: the Hölder-type scale of the QR/QZ backward error n·eps·‖A‖.
-    base = BOUND_FACTOR * n * eps * max(norm, np.finfo(float).tiny)
-    cap_defective(lam, delta, base, norm, n)
-    rho = labels = None
-    if model.E is None and n <= ENCLOSE_LIMIT:
-        rho = enclose(work, lam, vr, vl, residual)
-        labels = None if rho is None else components(lam, rho)
+    base = BOUND_FACTOR * n * eps * max(norm, 2.2250738585072014e-308)
+    lams = lam.tolist()
+    if small is not None:
+        delta, kappa, rho, ewc = small_modes.bounds(work, absw, lam, vr, vl, norm, base)
+        deltas = delta.tolist()
+        labels = None if rho is None else touching_small(lams, rho.tolist(), TOUCH)
+        clusters = _groups(touching_small(lams, deltas, CLUSTER_FACTOR))
+    else:
+        # A posteriori bounds from the residuals A v - λ v (descriptor: A v - λ E v) and the
+        # left vectors; κ_i = ‖w‖‖v‖/|w^H v| (w^H E v for descriptor models) alongside.
+        delta, kappa, residual = estimate(work, model.E, lam, vr, vl, ew)
+        cap_defective(lam, delta, base, norm, n)
+        rho = labels = None
+        if model.E is None and n <= ENCLOSE_LIMIT:
+            rho = enclose(work, lam, vr, vl, residual)
+            labels = None if rho is None else components(lam, rho)
+        ewc = ew.conj()
+        deltas = delta.tolist()
+        clusters = _clusters(lam, delta)
 
     # Participation p_ki = |v_ki · conj((E^H w)_ki)|, normalised to sum 1 per eigenvalue.
-    raw = np.abs(vr * ew.conj())
+    raw = np.abs(vr * ewc)
     sums = raw.sum(axis=0)
-    sums[sums == 0] = 1.0
+    if not sums.all():
+        sums[sums == 0] = 1.0
     part = raw / sums
 
-    clusters = _clusters(lam, delta)
-    rows = []
+    kappas, tops = kappa.tolist(), part.argmax(axis=0).tolist()
+    rhos = None if rho is None else rho.tolist()
+    sizes = None if labels is None else collections.Counter(labels)
+    rows, keys = [], []
     for members in clusters:
         if len(members) == 1:  # the common case: no numpy calls per eigenvalue
             i = members[0]
-            centre, err, geometric = complex(lam[i]), float(delta[i]), 1
-            kap, weights = float(kappa[i]), part[:, i]
+            centre, err, geometric = lams[i], deltas[i], 1
+            kap, weights, top = kappas[i], part[:, i], tops[i]
         else:
             vals = lam[members]
             centre = complex(vals.mean())
@@ -330,33 +351,42 @@ def analyse(model: Model) -> Spectrum:
                 err = max(err, hoelder(base, norm, block)
                           * (1.0 if model.E is None else 1.0 + abs(centre)))
             kap, weights = float(kappa[members].max()), part[:, members].mean(axis=1)
+            top = int(np.argmax(weights))
         if abs(centre.imag) <= err:
             centre = complex(centre.real, 0.0)
         elif centre.imag < 0:
             continue  # the conjugate cluster stands for this one
-        ring = cluster_radius(lam, rho, labels, members, centre)
-        rows.append(_mode_fields(model, centre, err, len(members), geometric, kap, weights,
-                                 ring))
+        ring = cluster_radius(lams, rhos, labels, members, centre, sizes)
+        row = _mode_fields(model, centre, err, len(members), geometric, kap, weights, ring)
+        rows.append(row)
+        keys.append(sort_key(row, top))
     # Least stable (largest Re s) first, on rounded keys so round-off cannot reorder ties.
-    rows.sort(key=sort_key)
-    modes = tuple(Mode(index=k + 1, states=model.states, **r) for k, r in enumerate(rows))
+    order = sorted(range(len(rows)), key=keys.__getitem__)
+    modes = tuple(Mode(index=k + 1, states=model.states, **rows[j]) for k, j in enumerate(order))
     return Spectrum(model=model, modes=modes, infinite=infinite, norm=norm, balanced=balanced)
 
 
-def sort_key(row: dict) -> tuple:
-    """Least stable (largest Re s) first, on rounded keys so round-off cannot reorder ties."""
-    import numpy as np
+def sort_key(row: dict, top: int | None = None) -> tuple:
+    """Least stable (largest Re s) first, on rounded keys so round-off cannot reorder ties;
+    ``top``: the index of the largest participation factor, when known."""
+    if top is None:
+        import numpy as np
 
-    return (-_round_sig(row["s"].real), _round_sig(abs(row["s"].imag)),
-            int(np.argmax(row["participation"])))
+        top = int(np.argmax(row["participation"]))
+    return (-_round_sig(row["s"].real), _round_sig(abs(row["s"].imag)), top)
 
 
 def _clusters(lam: "np.ndarray", delta: "np.ndarray") -> list[list[int]]:
     """Group eigenvalues closer than CLUSTER_FACTOR·(δi+δj), by sweeping along the real axis."""
     from .bounds import touching
 
+    return _groups(touching(lam, delta, CLUSTER_FACTOR))
+
+
+def _groups(labels: list[int]) -> list[list[int]]:
+    """The members of each component label, ascending, in the order of their labels."""
     groups: dict[int, list[int]] = {}
-    for i, root in enumerate(touching(lam, delta, CLUSTER_FACTOR)):
+    for i, root in enumerate(labels):
         groups.setdefault(root, []).append(i)
     return [sorted(g) for _, g in sorted(groups.items())]
 

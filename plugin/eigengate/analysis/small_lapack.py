@@ -90,21 +90,38 @@ def _lapack_for(n: int) -> tuple:
     return lib.dgebal, lib.dgeev, int(work.real)
 
 
-def _complex_vectors(w: "np.ndarray", vin: "np.ndarray") -> "np.ndarray":
+def _pair_columns(imag: list) -> list[int] | None:
+    """The first column of each complex pair, as ``scipy.linalg._decomp`` finds them (its
+    mask, with its guard against a LAPACK ordering slip, ticket 709), when the pairs do not
+    overlap (LAPACK's own layout); None otherwise (the column-by-column loop then)."""
+    n = len(imag)
+    first = [i for i in range(n) if imag[i] > 0 or (i + 1 < n and imag[i + 1] < 0)]
+    if first and (first[-1] + 1 >= n or any(b - a == 1 for a, b in zip(first, first[1:]))):
+        return None
+    return first
+
+
+def _complex_vectors(w: "np.ndarray", vin: "np.ndarray", pairs: tuple | None = None
+                     ) -> "np.ndarray":
     """Complex eigenvectors from xGEEV's real output, as ``scipy.linalg._decomp`` builds
-    them: for a pair, columns j and j+1 hold the real and imaginary parts."""
+    them: for a pair, columns j and j+1 hold the real and imaginary parts. ``pairs``: the
+    index arrays ``(first, first + 1)`` of non-overlapping pairs, when known."""
     import numpy as np
 
     v = np.array(vin, dtype=w.dtype)
-    m = w.imag > 0
-    m[:-1] |= w.imag[1:] < 0  # scipy's guard against a LAPACK ordering slip (its ticket 709)
-    first = np.flatnonzero(m)
-    if first.size and first[-1] + 1 < v.shape[1] and not np.any(np.diff(first) == 1):
-        # pairs that do not overlap (LAPACK's own layout): all at once, the same values
-        v.imag[:, first] = vin[:, first + 1]
-        v[:, first + 1] = np.conj(v[:, first])
+    if pairs is None:
+        first_list = _pair_columns(w.imag.tolist())
+        if first_list is not None:
+            first = np.array(first_list, dtype=np.intp)
+            pairs = (first, first + 1)
+    if pairs is not None:  # all at once: the same values as the loop below
+        first, second = pairs
+        v.imag[:, first] = vin[:, second]
+        v[:, second] = np.conj(v[:, first])
         return v
-    for i in first:
+    m = w.imag > 0
+    m[:-1] |= w.imag[1:] < 0
+    for i in np.flatnonzero(m):
         v.imag[:, i] = vin[:, i + 1]
         np.conj(v[:, i], v[:, i + 1])
     return v
@@ -122,7 +139,13 @@ def small_eig(work: "np.ndarray", small: tuple):
 
         return la.eig(work, left=True, right=True, check_finite=False)
     w = wr + 1j * wi
-    if not np.all(w.imag == 0.0):
-        vl = _complex_vectors(w, vl)
-        vr = _complex_vectors(w, vr)
+    imag = w.imag.tolist()
+    if any(imag):  # not every imaginary part zero
+        first_list = _pair_columns(imag)
+        pairs = None
+        if first_list is not None:
+            first = np.array(first_list, dtype=np.intp)
+            pairs = (first, first + 1)
+        vl = _complex_vectors(w, vl, pairs)
+        vr = _complex_vectors(w, vr, pairs)
     return w, vl, vr
