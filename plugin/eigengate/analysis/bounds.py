@@ -33,7 +33,7 @@ if TYPE_CHECKING:  # pragma: no cover
     import numpy as np
 
 __all__ = ["estimate", "first_order", "column_norms", "frobenius", "enclose", "gershgorin",
-           "components", "touching", "touching_small", "cluster_radius", "cap_defective",
+           "components", "touching", "touching_small", "sweep_order", "cluster_radius", "cap_defective",
            "hoelder", "map_to_s", "ENCLOSE_LIMIT", "TOUCH"]
 
 #: Factor on the first-order residual bound: covers a second-order remainder as large as the
@@ -72,7 +72,8 @@ def estimate(A: "np.ndarray", E: "np.ndarray | None", lam: "np.ndarray", vr: "np
     R = _mul(A, vr) - ev * lam
     dots = np.abs(np.einsum("ij,ij->j", ew.conj(), vr))
     norm_e = 1.0 if E is None else frobenius(E)
-    bound, kappa = first_order(R, vr, vl, dots, np.abs(lam), frobenius(A), norm_e)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        bound, kappa = first_order(R, vr, vl, dots, np.abs(lam), frobenius(A), norm_e)
     return bound, kappa, R
 
 
@@ -80,16 +81,17 @@ def first_order(R: "np.ndarray", vr: "np.ndarray", vl: "np.ndarray", dots: "np.n
                 absl: "np.ndarray", norm_a: float, norm_e: float
                 ) -> tuple["np.ndarray", "np.ndarray"]:
     """:func:`estimate`'s bounds and condition numbers from the residuals ``R``, the vectors,
-    ``dots = |wᴴ E v|``, ``absl = |λ|`` and the Frobenius norms of A and E."""
+    ``dots = |wᴴ E v|``, ``absl = |λ|`` and the Frobenius norms of A and E (under the
+    caller's ``numpy.errstate``: a zero ``dots`` divides by zero)."""
     import numpy as np
 
     eps = 2.0 ** -52  # float64 machine epsilon
     vnorm = column_norms(vr)
-    floor = EST_FLOOR * math.sqrt(R.shape[0] + 1) * eps * (norm_a + absl * norm_e) * vnorm
+    scaled = absl if norm_e == 1.0 else absl * norm_e  # x·1.0 is x
+    floor = EST_FLOOR * math.sqrt(R.shape[0] + 1) * eps * (norm_a + scaled) * vnorm
     wnorm = column_norms(vl)
-    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        kappa = wnorm * vnorm / dots
-        bound = EST_SAFETY * (column_norms(R) + floor) * wnorm / dots
+    kappa = wnorm * vnorm / dots
+    bound = EST_SAFETY * (column_norms(R) + floor) * wnorm / dots
     kappa = np.where(np.isfinite(kappa), kappa, 1.0 / eps)
     bound = np.where(np.isfinite(bound), bound, np.inf)
     bound = np.maximum(bound, FIGURE_FLOOR * eps * absl)
@@ -101,7 +103,8 @@ def column_norms(X: "np.ndarray") -> "np.ndarray":
     (its branch for one axis), without its argument handling."""
     import numpy as np
 
-    return np.sqrt(np.add.reduce((X.conj() * X).real, axis=(0,)))
+    square = (X.conj() * X).real if X.dtype.kind == "c" else X * X  # conj(x) is x when real
+    return np.sqrt(np.add.reduce(square, axis=(0,)))
 
 
 def frobenius(M) -> float:
@@ -134,9 +137,12 @@ def cap_defective(lam: "np.ndarray", delta: "np.ndarray", base: float, norm: flo
     within 2·h_m; the bound is capped at h_m. Only eigenvalues whose first-order bound exceeds
     h_2 are examined, so ordinary spectra cost nothing here.
     """
+    over = delta > hoelder(base, norm, 2)
+    if not over.any():
+        return
     import numpy as np
 
-    for i in np.nonzero(delta > hoelder(base, norm, 2))[0]:
+    for i in over.nonzero()[0]:
         d = np.abs(lam - lam[i])
         block = 2
         for m in range(3, min(n, MAX_BLOCK) + 1):
@@ -171,7 +177,7 @@ def enclose(A: "np.ndarray", lam: "np.ndarray", vr: "np.ndarray", vl: "np.ndarra
 
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         dots = np.einsum("ij,ij->j", vl.conj(), vr)
-        if not np.all(np.isfinite(dots)) or np.any(dots == 0):
+        if not np.isfinite(dots).all() or (dots == 0).any():
             return None
         return gershgorin(np.abs(A), np.abs(lam), vr, vl, R, dots)
 
@@ -197,7 +203,7 @@ def gershgorin(absa: "np.ndarray", absl: "np.ndarray", vr: "np.ndarray", vl: "np
         return None
     t = (absy @ rsum) * up * up
     rho = (t + csum * (float(t.max()) / (1.0 - cnorm))) * up * up
-    if not np.all(np.isfinite(rho)):
+    if not np.isfinite(rho).all():
         return None
     return rho
 
@@ -244,16 +250,25 @@ def touching(lam: "np.ndarray", radius: "np.ndarray", factor: float) -> list[int
     return _join(lam, radius, factor, order, re, sorted(set(int(a) for a in close)), rmax)
 
 
-def touching_small(lam: list[complex], radius: list[float], factor: float) -> list[int]:
+def touching_small(lam: list[complex], radius: list[float], factor: float,
+                   sweep: "tuple[list[int], list[float]] | None" = None) -> list[int]:
     """:func:`touching` of finite ``lam`` and ``radius`` (no NaN) given as lists: the same
-    arithmetic on Python floats, without numpy's per-call cost (for a few dozen points)."""
-    n = len(lam)
-    real = [z.real for z in lam]
-    order = sorted(range(n), key=real.__getitem__)  # stable, as argsort(kind="stable")
-    re = [real[i] for i in order]
+    arithmetic on Python floats, without numpy's per-call cost (for a few dozen points).
+    ``sweep``: :func:`sweep_order` of ``lam``, when the caller has it."""
+    order, re = sweep_order([z.real for z in lam]) if sweep is None else sweep
+    n = len(order)
     rmax = max(radius) if n else 0.0
     close = [a for a in range(n - 1) if re[a + 1] - re[a] <= factor * (radius[order[a]] + rmax)]
+    if not close:  # the usual spectrum: every point its own component
+        return list(range(n))
     return _join(lam, radius, factor, order, re, close, rmax)
+
+
+def sweep_order(real: list[float]) -> tuple[list[int], list[float]]:
+    """The order of :func:`touching`'s sweep (by real part, stable, as
+    ``argsort(kind="stable")``) and the real parts in that order."""
+    order = sorted(range(len(real)), key=real.__getitem__)
+    return order, [real[i] for i in order]
 
 
 def _join(lam, radius, factor: float, order, re, close: Sequence[int], rmax: float
@@ -291,6 +306,11 @@ def cluster_radius(lam: "Sequence[complex] | np.ndarray", rho: "Sequence[float] 
     ``sizes``: the number of discs of each component label, when the caller has counted."""
     if rho is None or labels is None:
         return math.inf
+    if sizes is not None and len(members) == 1:  # one disc: alone in its component or not
+        i = members[0]
+        if sizes[labels[i]] != 1:
+            return math.inf
+        return (abs(complex(lam[i]) - centre) + float(rho[i])) * (1.0 + 4.0 * _U)
     own = {labels[i] for i in members}
     count = (sum(1 for lab in labels if lab in own) if sizes is None
              else sum(sizes[lab] for lab in own))

@@ -29,7 +29,10 @@ from typing import TYPE_CHECKING, Any, cast
 
 from ..errors import ModelError
 from ..model.core import Model
-from .bounds import MAX_BLOCK, cap_defective, hoelder
+from . import small_modes
+from .bounds import (ENCLOSE_LIMIT, FIGURE_FLOOR, MAX_BLOCK, TOUCH, cap_defective, cluster_radius,
+                     components, enclose, estimate, hoelder, map_to_s, sweep_order, touching,
+                     touching_small)
 from .small_lapack import SMALL_ORDER, small_eig, small_lapack  # noqa: F401 (SMALL_ORDER: public)
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -272,8 +275,6 @@ def analyse(model: Model) -> Spectrum:
     """
     import numpy as np
 
-    from .bounds import (ENCLOSE_LIMIT, TOUCH, cluster_radius, components, enclose, estimate,
-                         touching_small)
 
     if model.sparse:  # the dense analysis of a sparse model
         import dataclasses
@@ -291,8 +292,6 @@ def analyse(model: Model) -> Spectrum:
     n = model.n_states
     small = small_lapack(model.A) if model.E is None else None
     if small is not None:  # a small standard model: the same arithmetic, fewer numpy calls
-        from . import small_modes
-
         lam, vr, vl, norm, balanced, work, absw = small_modes.decompose(model.A, small)
         infinite = 0
     else:
@@ -306,9 +305,9 @@ def analyse(model: Model) -> Spectrum:
     lams = lam.tolist()
     if small is not None:
         delta, kappa, rho, ewc = small_modes.bounds(work, absw, lam, vr, vl, norm, base)
-        deltas = delta.tolist()
-        labels = None if rho is None else touching_small(lams, rho.tolist(), TOUCH)
-        clusters = _groups(touching_small(lams, deltas, CLUSTER_FACTOR))
+        deltas, sweep = delta.tolist(), sweep_order(lam.real.tolist())
+        labels = None if rho is None else touching_small(lams, rho.tolist(), TOUCH, sweep)
+        clusters = _groups(touching_small(lams, deltas, CLUSTER_FACTOR, sweep))
     else:
         # A posteriori bounds from the residuals A v - λ v (descriptor: A v - λ E v) and the
         # left vectors; κ_i = ‖w‖‖v‖/|w^H v| (w^H E v for descriptor models) alongside.
@@ -332,12 +331,13 @@ def analyse(model: Model) -> Spectrum:
     kappas, tops = kappa.tolist(), part.argmax(axis=0).tolist()
     rhos = None if rho is None else rho.tolist()
     sizes = None if labels is None else collections.Counter(labels)
+    columns = list(part.T)  # part[:, i] for each i, the same views
     rows, keys = [], []
     for members in clusters:
         if len(members) == 1:  # the common case: no numpy calls per eigenvalue
             i = members[0]
             centre, err, geometric = lams[i], deltas[i], 1
-            kap, weights, top = kappas[i], part[:, i], tops[i]
+            kap, weights, top = kappas[i], columns[i], tops[i]
         else:
             vals = lam[members]
             centre = complex(vals.mean())
@@ -362,8 +362,21 @@ def analyse(model: Model) -> Spectrum:
         keys.append(sort_key(row, top))
     # Least stable (largest Re s) first, on rounded keys so round-off cannot reorder ties.
     order = sorted(range(len(rows)), key=keys.__getitem__)
-    modes = tuple(Mode(index=k + 1, states=model.states, **rows[j]) for k, j in enumerate(order))
+    modes = tuple(_mode(k + 1, model.states, rows[j]) for k, j in enumerate(order))
     return Spectrum(model=model, modes=modes, infinite=infinite, norm=norm, balanced=balanced)
+
+
+def _mode(index: int, states: tuple[str, ...], row: dict) -> Mode:
+    """``Mode(index=index, states=states, **row)``, filled in directly rather than through
+    the frozen ``__init__`` (one ``object.__setattr__`` per field), as
+    :func:`eigengate.scan.records.unrecord` rebuilds one: the same instance (Mode has no
+    ``__post_init__``), at a fifth of the cost."""
+    mode = object.__new__(Mode)
+    fields = mode.__dict__
+    fields["index"] = index
+    fields.update(row)
+    fields["states"] = states
+    return mode
 
 
 def sort_key(row: dict, top: int | None = None) -> tuple:
@@ -378,13 +391,13 @@ def sort_key(row: dict, top: int | None = None) -> tuple:
 
 def _clusters(lam: "np.ndarray", delta: "np.ndarray") -> list[list[int]]:
     """Group eigenvalues closer than CLUSTER_FACTOR·(δi+δj), by sweeping along the real axis."""
-    from .bounds import touching
-
     return _groups(touching(lam, delta, CLUSTER_FACTOR))
 
 
 def _groups(labels: list[int]) -> list[list[int]]:
     """The members of each component label, ascending, in the order of their labels."""
+    if labels == list(range(len(labels))):  # the usual spectrum: no cluster
+        return [[i] for i in labels]
     groups: dict[int, list[int]] = {}
     for i, root in enumerate(labels):
         groups.setdefault(root, []).append(i)
@@ -430,8 +443,6 @@ def vector_rank(vectors: "np.ndarray", size: int) -> int:
 
 def _mode_fields(model: Model, centre: complex, err: float, multiplicity: int, geometric: int,
                  kappa: float, participation: "np.ndarray", ring: float = math.inf) -> dict:
-    from .bounds import FIGURE_FLOOR, map_to_s
-
     pair = centre.imag != 0.0
     if model.sample_period is None:
         s, err_s, ring_s = centre, err, ring

@@ -94,6 +94,9 @@ def _pair_columns(imag: list) -> list[int] | None:
     """The first column of each complex pair, as ``scipy.linalg._decomp`` finds them (its
     mask, with its guard against a LAPACK ordering slip, ticket 709), when the pairs do not
     overlap (LAPACK's own layout); None otherwise (the column-by-column loop then)."""
+    first = [i for i, x in enumerate(imag) if x > 0]
+    if [i for i, x in enumerate(imag) if x < 0] == [i + 1 for i in first]:
+        return first  # each pair (+, −) in turn: scipy's mask is exactly ``first``
     n = len(imag)
     first = [i for i in range(n) if imag[i] > 0 or (i + 1 < n and imag[i + 1] < 0)]
     if first and (first[-1] + 1 >= n or any(b - a == 1 for a, b in zip(first, first[1:]))):
@@ -101,24 +104,12 @@ def _pair_columns(imag: list) -> list[int] | None:
     return first
 
 
-def _complex_vectors(w: "np.ndarray", vin: "np.ndarray", pairs: tuple | None = None
-                     ) -> "np.ndarray":
+def _complex_vectors(w: "np.ndarray", vin: "np.ndarray") -> "np.ndarray":
     """Complex eigenvectors from xGEEV's real output, as ``scipy.linalg._decomp`` builds
-    them: for a pair, columns j and j+1 hold the real and imaginary parts. ``pairs``: the
-    index arrays ``(first, first + 1)`` of non-overlapping pairs, when known."""
+    them: for a pair, columns j and j+1 hold the real and imaginary parts."""
     import numpy as np
 
     v = np.array(vin, dtype=w.dtype)
-    if pairs is None:
-        first_list = _pair_columns(w.imag.tolist())
-        if first_list is not None:
-            first = np.array(first_list, dtype=np.intp)
-            pairs = (first, first + 1)
-    if pairs is not None:  # all at once: the same values as the loop below
-        first, second = pairs
-        v.imag[:, first] = vin[:, second]
-        v[:, second] = np.conj(v[:, first])
-        return v
     m = w.imag > 0
     m[:-1] |= w.imag[1:] < 0
     for i in np.flatnonzero(m):
@@ -127,11 +118,23 @@ def _complex_vectors(w: "np.ndarray", vin: "np.ndarray", pairs: tuple | None = N
     return v
 
 
+def _complex_pairs(vl: "np.ndarray", vr: "np.ndarray", first: list[int]):
+    """:func:`_complex_vectors` of both xGEEV outputs at once, for pairs that do not overlap
+    (first columns ``first``): the same values, in the same (Fortran) layout."""
+    import numpy as np
+
+    one = np.array(first, dtype=np.intp)
+    two = one + 1
+    real = np.stack((vl.T, vr.T))  # rows of each: the columns of vl, vr
+    both = real.astype(np.complex128)
+    both.imag[:, one] = real[:, two]
+    both[:, two] = both[:, one].conj()
+    return both[0].T, both[1].T
+
+
 def small_eig(work: "np.ndarray", small: tuple):
     """``scipy.linalg.eig(work, left=True, right=True, check_finite=False)`` for a real
     float64 matrix, as scipy computes it (same routine, workspace and post-processing)."""
-    import numpy as np
-
     _, geev, lwork = small
     wr, wi, vl, vr, info = geev(work, lwork=lwork, compute_vl=1, compute_vr=1, overwrite_a=0)
     if info != 0:  # the general path raises scipy's own error
@@ -141,11 +144,9 @@ def small_eig(work: "np.ndarray", small: tuple):
     w = wr + 1j * wi
     imag = w.imag.tolist()
     if any(imag):  # not every imaginary part zero
-        first_list = _pair_columns(imag)
-        pairs = None
-        if first_list is not None:
-            first = np.array(first_list, dtype=np.intp)
-            pairs = (first, first + 1)
-        vl = _complex_vectors(w, vl, pairs)
-        vr = _complex_vectors(w, vr, pairs)
+        first = _pair_columns(imag)
+        if first is not None:
+            vl, vr = _complex_pairs(vl, vr, first)
+        else:
+            vl, vr = _complex_vectors(w, vl), _complex_vectors(w, vr)
     return w, vl, vr

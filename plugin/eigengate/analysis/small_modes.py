@@ -37,7 +37,7 @@ def _norm1(absa: "np.ndarray") -> float:
     """``numpy.linalg.norm(A, 1)`` from ``|A|``: its own reduction (largest column sum)."""
     import numpy as np
 
-    return float(np.add.reduce(absa, axis=0).max(axis=0, initial=0))
+    return float(np.add.reduce(absa, axis=0).max())  # initial=0 changes nothing: sums ≥ 0
 
 
 def decompose(A: "np.ndarray", small: tuple):
@@ -75,12 +75,12 @@ def bounds(work: "np.ndarray", absw: "np.ndarray", lam: "np.ndarray", vr: "np.nd
     else:
         av = work @ vr
     R = av - vr * lam
-    delta, kappa = first_order(R, vr, vl, dots, absl, norm, 1.0)
-    cap_defective(lam, delta, base, norm, lam.shape[0])
     # finite and non-zero |wᴴv| means finite, non-zero wᴴv: enclose's own test passes
-    if all(0.0 < d < math.inf for d in dots.tolist()):
-        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-            rho = gershgorin(absw, absl, vr, vl, R, dotc)
-    else:  # enclose decides (it refuses, or an overflow of |wᴴv| alone)
+    sure = all(0.0 < d < math.inf for d in dots.tolist())
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        delta, kappa = first_order(R, vr, vl, dots, absl, norm, 1.0)
+        cap_defective(lam, delta, base, norm, lam.shape[0])
+        rho = gershgorin(absw, absl, vr, vl, R, dotc) if sure else None
+    if not sure:  # enclose decides (it refuses, or an overflow of |wᴴv| alone)
         rho = enclose(work, lam, vr, vl, R)
     return delta, kappa, rho, vlc
