@@ -190,13 +190,13 @@ def gershgorin(absa: "np.ndarray", absl: "np.ndarray", vr: "np.ndarray", vl: "np
 
     n = absa.shape[0]
     Y = (vl / dots.conj()).conj().T
-    g, up = _rounding(n)
+    g, up = rounding(n)
     absx = np.abs(vr)
     absy = np.abs(Y)
     xsum = absx.sum(axis=1) * up  # |X|·1
     # |R_exact| ≤ |R| + g·(|A||X| + |X||Λ|), summed along rows: ... ·1 by matrix-vector
     rsum = (np.abs(R).sum(axis=1) + g * (absa @ xsum + absx @ absl)) * up * up
-    C = (_identity(n) if n <= 32 else np.eye(n)) - Y @ vr
+    C = (identity(n) if n <= 32 else np.eye(n)) - Y @ vr
     csum = (np.abs(C).sum(axis=1) + g * (absy @ xsum) + _U * n) * up * up
     cnorm = float(csum.max())
     if not math.isfinite(cnorm) or cnorm >= 0.5:
@@ -209,14 +209,14 @@ def gershgorin(absa: "np.ndarray", absl: "np.ndarray", vr: "np.ndarray", vl: "np
 
 
 @functools.lru_cache(maxsize=64)
-def _rounding(n: int) -> tuple[float, float]:
+def rounding(n: int) -> tuple[float, float]:
     """``(√2·γ_{2n+4}, 1 + γ_{4n+8})``: the rounding factors of :func:`gershgorin` (products
     of length n; the bound arithmetic itself, no cancellation)."""
     return math.sqrt(2.0) * _gamma(2 * n + 4), 1.0 + _gamma(4 * n + 8)
 
 
 @functools.lru_cache(maxsize=32)
-def _identity(n: int) -> "np.ndarray":
+def identity(n: int) -> "np.ndarray":
     """The identity of order n, read-only (small orders only: one per order is kept)."""
     import numpy as np
 

@@ -22,6 +22,7 @@ LAPACK returned, nor on the sign of the imaginary parts.
 
 from __future__ import annotations
 
+import cmath
 import collections
 import math
 from dataclasses import dataclass
@@ -296,17 +297,17 @@ def analyse(model: Model) -> Spectrum:
         infinite = 0
     else:
         lam, vr, vl, ew, norm, infinite, balanced, work = _decompose(model)
-    if not (np.isfinite(lam).all() and math.isfinite(norm)):  # never a verdict from inf/nan
+    lams = lam.tolist()
+    if not (all(map(cmath.isfinite, lams)) and math.isfinite(norm)):  # never from inf/nan
         raise ModelError(model.source, "plant.A", "has eigenvalues beyond the range of double "
                          "precision", line=model.line_of("plant.A"), hint="rescale the units")
     eps = 2.0 ** -52  # float64 machine epsilon
     # Defective eigenvalues: the Hölder-type scale of the QR/QZ backward error n·eps·‖A‖.
     base = BOUND_FACTOR * n * eps * max(norm, 2.2250738585072014e-308)
-    lams = lam.tolist()
     if small is not None:
-        delta, kappa, rho, ewc = small_modes.bounds(work, absw, lam, vr, vl, norm, base)
-        deltas, sweep = delta.tolist(), sweep_order(lam.real.tolist())
-        labels = None if rho is None else touching_small(lams, rho.tolist(), TOUCH, sweep)
+        deltas, kappas, rhos, ewc = small_modes.bounds(work, absw, lam, vr, vl, norm, base)
+        sweep = sweep_order(lam.real.tolist())
+        labels = None if rhos is None else touching_small(lams, rhos, TOUCH, sweep)
         clusters = _groups(touching_small(lams, deltas, CLUSTER_FACTOR, sweep))
     else:
         # A posteriori bounds from the residuals A v - λ v (descriptor: A v - λ E v) and the
@@ -318,18 +319,18 @@ def analyse(model: Model) -> Spectrum:
             rho = enclose(work, lam, vr, vl, residual)
             labels = None if rho is None else components(lam, rho)
         ewc = ew.conj()
-        deltas = delta.tolist()
+        deltas, kappas = delta.tolist(), kappa.tolist()
+        rhos = None if rho is None else rho.tolist()
         clusters = _clusters(lam, delta)
 
     # Participation p_ki = |v_ki · conj((E^H w)_ki)|, normalised to sum 1 per eigenvalue.
     raw = np.abs(vr * ewc)
     sums = raw.sum(axis=0)
-    if not sums.all():
+    if 0.0 in sums.tolist():
         sums[sums == 0] = 1.0
     part = raw / sums
 
-    kappas, tops = kappa.tolist(), part.argmax(axis=0).tolist()
-    rhos = None if rho is None else rho.tolist()
+    tops = part.argmax(axis=0).tolist()
     sizes = None if labels is None else collections.Counter(labels)
     columns = list(part.T)  # part[:, i] for each i, the same views
     rows, keys = [], []
@@ -345,12 +346,12 @@ def analyse(model: Model) -> Spectrum:
             # The cluster stands for each member: its bound covers the spread and every
             # member's own bound, and, when defective, the Hölder-type sensitivity of the
             # largest Jordan block the multiplicities allow (rotated or triangular alike).
-            err = max(float(np.max(np.abs(vals - centre))), float(delta[members].max()))
+            err = max(float(np.max(np.abs(vals - centre))), max(deltas[i] for i in members))
             if geometric < len(members):
                 block = min(len(members) - geometric + 1, MAX_BLOCK)
                 err = max(err, hoelder(base, norm, block)
                           * (1.0 if model.E is None else 1.0 + abs(centre)))
-            kap, weights = float(kappa[members].max()), part[:, members].mean(axis=1)
+            kap, weights = max(kappas[i] for i in members), part[:, members].mean(axis=1)
             top = int(np.argmax(weights))
         if abs(centre.imag) <= err:
             centre = complex(centre.real, 0.0)

@@ -24,13 +24,14 @@ from __future__ import annotations
 import math
 from typing import TYPE_CHECKING
 
-from .bounds import cap_defective, enclose, first_order, gershgorin
+from .bounds import (_U, EST_FLOOR, EST_SAFETY, FIGURE_FLOOR, cap_defective, column_norms, enclose,
+                     hoelder, identity, rounding)
 from .small_lapack import small_eig
 
 if TYPE_CHECKING:  # pragma: no cover
     import numpy as np
 
-__all__ = ["decompose", "bounds"]
+__all__ = ["decompose", "bounds", "first_order", "gershgorin"]
 
 
 def _norm1(absa: "np.ndarray") -> float:
@@ -63,24 +64,82 @@ def bounds(work: "np.ndarray", absw: "np.ndarray", lam: "np.ndarray", vr: "np.nd
     """``(delta, kappa, rho, conj(vl))``: the first-order bounds (defective eigenvalues
     capped), the condition numbers and the enclosure radii (None where the enclosure fails),
     as :func:`~eigengate.analysis.bounds.estimate`, :func:`~eigengate.analysis.bounds.cap_defective`
-    and :func:`~eigengate.analysis.bounds.enclose` compute them for ``work``."""
+    and :func:`~eigengate.analysis.bounds.enclose` compute them for ``work``; the first three
+    as lists."""
     import numpy as np
 
     absl = np.abs(lam)
     vlc = vl.conj()
     dotc = np.einsum("ij,ij->j", vlc, vr)
-    dots = np.abs(dotc)
+    dots = np.abs(dotc).tolist()
     if vr.dtype.kind == "c":  # two real products, as bounds._mul does
         av = (work @ vr.real) + 1j * (work @ vr.imag)
     else:
         av = work @ vr
     R = av - vr * lam
     # finite and non-zero |wᴴv| means finite, non-zero wᴴv: enclose's own test passes
-    sure = all(0.0 < d < math.inf for d in dots.tolist())
+    sure = all(0.0 < d < math.inf for d in dots)
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        delta, kappa = first_order(R, vr, vl, dots, absl, norm, 1.0)
-        cap_defective(lam, delta, base, norm, lam.shape[0])
+        delta, kappa = first_order(R, vr, vl, dots, absl.tolist(), norm)
+        h2 = hoelder(base, norm, 2)
+        if any(d > h2 for d in delta):  # cap_defective's own test
+            capped = np.array(delta)
+            cap_defective(lam, capped, base, norm, lam.shape[0])
+            delta = capped.tolist()
         rho = gershgorin(absw, absl, vr, vl, R, dotc) if sure else None
     if not sure:  # enclose decides (it refuses, or an overflow of |wᴴv| alone)
-        rho = enclose(work, lam, vr, vl, R)
+        radii = enclose(work, lam, vr, vl, R)
+        rho = None if radii is None else radii.tolist()
     return delta, kappa, rho, vlc
+
+
+def first_order(R: "np.ndarray", vr: "np.ndarray", vl: "np.ndarray", dots: list[float],
+                absl: list[float], norm_a: float) -> tuple[list[float], list[float]]:
+    """:func:`eigengate.analysis.bounds.first_order` of a standard model (E = I), with the
+    arithmetic on each eigenvalue's numbers in Python floats (the same IEEE operations in
+    the same order); the column norms, which are sums, by numpy as there."""
+    eps = 2.0 ** -52
+    floor_scale = EST_FLOOR * math.sqrt(R.shape[0] + 1) * eps
+    least = FIGURE_FLOOR * eps
+    delta, kappa = [], []
+    for v, w, r, d, a in zip(column_norms(vr).tolist(), column_norms(vl).tolist(),
+                             column_norms(R).tolist(), dots, absl):
+        floor = floor_scale * (norm_a + a) * v
+        if d == 0.0:  # numpy's x/0: inf or nan, neither finite
+            k = b = math.nan
+        else:
+            k = w * v / d
+            b = EST_SAFETY * (r + floor) * w / d
+        kappa.append(k if math.isfinite(k) else 1.0 / eps)
+        delta.append(max(b if math.isfinite(b) else math.inf, least * a))
+    return delta, kappa
+
+
+def gershgorin(absa: "np.ndarray", absl: "np.ndarray", vr: "np.ndarray", vl: "np.ndarray",
+               R: "np.ndarray", dots: "np.ndarray") -> list[float] | None:
+    """:func:`eigengate.analysis.bounds.gershgorin` as a list, its arithmetic on each row's
+    numbers in Python floats (the same IEEE operations in the same order); the sums and
+    products by numpy as there."""
+    import numpy as np
+
+    n = absa.shape[0]
+    Y = (vl / dots.conj()).conj().T
+    g, up = rounding(n)
+    absx = np.abs(vr)
+    absy = np.abs(Y)
+    xsum = absx.sum(axis=1) * up
+    rsum = [(a + g * (b + c)) * up * up for a, b, c in
+            zip(np.abs(R).sum(axis=1).tolist(), (absa @ xsum).tolist(), (absx @ absl).tolist())]
+    C = identity(n) - Y @ vr
+    tail = _U * n
+    csum = [(a + g * b + tail) * up * up for a, b in
+            zip(np.abs(C).sum(axis=1).tolist(), (absy @ xsum).tolist())]
+    if not all(map(math.isfinite, csum)):  # numpy's max would be inf or nan: refused
+        return None
+    cnorm = max(csum)
+    if cnorm >= 0.5:
+        return None
+    t = [x * up * up for x in (absy @ np.array(rsum)).tolist()]
+    scale = max(t) / (1.0 - cnorm)  # a nan in t makes its own rho nan: refused below
+    rho = [(a + c * scale) * up * up for a, c in zip(t, csum)]
+    return rho if all(map(math.isfinite, rho)) else None
