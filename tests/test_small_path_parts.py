@@ -5,7 +5,8 @@ on Python floats, ``bounds.touching_small`` the clustering sweep of ``bounds.tou
 ``bounds.column_norms`` and ``small_modes._norm1`` the reductions of ``numpy.linalg.norm``
 without its argument handling. The references are those general functions and numpy itself
 (reference library), on random inputs with zeros, infinities, NaNs, ties and both memory
-layouts; ``tests/test_modes_small_path.py`` checks the whole analysis.
+layouts; ``tests/test_modes_small_path.py`` checks the whole analysis. ``model.replacing``
+copies a model's fields where ``dataclasses.replace`` (the reference) calls ``__init__``.
 """
 
 import math
@@ -113,3 +114,31 @@ def test_norms_match_numpy_linalg_norm(case, real):
     assert small_modes._norm1(np.abs(a)) == float(np.linalg.norm(a, 1))
     flat = a.ravel(order="K")
     assert math.sqrt(flat.dot(flat)) == float(np.linalg.norm(a, "fro"))
+
+
+def test_replaced_is_dataclasses_replace():
+    import dataclasses
+
+    import pytest
+
+    from eigengate import from_arrays
+    from eigengate.model.core import Model
+    from eigengate.model.replacing import replaced
+
+    model = from_arrays(np.diag([-1.0, -2.0]), name="plant", states=["x", "v"])
+    changes = dict(requirements=(), disabled=("EG101",), on_uncertain="pass", require=None)
+    fast, general = replaced(model, **changes), dataclasses.replace(model, **changes)
+    assert type(fast) is Model and fast is not model
+    assert all(getattr(fast, f.name) is getattr(general, f.name)
+               for f in dataclasses.fields(Model))
+    assert model.disabled == () and model.on_uncertain is None  # the original is untouched
+    with pytest.raises(TypeError):  # no such field: dataclasses.replace's own refusal
+        replaced(model, nonsense=1)
+
+    @dataclasses.dataclass(frozen=True, eq=False)
+    class Marked(Model):
+        mark: int = 0
+
+    marked = Marked(**{f.name: getattr(model, f.name) for f in dataclasses.fields(Model)})
+    again = replaced(marked, mark=3)
+    assert type(again) is Marked and again.mark == 3 and again.A is model.A

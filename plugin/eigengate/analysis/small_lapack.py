@@ -125,9 +125,8 @@ def _complex_pairs(vl: "np.ndarray", vr: "np.ndarray", first: list[int]):
 
     one = np.array(first, dtype=np.intp)
     two = one + 1
-    real = np.stack((vl.T, vr.T))  # rows of each: the columns of vl, vr
-    both = real.astype(np.complex128)
-    both.imag[:, one] = real[:, two]
+    both = np.array((vl.T, vr.T), dtype=np.complex128)  # rows: the columns of vl, vr
+    both.imag[:, one] = both.real[:, two]
     both[:, two] = both[:, one].conj()
     return both[0].T, both[1].T
 

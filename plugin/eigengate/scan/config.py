@@ -270,17 +270,17 @@ class Config:
 
     def effective(self, model: "Model") -> "Model":
         """``model`` with the repository layers applied below its own requirements."""
-        from dataclasses import replace
-
+        from ..model.replacing import replaced
         from ..rules.requirements import apply_layers
 
         if (own := self._own(model.source)) is not None:
             return own.effective(model)
         layers = self.layers_for(model.source) + [(model.requirements, model.disabled)]
         reqs = tuple(r for r in apply_layers(layers) if self.rule_enabled(r.rule))
-        return replace(model, requirements=reqs, disabled=(),
-                       on_uncertain=model.on_uncertain or self.on_uncertain_for(model.source),
-                       require=model.require or self.require_for(model.source))
+        return replaced(
+            model, requirements=reqs, disabled=(),
+            on_uncertain=model.on_uncertain or self.on_uncertain_for(model.source),
+            require=model.require or self.require_for(model.source))
 
 
 def _rebase(pattern: str, base: str) -> str:
