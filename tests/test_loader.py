@@ -373,15 +373,3 @@ def test_model_without_feedback_matches_the_checked_closed_loop_path():
             else:
                 assert a == b, f.name
 
-
-def test_with_fields_is_dataclasses_replace():
-    import dataclasses
-
-    (model,) = load_document({"model_format": 1, "plant": {"A": [[-1.0]]}}, source="m.yaml")
-    changed = model.with_fields(label="x", point_id="#1")
-    assert {f.name: getattr(changed, f.name) for f in dataclasses.fields(model)} == \
-        {f.name: getattr(dataclasses.replace(model, label="x", point_id="#1"), f.name)
-         for f in dataclasses.fields(model)}
-    assert model.label is None  # the original is unchanged
-    with pytest.raises(TypeError, match="no field 'colour'"):
-        model.with_fields(colour="red")

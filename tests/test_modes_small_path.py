@@ -1,9 +1,13 @@
 """The small-matrix path of the modal analysis gives what the general path gives, bit for bit.
 
 Up to ``SMALL_ORDER`` states, ``analysis.modes`` calls the LAPACK routines (xGEBAL, xGEEV) that
-``scipy.linalg.matrix_balance`` and ``scipy.linalg.eig`` call, with the same arguments. The
-reference here is scipy itself (the general path: the two public functions), on random
-matrices of many scales, integer matrices with repeated eigenvalues, and defective blocks.
+``scipy.linalg.matrix_balance`` and ``scipy.linalg.eig`` call, with the same arguments, and
+computes the bounds, enclosures and clusters by ``analysis.small_modes`` (fewer numpy calls).
+The reference here is the general path: scipy's two public functions, ``bounds.estimate``,
+``bounds.enclose`` and the numpy clustering sweep, on random matrices of many scales, integer
+matrices with repeated eigenvalues, defective blocks, rotation blocks (complex pairs, repeated
+pairs, eigenvalues on the imaginary axis), huge and tiny scales, zero and nilpotent matrices,
+continuous and discrete.
 """
 
 import math
@@ -44,6 +48,22 @@ def _same(x, y) -> bool:  # equal, NaN equal to NaN, and the same sign of zero
     return x == y
 
 
+def _block(rng, n):
+    """Real 2×2 rotation blocks (complex pairs, some of them repeated) and real entries."""
+    a = np.zeros((n, n))
+    i = 0
+    while i < n:
+        if i + 1 < n and rng.random() < 0.7:
+            re, im = rng.choice([-1.0, -0.5, 0.0, 0.25]), rng.choice([0.5, 1.0, 2.0])
+            a[i:i + 2, i:i + 2] = [[re, im], [-im, re]]
+            i += 2
+        else:
+            a[i, i] = rng.choice([-2.0, -1.0, 0.0, 1.0])
+            i += 1
+    q = np.linalg.qr(rng.normal(size=(n, n)))[0] if rng.random() < 0.5 else np.eye(n)
+    return q @ a @ q.T
+
+
 def _matrices():
     sizes = st.integers(1, 14) | st.integers(15, modes.SMALL_ORDER)
 
@@ -54,17 +74,36 @@ def _matrices():
             return rng.normal(size=(n, n)) * 10.0 ** rng.integers(-4, 5, size=(n, n))
         if kind == 1:  # small integers: repeated eigenvalues, clusters
             return rng.integers(-2, 3, size=(n, n)).astype(float)
-        a = np.diag(np.full(n, -rng.uniform(0.1, 2.0))) + np.diag(np.ones(n - 1), 1)
-        return a  # one Jordan block: defective
-    return st.tuples(sizes, st.integers(0, 2**32 - 1), st.integers(0, 2)).map(build)
+        if kind == 2:  # one Jordan block: defective
+            return np.diag(np.full(n, -rng.uniform(0.1, 2.0))) + np.diag(np.ones(n - 1), 1)
+        if kind == 3:  # complex pairs, repeated pairs, exact zeros and imaginary axis
+            return _block(rng, n)
+        if kind == 4:  # huge or tiny overall scale
+            return rng.normal(size=(n, n)) * 10.0 ** float(rng.choice([-100, -40, 40, 100]))
+        if kind == 5:  # the zero matrix, or a nilpotent one
+            return np.zeros((n, n)) if rng.random() < 0.5 else np.triu(rng.normal(size=(n, n)), 1)
+        return rng.normal(size=(n, n)) - 1.5 * np.eye(n)  # the usual stable model
+    return st.tuples(sizes, st.integers(0, 2**32 - 1), st.integers(0, 6)).map(build)
 
 
-@settings(max_examples=150, deadline=None)
+@settings(max_examples=250, deadline=None)
 @given(_matrices())
 def test_small_path_matches_the_general_path(a):
     fast = modes.analyse(from_arrays(a))
     general = _general(a)
     assert len(fast.modes) == len(general.modes)
+    assert all(_same(x, y) for x, y in zip(_fields(fast), _fields(general)))
+
+
+@settings(max_examples=60, deadline=None)
+@given(_matrices(), st.sampled_from([0.01, 0.1, 1.0]))
+def test_small_path_matches_the_general_path_for_discrete_models(a, period):
+    # z-plane eigenvalues mapped to s = log(z)/T: the same on both paths
+    a = a / max(1.0, float(np.abs(a).max()))
+    fast = modes.analyse(from_arrays(a, sample_period=period))
+    with pytest.MonkeyPatch.context() as m:
+        m.setattr(modes, "small_lapack", lambda A: None)
+        general = modes.analyse(from_arrays(a, sample_period=period))
     assert all(_same(x, y) for x, y in zip(_fields(fast), _fields(general)))
 
 
@@ -79,6 +118,7 @@ def test_small_lapack_calls_match_scipy(a):
     assert bal.tobytes() == ref_bal.tobytes()
     for x, y in zip(modes.small_eig(bal, small), la.eig(ref_bal, left=True, right=True)):
         assert x.dtype == y.dtype and x.tobytes() == y.tobytes()
+        assert x.strides == y.strides  # the same layout: later sums add in the same order
 
 
 def test_general_path_above_the_small_order_and_for_non_finite_entries():

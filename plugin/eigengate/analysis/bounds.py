@@ -25,14 +25,16 @@ this module once per model):
 
 from __future__ import annotations
 
+import functools
 import math
-from typing import TYPE_CHECKING, Sequence
+from typing import TYPE_CHECKING, Mapping, Sequence
 
 if TYPE_CHECKING:  # pragma: no cover
     import numpy as np
 
-__all__ = ["estimate", "frobenius", "enclose", "components", "touching", "cluster_radius", "cap_defective",
-           "hoelder", "map_to_s", "ENCLOSE_LIMIT"]
+__all__ = ["estimate", "first_order", "column_norms", "frobenius", "enclose", "gershgorin",
+           "components", "touching", "touching_small", "sweep_order", "cluster_radius", "cap_defective",
+           "hoelder", "map_to_s", "ENCLOSE_LIMIT", "TOUCH"]
 
 #: Factor on the first-order residual bound: covers a second-order remainder as large as the
 #: first-order term itself (see DEVELOPERS.md, "Numerical decisions").
@@ -66,23 +68,43 @@ def estimate(A: "np.ndarray", E: "np.ndarray | None", lam: "np.ndarray", vr: "np
     matrix ``A·V − E·V·Λ`` (reused by :func:`enclose`)."""
     import numpy as np
 
-    eps = float(np.finfo(float).eps)
-    n = A.shape[0]
     ev = vr if E is None else _mul(E, vr)
     R = _mul(A, vr) - ev * lam
-    vnorm = np.linalg.norm(vr, axis=0)
     dots = np.abs(np.einsum("ij,ij->j", ew.conj(), vr))
-    norm_a = frobenius(A)
     norm_e = 1.0 if E is None else frobenius(E)
-    floor = EST_FLOOR * math.sqrt(n + 1) * eps * (norm_a + np.abs(lam) * norm_e) * vnorm
-    wnorm = np.linalg.norm(vl, axis=0)
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        kappa = wnorm * vnorm / dots
-        bound = EST_SAFETY * (np.linalg.norm(R, axis=0) + floor) * wnorm / dots
+        bound, kappa = first_order(R, vr, vl, dots, np.abs(lam), frobenius(A), norm_e)
+    return bound, kappa, R
+
+
+def first_order(R: "np.ndarray", vr: "np.ndarray", vl: "np.ndarray", dots: "np.ndarray",
+                absl: "np.ndarray", norm_a: float, norm_e: float
+                ) -> tuple["np.ndarray", "np.ndarray"]:
+    """:func:`estimate`'s bounds and condition numbers from the residuals ``R``, the vectors,
+    ``dots = |wᴴ E v|``, ``absl = |λ|`` and the Frobenius norms of A and E (under the
+    caller's ``numpy.errstate``: a zero ``dots`` divides by zero)."""
+    import numpy as np
+
+    eps = 2.0 ** -52  # float64 machine epsilon
+    vnorm = column_norms(vr)
+    scaled = absl if norm_e == 1.0 else absl * norm_e  # x·1.0 is x
+    floor = EST_FLOOR * math.sqrt(R.shape[0] + 1) * eps * (norm_a + scaled) * vnorm
+    wnorm = column_norms(vl)
+    kappa = wnorm * vnorm / dots
+    bound = EST_SAFETY * (column_norms(R) + floor) * wnorm / dots
     kappa = np.where(np.isfinite(kappa), kappa, 1.0 / eps)
     bound = np.where(np.isfinite(bound), bound, np.inf)
-    bound = np.maximum(bound, FIGURE_FLOOR * eps * np.abs(lam))
-    return bound, kappa, R
+    bound = np.maximum(bound, FIGURE_FLOOR * eps * absl)
+    return bound, kappa
+
+
+def column_norms(X: "np.ndarray") -> "np.ndarray":
+    """Euclidean norm of each column: ``numpy.linalg.norm(X, axis=0)``'s own arithmetic
+    (its branch for one axis), without its argument handling."""
+    import numpy as np
+
+    square = (X.conj() * X).real if X.dtype.kind == "c" else X * X  # conj(x) is x when real
+    return np.sqrt(np.add.reduce(square, axis=(0,)))
 
 
 def frobenius(M) -> float:
@@ -115,9 +137,12 @@ def cap_defective(lam: "np.ndarray", delta: "np.ndarray", base: float, norm: flo
     within 2·h_m; the bound is capped at h_m. Only eigenvalues whose first-order bound exceeds
     h_2 are examined, so ordinary spectra cost nothing here.
     """
+    over = delta > hoelder(base, norm, 2)
+    if not over.any():
+        return
     import numpy as np
 
-    for i in np.nonzero(delta > hoelder(base, norm, 2))[0]:
+    for i in over.nonzero()[0]:
         d = np.abs(lam - lam[i])
         block = 2
         for m in range(3, min(n, MAX_BLOCK) + 1):
@@ -150,34 +175,63 @@ def enclose(A: "np.ndarray", lam: "np.ndarray", vr: "np.ndarray", vl: "np.ndarra
     """
     import numpy as np
 
-    n = A.shape[0]
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         dots = np.einsum("ij,ij->j", vl.conj(), vr)
-        if not np.all(np.isfinite(dots)) or np.any(dots == 0):
+        if not np.isfinite(dots).all() or (dots == 0).any():
             return None
-        Y = (vl / dots.conj()).conj().T
-        g = math.sqrt(2.0) * _gamma(2 * n + 4)
-        up = 1.0 + _gamma(4 * n + 8)  # rounding of the bound arithmetic (no cancellation)
-        absx = np.abs(vr)
-        absy = np.abs(Y)
-        xsum = absx.sum(axis=1) * up  # |X|·1
-        # |R_exact| ≤ |R| + g·(|A||X| + |X||Λ|), summed along rows: ... ·1 by matrix-vector
-        rsum = (np.abs(R).sum(axis=1) + g * (np.abs(A) @ xsum + absx @ np.abs(lam))) * up * up
-        C = np.eye(n) - Y @ vr
-        csum = (np.abs(C).sum(axis=1) + g * (absy @ xsum) + _U * n) * up * up
-        cnorm = float(csum.max())
-        if not math.isfinite(cnorm) or cnorm >= 0.5:
-            return None
-        t = (absy @ rsum) * up * up
-        rho = (t + csum * (float(t.max()) / (1.0 - cnorm))) * up * up
-    if not np.all(np.isfinite(rho)):
+        return gershgorin(np.abs(A), np.abs(lam), vr, vl, R, dots)
+
+
+def gershgorin(absa: "np.ndarray", absl: "np.ndarray", vr: "np.ndarray", vl: "np.ndarray",
+               R: "np.ndarray", dots: "np.ndarray") -> "np.ndarray | None":
+    """:func:`enclose` from ``|A|``, ``|λ|`` and ``dots = wᴴv`` (finite and non-zero), under
+    the caller's ``numpy.errstate``."""
+    import numpy as np
+
+    n = absa.shape[0]
+    Y = (vl / dots.conj()).conj().T
+    g, up = rounding(n)
+    absx = np.abs(vr)
+    absy = np.abs(Y)
+    xsum = absx.sum(axis=1) * up  # |X|·1
+    # |R_exact| ≤ |R| + g·(|A||X| + |X||Λ|), summed along rows: ... ·1 by matrix-vector
+    rsum = (np.abs(R).sum(axis=1) + g * (absa @ xsum + absx @ absl)) * up * up
+    C = (identity(n) if n <= 32 else np.eye(n)) - Y @ vr
+    csum = (np.abs(C).sum(axis=1) + g * (absy @ xsum) + _U * n) * up * up
+    cnorm = float(csum.max())
+    if not math.isfinite(cnorm) or cnorm >= 0.5:
+        return None
+    t = (absy @ rsum) * up * up
+    rho = (t + csum * (float(t.max()) / (1.0 - cnorm))) * up * up
+    if not np.isfinite(rho).all():
         return None
     return rho
 
 
+@functools.lru_cache(maxsize=64)
+def rounding(n: int) -> tuple[float, float]:
+    """``(√2·γ_{2n+4}, 1 + γ_{4n+8})``: the rounding factors of :func:`gershgorin` (products
+    of length n; the bound arithmetic itself, no cancellation)."""
+    return math.sqrt(2.0) * _gamma(2 * n + 4), 1.0 + _gamma(4 * n + 8)
+
+
+@functools.lru_cache(maxsize=32)
+def identity(n: int) -> "np.ndarray":
+    """The identity of order n, read-only (small orders only: one per order is kept)."""
+    import numpy as np
+
+    eye = np.eye(n)
+    eye.flags.writeable = False
+    return eye
+
+
+#: Discs closer than this factor times the sum of their radii touch (rounding of the test).
+TOUCH = 1.0 + 4.0 * _U
+
+
 def components(lam: "np.ndarray", rho: "np.ndarray") -> list[int]:
     """Label of the connected component of each disc (discs that overlap or touch share one)."""
-    return touching(lam, rho, 1.0 + 4.0 * _U)
+    return touching(lam, rho, TOUCH)
 
 
 def touching(lam: "np.ndarray", radius: "np.ndarray", factor: float) -> list[int]:
@@ -186,6 +240,42 @@ def touching(lam: "np.ndarray", radius: "np.ndarray", factor: float) -> list[int
     import numpy as np
 
     n = lam.shape[0]
+    order = np.argsort(lam.real, kind="stable")
+    re = lam.real[order]
+    rmax = float(radius.max()) if n else 0.0
+    # Only points whose real parts lie within reach of the next one can touch; in the usual
+    # spectrum there are none and the sweep below is skipped.
+    reach_all = factor * (radius[order] + rmax)
+    close = np.nonzero(np.diff(re) <= reach_all[:-1])[0] if n > 1 else ()
+    return _join(lam, radius, factor, order, re, sorted(set(int(a) for a in close)), rmax)
+
+
+def touching_small(lam: list[complex], radius: list[float], factor: float,
+                   sweep: "tuple[list[int], list[float]] | None" = None) -> list[int]:
+    """:func:`touching` of finite ``lam`` and ``radius`` (no NaN) given as lists: the same
+    arithmetic on Python floats, without numpy's per-call cost (for a few dozen points).
+    ``sweep``: :func:`sweep_order` of ``lam``, when the caller has it."""
+    order, re = sweep_order([z.real for z in lam]) if sweep is None else sweep
+    n = len(order)
+    rmax = max(radius) if n else 0.0
+    close = [a for a in range(n - 1) if re[a + 1] - re[a] <= factor * (radius[order[a]] + rmax)]
+    if not close:  # the usual spectrum: every point its own component
+        return list(range(n))
+    return _join(lam, radius, factor, order, re, close, rmax)
+
+
+def sweep_order(real: list[float]) -> tuple[list[int], list[float]]:
+    """The order of :func:`touching`'s sweep (by real part, stable, as
+    ``argsort(kind="stable")``) and the real parts in that order."""
+    order = sorted(range(len(real)), key=real.__getitem__)
+    return order, [real[i] for i in order]
+
+
+def _join(lam, radius, factor: float, order, re, close: Sequence[int], rmax: float
+          ) -> list[int]:
+    """Union-find of :func:`touching` over the candidate positions ``close`` (ascending) of
+    the sweep order ``order`` (real parts ``re`` in that order)."""
+    n = len(order)
     parent = list(range(n))
 
     def find(i: int) -> int:
@@ -194,14 +284,7 @@ def touching(lam: "np.ndarray", radius: "np.ndarray", factor: float) -> list[int
             i = parent[i]
         return i
 
-    order = np.argsort(lam.real, kind="stable")
-    re = lam.real[order]
-    rmax = float(radius.max()) if n else 0.0
-    # Only points whose real parts lie within reach of the next one can touch; in the usual
-    # spectrum there are none and the sweep below is skipped.
-    reach_all = factor * (radius[order] + rmax)
-    close = np.nonzero(np.diff(re) <= reach_all[:-1])[0] if n > 1 else ()
-    for a in sorted(set(int(a) for a in close)):
+    for a in close:
         i = order[a]
         reach = factor * (radius[i] + rmax)
         b = a + 1
@@ -215,14 +298,23 @@ def touching(lam: "np.ndarray", radius: "np.ndarray", factor: float) -> list[int
     return [find(i) for i in range(n)]
 
 
-def cluster_radius(lam: "np.ndarray", rho: "np.ndarray | None", labels: Sequence[int] | None,
-                   members: Sequence[int], centre: complex) -> float:
+def cluster_radius(lam: "Sequence[complex] | np.ndarray", rho: "Sequence[float] | np.ndarray | None",
+                   labels: Sequence[int] | None, members: Sequence[int], centre: complex,
+                   sizes: "Mapping[int, int] | None" = None) -> float:
     """Radius about ``centre`` of a disc holding exactly the eigenvalues of ``members``, when
-    their discs form whole components of their own (the count is then certified); else inf."""
+    their discs form whole components of their own (the count is then certified); else inf.
+    ``sizes``: the number of discs of each component label, when the caller has counted."""
     if rho is None or labels is None:
         return math.inf
+    if sizes is not None and len(members) == 1:  # one disc: alone in its component or not
+        i = members[0]
+        if sizes[labels[i]] != 1:
+            return math.inf
+        return (abs(complex(lam[i]) - centre) + float(rho[i])) * (1.0 + 4.0 * _U)
     own = {labels[i] for i in members}
-    if sum(1 for lab in labels if lab in own) != len(members):
+    count = (sum(1 for lab in labels if lab in own) if sizes is None
+             else sum(sizes[lab] for lab in own))
+    if count != len(members):
         return math.inf  # the component holds eigenvalues of another mode (or a conjugate)
     r = max(abs(complex(lam[i]) - centre) + float(rho[i]) for i in members)
     return r * (1.0 + 4.0 * _U)

@@ -79,14 +79,16 @@ def classify(modes: Iterable[Mode], *, declared: int = 0, set_aside: bool = True
     whose members might be distinct, or a complex pair, in the exact matrix.
     """
     modes = list(modes)
-    stable = sum(m.count for m in modes if side(m) < 0)
-    unstable = sum(m.count for m in modes if side(m) > 0)
-    center = sum(m.count for m in modes if side(m) == 0)
+    sides = [side(m) for m in modes]
+    stable = sum(m.count for m, k in zip(modes, sides) if k < 0)
+    unstable = sum(m.count for m, k in zip(modes, sides) if k > 0)
+    boundary = [m for m, k in zip(modes, sides) if k == 0]
+    center = sum(m.count for m in boundary)
     n = stable + unstable + center
     reasons = []
-    if any(on_boundary_inexact(m) for m in modes):
+    if any(m.s.real != 0.0 for m in boundary):  # on_boundary_inexact
         reasons.append("an eigenvalue lies within its numerical uncertainty of the boundary")
-    zero = [m for m in modes if side(m) == 0 and abs(m.s) <= m.uncertainty]
+    zero = [m for m in boundary if abs(m.s) <= m.uncertainty]
     repeated = [m for m in modes if m.multiplicity > 1]
     real_repeated = [m for m in repeated if not m.pair]
     detail = ""

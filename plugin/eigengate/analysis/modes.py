@@ -22,13 +22,18 @@ LAPACK returned, nor on the sign of the imaginary parts.
 
 from __future__ import annotations
 
+import cmath
+import collections
 import math
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any, cast
 
 from ..errors import ModelError
 from ..model.core import Model
-from .bounds import MAX_BLOCK, cap_defective, hoelder
+from . import small_modes
+from .bounds import (ENCLOSE_LIMIT, FIGURE_FLOOR, MAX_BLOCK, TOUCH, cap_defective, cluster_radius,
+                     components, enclose, estimate, hoelder, map_to_s, sweep_order, touching,
+                     touching_small)
 from .small_lapack import SMALL_ORDER, small_eig, small_lapack  # noqa: F401 (SMALL_ORDER: public)
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -271,7 +276,6 @@ def analyse(model: Model) -> Spectrum:
     """
     import numpy as np
 
-    from .bounds import ENCLOSE_LIMIT, cluster_radius, components, enclose, estimate
 
     if model.sparse:  # the dense analysis of a sparse model
         import dataclasses
@@ -287,36 +291,54 @@ def analyse(model: Model) -> Spectrum:
         model = dataclasses.replace(model, A=sparse_a.toarray(),
                                     E=None if sparse_e is None else sparse_e.toarray())
     n = model.n_states
-    lam, vr, vl, ew, norm, infinite, balanced, work = _decompose(model)
-    if not (np.isfinite(lam).all() and math.isfinite(norm)):  # never a verdict from inf/nan
+    small = small_lapack(model.A) if model.E is None else None
+    if small is not None:  # a small standard model: the same arithmetic, fewer numpy calls
+        lam, vr, vl, norm, balanced, work, absw = small_modes.decompose(model.A, small)
+        infinite = 0
+    else:
+        lam, vr, vl, ew, norm, infinite, balanced, work = _decompose(model)
+    lams = lam.tolist()
+    if not (all(map(cmath.isfinite, lams)) and math.isfinite(norm)):  # never from inf/nan
         raise ModelError(model.source, "plant.A", "has eigenvalues beyond the range of double "
                          "precision", line=model.line_of("plant.A"), hint="rescale the units")
-    eps = float(np.finfo(float).eps)
-
-    # A posteriori bounds from the residuals A v - λ v (descriptor: A v - λ E v) and the left
-    # vectors; κ_i = ‖w‖‖v‖/|w^H v| (w^H E v for descriptor models) is reported alongside.
-    delta, kappa, residual = estimate(work, model.E, lam, vr, vl, ew)
+    eps = 2.0 ** -52  # float64 machine epsilon
     # Defective eigenvalues: the Hölder-type scale of the QR/QZ backward error n·eps·‖A‖.
-    base = BOUND_FACTOR * n * eps * max(norm, np.finfo(float).tiny)
-    cap_defective(lam, delta, base, norm, n)
-    rho = labels = None
-    if model.E is None and n <= ENCLOSE_LIMIT:
-        rho = enclose(work, lam, vr, vl, residual)
-        labels = None if rho is None else components(lam, rho)
+    base = BOUND_FACTOR * n * eps * max(norm, 2.2250738585072014e-308)
+    if small is not None:
+        deltas, kappas, rhos, ewc = small_modes.bounds(work, absw, lam, vr, vl, norm, base)
+        sweep = sweep_order(lam.real.tolist())
+        labels = None if rhos is None else touching_small(lams, rhos, TOUCH, sweep)
+        clusters = _groups(touching_small(lams, deltas, CLUSTER_FACTOR, sweep))
+    else:
+        # A posteriori bounds from the residuals A v - λ v (descriptor: A v - λ E v) and the
+        # left vectors; κ_i = ‖w‖‖v‖/|w^H v| (w^H E v for descriptor models) alongside.
+        delta, kappa, residual = estimate(work, model.E, lam, vr, vl, ew)
+        cap_defective(lam, delta, base, norm, n)
+        rho = labels = None
+        if model.E is None and n <= ENCLOSE_LIMIT:
+            rho = enclose(work, lam, vr, vl, residual)
+            labels = None if rho is None else components(lam, rho)
+        ewc = ew.conj()
+        deltas, kappas = delta.tolist(), kappa.tolist()
+        rhos = None if rho is None else rho.tolist()
+        clusters = _clusters(lam, delta)
 
     # Participation p_ki = |v_ki · conj((E^H w)_ki)|, normalised to sum 1 per eigenvalue.
-    raw = np.abs(vr * ew.conj())
+    raw = np.abs(vr * ewc)
     sums = raw.sum(axis=0)
-    sums[sums == 0] = 1.0
+    if 0.0 in sums.tolist():
+        sums[sums == 0] = 1.0
     part = raw / sums
 
-    clusters = _clusters(lam, delta)
-    rows = []
+    tops = part.argmax(axis=0).tolist()
+    sizes = None if labels is None else collections.Counter(labels)
+    columns = list(part.T)  # part[:, i] for each i, the same views
+    rows, keys = [], []
     for members in clusters:
         if len(members) == 1:  # the common case: no numpy calls per eigenvalue
             i = members[0]
-            centre, err, geometric = complex(lam[i]), float(delta[i]), 1
-            kap, weights = float(kappa[i]), part[:, i]
+            centre, err, geometric = lams[i], deltas[i], 1
+            kap, weights, top = kappas[i], columns[i], tops[i]
         else:
             vals = lam[members]
             centre = complex(vals.mean())
@@ -324,39 +346,61 @@ def analyse(model: Model) -> Spectrum:
             # The cluster stands for each member: its bound covers the spread and every
             # member's own bound, and, when defective, the Hölder-type sensitivity of the
             # largest Jordan block the multiplicities allow (rotated or triangular alike).
-            err = max(float(np.max(np.abs(vals - centre))), float(delta[members].max()))
+            err = max(float(np.max(np.abs(vals - centre))), max(deltas[i] for i in members))
             if geometric < len(members):
                 block = min(len(members) - geometric + 1, MAX_BLOCK)
                 err = max(err, hoelder(base, norm, block)
                           * (1.0 if model.E is None else 1.0 + abs(centre)))
-            kap, weights = float(kappa[members].max()), part[:, members].mean(axis=1)
+            kap, weights = max(kappas[i] for i in members), part[:, members].mean(axis=1)
+            top = int(np.argmax(weights))
         if abs(centre.imag) <= err:
             centre = complex(centre.real, 0.0)
         elif centre.imag < 0:
             continue  # the conjugate cluster stands for this one
-        ring = cluster_radius(lam, rho, labels, members, centre)
-        rows.append(_mode_fields(model, centre, err, len(members), geometric, kap, weights,
-                                 ring))
+        ring = cluster_radius(lams, rhos, labels, members, centre, sizes)
+        row = _mode_fields(model, centre, err, len(members), geometric, kap, weights, ring)
+        rows.append(row)
+        keys.append(sort_key(row, top))
     # Least stable (largest Re s) first, on rounded keys so round-off cannot reorder ties.
-    rows.sort(key=sort_key)
-    modes = tuple(Mode(index=k + 1, states=model.states, **r) for k, r in enumerate(rows))
+    order = sorted(range(len(rows)), key=keys.__getitem__)
+    modes = tuple(_mode(k + 1, model.states, rows[j]) for k, j in enumerate(order))
     return Spectrum(model=model, modes=modes, infinite=infinite, norm=norm, balanced=balanced)
 
 
-def sort_key(row: dict) -> tuple:
-    """Least stable (largest Re s) first, on rounded keys so round-off cannot reorder ties."""
-    import numpy as np
+def _mode(index: int, states: tuple[str, ...], row: dict) -> Mode:
+    """``Mode(index=index, states=states, **row)``, filled in directly rather than through
+    the frozen ``__init__`` (one ``object.__setattr__`` per field), as
+    :func:`eigengate.scan.records.unrecord` rebuilds one: the same instance (Mode has no
+    ``__post_init__``), at a fifth of the cost."""
+    mode = object.__new__(Mode)
+    fields = mode.__dict__
+    fields["index"] = index
+    fields.update(row)
+    fields["states"] = states
+    return mode
 
-    return (-_round_sig(row["s"].real), _round_sig(abs(row["s"].imag)),
-            int(np.argmax(row["participation"])))
+
+def sort_key(row: dict, top: int | None = None) -> tuple:
+    """Least stable (largest Re s) first, on rounded keys so round-off cannot reorder ties;
+    ``top``: the index of the largest participation factor, when known."""
+    if top is None:
+        import numpy as np
+
+        top = int(np.argmax(row["participation"]))
+    return (-_round_sig(row["s"].real), _round_sig(abs(row["s"].imag)), top)
 
 
 def _clusters(lam: "np.ndarray", delta: "np.ndarray") -> list[list[int]]:
     """Group eigenvalues closer than CLUSTER_FACTOR·(δi+δj), by sweeping along the real axis."""
-    from .bounds import touching
+    return _groups(touching(lam, delta, CLUSTER_FACTOR))
 
+
+def _groups(labels: list[int]) -> list[list[int]]:
+    """The members of each component label, ascending, in the order of their labels."""
+    if labels == list(range(len(labels))):  # the usual spectrum: no cluster
+        return [[i] for i in labels]
     groups: dict[int, list[int]] = {}
-    for i, root in enumerate(touching(lam, delta, CLUSTER_FACTOR)):
+    for i, root in enumerate(labels):
         groups.setdefault(root, []).append(i)
     return [sorted(g) for _, g in sorted(groups.items())]
 
@@ -400,8 +444,6 @@ def vector_rank(vectors: "np.ndarray", size: int) -> int:
 
 def _mode_fields(model: Model, centre: complex, err: float, multiplicity: int, geometric: int,
                  kappa: float, participation: "np.ndarray", ring: float = math.inf) -> dict:
-    from .bounds import FIGURE_FLOOR, map_to_s
-
     pair = centre.imag != 0.0
     if model.sample_period is None:
         s, err_s, ring_s = centre, err, ring

@@ -90,6 +90,20 @@ def _lapack_for(n: int) -> tuple:
     return lib.dgebal, lib.dgeev, int(work.real)
 
 
+def _pair_columns(imag: list) -> list[int] | None:
+    """The first column of each complex pair, as ``scipy.linalg._decomp`` finds them (its
+    mask, with its guard against a LAPACK ordering slip, ticket 709), when the pairs do not
+    overlap (LAPACK's own layout); None otherwise (the column-by-column loop then)."""
+    first = [i for i, x in enumerate(imag) if x > 0]
+    if [i for i, x in enumerate(imag) if x < 0] == [i + 1 for i in first]:
+        return first  # each pair (+, −) in turn: scipy's mask is exactly ``first``
+    n = len(imag)
+    first = [i for i in range(n) if imag[i] > 0 or (i + 1 < n and imag[i + 1] < 0)]
+    if first and (first[-1] + 1 >= n or any(b - a == 1 for a, b in zip(first, first[1:]))):
+        return None
+    return first
+
+
 def _complex_vectors(w: "np.ndarray", vin: "np.ndarray") -> "np.ndarray":
     """Complex eigenvectors from xGEEV's real output, as ``scipy.linalg._decomp`` builds
     them: for a pair, columns j and j+1 hold the real and imaginary parts."""
@@ -97,24 +111,29 @@ def _complex_vectors(w: "np.ndarray", vin: "np.ndarray") -> "np.ndarray":
 
     v = np.array(vin, dtype=w.dtype)
     m = w.imag > 0
-    m[:-1] |= w.imag[1:] < 0  # scipy's guard against a LAPACK ordering slip (its ticket 709)
-    first = np.flatnonzero(m)
-    if first.size and first[-1] + 1 < v.shape[1] and not np.any(np.diff(first) == 1):
-        # pairs that do not overlap (LAPACK's own layout): all at once, the same values
-        v.imag[:, first] = vin[:, first + 1]
-        v[:, first + 1] = np.conj(v[:, first])
-        return v
-    for i in first:
+    m[:-1] |= w.imag[1:] < 0
+    for i in np.flatnonzero(m):
         v.imag[:, i] = vin[:, i + 1]
         np.conj(v[:, i], v[:, i + 1])
     return v
 
 
+def _complex_pairs(vl: "np.ndarray", vr: "np.ndarray", first: list[int]):
+    """:func:`_complex_vectors` of both xGEEV outputs at once, for pairs that do not overlap
+    (first columns ``first``): the same values, in the same (Fortran) layout."""
+    import numpy as np
+
+    one = np.array(first, dtype=np.intp)
+    two = one + 1
+    both = np.array((vl.T, vr.T), dtype=np.complex128)  # rows: the columns of vl, vr
+    both.imag[:, one] = both.real[:, two]
+    both[:, two] = both[:, one].conj()
+    return both[0].T, both[1].T
+
+
 def small_eig(work: "np.ndarray", small: tuple):
     """``scipy.linalg.eig(work, left=True, right=True, check_finite=False)`` for a real
     float64 matrix, as scipy computes it (same routine, workspace and post-processing)."""
-    import numpy as np
-
     _, geev, lwork = small
     wr, wi, vl, vr, info = geev(work, lwork=lwork, compute_vl=1, compute_vr=1, overwrite_a=0)
     if info != 0:  # the general path raises scipy's own error
@@ -122,7 +141,11 @@ def small_eig(work: "np.ndarray", small: tuple):
 
         return la.eig(work, left=True, right=True, check_finite=False)
     w = wr + 1j * wi
-    if not np.all(w.imag == 0.0):
-        vl = _complex_vectors(w, vl)
-        vr = _complex_vectors(w, vr)
+    imag = w.imag.tolist()
+    if any(imag):  # not every imaginary part zero
+        first = _pair_columns(imag)
+        if first is not None:
+            vl, vr = _complex_pairs(vl, vr, first)
+        else:
+            vl, vr = _complex_vectors(w, vl), _complex_vectors(w, vr)
     return w, vl, vr
