@@ -70,7 +70,7 @@ class CollectCache:
     def lookup(self, path: Path) -> tuple[str | None, "tuple[ModelResult, ...] | None"]:
         """``(key, results)``: the file's cache key and, on a hit, its cached pre-waiver
         results (None on a miss, or when the entry is damaged: then analysed again)."""
-        from ..scan.serial import results_from_data
+        from ..scan.summary import DAMAGE, results_from_summary
 
         name = self._name(path)
         if name is None:
@@ -84,10 +84,11 @@ class CollectCache:
         hit = None if key is None else cache.get(key)
         if hit is not None:
             try:
-                _, results, error = results_from_data(*hit)
+                _, results, error = results_from_summary(*hit, functools.partial(
+                    _analyse_again, path, self.policy))
                 if error is None and results:
                     return key, results
-            except (KeyError, TypeError, ValueError, IndexError):
+            except DAMAGE:
                 pass
         return key, None
 
@@ -109,3 +110,12 @@ class CollectCache:
         if self._cache is not None:
             self._cache.save()
 
+
+def _analyse_again(path: Path, policy: "Config") -> tuple:
+    """A cached file's pre-waiver results computed again, as the collector computes them
+    (for a cache entry whose data fails its checks when an item reads it)."""
+    from ..load.loader import load_models_with_refs
+    from ..scan.engine import analyse_model
+
+    models, _ = load_models_with_refs(path, root=policy.root, allow_python=True)
+    return tuple(analyse_model(m, policy) for m in models)

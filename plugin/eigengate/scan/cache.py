@@ -32,9 +32,10 @@ import tempfile
 import time
 import zlib
 from pathlib import Path
-from typing import Any
+from typing import Any, Callable
 
 from .pool import item_bytes
+from .summary import summary_of
 
 __all__ = ["ResultCache", "Pack", "PackBlobs", "RawBlobs", "CACHE_DIR", "read_pack", "write_pack"]
 
@@ -268,6 +269,7 @@ class ResultCache:
         self._new: dict[str, tuple[dict, list]] = {}
         self._used: dict[str, None] = {}  # ordered: the pack keeps the scan's order
         self._started = time.time_ns()
+        self._at_exit = False
         #: Status records to add: "files" (model file → key), "refs" (matrix file → hash),
         #: "sniff" (file → whether its content has a model_format key).
         self._noted: dict[str, dict[str, list]] = {"files": {}, "refs": {}, "sniff": {}}
@@ -291,10 +293,13 @@ class ResultCache:
         return out
 
     def _recorded(self, table: str, rel: str, st: os.stat_result) -> str | None:
-        self._entries()
+        if self._old is None:
+            self._entries()
         row = self._noted[table].get(rel) or self._tables[table].get(rel)
-        if type(row) is list and len(row) == 5 and row[:4] == _signature(st) \
-                and type(row[4]) is str:
+        # _signature(st), compared field by field (a warm check asks this of every file)
+        if type(row) is list and len(row) == 5 and row[0] == st.st_size \
+                and row[1] == st.st_mtime_ns and row[2] == st.st_ctime_ns \
+                and row[3] == st.st_ino and type(row[4]) is str:
             return row[4]
         return None
 
@@ -362,29 +367,35 @@ class ResultCache:
                 self._old = {}  # missing or corrupt: start again, never trust it
         return self._old
 
-    def get(self, key: str) -> tuple[dict[str, Any], PackBlobs] | None:
-        """The stored data and blobs for ``key``, or None (missing, corrupt, or a reference
-        changed)."""
+    def get(self, key: str) -> tuple[dict[str, Any], PackBlobs, Callable[[], Any]] | None:
+        """The stored summary, blobs and a reader of the whole data for ``key``
+        (:mod:`eigengate.scan.summary`), or None (missing, corrupt, or a reference changed).
+        The whole data is the entry's last blob, a JSON text."""
         entry = self._entries().get(key)
         try:
             # a missing entry (None) raises TypeError here, handled like a malformed one
-            refs, data, (first, count) = entry["refs"], entry["data"], entry["blobs"]  # type: ignore[index]
-            if type(refs) is not dict or type(data) is not dict:
+            refs, summary, (first, count) = entry["refs"], entry["summary"], entry["blobs"]  # type: ignore[index]
+            if type(refs) is not dict or type(summary) is not dict or type(count) is not int \
+                    or count < 1:
                 return None
-            blobs = self._read.blobs(first, count)  # type: ignore[union-attr]
+            pack = self._read
+            whole = pack.blobs(first, count)  # type: ignore[union-attr]
+            if whole.shapes()[-1] is not None:
+                return None
             if refs and self._ref_hashes(sorted(refs)) != refs:
                 return None
         except (KeyError, TypeError, ValueError, AttributeError):
             return None
         self._used[key] = None
-        return data, blobs
+        return summary, pack.blobs(first, count - 1), lambda: whole.json(count - 1)  # type: ignore[union-attr]
 
     def put(self, key: str, data: dict[str, Any], blobs: list, refs: list[str]) -> None:
         """Remember ``data`` and its blob items (see :class:`eigengate.scan.serial.Blobs`) for
         ``key``; written by :meth:`save`."""
         hashes = self._ref_hashes(refs)
         if hashes is not None:
-            self._new[key] = ({"refs": hashes, "data": data}, blobs)
+            self._new[key] = ({"refs": hashes, "summary": summary_of(data)},
+                              [*blobs, json.dumps(data, separators=(",", ":"))])
 
     def _old_blobs(self, entry: dict) -> list[tuple[bytes, Any]] | None:
         try:
@@ -406,7 +417,7 @@ class ResultCache:
         for k in order:
             kept = self._old_blobs(old[k])
             if kept is not None:
-                entries[k] = {"refs": old[k].get("refs"), "data": old[k].get("data")}
+                entries[k] = {"refs": old[k].get("refs"), "summary": old[k].get("summary")}
                 blobs[k] = kept
         for k, (entry, items) in self._new.items():
             entries[k] = dict(entry)
@@ -431,6 +442,14 @@ class ResultCache:
             return
         self._old, self._new = None, {}
         self._noted = {"files": {}, "refs": {}, "sniff": {}}
+
+    def save_at_exit(self) -> None:
+        """:meth:`save` when this process ends (once however often asked)."""
+        if not self._at_exit:
+            import atexit
+
+            self._at_exit = True
+            atexit.register(self.save)
 
     def _ensure_folder(self) -> None:
         if (self.folder / "CACHEDIR.TAG").is_file():

@@ -47,7 +47,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Mapping, Sequence
 
-from ..rules.patterns import glob_match
+from ..rules.patterns import glob_any, glob_match
 from .policyfiles import (  # noqa: F401 (ConfigError re-exported)
     ConfigError, find_config, find_top_config, policy_file, read_table)
 
@@ -176,7 +176,7 @@ class Config:
         if self.is_excluded(rel):
             return False
         if self.include:
-            return any(glob_match(rel, p) for p in self.include)
+            return glob_any(rel, self.include)
         return True
 
     def rule_enabled(self, rule: str) -> bool:
@@ -196,7 +196,7 @@ class Config:
         """Whether repository-relative ``rel`` is left out on purpose (an exclude glob)."""
         if (own := self._own(rel)) is not None:
             return own.is_excluded(rel)
-        return any(glob_match(rel, p) for p in self.exclude)
+        return glob_any(rel, self.exclude)
 
     def suggest_include(self, rel: str) -> str:
         """A glob that would select model file ``rel``: an include pattern with the file's
