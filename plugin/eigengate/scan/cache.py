@@ -28,7 +28,6 @@ import json
 import os
 import struct
 import sys
-import tempfile
 import time
 import zlib
 from pathlib import Path
@@ -76,13 +75,27 @@ class Pack:
 
     def __init__(self, head: dict, index: list, body: memoryview) -> None:
         self.head, self._body = head, body
-        self._index = index  # rows of (offset, size, rows, columns): each read is list lookups
-        self._shapes = [None if c < 0 else (r, c) for _, _, r, c in self._index]
+        #: offset, size, rows, columns of each blob in turn, flat (a row per blob would cost
+        #: a list per blob to build: thousands for each warm check)
+        self._index = index
+        self._count = len(index) // _INDEX_COLUMNS
+
+    def row(self, i: int) -> tuple[int, int, int, int]:
+        """Offset, size, rows and columns of blob ``i``."""
+        k = _INDEX_COLUMNS * i
+        f = self._index
+        return f[k], f[k + 1], f[k + 2], f[k + 3]
+
+    def shapes(self, first: int, count: int) -> list[tuple[int, int] | None]:
+        f = self._index
+        return [None if f[k + 3] < 0 else (f[k + 2], f[k + 3])
+                for k in range(_INDEX_COLUMNS * first, _INDEX_COLUMNS * (first + count),
+                               _INDEX_COLUMNS)]
 
     def blobs(self, first: Any, count: Any) -> "PackBlobs":
         """The blobs of one entry; ValueError when its span is not within the index."""
         if type(first) is not int or type(count) is not int or not (
-                0 <= first and 0 <= count <= len(self._index) - first):
+                0 <= first and 0 <= count <= self._count - first):
             raise ValueError("entry blobs lie outside the pack index")
         return PackBlobs(self, first, count)
 
@@ -91,7 +104,7 @@ class Pack:
         ValueError when its span is not within the index."""
         self.blobs(first, count)
         out = []
-        for off, size, rows, cols in self._index[first:first + count]:
+        for off, size, rows, cols in map(self.row, range(first, first + count)):
             out.append((bytes(self._body[off:off + size]), None if cols < 0 else [rows, cols]))
         return out
 
@@ -141,12 +154,12 @@ class PackBlobs(_BlobReader):
     def _raw(self, i: Any) -> tuple[Any, int, int]:
         if type(i) is not int or not 0 <= i < self._count:
             raise ValueError(f"blob {i!r} is not one of the entry's {self._count}")
-        off, size, rows, cols = self._pack._index[self._first + i]
+        off, size, rows, cols = self._pack.row(self._first + i)
         return self._pack._body[off:off + size], rows, cols
 
     def shapes(self) -> list[tuple[int, int] | None]:
         """``(rows, columns)`` of each array blob, None for each text."""
-        return self._pack._shapes[self._first:self._first + self._count]
+        return self._pack.shapes(self._first, self._count)
 
 
 class RawBlobs(_BlobReader):
@@ -232,15 +245,15 @@ def read_pack(raw: bytes) -> Pack:
     if zlib.crc32(body, zlib.crc32(index_bytes, zlib.crc32(head_bytes))) != crc:
         raise ValueError("pack checksum does not match")
     flat = _little("q", index_bytes).tolist()
-    index = [flat[k:k + _INDEX_COLUMNS] for k in range(0, len(flat), _INDEX_COLUMNS)]
-    for off, size, rows, cols in index:
+    c = _INDEX_COLUMNS
+    for off, size, rows, cols in zip(flat[0::c], flat[1::c], flat[2::c], flat[3::c]):
         if off < 0 or size < 0 or off > n_body - size or (
                 rows != -1 if cols < 0 else rows < 0 or size != 8 * rows * cols):
             raise ValueError("pack index does not fit its body")
     head = json.loads(bytes(head_bytes))
     if not isinstance(head, dict):
         raise ValueError("pack head is not an object")
-    return Pack(head, index, body)
+    return Pack(head, flat, body)
 
 
 class ResultCache:
@@ -380,14 +393,14 @@ class ResultCache:
                 return None
             pack = self._read
             whole = pack.blobs(first, count)  # type: ignore[union-attr]
-            if whole.shapes()[-1] is not None:
-                return None
+            if pack.row(first + count - 1)[3] >= 0:  # type: ignore[union-attr]
+                return None  # the last blob is not a text
             if refs and self._ref_hashes(sorted(refs)) != refs:
                 return None
         except (KeyError, TypeError, ValueError, AttributeError):
             return None
         self._used[key] = None
-        return summary, pack.blobs(first, count - 1), lambda: whole.json(count - 1)  # type: ignore[union-attr]
+        return summary, PackBlobs(pack, first, count - 1), lambda: whole.json(count - 1)  # type: ignore[arg-type]
 
     def put(self, key: str, data: dict[str, Any], blobs: list, refs: list[str]) -> None:
         """Remember ``data`` and its blob items (see :class:`eigengate.scan.serial.Blobs`) for
@@ -434,6 +447,8 @@ class ResultCache:
         try:
             self._ensure_folder()
             self._pack.parent.mkdir(parents=True, exist_ok=True)
+            import tempfile  # a no-change check writes nothing
+
             fd, tmp = tempfile.mkstemp(prefix=".tmp-", dir=self._pack.parent)
             with os.fdopen(fd, "wb") as fh:
                 fh.write(raw)
@@ -460,6 +475,8 @@ class ResultCache:
         self.folder.parent.mkdir(parents=True, exist_ok=True)
         # Build the explanatory files in a temporary folder, then move it into place, so a
         # half-made cache folder is never seen; a concurrent creator simply wins.
+        import tempfile
+
         tmp = Path(tempfile.mkdtemp(prefix=".eigengate-cache-", dir=self.folder.parent))
         try:
             self._explain(tmp)

@@ -42,7 +42,6 @@ to, and each keeps its own baseline next to it.
 
 from __future__ import annotations
 
-import difflib
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Mapping, Sequence
@@ -338,6 +337,8 @@ def _quoted(value: str) -> str:
 
 
 def _unknown(key: str, allowed: Sequence[str], source: str, where: str) -> ConfigError:
+    import difflib  # only for a mistake: not on every run
+
     close = difflib.get_close_matches(key, allowed, n=1)
     hint = f"did you mean {close[0]!r}?" if close else "known keys: " + ", ".join(allowed)
     return ConfigError(source, f"{where}{key}", "is not a known key", hint)

@@ -49,7 +49,7 @@ class _Entry:
     __slots__ = ("blobs", "shapes", "_full", "_reload", "_data", "_fresh", "count")
 
     def __init__(self, blobs, full: Callable[[], Any], reload, count: int) -> None:
-        self.blobs, self.shapes = blobs, blobs.shapes()
+        self.blobs, self.shapes = blobs, []
         self._full, self._reload, self.count = full, reload, count
         self._data: list | None = None
         self._fresh: tuple | None = None
@@ -59,7 +59,7 @@ class _Entry:
             results = self._full()["results"]
             if type(results) is not list or len(results) != self.count:
                 raise ValueError("cached data does not fit its summary")
-            self._data = results
+            self._data, self.shapes = results, self.blobs.shapes()
         d = self._data[k]
         if type(d) is not dict:
             raise ValueError("cached result is not a record")
