@@ -8,10 +8,12 @@ from __future__ import annotations
 from collections.abc import Sequence
 from typing import TYPE_CHECKING, cast
 
+from .lazy import LazyField
+
 if TYPE_CHECKING:  # pragma: no cover - a warm re-check that builds no mode imports neither
     from ..analysis.modes import Spectrum
 
-__all__ = ["CachedSpectrum", "StoredSearch", "spectrum_data", "blob_shape"]
+__all__ = ["CachedSpectrum", "StoredSearch", "spectrum_data", "blob_shape", "SPECTRUM_FIELDS"]
 
 
 def blob_shape(shapes: list, index) -> tuple[int, int] | None:
@@ -124,6 +126,15 @@ class CachedSpectrum:
         from ..analysis.modes import Spectrum
 
         return Spectrum.eigenvalues(cast(Spectrum, self))  # same logic, reading self.modes
+
+
+#: What a cached spectrum holds; one built from its entry's summary has the model and the
+#: three figures at once, the rest when first read (:mod:`eigengate.scan.summary`).
+SPECTRUM_FIELDS = ("model", "infinite", "norm", "balanced", "spectral_abscissa",
+                   "spectral_radius", "min_damping", "n_eigenvalues", "search", "modes")
+for _name in SPECTRUM_FIELDS:
+    setattr(CachedSpectrum, _name, LazyField(_name))
+del _name
 
 
 def spectrum_data(sp, blobs) -> dict:

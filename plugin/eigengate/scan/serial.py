@@ -23,6 +23,7 @@ from ..analysis.naming import mode_name
 from ..rules.findings import Finding, ModeRow
 from ..rules.known_modes import KnownMode
 from .cached_modes import CachedSpectrum, blob_shape, spectrum_data
+from .lazy import LazyField
 from .records import REQUIREMENT_NAMES, pictures_from, record, requirement_classes, unrecord
 from ..model.core import Model
 from ..rules.catalogue import Verdict
@@ -32,7 +33,7 @@ if TYPE_CHECKING:  # pragma: no cover - a warm re-check that builds no mode impo
     from ..analysis.modes import Spectrum
 
 __all__ = ["results_to_data", "results_from_data", "CachedSpectrum", "CachedModel", "Blobs",
-           "FORMAT", "fill_model", "result_parts", "findings_from", "LazyField"]
+           "FORMAT", "fill_model", "result_parts", "findings_from"]
 
 FORMAT = 10  # 8: mode names; 9: results carry their pictures (plot data); 10: summaries
 
@@ -127,34 +128,6 @@ _LOADERS = {**{k: _array for k in _MATRICES}, "lines": _text,
             "requirements": _requirements_of, "known_modes": _known_modes_of}
 
 
-class LazyField:
-    """A field read from its object's ``__dict__``; one not there yet is built from what the
-    object's ``_stored`` keeps for it (then kept), and when the object has no ``_stored``
-    (a cached model or result built from its summary, :mod:`eigengate.scan.summary`), its
-    ``_fill`` sets its fields from its whole record first. A plain descriptor:
-    ``functools.cached_property`` takes a lock on every first read."""
-
-    __slots__ = ("name",)
-
-    def __init__(self, name: str) -> None:
-        self.name = name
-
-    def __get__(self, obj, owner=None):
-        if obj is None:
-            return self
-        fields = obj.__dict__
-        try:
-            return fields[self.name]
-        except KeyError:
-            pass
-        if "_stored" not in fields:
-            fields["_fill"](obj)  # sets every field, or _stored for the ones read later
-            if self.name in fields:
-                return fields[self.name]
-        value = fields[self.name] = _LOADERS[self.name](fields["_stored"][self.name])
-        return value
-
-
 class CachedModel(Model):
     """A :class:`~eigengate.model.core.Model` rebuilt from the cache: its matrices and its line
     table are read from the blobs when first used (then kept), its requirements and known
@@ -162,9 +135,19 @@ class CachedModel(Model):
     model built from its summary, when one of them is first read). Reports, which print
     verdicts and findings, read none of the matrices."""
 
+    LOADERS = _LOADERS
+
     @property
     def n_states(self) -> int:  # _model_from checked that A is n × n for n states
         return len(self.states)
+
+    def line_of(self, field_path: str) -> int | None:
+        # A top-level field's line is in the summary's lines (those without a "."), so the
+        # line table is not read for it (pytest asks it of every item).
+        top = self.__dict__.get("_top_lines")
+        if top is not None and "." not in field_path:
+            return top.get(field_path)
+        return Model.line_of(self, field_path)
 
 
 for _f in Model.__dataclass_fields__:
@@ -183,6 +166,7 @@ def _model_data(m, blobs: Blobs) -> dict:
         "sample_period": m.sample_period, "states": list(m.states), "inputs": list(m.inputs),
         "outputs": list(m.outputs), "on_uncertain": m.on_uncertain, "require": m.require,
         "disabled": list(m.disabled), "lines": blobs.put_json(dict(m.lines)),
+        "top_lines": {k: v for k, v in m.lines.items() if "." not in k},
         "requirements": [[type(r).__name__, record(r)] for r in m.requirements],
         "known_modes": [record(k) for k in m.known_modes],
         "waivers": [record(w) for w in m.waivers],

@@ -22,8 +22,9 @@ from typing import Any, Callable
 from ..rules.results import ModelResult
 from ..rules.waivers import Waiver
 from .records import unrecord
-from .serial import (CachedModel, LazyField, fill_model, findings_from, result_parts,
-                     results_from_data)
+from .cached_modes import SPECTRUM_FIELDS, CachedSpectrum
+from .lazy import LazyField
+from .serial import CachedModel, fill_model, findings_from, result_parts, results_from_data
 
 __all__ = ["summary_of", "results_from_summary", "CachedResult"]
 
@@ -33,14 +34,19 @@ DAMAGE = (KeyError, TypeError, ValueError, IndexError, AttributeError)
 
 def summary_of(data: dict) -> dict:
     """The summary of a file's data (:func:`eigengate.scan.serial.results_to_data`): per
-    model ``[source, waivers, grid, findings, mode-row table, states or None]``; a load
-    error's data is its own summary."""
+    model ``[source, waivers, grid, findings, mode-row table, states or None, name, label,
+    sample period, [spectral abscissa, spectral radius, min damping], the lines of its
+    top-level fields]``; a load error's data is its own summary."""
     if "error" in data:
         return data
-    return {"source": data["source"], "results": [
-        [r["model"]["source"], r["model"]["waivers"], r["model"]["grid"], r["findings"],
-         r["rows"], r["model"]["states"] if r["findings"] else None]
-        for r in data["results"]]}
+    out = []
+    for r in data["results"]:
+        m, sp = r["model"], r["spectrum"]
+        out.append([m["source"], m["waivers"], m["grid"], r["findings"], r["rows"],
+                    m["states"] if r["findings"] else None, m["name"], m["label"],
+                    m["sample_period"], [sp["abscissa"], sp["radius"], sp["min_damping"]],
+                    m["top_lines"]])
+    return {"source": data["source"], "results": out}
 
 
 class _Entry:
@@ -49,7 +55,8 @@ class _Entry:
     __slots__ = ("blobs", "shapes", "_full", "_reload", "_data", "_fresh", "count")
 
     def __init__(self, blobs, full: Callable[[], Any], reload, count: int) -> None:
-        self.blobs, self.shapes = blobs, []
+        self.blobs = blobs
+        self.shapes: list = []
         self._full, self._reload, self.count = full, reload, count
         self._data: list | None = None
         self._fresh: tuple | None = None
@@ -92,6 +99,10 @@ class _Entry:
             fresh = self.fresh(k)
             _take(r.model, fresh.model)
             parts = {n: getattr(fresh, n) for n in _PARTS}
+        # the spectrum built from the summary stays, with every field now
+        sp = r.__dict__["spectrum"]
+        sp.__dict__.update({n: getattr(parts["spectrum"], n, None) for n in SPECTRUM_FIELDS})
+        parts["spectrum"] = sp
         r.__dict__.update(parts)
 
 
@@ -127,20 +138,26 @@ def results_from_summary(summary: dict, blobs, full: Callable[[], Any],
         raise ValueError("cached summary has no results")
     entry = _Entry(blobs, full, reload, len(items))
     out = []
-    for k, (source, waivers, grid, findings, rows, states) in enumerate(items):
-        if type(source) is not str or type(waivers) is not list:
+    for k, (source, waivers, grid, findings, rows, states, name, label, period,
+            (abscissa, radius, damping), top_lines) in enumerate(items):
+        if type(source) is not str or type(waivers) is not list or type(top_lines) is not dict:
             raise ValueError("cached summary is not a model record")
         m = object.__new__(CachedModel)
         fields = m.__dict__
         fields.update(source=source, waivers=tuple([unrecord(Waiver, w) for w in waivers]),
                       grid=None if grid is None else tuple([(str(a), float(v))
                                                             for a, v in grid]),
+                      name=name, label=label, sample_period=period, _top_lines=top_lines,
                       _fill=entry.fill_model, _k=k)
         named: tuple[str, ...] = ()
         if states is not None:
             named = fields["states"] = tuple(states)
         r = object.__new__(CachedResult)
-        r.__dict__.update(model=m, findings=findings_from(findings, rows, named, blobs),
+        sp = object.__new__(CachedSpectrum)
+        sp.__dict__.update(model=m, spectral_abscissa=abscissa, spectral_radius=radius,
+                           min_damping=damping, _fill=lambda _, r=r: entry.fill_result(r))
+        r.__dict__.update(model=m, spectrum=sp,
+                          findings=findings_from(findings, rows, named, blobs),
                           _fill=entry.fill_result, _k=k)
         out.append(r)
     return summary["source"], tuple(out), None
