@@ -576,11 +576,7 @@ def _explain(name: str) -> int:
 def run() -> None:
     """Console-script entry point."""
     status = main()
-    # The process ends here: a last collection at exit would scan every object the run made
-    # (all still referenced, nothing to free), a fifth of a no-change check's time; moved out
-    # of the collector's sight, they are only released. (Not in main, which tests call
-    # in-process.)
-    import gc
+    import gc  # the collection at exit would scan all the run made: a fifth of a warm check
 
-    gc.freeze()
+    gc.freeze()  # (not in main, which tests call in-process)
     sys.exit(status)
