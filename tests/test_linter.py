@@ -1,6 +1,7 @@
 """The linter end to end as a real subprocess on temporary repositories: policy, waivers,
 cache, process pool, commands."""
 
+import json
 import textwrap
 
 import numpy as np
@@ -135,22 +136,30 @@ def _packs(repo):
     return packs
 
 
-def _rewrite_heads(repo, change):
-    """Rewrite every pack with ``change`` applied to each entry's data and a correct
-    checksum, so only the reader's own checks of the entries stand between it and them."""
+def _rewrite_heads(repo, change, summary=None):
+    """Rewrite every pack with ``change`` applied to each entry's data (its last blob, read
+    when a report reads beyond the entry's summary) and ``summary`` to its summary (in the
+    head), with a correct checksum, so only the reader's own checks of the entries stand
+    between it and them."""
     from eigengate.scan.cache import read_pack, write_pack
 
     for pack in _packs(repo):
         read = read_pack(pack.read_bytes())
         blobs = {}
         for key, entry in read.head["entries"].items():
-            change(entry["data"])
-            blobs[key] = read.items(*entry["blobs"])
+            items = read.items(*entry["blobs"])
+            data = json.loads(items[-1][0])
+            change(data)
+            items[-1] = (json.dumps(data).encode(), None)
+            if summary is not None:
+                summary(entry["summary"])
+            blobs[key] = items
         pack.write_bytes(write_pack(read.head, blobs))
 
 
 @pytest.mark.parametrize("damage", ["garbage", "truncated", "flipped byte", "empty",
-                                    "nonsense results", "bad blob spans", "wrong shapes"])
+                                    "nonsense results", "bad blob spans", "wrong shapes",
+                                    "nonsense summary", "summary rows outside"])
 def test_corrupt_cache_is_ignored_and_rebuilt(repo, damage, no_cache_stdout):
     from eigengate.scan.cache import read_pack
 
@@ -171,10 +180,26 @@ def test_corrupt_cache_is_ignored_and_rebuilt(repo, damage, no_cache_stdout):
         _rewrite_heads(repo, lambda d: d["results"][0]["model"].__setitem__("A", 10**6))
     elif damage == "wrong shapes":
         _rewrite_heads(repo, lambda d: d["results"][0]["spectrum"].__setitem__("modes", "x"))
+    elif damage == "nonsense summary":
+        _rewrite_heads(repo, lambda d: None, lambda s: s.__setitem__("results", "nonsense"))
+    elif damage == "summary rows outside":  # findings' mode rows: a table of the blobs
+        _rewrite_heads(repo, lambda d: None,
+                       lambda s: [r.__setitem__(4, 10**6) for r in s["results"]])
     again = run_cli("check", cwd=repo)
     assert again.stdout == first and "Traceback" not in again.stderr
-    for pack in _packs(repo):  # rebuilt: a whole pack again
-        assert read_pack(pack.read_bytes()).head["entries"]
+    # a report that reads every field (the text report reads only what it prints, so damage
+    # elsewhere is found when something reads it): the same as without the cache
+    whole = run_cli("check", "--format", "json", cwd=repo)
+    assert whole.stdout == run_cli("check", "--format", "json", "--no-cache", cwd=repo).stdout
+    for pack in _packs(repo):  # rebuilt: a whole pack again, its data whole too
+        read = read_pack(pack.read_bytes())
+        assert read.head["entries"]
+        for entry in read.head["entries"].values():
+            data = json.loads(read.items(*entry["blobs"])[-1][0])
+            count = entry["blobs"][1]
+            assert all(0 <= r["model"]["A"] < count and 0 <= r["spectrum"]["modes"] < count
+                       for r in data["results"])
+            assert all(s[4] is None or 0 <= s[4] < count for s in entry["summary"]["results"])
     assert no_cache_stdout == first
     # and what was rebuilt is served whole: every entry a hit, its matrices readable
     from eigengate.scan.config import load_config

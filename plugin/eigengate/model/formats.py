@@ -10,7 +10,6 @@ loader's business.
 
 from __future__ import annotations
 
-import difflib
 import json
 import re
 from pathlib import Path
@@ -42,6 +41,8 @@ def printable_name(name: str) -> str:
 
 def suggest(word: str, choices: Iterable[str]) -> str | None:
     """Closest match to ``word`` among ``choices`` (difflib), or None when nothing is close."""
+    import difflib  # only for a mistake: not on every run
+
     found = difflib.get_close_matches(word, list(choices), n=1, cutoff=0.6)
     return found[0] if found else None
 

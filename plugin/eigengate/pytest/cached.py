@@ -28,16 +28,30 @@ if TYPE_CHECKING:  # pragma: no cover
 __all__ = ["CollectCache", "real_relative"]
 
 
-@functools.lru_cache(maxsize=8)
-def _real_root(root: str) -> str:
-    return os.path.realpath(root)
+@functools.lru_cache(maxsize=256)
+def _real_folder(folder: str) -> str:
+    return os.path.realpath(folder)
+
+
+@functools.lru_cache(maxsize=64)
+def _real(path: str) -> str:
+    """``os.path.realpath(path)``, with the folder's resolution kept (one per folder and
+    process): only the file itself is looked at again, which is a link or not. The
+    collector asks this twice of every file (selection, then cache)."""
+    if not os.path.isabs(path):
+        path = os.path.join(os.getcwd(), path)
+    folder, name = os.path.split(path)
+    if name in ("", ".", "..") or f"{os.sep}.." in folder:  # a ".." after a link: resolved
+        return os.path.realpath(path)                       # in order, as realpath does
+    full = os.path.join(_real_folder(folder), name)
+    return os.path.realpath(full) if os.path.islink(full) else full
 
 
 def real_relative(path: "Path | str", root: "Path | str") -> str | None:
     """``path`` relative to ``root`` with links resolved (``/``-separated), None when it lies
     outside; the root's resolution is kept (one per process)."""
-    base = _real_root(os.fspath(root))
-    real = os.path.realpath(path)
+    base = _real_folder(os.fspath(root))
+    real = _real(os.fspath(path))
     if real == base:
         return "."
     if not real.startswith(base.rstrip(os.sep) + os.sep):
@@ -70,7 +84,7 @@ class CollectCache:
     def lookup(self, path: Path) -> tuple[str | None, "tuple[ModelResult, ...] | None"]:
         """``(key, results)``: the file's cache key and, on a hit, its cached pre-waiver
         results (None on a miss, or when the entry is damaged: then analysed again)."""
-        from ..scan.serial import results_from_data
+        from ..scan.summary import DAMAGE, results_from_summary
 
         name = self._name(path)
         if name is None:
@@ -84,10 +98,11 @@ class CollectCache:
         hit = None if key is None else cache.get(key)
         if hit is not None:
             try:
-                _, results, error = results_from_data(*hit)
+                _, results, error = results_from_summary(*hit, functools.partial(
+                    _analyse_again, path, self.policy))
                 if error is None and results:
                     return key, results
-            except (KeyError, TypeError, ValueError, IndexError):
+            except DAMAGE:
                 pass
         return key, None
 
@@ -109,3 +124,12 @@ class CollectCache:
         if self._cache is not None:
             self._cache.save()
 
+
+def _analyse_again(path: Path, policy: "Config") -> tuple:
+    """A cached file's pre-waiver results computed again, as the collector computes them
+    (for a cache entry whose data fails its checks when an item reads it)."""
+    from ..load.loader import load_models_with_refs
+    from ..scan.engine import analyse_model
+
+    models, _ = load_models_with_refs(path, root=policy.root, allow_python=True)
+    return tuple(analyse_model(m, policy) for m in models)

@@ -288,6 +288,27 @@ def pytest_collect_file(file_path: Path, parent: pytest.Collector) -> pytest.Col
                                  cache=s.results_cache)
 
 
+@pytest.hookimpl(wrapper=True)
+def pytest_collection(session: pytest.Session):
+    """Collect with the cyclic garbage collector paused, and when model files were collected,
+    move what collection made (the items, their models and cached results, all alive until
+    the session ends) out of its sight for good (``gc.freeze``): otherwise every full
+    collection while thousands of model items run scans them all again (measured: a third
+    of a warm session of 2,000 model files)."""
+    import gc
+
+    was = gc.isenabled()
+    gc.disable()
+    try:
+        return (yield)
+    finally:
+        s = session.config.stash.get(settings_key, None)
+        if was:
+            if s is not None and s._results_cache is not None:  # model files were collected
+                gc.freeze()
+            gc.enable()
+
+
 def pytest_collection_finish(session: pytest.Session) -> None:
     s = session.config.stash.get(settings_key, None)
     # A model file was collected: first use. Not on an xdist worker, where a usage error

@@ -6,7 +6,7 @@ from __future__ import annotations
 import functools
 import re
 
-__all__ = ["glob_match", "compile_glob"]
+__all__ = ["glob_match", "glob_any", "compile_glob"]
 
 
 @functools.lru_cache(maxsize=512)
@@ -52,11 +52,21 @@ def glob_match(path: str, pattern: str) -> bool:
     patterns of a ``.gitignore``; a pattern ending in ``/`` or naming a folder matches
     everything below it.
     """
-    path = path.strip("/")
-    if "/" not in pattern.strip("/"):
-        pattern = "**/" + pattern.strip("/")
-    rx = compile_glob(pattern)
-    if rx.match(path):
-        return True
-    # a folder pattern covers what is inside it
-    return compile_glob(pattern.rstrip("/") + "/**").match(path) is not None
+    return glob_any(path, (pattern,))
+
+
+def glob_any(path: str, patterns: tuple[str, ...]) -> bool:
+    """True when ``path`` matches one of ``patterns`` (each as in :func:`glob_match`), by
+    one regular expression per set of patterns."""
+    return bool(patterns) and _any(tuple(patterns))(path.strip("/")) is not None
+
+
+@functools.lru_cache(maxsize=512)
+def _any(patterns: tuple[str, ...]):
+    forms = []
+    for pattern in patterns:
+        if "/" not in pattern.strip("/"):
+            pattern = "**/" + pattern.strip("/")
+        # the pattern itself, and as a folder: what is inside it
+        forms += [compile_glob(pattern).pattern, compile_glob(pattern.rstrip("/") + "/**").pattern]
+    return re.compile("|".join(f"(?:{f})" for f in forms)).match

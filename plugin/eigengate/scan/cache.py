@@ -28,13 +28,13 @@ import json
 import os
 import struct
 import sys
-import tempfile
 import time
 import zlib
 from pathlib import Path
-from typing import Any
+from typing import Any, Callable
 
 from .pool import item_bytes
+from .summary import summary_of
 
 __all__ = ["ResultCache", "Pack", "PackBlobs", "RawBlobs", "CACHE_DIR", "read_pack", "write_pack"]
 
@@ -75,13 +75,27 @@ class Pack:
 
     def __init__(self, head: dict, index: list, body: memoryview) -> None:
         self.head, self._body = head, body
-        self._index = index  # rows of (offset, size, rows, columns): each read is list lookups
-        self._shapes = [None if c < 0 else (r, c) for _, _, r, c in self._index]
+        #: offset, size, rows, columns of each blob in turn, flat (a row per blob would cost
+        #: a list per blob to build: thousands for each warm check)
+        self._index = index
+        self._count = len(index) // _INDEX_COLUMNS
+
+    def row(self, i: int) -> tuple[int, int, int, int]:
+        """Offset, size, rows and columns of blob ``i``."""
+        k = _INDEX_COLUMNS * i
+        f = self._index
+        return f[k], f[k + 1], f[k + 2], f[k + 3]
+
+    def shapes(self, first: int, count: int) -> list[tuple[int, int] | None]:
+        f = self._index
+        return [None if f[k + 3] < 0 else (f[k + 2], f[k + 3])
+                for k in range(_INDEX_COLUMNS * first, _INDEX_COLUMNS * (first + count),
+                               _INDEX_COLUMNS)]
 
     def blobs(self, first: Any, count: Any) -> "PackBlobs":
         """The blobs of one entry; ValueError when its span is not within the index."""
         if type(first) is not int or type(count) is not int or not (
-                0 <= first and 0 <= count <= len(self._index) - first):
+                0 <= first and 0 <= count <= self._count - first):
             raise ValueError("entry blobs lie outside the pack index")
         return PackBlobs(self, first, count)
 
@@ -90,7 +104,7 @@ class Pack:
         ValueError when its span is not within the index."""
         self.blobs(first, count)
         out = []
-        for off, size, rows, cols in self._index[first:first + count]:
+        for off, size, rows, cols in map(self.row, range(first, first + count)):
             out.append((bytes(self._body[off:off + size]), None if cols < 0 else [rows, cols]))
         return out
 
@@ -140,12 +154,12 @@ class PackBlobs(_BlobReader):
     def _raw(self, i: Any) -> tuple[Any, int, int]:
         if type(i) is not int or not 0 <= i < self._count:
             raise ValueError(f"blob {i!r} is not one of the entry's {self._count}")
-        off, size, rows, cols = self._pack._index[self._first + i]
+        off, size, rows, cols = self._pack.row(self._first + i)
         return self._pack._body[off:off + size], rows, cols
 
     def shapes(self) -> list[tuple[int, int] | None]:
         """``(rows, columns)`` of each array blob, None for each text."""
-        return self._pack._shapes[self._first:self._first + self._count]
+        return self._pack.shapes(self._first, self._count)
 
 
 class RawBlobs(_BlobReader):
@@ -231,15 +245,15 @@ def read_pack(raw: bytes) -> Pack:
     if zlib.crc32(body, zlib.crc32(index_bytes, zlib.crc32(head_bytes))) != crc:
         raise ValueError("pack checksum does not match")
     flat = _little("q", index_bytes).tolist()
-    index = [flat[k:k + _INDEX_COLUMNS] for k in range(0, len(flat), _INDEX_COLUMNS)]
-    for off, size, rows, cols in index:
+    c = _INDEX_COLUMNS
+    for off, size, rows, cols in zip(flat[0::c], flat[1::c], flat[2::c], flat[3::c]):
         if off < 0 or size < 0 or off > n_body - size or (
                 rows != -1 if cols < 0 else rows < 0 or size != 8 * rows * cols):
             raise ValueError("pack index does not fit its body")
     head = json.loads(bytes(head_bytes))
     if not isinstance(head, dict):
         raise ValueError("pack head is not an object")
-    return Pack(head, index, body)
+    return Pack(head, flat, body)
 
 
 class ResultCache:
@@ -268,6 +282,7 @@ class ResultCache:
         self._new: dict[str, tuple[dict, list]] = {}
         self._used: dict[str, None] = {}  # ordered: the pack keeps the scan's order
         self._started = time.time_ns()
+        self._at_exit = False
         #: Status records to add: "files" (model file → key), "refs" (matrix file → hash),
         #: "sniff" (file → whether its content has a model_format key).
         self._noted: dict[str, dict[str, list]] = {"files": {}, "refs": {}, "sniff": {}}
@@ -291,10 +306,13 @@ class ResultCache:
         return out
 
     def _recorded(self, table: str, rel: str, st: os.stat_result) -> str | None:
-        self._entries()
+        if self._old is None:
+            self._entries()
         row = self._noted[table].get(rel) or self._tables[table].get(rel)
-        if type(row) is list and len(row) == 5 and row[:4] == _signature(st) \
-                and type(row[4]) is str:
+        # _signature(st), compared field by field (a warm check asks this of every file)
+        if type(row) is list and len(row) == 5 and row[0] == st.st_size \
+                and row[1] == st.st_mtime_ns and row[2] == st.st_ctime_ns \
+                and row[3] == st.st_ino and type(row[4]) is str:
             return row[4]
         return None
 
@@ -362,29 +380,35 @@ class ResultCache:
                 self._old = {}  # missing or corrupt: start again, never trust it
         return self._old
 
-    def get(self, key: str) -> tuple[dict[str, Any], PackBlobs] | None:
-        """The stored data and blobs for ``key``, or None (missing, corrupt, or a reference
-        changed)."""
+    def get(self, key: str) -> tuple[dict[str, Any], PackBlobs, Callable[[], Any]] | None:
+        """The stored summary, blobs and a reader of the whole data for ``key``
+        (:mod:`eigengate.scan.summary`), or None (missing, corrupt, or a reference changed).
+        The whole data is the entry's last blob, a JSON text."""
         entry = self._entries().get(key)
         try:
             # a missing entry (None) raises TypeError here, handled like a malformed one
-            refs, data, (first, count) = entry["refs"], entry["data"], entry["blobs"]  # type: ignore[index]
-            if type(refs) is not dict or type(data) is not dict:
+            refs, summary, (first, count) = entry["refs"], entry["summary"], entry["blobs"]  # type: ignore[index]
+            if type(refs) is not dict or type(summary) is not dict or type(count) is not int \
+                    or count < 1:
                 return None
-            blobs = self._read.blobs(first, count)  # type: ignore[union-attr]
+            pack = self._read
+            whole = pack.blobs(first, count)  # type: ignore[union-attr]
+            if pack.row(first + count - 1)[3] >= 0:  # type: ignore[union-attr]
+                return None  # the last blob is not a text
             if refs and self._ref_hashes(sorted(refs)) != refs:
                 return None
         except (KeyError, TypeError, ValueError, AttributeError):
             return None
         self._used[key] = None
-        return data, blobs
+        return summary, PackBlobs(pack, first, count - 1), lambda: whole.json(count - 1)  # type: ignore[arg-type]
 
     def put(self, key: str, data: dict[str, Any], blobs: list, refs: list[str]) -> None:
         """Remember ``data`` and its blob items (see :class:`eigengate.scan.serial.Blobs`) for
         ``key``; written by :meth:`save`."""
         hashes = self._ref_hashes(refs)
         if hashes is not None:
-            self._new[key] = ({"refs": hashes, "data": data}, blobs)
+            self._new[key] = ({"refs": hashes, "summary": summary_of(data)},
+                              [*blobs, json.dumps(data, separators=(",", ":"))])
 
     def _old_blobs(self, entry: dict) -> list[tuple[bytes, Any]] | None:
         try:
@@ -406,7 +430,7 @@ class ResultCache:
         for k in order:
             kept = self._old_blobs(old[k])
             if kept is not None:
-                entries[k] = {"refs": old[k].get("refs"), "data": old[k].get("data")}
+                entries[k] = {"refs": old[k].get("refs"), "summary": old[k].get("summary")}
                 blobs[k] = kept
         for k, (entry, items) in self._new.items():
             entries[k] = dict(entry)
@@ -423,6 +447,8 @@ class ResultCache:
         try:
             self._ensure_folder()
             self._pack.parent.mkdir(parents=True, exist_ok=True)
+            import tempfile  # a no-change check writes nothing
+
             fd, tmp = tempfile.mkstemp(prefix=".tmp-", dir=self._pack.parent)
             with os.fdopen(fd, "wb") as fh:
                 fh.write(raw)
@@ -431,6 +457,14 @@ class ResultCache:
             return
         self._old, self._new = None, {}
         self._noted = {"files": {}, "refs": {}, "sniff": {}}
+
+    def save_at_exit(self) -> None:
+        """:meth:`save` when this process ends (once however often asked)."""
+        if not self._at_exit:
+            import atexit
+
+            self._at_exit = True
+            atexit.register(self.save)
 
     def _ensure_folder(self) -> None:
         if (self.folder / "CACHEDIR.TAG").is_file():
@@ -441,6 +475,8 @@ class ResultCache:
         self.folder.parent.mkdir(parents=True, exist_ok=True)
         # Build the explanatory files in a temporary folder, then move it into place, so a
         # half-made cache folder is never seen; a concurrent creator simply wins.
+        import tempfile
+
         tmp = Path(tempfile.mkdtemp(prefix=".eigengate-cache-", dir=self.folder.parent))
         try:
             self._explain(tmp)

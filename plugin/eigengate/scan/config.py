@@ -42,12 +42,11 @@ to, and each keeps its own baseline next to it.
 
 from __future__ import annotations
 
-import difflib
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Mapping, Sequence
 
-from ..rules.patterns import glob_match
+from ..rules.patterns import glob_any, glob_match
 from .policyfiles import (  # noqa: F401 (ConfigError re-exported)
     ConfigError, find_config, find_top_config, policy_file, read_table)
 
@@ -176,7 +175,7 @@ class Config:
         if self.is_excluded(rel):
             return False
         if self.include:
-            return any(glob_match(rel, p) for p in self.include)
+            return glob_any(rel, self.include)
         return True
 
     def rule_enabled(self, rule: str) -> bool:
@@ -196,7 +195,7 @@ class Config:
         """Whether repository-relative ``rel`` is left out on purpose (an exclude glob)."""
         if (own := self._own(rel)) is not None:
             return own.is_excluded(rel)
-        return any(glob_match(rel, p) for p in self.exclude)
+        return glob_any(rel, self.exclude)
 
     def suggest_include(self, rel: str) -> str:
         """A glob that would select model file ``rel``: an include pattern with the file's
@@ -337,6 +336,8 @@ def _quoted(value: str) -> str:
 
 
 def _unknown(key: str, allowed: Sequence[str], source: str, where: str) -> ConfigError:
+    import difflib  # only for a mistake: not on every run
+
     close = difflib.get_close_matches(key, allowed, n=1)
     hint = f"did you mean {close[0]!r}?" if close else "known keys: " + ", ".join(allowed)
     return ConfigError(source, f"{where}{key}", "is not a known key", hint)

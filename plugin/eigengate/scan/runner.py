@@ -99,13 +99,21 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
           complete, cluster=None) -> Scan:
     from .serial import results_from_data, results_to_data
     from .cache import RawBlobs, ResultCache
+    from .summary import DAMAGE, results_from_summary
 
     cache = ResultCache(config.root, config.digest) if use_cache else None
     unselected: list[str] = []
+    known: dict[str, str] = {}  # files whose status the cache knows: their keys
+
+    def knows(rel: str, st) -> bool:
+        key = cache.known_key(cache_name(config, rel), st)  # type: ignore[union-attr]
+        if key is not None:
+            known[rel] = key
+        return key is not None
+
     files = find_model_files(
         list(paths), config, filter_named=filter_named, unselected=unselected, sniffs=cache,
-        known=None if cache is None else
-        lambda rel, st: cache.known_key(cache_name(config, rel), st) is not None)
+        known=None if cache is None else knows)
     slots: list[tuple | None] = [None] * len(files)
     todo: list[tuple[int, str, str | None]] = []
     names = [f.rel for f in files]  # what a file that no cluster worker analysed is called
@@ -114,15 +122,18 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
         files[i] = None  # type: ignore[call-overload]  # its bytes are not kept past here
         key = None
         if cache is not None:
-            key = cache.file_key(cache_name(config, f.rel), f.stat, f.path, f.content)
+            key = known.get(f.rel) if f.content is None else None
+            if key is None:
+                key = cache.file_key(cache_name(config, f.rel), f.stat, f.path, f.content)
             if key is not None:
                 hit = cache.get(key)
                 if hit is not None:
                     try:
-                        slots[i] = results_from_data(*hit)
+                        slots[i] = results_from_summary(*hit, _reload(f.path, key, config,
+                                                                       cache))
                         hits += 1
                         continue
-                    except (KeyError, TypeError, ValueError, IndexError):
+                    except DAMAGE:
                         pass  # a corrupt entry: analyse again and overwrite it
         todo.append((i, f.path, key))
     done = hits
@@ -168,6 +179,23 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
     policy = (unselected_findings(config, sorted(unselected))
               + policy_findings(config, out, on, complete=complete))
     return Scan(files=out, policy=tuple(policy), cache_hits=hits, analysed=len(todo))
+
+
+def _reload(path: str, key: str, config: Config, cache) -> Callable[[], tuple]:
+    """What a cached result whose data fails its checks when it is read does: analyse its
+    file again and keep the fresh results in the cache in place of the damaged ones (the
+    pack written once more when this process ends, whatever number were damaged)."""
+    def again() -> tuple:
+        from .serial import results_to_data
+
+        source, results, error, refs = analyse_file(path, config.root, config)
+        if error is None:
+            data, blobs = results_to_data(source, results, error)
+            cache.put(key, data, blobs.items, refs)
+            cache.save_at_exit()
+        return results
+
+    return again
 
 
 def cache_name(config: Config, rel: str) -> str:

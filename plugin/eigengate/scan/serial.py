@@ -22,6 +22,8 @@ from ..errors import ModelError
 from ..analysis.naming import mode_name
 from ..rules.findings import Finding, ModeRow
 from ..rules.known_modes import KnownMode
+from .cached_modes import CachedSpectrum, blob_shape, spectrum_data
+from .lazy import LazyField
 from .records import REQUIREMENT_NAMES, pictures_from, record, requirement_classes, unrecord
 from ..model.core import Model
 from ..rules.catalogue import Verdict
@@ -30,9 +32,10 @@ from ..rules.waivers import Waiver
 if TYPE_CHECKING:  # pragma: no cover - a warm re-check that builds no mode imports neither
     from ..analysis.modes import Spectrum
 
-__all__ = ["results_to_data", "results_from_data", "CachedSpectrum", "Blobs", "FORMAT"]
+__all__ = ["results_to_data", "results_from_data", "CachedSpectrum", "CachedModel", "Blobs",
+           "FORMAT", "fill_model", "result_parts", "findings_from"]
 
-FORMAT = 9  # 8: mode names; 9: results carry their pictures (plot data)
+FORMAT = 10  # 8: mode names; 9: results carry their pictures (plot data); 10: summaries
 
 
 class Blobs:
@@ -73,130 +76,6 @@ class Blobs:
         if not isinstance(text, str):
             raise ValueError(f"blob {i} is not a text")
         return json.loads(text)
-
-
-# ------------------------------------------------------------------ modes, lazily
-
-_MODE_SCALARS = ("multiplicity", "geometric_multiplicity", "pair", "natural_frequency",
-                 "damping_ratio", "time_constant", "uncertainty", "condition", "enclosure")
-#: A mode as a row of float64 (exact for every field): index, eigenvalue and s as real and
-#: imaginary parts, then the scalars above.
-_MODE_COLUMNS = 5 + len(_MODE_SCALARS)
-
-
-def _mode_table(modes, np):
-    rows = [[m.index, m.eigenvalue.real, m.eigenvalue.imag, m.s.real, m.s.imag]
-            + [getattr(m, k) for k in _MODE_SCALARS] for m in modes]
-    return np.array(rows, dtype=np.float64).reshape(len(rows), _MODE_COLUMNS)
-
-
-class _LazyModes(Sequence):
-    """A tuple-like view of modes built on first use from their stored rows."""
-
-    def __init__(self, blobs, rows: int, participation: int, states: tuple[str, ...],
-                 count: int, pick: list[int] | None = None,
-                 source: "_LazyModes | None" = None) -> None:
-        self._blobs, self._rows, self._part, self._states = blobs, rows, participation, states
-        self._count = count
-        self._pick, self._source = pick, source
-        self._built: tuple | None = None
-
-    def _all(self) -> tuple:
-        if self._built is None:
-            if self._source is not None:
-                assert self._pick is not None  # a picked view always has its picks
-                every = self._source._all()
-                self._built = tuple(every[i] for i in self._pick)
-            else:
-                from ..analysis.modes import Mode
-
-                part = self._blobs.array(self._part)  # shapes checked by CachedSpectrum
-                rows = self._blobs.array(self._rows)
-                self._built = tuple(
-                    Mode(index=int(r[0]), eigenvalue=complex(r[1], r[2]), s=complex(r[3], r[4]),
-                         multiplicity=int(r[5]), geometric_multiplicity=int(r[6]),
-                         pair=bool(r[7]), natural_frequency=r[8], damping_ratio=r[9],
-                         time_constant=r[10], uncertainty=r[11], condition=r[12],
-                         enclosure=r[13],
-                         participation=part[:, k], states=self._states)
-                    for k, r in enumerate(rows.tolist()))
-        return self._built
-
-    def subset(self, indices: list[int]) -> "_LazyModes":
-        return _LazyModes(self._blobs, self._rows, self._part, self._states, self._count,
-                          pick=list(indices), source=self)
-
-    def __len__(self) -> int:
-        return len(self._pick) if self._pick is not None else self._count
-
-    def __getitem__(self, i):
-        return self._all()[i]
-
-    def __iter__(self):
-        return iter(self._all())
-
-    def __eq__(self, other) -> bool:
-        return tuple(self) == tuple(other)
-
-    def __hash__(self):  # pragma: no cover - not used as a key
-        return id(self)
-
-
-class StoredSearch:
-    """What a sparse search covered, as a cached result keeps it: its description only (a
-    cached result is never evaluated again)."""
-
-    def __init__(self, text: str) -> None:
-        self.text = text
-
-    def coverage(self) -> str:
-        return self.text
-
-
-class CachedSpectrum:
-    """Stands in for :class:`~eigengate.analysis.modes.Spectrum` when a result comes from the cache:
-    the summary figures are stored, the modes are built only when something reads them."""
-
-    def __init__(self, model, data: dict, blobs, shapes: list) -> None:
-        self.model = model
-        self.infinite = data["infinite"]
-        self.norm = data["norm"]
-        self.balanced = data["balanced"]
-        self.spectral_abscissa = data["abscissa"]
-        self.spectral_radius = data["radius"]
-        self.min_damping = data["min_damping"]
-        self.n_eigenvalues = data["n_eigenvalues"]
-        coverage = data.get("search")
-        self.search = None if coverage is None else StoredSearch(str(coverage))
-        count = data["n_modes"]
-        rows, part = data["modes"], data["participation"]
-        # The blobs are read when the modes are: check now that they fit, so a damaged
-        # entry is analysed again instead of failing later.
-        if _shape(shapes, rows) != (count, _MODE_COLUMNS) or \
-                _shape(shapes, part) not in ((len(model.states), count), (0, 0)):
-            raise ValueError("mode table or participation factors do not fit the model")
-        self.modes = _LazyModes(blobs, rows, part, model.states, count)
-
-    def eigenvalues(self) -> list[complex]:
-        from ..analysis.modes import Spectrum
-
-        return Spectrum.eigenvalues(cast(Spectrum, self))  # same logic, reading self.modes
-
-
-def _spectrum_data(sp, blobs: Blobs) -> dict:
-    import numpy as np
-
-    modes = list(sp.modes)
-    part = np.stack([m.participation for m in modes], axis=1) if modes else np.zeros((0, 0))
-    return {
-        "infinite": sp.infinite, "norm": sp.norm, "balanced": sp.balanced,
-        "abscissa": sp.spectral_abscissa, "radius": sp.spectral_radius,
-        "min_damping": sp.min_damping, "n_eigenvalues": sp.n_eigenvalues,
-        "n_modes": len(modes),
-        "search": None if getattr(sp, "search", None) is None else sp.search.coverage(),
-        "modes": blobs.put_array(_mode_table(modes, np)),
-        "participation": blobs.put_array(part),
-    }
 
 
 # ------------------------------------------------------------------ model and results
@@ -244,33 +123,36 @@ def _known_modes_of(records: list) -> tuple:
     return tuple(unrecord(KnownMode, k) for k in records)
 
 
-def _lazy(name: str, load):
-    """A field built on first use by ``load`` from what ``_stored`` keeps for it, then kept."""
-    def read(self):
-        return load(self.__dict__["_stored"][name])
-
-    read.__name__ = name
-    return functools.cached_property(read)
+#: How a model field kept in ``_stored`` is built on first read.
+_LOADERS = {**{k: _array for k in _MATRICES}, "lines": _text,
+            "requirements": _requirements_of, "known_modes": _known_modes_of}
 
 
 class CachedModel(Model):
     """A :class:`~eigengate.model.core.Model` rebuilt from the cache: its matrices and its line
     table are read from the blobs when first used (then kept), its requirements and known
-    modes built from their records when first used, the other fields at once. Reports,
-    which print verdicts and findings, read none of them."""
+    modes built from their records when first used, the other fields at once (or, for a
+    model built from its summary, when one of them is first read). Reports, which print
+    verdicts and findings, read none of the matrices."""
 
-    A = _lazy("A", _array)
-    B = _lazy("B", _array)
-    C = _lazy("C", _array)
-    D = _lazy("D", _array)
-    E = _lazy("E", _array)
-    lines = _lazy("lines", _text)
-    requirements = _lazy("requirements", _requirements_of)
-    known_modes = _lazy("known_modes", _known_modes_of)
+    LOADERS = _LOADERS
 
     @property
     def n_states(self) -> int:  # _model_from checked that A is n × n for n states
         return len(self.states)
+
+    def line_of(self, field_path: str) -> int | None:
+        # A top-level field's line is in the summary's lines (those without a "."), so the
+        # line table is not read for it (pytest asks it of every item).
+        top = self.__dict__.get("_top_lines")
+        if top is not None and "." not in field_path:
+            return top.get(field_path)
+        return Model.line_of(self, field_path)
+
+
+for _f in Model.__dataclass_fields__:
+    setattr(CachedModel, _f, LazyField(_f))
+del _f
 
 
 def _model_data(m, blobs: Blobs) -> dict:
@@ -284,6 +166,7 @@ def _model_data(m, blobs: Blobs) -> dict:
         "sample_period": m.sample_period, "states": list(m.states), "inputs": list(m.inputs),
         "outputs": list(m.outputs), "on_uncertain": m.on_uncertain, "require": m.require,
         "disabled": list(m.disabled), "lines": blobs.put_json(dict(m.lines)),
+        "top_lines": {k: v for k, v in m.lines.items() if "." not in k},
         "requirements": [[type(r).__name__, record(r)] for r in m.requirements],
         "known_modes": [record(k) for k in m.known_modes],
         "waivers": [record(w) for w in m.waivers],
@@ -351,19 +234,20 @@ def _cached_field_class():
     return CachedFieldPoint
 
 
-def _shape(shapes: list, index) -> tuple[int, int] | None:
-    if type(index) is not int or not 0 <= index < len(shapes):
-        raise ValueError(f"{index!r} is not a blob of the entry")
-    return shapes[index]
-
-
 def _model_from(d: dict, blobs, shapes: list) -> CachedModel:
+    m = object.__new__(CachedModel)
+    fill_model(m, d, blobs, shapes)
+    return m
+
+
+def fill_model(m: CachedModel, d: dict, blobs, shapes: list) -> None:
+    """Set the fields of cached model ``m`` from its record ``d``, checked; ValueError,
+    KeyError, TypeError or IndexError when the record is damaged (nothing set then)."""
     classes = REQUIREMENT_NAMES  # the classes themselves are imported when first read
     if not all(type(r) is list and len(r) == 2 and r[0] in classes for r in d["requirements"]) \
             or type(d["known_modes"]) is not list:
         raise ValueError("model requirements are not records of known classes")
-    m = object.__new__(CachedModel)
-    fields = m.__dict__
+    fields: dict[str, Any] = {}
     stored = {"requirements": d["requirements"], "known_modes": d["known_modes"]}
     for k in (*_MATRICES, "lines"):
         index = d[k]
@@ -374,9 +258,9 @@ def _model_from(d: dict, blobs, shapes: list) -> CachedModel:
         if isinstance(index, list) and k != "lines":
             if len(index) != 6 or index[0] != "csr" or type(index[1]) is not int \
                     or type(index[2]) is not int or any(
-                        _shape(shapes, i) is None for i in index[3:]):
+                        blob_shape(shapes, i) is None for i in index[3:]):
                 raise ValueError(f"model field {k} is not a sparse matrix record")
-        elif (_shape(shapes, index) is None) != (k == "lines"):
+        elif (blob_shape(shapes, index) is None) != (k == "lines"):
             raise ValueError(f"model field {k} is not a blob of its kind")
         stored[k] = (blobs, index)
     n = len(d["states"])
@@ -384,15 +268,15 @@ def _model_from(d: dict, blobs, shapes: list) -> CachedModel:
     if (tuple(a[1:3]) if isinstance(a, list) else shapes[a]) != (n, n):
         raise ValueError("model matrix A does not fit its states")
     fields.update(
-        _stored=stored, name=d["name"], label=d["label"], source=d["source"],
+        name=d["name"], label=d["label"], source=d["source"],
         structure=d["structure"], sample_period=d["sample_period"],
         states=tuple(d["states"]), inputs=tuple(d["inputs"]), outputs=tuple(d["outputs"]),
         on_uncertain=d["on_uncertain"], require=d["require"], disabled=tuple(d["disabled"]),
         waivers=tuple(unrecord(Waiver, w) for w in d["waivers"]),
-        allowed_drift=d["allowed_drift"], loop_parts=None,
+        allowed_drift=d["allowed_drift"], loop_parts=None, parameters=None, file_inputs=None,
         nonlinear=_field_from(d["nonlinear"]), point_id=d.get("point_id"),
         grid=None if d.get("grid") is None else tuple((str(k), float(v)) for k, v in d["grid"]))
-    return m
+    m.__dict__.update(fields, _stored=stored)
 
 
 #: A finding's mode row as float64: index, eigenvalue and s (real, imaginary), pair,
@@ -443,10 +327,10 @@ def _row_of(r: list, states: tuple[str, ...]) -> ModeRow:
     return row
 
 
-def _findings_from(items: list, table: int | None, states: tuple[str, ...], blobs) -> tuple:
+def findings_from(items: list, table: int | None, states: tuple[str, ...], blobs) -> tuple:
     rows: list = []
     if table is not None:
-        shape = _shape(blobs.shapes(), table)
+        shape = blob_shape(blobs.shapes(), table)
         if shape is None or shape[1] != _ROW_COLUMNS:
             raise ValueError("finding mode rows have the wrong width")
         rows = blobs.rows(table)  # no numpy: a warm re-check renders these
@@ -469,7 +353,7 @@ def _verdict_data(v) -> dict:
 
 def _result_data(r, blobs: Blobs) -> dict:
     findings, rows = _findings_data(r.findings, r.model.states, blobs)
-    return {"model": _model_data(r.model, blobs), "spectrum": _spectrum_data(r.spectrum, blobs),
+    return {"model": _model_data(r.model, blobs), "spectrum": spectrum_data(r.spectrum, blobs),
             "equilibrium": record(r.equilibrium),
             "verdicts": [_verdict_data(v) for v in r.verdicts],
             "findings": findings, "rows": rows,
@@ -478,15 +362,20 @@ def _result_data(r, blobs: Blobs) -> dict:
 
 def _result_from(d: dict, blobs, shapes: list):
     model = _model_from(d["model"], blobs, shapes)
+    # CachedSpectrum stands in for a Spectrum: the same attributes, read lazily (duck typing)
+    return ModelResult(model=model, **result_parts(model, d, blobs, shapes),
+                       findings=findings_from(d["findings"], d["rows"], model.states, blobs))
+
+
+def result_parts(model, d: dict, blobs, shapes: list) -> dict[str, Any]:
+    """The spectrum, equilibrium, verdicts and pictures of a result's record ``d`` for its
+    (cached) ``model``, checked."""
     spectrum = CachedSpectrum(model, d["spectrum"], blobs, shapes)
     verdicts = [unrecord(Verdict, v["v"], offending=spectrum.modes.subset(v["offending"]))
                 for v in d["verdicts"]]
-    # CachedSpectrum stands in for a Spectrum: the same attributes, read lazily (duck typing)
-    return ModelResult(model=model, spectrum=cast("Spectrum", spectrum),
-                       equilibrium=unrecord(Equilibrium, d["equilibrium"]),
-                       verdicts=tuple(verdicts),
-                       findings=_findings_from(d["findings"], d["rows"], model.states, blobs),
-                       pictures=pictures_from(d["pictures"]))
+    return {"spectrum": cast("Spectrum", spectrum), "verdicts": tuple(verdicts),
+            "equilibrium": unrecord(Equilibrium, d["equilibrium"]),
+            "pictures": pictures_from(d["pictures"])}
 
 
 def results_to_data(source: str, results: Sequence, error) -> tuple[dict, Blobs]:
