@@ -9,6 +9,7 @@ the parent stores in the cache (written once, at the end of the scan).
 from __future__ import annotations
 
 import contextlib
+import functools
 import gc
 import os
 import sys
@@ -97,9 +98,9 @@ def _gc_paused():
 
 def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
           complete, cluster=None) -> Scan:
-    from .serial import results_from_data, results_to_data
+    from .serial import results_to_data
     from .cache import RawBlobs, ResultCache
-    from .summary import DAMAGE, results_from_summary
+    from .summary import DAMAGE, results_from_summary, summary_of
 
     cache = ResultCache(config.root, config.digest) if use_cache else None
     unselected: list[str] = []
@@ -150,10 +151,14 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
         slots[i] = (source, results, error)
 
     def remote(items, outcome) -> None:
-        for (i, _, key), (data, blobs, refs, ok) in zip(items, outcome):
+        for (i, path, key), (data, blobs, refs, ok) in zip(items, outcome):
             if cache is not None and key is not None and ok:
                 cache.put(key, data, blobs, refs)
-            slots[i] = results_from_data(data, RawBlobs(blobs))
+            # read as a cache entry is: the summary now, the rest when a report reads it
+            # (this process is one of the pool's: what it spends here it does not analyse)
+            slots[i] = results_from_summary(summary_of(data), RawBlobs(blobs),
+                                            functools.partial(dict, data),
+                                            functools.partial(_analysed, path, config))
 
     def step(n: int) -> None:
         nonlocal done
@@ -179,6 +184,12 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
     policy = (unselected_findings(config, sorted(unselected))
               + policy_findings(config, out, on, complete=complete))
     return Scan(files=out, policy=tuple(policy), cache_hits=hits, analysed=len(todo))
+
+
+def _analysed(path: str, config: Config) -> tuple:
+    """A file's pre-waiver results analysed here (for a worker's data that fails its checks
+    when it is read)."""
+    return analyse_file(path, config.root, config)[1]
 
 
 def _reload(path: str, key: str, config: Config, cache) -> Callable[[], tuple]:
