@@ -9,6 +9,15 @@ Per-test ``@settings(max_examples=...)`` keep their own counts under both.
 Waivers are judged on ``EIGENGATE_TODAY``; every test runs with it set to
 :data:`support.FIXED_TODAY` (subprocesses inherit it), so no test depends on the calendar.
 A test of another date sets its own.
+
+pytester's in-process runs take ``sys.modules`` back to what it was before them, forgetting
+the modules first imported inside them. For eigengate's own modules that leaves two copies
+of one class in the process: a module imported before the run may keep a class of a module
+the run imported (``scan.records.requirement_classes`` caches the requirement classes, among
+them ``rules.robust_range``'s, which only a model with ``robust:`` imports), and a later test
+imports that module again and gets a new class, which compares unequal to the kept one.
+Which test meets this depends on what ran before it on the same xdist worker. So the
+snapshots here keep every ``eigengate`` module a run imported.
 """
 
 import os
@@ -16,10 +25,24 @@ import shutil
 from pathlib import Path
 
 import pytest
+from _pytest import pytester as _pytester
 from hypothesis import HealthCheck, settings
 from support import FIXED_TODAY, run_cli
 
 pytest_plugins = ["pytester"]
+
+
+class _KeepingEigengate(_pytester.SysModulesSnapshot):
+    """pytester's snapshot of ``sys.modules``, which on restoring also keeps the ``eigengate``
+    modules imported since it was taken."""
+
+    def __init__(self, preserve=None) -> None:
+        super().__init__(preserve=lambda name: name.split(".")[0] == "eigengate"
+                         or (preserve is not None and preserve(name)))
+
+
+# pytester looks the class up when it takes a snapshot (before a run and for the fixture)
+_pytester.SysModulesSnapshot = _KeepingEigengate  # type: ignore[misc]
 
 settings.register_profile("dev", deadline=None, print_blob=True)
 settings.register_profile("ci", deadline=None, print_blob=True, derandomize=True,

@@ -1,8 +1,9 @@
 """Shared set-up of the plugin tests: small repositories built with pytester.
 
-pytester's in-process runs forget the modules first imported inside them, and numpy refuses
-to be imported twice in one process, so the heavy libraries (and the eigengate modules that
-hold classes the runs compare against) are imported once here, before any run. hypothesis is
+pytester's in-process runs forget the modules first imported inside them (except eigengate's
+own, which tests/conftest.py keeps), and numpy refuses to be imported twice in one process,
+so the heavy libraries (and the eigengate modules that hold classes the runs compare against)
+are imported once here, before any run. hypothesis is
 among them because its pytest plugin imports it in every run, and pytest would rewrite its
 asserts each time.
 """
