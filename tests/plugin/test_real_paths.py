@@ -7,6 +7,7 @@ import os
 
 import pytest
 
+from eigengate.load.loader import real_folder
 from eigengate.pytest import cached
 
 
@@ -29,7 +30,7 @@ def tree(tmp_path):
     for name, target in links.items():
         os.symlink(target, tmp_path / name)
     cached._real.cache_clear()
-    cached._real_folder.cache_clear()
+    real_folder.cache_clear()
     return tmp_path
 
 

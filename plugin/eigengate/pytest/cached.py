@@ -28,29 +28,28 @@ if TYPE_CHECKING:  # pragma: no cover
 __all__ = ["CollectCache", "real_relative"]
 
 
-@functools.lru_cache(maxsize=256)
-def _real_folder(folder: str) -> str:
-    return os.path.realpath(folder)
-
-
 @functools.lru_cache(maxsize=64)
 def _real(path: str) -> str:
     """``os.path.realpath(path)``, with the folder's resolution kept (one per folder and
     process): only the file itself is looked at again, which is a link or not. The
     collector asks this twice of every file (selection, then cache)."""
+    from ..load.loader import real_folder
+
     if not os.path.isabs(path):
         path = os.path.join(os.getcwd(), path)
     folder, name = os.path.split(path)
     if name in ("", ".", "..") or f"{os.sep}.." in folder:  # a ".." after a link: resolved
         return os.path.realpath(path)                       # in order, as realpath does
-    full = os.path.join(_real_folder(folder), name)
+    full = os.path.join(real_folder(folder), name)
     return os.path.realpath(full) if os.path.islink(full) else full
 
 
 def real_relative(path: "Path | str", root: "Path | str") -> str | None:
     """``path`` relative to ``root`` with links resolved (``/``-separated), None when it lies
     outside; the root's resolution is kept (one per process)."""
-    base = _real_folder(os.fspath(root))
+    from ..load.loader import real_folder
+
+    base = real_folder(os.fspath(root))
     real = _real(os.fspath(path))
     if real == base:
         return "."
