@@ -135,11 +135,37 @@ def _analyse_chunk(spec: tuple[str, str | None, str, str], paths: list[str]) -> 
 
 def _forget_modules(before: set[str], root: str) -> None:
     """Drop the modules imported from the repository since ``before`` (vector fields), so the
-    next chunk imports the files as they are then."""
+    next chunk imports the files as they are then.
+
+    Kept whatever their file: eigengate's own modules (a checkout of eigengate checked with
+    itself lies in the repository; a second copy of a module would be a second copy of its
+    classes) and the installed packages of the worker's interpreter (a virtual environment
+    inside the repository, where numpy's extension modules cannot be imported twice)."""
+    installed = _installed_folders()
     for name in set(sys.modules) - before:
+        if name == "eigengate" or name.startswith("eigengate."):
+            continue
         file = getattr(sys.modules.get(name), "__file__", None)
-        if file and os.path.realpath(file).startswith(root + os.sep):
+        if not file:
+            continue
+        real = os.path.realpath(file)
+        if real.startswith(root + os.sep) and not any(real.startswith(folder + os.sep)
+                                                      for folder in installed):
             del sys.modules[name]
+
+
+def _installed_folders() -> list[str]:
+    """The folders the interpreter's own and installed modules come from (real paths)."""
+    import site
+    import sysconfig
+
+    folders = {sys.prefix, sys.base_prefix, sys.exec_prefix}
+    folders.update(sysconfig.get_paths().get(k, "") for k in ("purelib", "platlib", "stdlib"))
+    try:
+        folders.update(site.getsitepackages())
+    except AttributeError:  # pragma: no cover - some embedded interpreters lack it
+        pass
+    return sorted(os.path.realpath(f) for f in folders if f)
 
 
 # ------------------------------------------------------------------ client side

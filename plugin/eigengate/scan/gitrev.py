@@ -215,7 +215,9 @@ class _PythonTree:
             target = folder.joinpath(*rel.split("/"))
             target.parent.mkdir(parents=True, exist_ok=True)
             target.write_bytes(self.blobs.read(oid))
-        self.names = {rel.split("/")[0].removesuffix(".py") for rel in wanted}
+        # eigengate's own modules stay (a checkout of eigengate at a revision holds a folder
+        # of that name: popping them would make a second copy of every class imported later)
+        self.names = {rel.split("/")[0].removesuffix(".py") for rel in wanted} - {"eigengate"}
         for name in [n for n in sys.modules if n.split(".")[0] in self.names]:
             self.stash[name] = sys.modules.pop(name)
         return folder
