@@ -91,7 +91,7 @@ def build_model(doc: Mapping[str, Any], ctx: _Ctx, name: str, label: str | None)
             raise ctx.err(f"requirements.{req.info.key}", why)
     drift = doc.get("allowed_drift")
     if drift is not None:  # validated here; layered over the policy at comparison time
-        from ..baseline.regressions import parse_tolerances
+        from ..baseline.tolerances import parse_tolerances
 
         parse_tolerances(drift, ctx.source, ctx.prefix + "allowed_drift.", ctx.prefixed_lines())
     box = None

@@ -220,7 +220,7 @@ class Config:
     def tolerances_for(self, result: Any):
         """Regression tolerances of a model: defaults, the policy's ``allowed_drift``, each
         matching override's, then the model file's own."""
-        from ..baseline.regressions import parse_tolerances
+        from ..baseline.tolerances import parse_tolerances
 
         model = result.model
         if (own := self._own(model.source)) is not None:
@@ -362,7 +362,7 @@ def _layer(value: Any, source: str, key: str) -> Layer:
 
 def _drift(value: Any, source: str, key: str) -> None:
     from ..errors import ModelError
-    from ..baseline.regressions import parse_tolerances
+    from ..baseline.tolerances import parse_tolerances
 
     try:
         parse_tolerances(value, source, f"{key}.")
