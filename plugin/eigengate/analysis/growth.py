@@ -10,7 +10,7 @@ import math
 
 import numpy as np
 
-from .robustness import (EPS, MAX_STEPS, UPPER_RTOL, WORK, Bracket, NotApplicable, _backward, _spectrum,
+from .brackets import (EPS, MAX_STEPS, UPPER_RTOL, WORK, Bracket, NotApplicable, _backward, _spectrum,
                          _stable, _standard)
 
 __all__ = ["transient_growth", "growth_curve"]

@@ -11,7 +11,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .robustness import EPS, MAX_SWEEPS, Bracket, NotApplicable, _standard, _Triangular
+from .brackets import EPS, MAX_SWEEPS, Bracket, NotApplicable, _standard, _Triangular
 
 __all__ = ["pseudospectral_abscissa", "sigma_min_grid"]
 
