@@ -7,8 +7,13 @@ from __future__ import annotations
 __all__ = ["MAX_NESTING", "MAX_VALUES", "MAX_INT_DIGITS", "FLOAT_MAX", "int_problem",
            "DENSE_COPIES", "MAX_SPARSE_STATES", "physical_memory", "memory_budget",
            "dense_state_limit", "sparse_entry_limit",
-           "int_value"]
+           "int_value", "MAX_MATRIX_FILE_BYTES", "MAX_MATRIX_ENTRIES"]
 
+#: Largest referenced matrix file read, in bytes (a dense 4000×4000 float64 matrix is 128 MB).
+MAX_MATRIX_FILE_BYTES = 256 * 1024 * 1024
+#: Most entries a referenced matrix may hold: the largest state matrix a model may have
+#: (model.MAX_STATES squared). Checked from file headers before any data is read.
+MAX_MATRIX_ENTRIES = 4000 * 4000
 #: Deepest nesting of lists and mappings accepted; parsers recurse, so this bounds the stack.
 MAX_NESTING = 64
 #: Most values a YAML document may expand to through aliases (stops "billion laughs" files).

@@ -16,7 +16,9 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any, Callable, Mapping, Sequence
 
 from ..errors import ModelError
-from .matrixfiles import MAX_MATRIX_ENTRIES, _read_mat, _read_npz, load_reference
+from .limits import MAX_MATRIX_ENTRIES
+from .matrix_archives import _read_mat, _read_npz
+from .matrixfiles import load_reference
 
 if TYPE_CHECKING:  # pragma: no cover
     import numpy as np
