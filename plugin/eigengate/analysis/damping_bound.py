@@ -111,4 +111,7 @@ def proportional_damping_bound(M: Any, D: Any, K: Any) -> tuple[float, float, fl
     lo_m, hi_m = gershgorin(M)
     w_lo = math.sqrt(max(lo_k, 0.0) / hi_m) * (1.0 - 8.0 * _U) if hi_m > 0.0 else 0.0
     w_hi = math.sqrt(hi_k / lo_m) * (1.0 + 8.0 * _U) if lo_m > 0.0 else math.inf
-    return _minimum(alpha, beta, w_lo, w_hi), alpha, beta
+    zeta = _minimum(alpha, beta, w_lo, w_hi)
+    # 0 when one term's range end is unproven (a stiffness-only fit with Gershgorin's lower
+    # bound of K at or below 0, a mass-only fit with no upper bound): nothing proven, no claim
+    return (zeta, alpha, beta) if zeta > 0.0 else None
