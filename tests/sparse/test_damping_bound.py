@@ -73,10 +73,8 @@ def test_no_bound_when_d_is_not_positive_semidefinite_beyond_the_fit():
     assert proportional_damping_bound(M, (D + bump).tocsr(), K) is None
 
 
-@settings(max_examples=60, deadline=None)
-@given(st.integers(2, 12), st.integers(0, 2**32 - 1))
-def test_bound_never_exceeds_the_true_smallest_damping_ratio(n, seed):
-    # random symmetric positive definite M, K and D = αM + βK + (PSD remainder)
+def random_model(n, seed):
+    """Random symmetric positive definite M, K and D = αM + βK + (PSD remainder)."""
     rng = np.random.default_rng(seed)
 
     def spd(scale):
@@ -87,6 +85,13 @@ def test_bound_never_exceeds_the_true_smallest_damping_ratio(n, seed):
     R = rng.normal(size=(n, 2))
     alpha, beta = rng.uniform(0.0, 0.3, size=2)
     D = alpha * M + beta * K + 0.05 * R @ R.T
+    return M, D, K
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.integers(2, 12), st.integers(0, 2**32 - 1))
+def test_bound_never_exceeds_the_true_smallest_damping_ratio(n, seed):
+    M, D, K = random_model(n, seed)
     got = proportional_damping_bound(*(sp.csr_matrix(X) for X in (M, D, K)))
     if got is None:  # about half the cases: no fraction of the fit leaves D definite enough
         return
@@ -122,17 +127,7 @@ def test_no_claim_when_the_range_end_a_one_term_fit_needs_is_unproven():
     # found by the property test above (n = 2, seed 632577238): the better fit is stiffness
     # only (α = 0), and Gershgorin's rows give K a lower bound ≤ 0, so α/(2ω) + βω/2 over the
     # proven range has minimum 0: no bound is claimed rather than a bound of 0
-    rng = np.random.default_rng(632577238)
-    n = 2
-
-    def spd(scale):
-        X = rng.normal(size=(n, n))
-        return X @ X.T + scale * np.eye(n)
-
-    M, K = spd(1.0), spd(0.5)
-    R = rng.normal(size=(n, 2))
-    alpha, beta = rng.uniform(0.0, 0.3, size=2)
-    D = alpha * M + beta * K + 0.05 * R @ R.T
+    M, D, K = random_model(2, 632577238)
     got = proportional_damping_bound(*(sp.csr_matrix(X) for X in (M, D, K)))
     assert got is None
     assert true_min_damping(M, D, K) > 0.0  # scipy: the model is damped; only the proof fails
