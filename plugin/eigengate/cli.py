@@ -381,9 +381,6 @@ def _use_color(choice: str) -> bool:
 
 
 def _check(args) -> int:
-    from .scan.engine import FileResult
-    from .scan.runner import scan, terminal_progress
-
     outputs = _outputs(args.output)
     if not args.changed_files:  # a deleted file is a change like any other
         _missing(args.paths)
@@ -398,9 +395,20 @@ def _check(args) -> int:
         paths, complete = list(scope.paths), scope.everything
         if not paths:
             return Exit.CLEAN  # nothing the commit changed is used by a model
+    memo = _memo(args, outputs, config, paths, complete)
+    if memo is not None:
+        again = memo.replay(paths, filter_named=args.only_model_files)
+        if again is not None:  # nothing changed since a check recorded its report
+            out, err, status = again
+            sys.stdout.write(out)
+            sys.stderr.write(err)
+            return status
+    from .scan.engine import FileResult
+    from .scan.runner import scan, terminal_progress
+
     result = scan(paths, config, jobs=args.jobs, use_cache=not args.no_cache,
                   progress=terminal_progress(), filter_named=args.only_model_files,
-                  complete=complete, cluster=_cluster(args, config))
+                  complete=complete, cluster=_cluster(args, config), memo=memo)
     files = list(result.files)
     notes = []
     failed = result.failed
@@ -440,9 +448,10 @@ def _check(args) -> int:
     if result.policy:
         files.append(FileResult(source=config.source or "pyproject.toml",
                                 findings=result.policy))
-    if not files:
-        print("eigengate: no model files found (configure [tool.eigengate] include, or name "
-              "the files; a model file has a model_format key)", file=sys.stderr)
+    err = "" if files else ("eigengate: no model files found (configure [tool.eigengate] "
+                            "include, or name the files; a model file has a model_format "
+                            "key)\n")
+    sys.stderr.write(err)
     from .reports.figures import ReportDependencyError
 
     try:
@@ -461,10 +470,31 @@ def _check(args) -> int:
                       baseline_poles=poles, accept=accept_cmd, improvements=improvements)
     except ReportDependencyError as exc:
         raise UsageError(str(exc)) from None
-    sys.stdout.write(text)
-    for note in notes:
-        print(note, file=sys.stdout if args.format == "text" else sys.stderr)
-    return Exit.FINDINGS if failed else Exit.CLEAN
+    said = "".join(f"{note}\n" for note in notes)  # with the text report, or on stderr
+    out = text + said if args.format == "text" else text
+    sys.stdout.write(out)
+    if args.format != "text":
+        sys.stderr.write(said)
+        err += said
+    status = Exit.FINDINGS if failed else Exit.CLEAN
+    if memo is not None:
+        memo.record(out, err, status)
+    return status
+
+
+def _memo(args, outputs, config, paths, complete):
+    """The report memo of a check that writes nothing but its report (None for one that
+    writes files, bypasses the cache, or looks at git: those always run in full)."""
+    if args.no_cache or outputs or args.pole_maps or args.figures or args.changed_files \
+            or args.against is not None:
+        return None
+    from .scan.report_memo import ReportMemo
+
+    request = {"format": args.format, "quiet": args.quiet, "color": _use_color(args.color),
+               "paths": [os.fspath(p) for p in paths], "complete": complete,
+               "named": list(args.paths), "config": args.config, "cwd": os.getcwd(),
+               "only_model_files": args.only_model_files, "no_baseline": args.no_baseline}
+    return ReportMemo(config, request)
 
 
 def _cluster_error(exc: BaseException) -> bool:

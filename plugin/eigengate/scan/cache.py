@@ -38,7 +38,7 @@ from .summary import summary_of
 
 __all__ = ["ResultCache", "Pack", "PackBlobs", "RawBlobs", "CACHE_DIR", "read_pack", "write_pack"]
 
-CACHE_DIR = ".eigengate-cache"
+from .cache_format import CACHE_DIR  # noqa: E402 (re-exported)
 _README = """\
 This folder is eigengate's result cache. It is safe to delete at any time; eigengate
 rebuilds it. Each entry is keyed by the hash of a model file's bytes, the files it references,
@@ -269,7 +269,7 @@ class ResultCache:
 
     def __init__(self, root: Path, config_digest: str, *, folder: Path | None = None) -> None:
         from ..version import __version__
-        from .serial import FORMAT
+        from .cache_format import FORMAT
 
         self.root = Path(root)
         self.folder = Path(folder) if folder is not None else self.root / CACHE_DIR
@@ -322,6 +322,29 @@ class ResultCache:
             self._entries()
             if self._tables[table].get(rel) != row:  # only what is new makes a save
                 self._noted[table][rel] = row
+
+    def status_row(self, table: str, rel: str) -> list | None:
+        """The status record ``[size, mtime, ctime, inode, value]`` of ``rel`` in ``table``
+        ("files", "refs", "sniff") as the next save writes it, or None."""
+        self._entries()
+        row = self._noted[table].get(rel) or self._tables[table].get(rel)
+        return row if type(row) is list and len(row) == 5 and type(row[4]) is str else None
+
+    def status_table(self, table: str) -> dict[str, list]:
+        """Every status record of ``table`` as the next save writes it."""
+        self._entries()
+        return {rel: row for rel, row in {**self._tables[table], **self._noted[table]}.items()
+                if type(row) is list and len(row) == 5 and type(row[4]) is str}
+
+    def entry_refs(self, key: str) -> dict[str, str] | None:
+        """The referenced files of entry ``key`` with their hashes (made or used in this
+        run), or None when the next save does not hold it."""
+        new = self._new.get(key)
+        if new is not None:
+            return dict(new[0]["refs"])
+        entry = self._entries().get(key) if key in self._used else None
+        refs = entry.get("refs") if isinstance(entry, dict) else None
+        return dict(refs) if isinstance(refs, dict) else None
 
     def known_key(self, rel: str, st: os.stat_result) -> str | None:
         """The key of model file ``rel`` when its status is the one recorded with it."""

@@ -17,6 +17,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Callable, Sequence
 
+from .cache_format import cache_name
 from .config import Config
 from .discovery import find_model_files
 from .engine import (FileResult, analyse_file, file_result, policy_findings,
@@ -61,12 +62,13 @@ def default_jobs() -> int:
 def scan(paths: Sequence[str | Path], config: Config, *, jobs: int | None = None,
          use_cache: bool = True, progress: Callable[[int, int], None] | None = None,
          on=None, filter_named: bool = False, complete: bool | None = None,
-         cluster: str | None = None) -> Scan:
+         cluster: str | None = None, memo=None) -> Scan:
     """Check every model file below ``paths`` under ``config``. ``complete`` says the run
     covers the whole repository (policy waivers are judged unused only within what was
     checked); None: when one of ``paths`` is the configuration root. ``cluster``: the
     address of a Dask scheduler whose workers analyse the files the cache cannot serve
-    (:mod:`eigengate.scan.cluster`) instead of ``jobs`` local processes."""
+    (:mod:`eigengate.scan.cluster`) instead of ``jobs`` local processes. ``memo``: a
+    :class:`~eigengate.scan.report_memo.ReportMemo` shown what the scan saw."""
     from ..rules.waivers import today
 
     if complete is None:
@@ -75,7 +77,7 @@ def scan(paths: Sequence[str | Path], config: Config, *, jobs: int | None = None
     with _gc_paused():
         return _scan(paths, config, jobs=jobs, use_cache=use_cache, progress=progress,
                      on=on or today(), filter_named=filter_named, complete=complete,
-                     cluster=cluster)
+                     cluster=cluster, memo=memo)
 
 
 @contextlib.contextmanager
@@ -97,7 +99,7 @@ def _gc_paused():
 
 
 def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
-          complete, cluster=None) -> Scan:
+          complete, cluster=None, memo=None) -> Scan:
     from .serial import results_to_data
     from .cache import RawBlobs, ResultCache
     from .summary import DAMAGE, results_from_summary, summary_of
@@ -119,6 +121,7 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
     todo: list[tuple[int, str, str | None]] = []
     names = [f.rel for f in files]  # what a file that no cluster worker analysed is called
     hits = 0
+    keys: list[str | None] = [None] * len(files)
     for i, f in enumerate(files):
         files[i] = None  # type: ignore[call-overload]  # its bytes are not kept past here
         key = None
@@ -126,6 +129,7 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
             key = known.get(f.rel) if f.content is None else None
             if key is None:
                 key = cache.file_key(cache_name(config, f.rel), f.stat, f.path, f.content)
+            keys[i] = key
             if key is not None:
                 hit = cache.get(key)
                 if hit is not None:
@@ -179,6 +183,8 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
             local(item)
             step(1)
     if cache is not None:
+        if memo is not None:
+            memo.observe(names, keys, unselected, cache)
         cache.save()
     out = tuple(file_result(s, r, e, config, on) for s, r, e in slots)  # type: ignore[misc]
     policy = (unselected_findings(config, sorted(unselected))
@@ -207,13 +213,6 @@ def _reload(path: str, key: str, config: Config, cache) -> Callable[[], tuple]:
         return results
 
     return again
-
-
-def cache_name(config: Config, rel: str) -> str:
-    """A model file's name in the cache: its path, qualified by the digest of the nested
-    policy that judges it (so adding, changing or removing one is never served stale)."""
-    policy = config.policy_for(rel)
-    return rel if policy is config else f"{rel}\0{policy.digest}"
 
 
 def terminal_progress(stream=None) -> Callable[[int, int], None] | None:

@@ -35,7 +35,7 @@ if TYPE_CHECKING:  # pragma: no cover - a warm re-check that builds no mode impo
 __all__ = ["results_to_data", "results_from_data", "CachedSpectrum", "CachedModel", "Blobs",
            "FORMAT", "fill_model", "result_parts", "findings_from"]
 
-FORMAT = 10  # 8: mode names; 9: results carry their pictures (plot data); 10: summaries
+from .cache_format import FORMAT  # noqa: E402 (re-exported)
 
 
 class Blobs:

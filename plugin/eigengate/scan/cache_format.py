@@ -1,0 +1,22 @@
+"""What names the result cache's files: its folder, its format number, a model file's name
+in it. Kept apart from the cache itself so that a check answered by the report memo
+(:mod:`eigengate.scan.report_memo`) imports nothing more."""
+
+from __future__ import annotations
+
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:  # pragma: no cover
+    from .config import Config
+
+__all__ = ["CACHE_DIR", "FORMAT", "cache_name"]
+
+CACHE_DIR = ".eigengate-cache"
+FORMAT = 10  # 8: mode names; 9: results carry their pictures (plot data); 10: summaries
+
+
+def cache_name(config: "Config", rel: str) -> str:
+    """A model file's name in the cache: its path, qualified by the digest of the nested
+    policy that judges it (so adding, changing or removing one is never served stale)."""
+    policy = config.policy_for(rel)
+    return rel if policy is config else f"{rel}\0{policy.digest}"

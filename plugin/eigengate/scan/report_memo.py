@@ -1,0 +1,264 @@
+"""The report memo: a check of an unchanged repository answered by the report it gave last time.
+
+A check's report is a function of its inputs alone (the same input gives the same bytes):
+the command line, the working folder, the date waivers are judged on, the policies, the
+baseline files, and the bytes of every model file and every file it references. After a
+check that the result cache could record whole, the memo keeps, next to the cache pack, the
+status records the cache kept for those files (size, modification and change times, inode:
+recorded only when the file had not changed for two seconds before that check began) with
+the report's text, the messages written to standard error and the exit status, under a hash
+of all those inputs.
+
+The next check asks first: it loads the configuration, discovers the model files as usual
+(nested policies included), and takes each file's key from its status record, each
+referenced file's hash from its status record, and each non-model file's "no model_format"
+answer from its record. When every one of them is answered by a record and the hash of the
+inputs has a report, that report is written and nothing is read, parsed or analysed (numpy
+is not even imported). Anything unanswered (a new, changed, touched or racy file, another
+policy, another date, another baseline, other options) is a miss: the check runs as
+usual, and records the memo afresh. A memo that fails its checksum, is too large, or is
+not what it should be, is ignored and rewritten, never trusted.
+
+Only checks that write nothing but their report take part: ``--no-cache``, ``--output``,
+``--pole-maps``, ``--figures``, ``--changed-files`` and ``--against`` always run in full.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+from pathlib import Path
+from typing import TYPE_CHECKING, Any, Sequence
+
+from .cache_format import CACHE_DIR, FORMAT, cache_name as _name
+
+if TYPE_CHECKING:  # pragma: no cover
+    from .cache import ResultCache
+    from .config import Config
+
+__all__ = ["ReportMemo"]
+
+#: Version of the memo's own layout (inside a cache format).
+MEMO_VERSION = 1
+#: A memo larger than this is not read (it holds status records and a few reports).
+MAX_BYTES = 64 << 20
+#: Reports kept per configuration (for as many different command lines or dates).
+KEEP = 8
+_MAGIC = b"eigengate report memo\n"
+
+
+class _Miss(Exception):
+    """A question the memo's records do not answer: the check runs in full."""
+
+
+def _hasher():
+    try:  # the interpreter's own BLAKE2: no OpenSSL to load for a no-change check
+        from _blake2 import blake2b
+    except ImportError:  # pragma: no cover - an interpreter without it
+        from hashlib import blake2b
+    return blake2b(digest_size=20)
+
+
+def _checksum(payload: bytes) -> bytes:
+    h = _hasher()
+    h.update(payload)
+    return h.hexdigest().encode()
+
+
+def _sig(st: os.stat_result) -> list[int]:
+    return [st.st_size, st.st_mtime_ns, st.st_ctime_ns, st.st_ino]
+
+
+def _row_value(row: Any, st: os.stat_result | None) -> str | None:
+    """The value of a status record ``[size, mtime, ctime, inode, value]`` when ``st``
+    matches it, else None."""
+    if st is not None and type(row) is list and len(row) == 5 and row[0] == st.st_size \
+            and row[1] == st.st_mtime_ns and row[2] == st.st_ctime_ns \
+            and row[3] == st.st_ino and type(row[4]) is str:
+        return row[4]
+    return None
+
+
+class ReportMemo:
+    """The memo of one configuration, for one check's command line (``request``: what of the
+    command line and its surroundings shapes the report)."""
+
+    def __init__(self, config: "Config", request: dict[str, Any]) -> None:
+        from ..version import __version__
+
+        self.config = config
+        self.request = request
+        salt = (f"eigengate {__version__}\0cache {FORMAT}\0memo {MEMO_VERSION}\0"
+                f"config {config.digest}\0")
+        self.salt = salt
+        h = _hasher()
+        h.update(salt.encode())
+        self.path = Path(config.root) / CACHE_DIR / f"v{FORMAT}" / f"{h.hexdigest()[:24]}.memo"
+        self._seen: dict[str, Any] | None = None  # what observe() saw: written by record()
+
+    # ------------------------------------------------------------------ reading
+    def _read(self) -> dict[str, Any] | None:
+        try:
+            with open(self.path, "rb") as fh:
+                if os.fstat(fh.fileno()).st_size > MAX_BYTES:
+                    return None
+                raw = fh.read(MAX_BYTES + 1)
+        except OSError:
+            return None
+        head, sep, payload = raw[len(_MAGIC):].partition(b"\n")
+        if not raw.startswith(_MAGIC) or not sep or head != _checksum(payload):
+            return None
+        try:
+            data = json.loads(payload)
+        except ValueError:
+            return None
+        if type(data) is not dict or data.get("salt") != self.salt:
+            return None
+        for name in ("files", "refs", "sniff", "refs_of"):
+            if type(data.get(name)) is not dict:
+                return None
+        if type(data.get("outputs")) is not list:
+            return None
+        return data
+
+    def replay(self, paths: Sequence[str | Path], *, filter_named: bool = False
+               ) -> tuple[str, str, int] | None:
+        """``(standard output, standard error, exit status)`` of the last check of these
+        inputs, when every input is answered by a status record; None otherwise."""
+        data = self._read()
+        if data is None:
+            return None
+        files, sniff = data["files"], data["sniff"]
+
+        class Records:
+            @staticmethod
+            def sniffed(rel: str, st: os.stat_result) -> bool | None:
+                said = _row_value(sniff.get(rel), st)
+                if said is None:
+                    raise _Miss
+                return said == "model"
+
+            @staticmethod
+            def note_sniff(rel: str, st, is_model: bool) -> None:
+                raise _Miss
+
+        from .discovery import find_model_files
+
+        unselected: list[str] = []
+        try:
+            found = find_model_files(
+                list(paths), self.config, filter_named=filter_named, unselected=unselected,
+                sniffs=Records(), known=lambda rel, st: _row_value(files.get(_name(self.config, rel)), st)
+                is not None)
+            keys = []
+            for f in found:
+                key = None if f.content is not None else \
+                    _row_value(files.get(_name(self.config, f.rel)), f.stat)
+                if key is None:
+                    raise _Miss  # not recorded (new, changed, racy), or not readable
+                keys.append(key)
+            refs = {}
+            for key in keys:
+                names = data["refs_of"].get(key)
+                if type(names) is not list:
+                    raise _Miss
+                for rel in names:
+                    if rel not in refs:
+                        try:
+                            st = os.stat(Path(self.config.root) / rel)
+                        except (OSError, TypeError, ValueError):
+                            raise _Miss from None
+                        digest = _row_value(data["refs"].get(rel), st)
+                        if digest is None:
+                            raise _Miss
+                        refs[rel] = digest
+        except _Miss:
+            return None
+        digest = self._digest([f.rel for f in found], keys, unselected, refs)
+        for row in data["outputs"]:
+            if type(row) is list and len(row) == 4 and row[0] == digest \
+                    and type(row[1]) is str and type(row[2]) is str and type(row[3]) is int:
+                return row[1], row[2], row[3]
+        return None
+
+    def _digest(self, rels: list[str], keys: list[str], unselected: list[str],
+                refs: dict[str, str]) -> str:
+        from ..rules.waivers import today
+
+        baselines = []
+        for policy in self.config.policies():
+            try:
+                st = os.stat(policy.baseline_path)
+                baselines.append([policy.base, policy.digest, _sig(st)])
+            except OSError:
+                baselines.append([policy.base, policy.digest, None])
+        h = _hasher()
+        h.update(json.dumps([self.request, today().isoformat(), rels, keys, unselected,
+                             sorted(refs.items()), baselines],
+                            separators=(",", ":")).encode())
+        return h.hexdigest()
+
+    # ------------------------------------------------------------------ recording
+    def observe(self, rels: list[str], keys: list[str | None], unselected: list[str],
+                cache: "ResultCache") -> None:
+        """What a scan saw (called by it before the cache is saved): the model files found,
+        their keys, the unselected model files, and the cache's status records. Nothing is
+        recorded when an input has no status record (it changed too recently to trust one)
+        or no result."""
+        self._seen = None
+        files: dict[str, list] = {}
+        refs_of: dict[str, list[str]] = {}
+        refs: dict[str, list] = {}
+        names = [_name(self.config, rel) for rel in rels]
+        for name, key in zip(names, keys):
+            row = cache.status_row("files", name)
+            entry_refs = cache.entry_refs(key) if key is not None else None
+            if row is None or row[4] != key or entry_refs is None:
+                return
+            files[name] = row
+            refs_of[key] = sorted(entry_refs)  # type: ignore[index]
+            for rel, digest in entry_refs.items():
+                ref_row = cache.status_row("refs", rel)
+                if ref_row is None or ref_row[4] != digest:
+                    return
+                refs[rel] = ref_row
+        ref_hashes = {rel: row[4] for rel, row in refs.items()}
+        self._seen = {"files": files, "refs": refs, "refs_of": refs_of,
+                      "sniff": cache.status_table("sniff"),
+                      "digest": self._digest(list(rels), keys, unselected,  # type: ignore[arg-type]
+                                             ref_hashes)}
+
+    def record(self, out: str, err: str, status: int) -> None:
+        """Keep the report of the check whose scan :meth:`observe` saw; failures to write
+        are ignored (the memo is optional, and a half-written one is never visible)."""
+        seen = self._seen
+        if seen is None:
+            return
+        old = self._read()
+        outputs = [[seen["digest"], out, err, int(status)]]
+        if old is not None:
+            outputs += [row for row in old["outputs"]
+                        if type(row) is list and row[:1] != [seen["digest"]]][:KEEP - 1]
+        payload = json.dumps({"salt": self.salt, "files": seen["files"], "refs": seen["refs"],
+                              "refs_of": seen["refs_of"], "sniff": seen["sniff"],
+                              "outputs": outputs}, separators=(",", ":")).encode()
+        raw = _MAGIC + _checksum(payload) + b"\n" + payload
+        if len(raw) > MAX_BYTES:
+            return
+        import tempfile
+
+        try:
+            self.path.parent.mkdir(parents=True, exist_ok=True)
+            fd, tmp = tempfile.mkstemp(prefix=".tmp-", dir=self.path.parent)
+            try:
+                with os.fdopen(fd, "wb") as fh:
+                    fh.write(raw)
+                os.replace(tmp, self.path)
+            except BaseException:
+                try:
+                    os.unlink(tmp)
+                except OSError:
+                    pass
+                raise
+        except OSError:
+            return

@@ -1,0 +1,205 @@
+"""The report memo: a check of an unchanged repository prints the report the last check of the
+same inputs printed, and any change of an input (a model file's bytes or status, a matrix
+file, a file that may become a model file, a policy, the baseline, the date, the command
+line) runs the check in full."""
+
+import os
+import sys
+import textwrap
+import time
+
+import pytest
+from support import FIXED_TODAY, cli_env, oscillator, run_main, write
+
+import eigengate.scan.cache as cache_mod
+import eigengate.scan.runner as runner_mod
+
+
+@pytest.fixture
+def repo(tmp_path, monkeypatch):
+    monkeypatch.setattr(cache_mod, "_RACY_NS", 0)  # the files were written just now
+    (tmp_path / ".git").mkdir()
+    write(tmp_path / "pyproject.toml", "[tool.eigengate.requirements]\nstable = true\n")
+    write(tmp_path / "models" / "arm.yaml", oscillator("arm"))  # fails min_damping 0.3
+    write(tmp_path / "models" / "mast.yaml", oscillator("mast", 0.05))  # ζ = 0.1: passes
+    # A = diag(-2, -3) read from a matrix file: eigenvalues -2 and -3 (a stable node)
+    write(tmp_path / "models" / "pump.yaml", "model_format: 1\nname: pump\n"
+          "plant: {A: {file: pump_a.csv}}\n")
+    write(tmp_path / "models" / "pump_a.csv", "-2, 0\n0, -3\n")
+    write(tmp_path / "models" / "notes.yaml", "title: not a model\n")
+    return tmp_path
+
+
+@pytest.fixture
+def scans(monkeypatch):
+    """How many times a check ran its scan (a check answered by the memo runs none)."""
+    calls = []
+    real = runner_mod.scan
+
+    def counted(*args, **kwargs):
+        calls.append(1)
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(runner_mod, "scan", counted)
+    return calls
+
+
+def _check(repo, *args, env=None):
+    r = run_main("check", *args, str(repo), cwd=repo, env=env)
+    return r.returncode, r.stdout, r.stderr
+
+
+def _fresh(repo, *args, env=None):
+    """The same check with the cache (and so the memo) bypassed: what the memo must match."""
+    return _check(repo, "--no-cache", *args, env=env)
+
+
+def _memos(repo):
+    return sorted((repo / ".eigengate-cache").rglob("*.memo"))
+
+
+def test_an_unchanged_repository_is_answered_by_the_last_report(repo, scans):
+    first = _check(repo)
+    assert len(scans) == 1 and len(_memos(repo)) == 1
+    assert first[0] == 1 and "arm" in first[1]  # a failing model: the status is kept too
+    again = _check(repo)
+    assert len(scans) == 1  # no scan: the report came from the memo
+    assert again == first == _fresh(repo)
+
+
+def test_other_options_have_their_own_reports(repo, scans):
+    text, as_json = _check(repo), _check(repo, "--format", "json")
+    assert len(scans) == 2 and text[1] != as_json[1]
+    assert _check(repo) == text and _check(repo, "--format", "json") == as_json
+    assert _check(repo, "-q") == _fresh(repo, "-q")
+    assert len(scans) == 4  # the quiet report was not recorded before (and --no-cache scans)
+
+
+def _edit_model(repo):
+    path = repo / "models" / "mast.yaml"
+    path.write_text(path.read_text().replace("-0.4", "-4.0"))  # ζ = 4/(2·2) = 1
+
+
+def _touch_model(repo):
+    path = repo / "models" / "mast.yaml"
+    st = path.stat()
+    os.utime(path, ns=(st.st_atime_ns, st.st_mtime_ns - 1_000_000_000))  # same bytes
+
+
+def _edit_matrix(repo):
+    write(repo / "models" / "pump_a.csv", "2, 0\n0, -3\n")  # eigenvalue 2: unstable
+
+
+def _new_model(repo):
+    write(repo / "models" / "boom.yaml", oscillator("boom"))
+
+
+def _remove_model(repo):
+    (repo / "models" / "arm.yaml").unlink()
+
+
+def _plain_file_becomes_model(repo):
+    write(repo / "models" / "notes.yaml", oscillator("notes"))
+
+
+def _policy_changes(repo):
+    write(repo / "pyproject.toml", "[tool.eigengate.requirements]\nstable = true\n"
+          "min_damping = 0.2\n")
+
+
+def _nested_policy(repo):
+    write(repo / "models" / "eigengate.toml", "[requirements]\nmin_damping = 0.5\n")
+
+
+def _baseline_accepted(repo):
+    assert run_main("baseline", "accept", str(repo), cwd=repo).returncode in (0, 1)
+
+
+@pytest.mark.parametrize("change", [
+    _edit_model, _touch_model, _edit_matrix, _new_model, _remove_model,
+    _plain_file_becomes_model, _policy_changes, _nested_policy, _baseline_accepted])
+def test_any_change_of_an_input_runs_the_check_in_full(repo, scans, change):
+    before = _check(repo)
+    change(repo)
+    ran = len(scans)  # accepting a baseline scans too
+    after = _check(repo)
+    assert len(scans) == ran + 1, "the memo answered a check whose inputs changed"
+    assert _check(repo) == after and len(scans) == ran + 1  # and is recorded in turn
+    assert after == _fresh(repo)
+    if change is not _touch_model:
+        assert after[1] != before[1]  # the change shows in the report
+
+
+def test_another_date_is_another_check(repo, scans):
+    write(repo / "models" / "arm.yaml", oscillator("arm") + textwrap.dedent("""\
+        waivers:
+          - rule: EG103
+            reason: retune planned for the next release
+            expires: 2026-12-31
+        """))
+    _check(repo)
+    later = {"EIGENGATE_TODAY": "2027-01-05"}  # the waiver has expired
+    after = _check(repo, env=later)
+    assert len(scans) == 2 and "expired" in after[1]
+    assert _check(repo, env={"EIGENGATE_TODAY": FIXED_TODAY})[1] != after[1]
+    assert len(scans) == 2  # both dates' reports are kept
+    assert after == _fresh(repo, env=later)
+
+
+@pytest.mark.parametrize("damage", [
+    lambda raw: raw[:-10],                                   # cut short
+    lambda raw: raw[:-50] + bytes([raw[-50] ^ 1]) + raw[-49:],  # a bit flipped
+    lambda raw: b"",
+    lambda raw: raw[:22] + b"0" * 40 + raw[62:],             # another checksum
+])
+def test_a_damaged_memo_is_ignored_and_written_again(repo, scans, damage):
+    first = _check(repo)
+    (memo,) = _memos(repo)
+    memo.write_bytes(damage(memo.read_bytes()))
+    assert _check(repo) == first and len(scans) == 2
+    assert _check(repo) == first and len(scans) == 2  # written again whole
+
+
+def test_each_configuration_has_its_own_memo(repo, scans):
+    first = _check(repo)
+    _policy_changes(repo)
+    second = _check(repo)
+    assert len(scans) == 2 and second != first and len(_memos(repo)) == 2
+    write(repo / "pyproject.toml", "[tool.eigengate.requirements]\nstable = true\n")
+    assert _check(repo) == first and len(scans) == 2  # the first one's memo answers again
+
+
+def test_files_changed_within_the_racy_window_record_no_memo(repo, scans, monkeypatch):
+    monkeypatch.setattr(cache_mod, "_RACY_NS", 10**18)  # every file changed "just now"
+    first = _check(repo)
+    assert _memos(repo) == []
+    assert _check(repo) == first and len(scans) == 2
+
+
+@pytest.mark.parametrize("args", [("--no-cache",), ("--output", "json:{repo}/r.json"),
+                                  ("--figures", "{repo}/figs")])
+def test_checks_that_write_files_or_bypass_the_cache_always_run(repo, scans, args):
+    args = [a.format(repo=repo) for a in args]
+    _check(repo, *args)
+    _check(repo, *args)
+    assert len(scans) == 2
+
+
+def test_a_no_change_check_imports_neither_numpy_nor_scipy(tmp_path):
+    # a whole process, as a user runs it; the files must be older than the 2 s racy window
+    # of the cache's status records before the first check records them
+    import subprocess
+
+    (tmp_path / ".git").mkdir()
+    write(tmp_path / "pyproject.toml", "[tool.eigengate.requirements]\nstable = true\n")
+    write(tmp_path / "models" / "arm.yaml", oscillator("arm"))
+    time.sleep(2.1)
+    probe = ("import sys\nfrom eigengate.cli import main\nstatus = main(sys.argv[1:])\n"
+             "heavy = sorted({m.split('.')[0] for m in sys.modules} & {'numpy', 'scipy', 'yaml'})\n"
+             "sys.stderr.write(f'\\nheavy={heavy} status={status}\\n')\n")
+    runs = [subprocess.run([sys.executable, "-c", probe, "check", str(tmp_path)],
+                           capture_output=True, text=True, cwd=tmp_path, env=cli_env())
+            for _ in range(2)]
+    assert "heavy=['numpy'" in runs[0].stderr and "status=1" in runs[0].stderr
+    assert "heavy=[] status=1" in runs[1].stderr
+    assert runs[1].stdout == runs[0].stdout and "arm" in runs[0].stdout
