@@ -17,6 +17,7 @@ from typing import TYPE_CHECKING, Any, Callable, Iterable, Mapping, Sequence
 
 from .patterns import glob_match
 from ..errors import ModelError
+from .dates import today  # noqa: F401 (re-exported)
 
 if TYPE_CHECKING:  # pragma: no cover
     from .findings import Finding
@@ -67,19 +68,6 @@ class Waiver:
             return f"no expiry ({self.origin})"
         word = "expired on" if self.expired(on) else "until"
         return f"{word} {self.expires.isoformat()} ({self.origin})"
-
-
-def today() -> _dt.date:
-    """The date waivers are judged on: ``EIGENGATE_TODAY`` (YYYY-MM-DD) when set, for
-    reproducible runs and tests, else the local date."""
-    value = os.environ.get("EIGENGATE_TODAY")
-    if value:
-        try:
-            return _dt.date.fromisoformat(value)
-        except ValueError:
-            raise ModelError("EIGENGATE_TODAY", "", f"must be a date YYYY-MM-DD, got {value!r}") \
-                from None
-    return _dt.date.today()
 
 
 def _date(value: Any, source: str, fld: str, line: int | None) -> _dt.date:

@@ -488,14 +488,17 @@ def parse_config(table: Mapping[str, Any], *, root: Path, source: str | None = "
     if table.get("extend") and parent is not None:
         _inherit(kw, parent)
         outer = parent.digest
-    import hashlib
     import json
+
+    from .cache_format import hasher
 
     # the rule table is part of the key: results cached before a rule was added are not reused;
     # where the files are analysed is not (a cluster's results are a local run's)
     judged = {k: v for k, v in table.items() if k != "cluster"}
-    kw["digest"] = hashlib.sha256(json.dumps([judged, sorted(RULES), base, outer],
-                                             sort_keys=True, default=str).encode()).hexdigest()
+    digest = hasher()
+    digest.update(json.dumps([judged, sorted(RULES), base, outer], sort_keys=True,
+                             default=str).encode())
+    kw["digest"] = digest.hexdigest()
     return Config(root=root, source=source, _folders={} if folders is None else folders, **kw)
 
 

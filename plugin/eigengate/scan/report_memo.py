@@ -30,7 +30,7 @@ import os
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Sequence
 
-from .cache_format import CACHE_DIR, FORMAT, cache_name as _name
+from .cache_format import CACHE_DIR, FORMAT, cache_name as _name, hasher
 
 if TYPE_CHECKING:  # pragma: no cover
     from .cache import ResultCache
@@ -51,16 +51,8 @@ class _Miss(Exception):
     """A question the memo's records do not answer: the check runs in full."""
 
 
-def _hasher():
-    try:  # the interpreter's own BLAKE2: no OpenSSL to load for a no-change check
-        from _blake2 import blake2b
-    except ImportError:  # pragma: no cover - an interpreter without it
-        from hashlib import blake2b
-    return blake2b(digest_size=20)
-
-
 def _checksum(payload: bytes) -> bytes:
-    h = _hasher()
+    h = hasher(20)
     h.update(payload)
     return h.hexdigest().encode()
 
@@ -91,7 +83,7 @@ class ReportMemo:
         salt = (f"eigengate {__version__}\0cache {FORMAT}\0memo {MEMO_VERSION}\0"
                 f"config {config.digest}\0")
         self.salt = salt
-        h = _hasher()
+        h = hasher(20)
         h.update(salt.encode())
         self.path = Path(config.root) / CACHE_DIR / f"v{FORMAT}" / f"{h.hexdigest()[:24]}.memo"
         self._seen: dict[str, Any] | None = None  # what observe() saw: written by record()
@@ -183,16 +175,16 @@ class ReportMemo:
 
     def _digest(self, rels: list[str], keys: list[str], unselected: list[str],
                 refs: dict[str, str]) -> str:
-        from ..rules.waivers import today
+        from ..rules.dates import today
 
-        baselines = []
+        baselines: list[list[Any]] = []
         for policy in self.config.policies():
             try:
                 st = os.stat(policy.baseline_path)
                 baselines.append([policy.base, policy.digest, _sig(st)])
             except OSError:
                 baselines.append([policy.base, policy.digest, None])
-        h = _hasher()
+        h = hasher(20)
         h.update(json.dumps([self.request, today().isoformat(), rels, keys, unselected,
                              sorted(refs.items()), baselines],
                             separators=(",", ":")).encode())
