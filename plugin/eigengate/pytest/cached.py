@@ -28,11 +28,12 @@ if TYPE_CHECKING:  # pragma: no cover
 __all__ = ["CollectCache", "real_relative"]
 
 
-@functools.lru_cache(maxsize=64)
+@functools.lru_cache(maxsize=1 << 16)
 def _real(path: str) -> str:
     """``os.path.realpath(path)``, with the folder's resolution kept (one per folder and
     process): only the file itself is looked at again, which is a link or not. The
-    collector asks this twice of every file (selection, then cache)."""
+    collector asks this twice of every file (selection of all, then the cache of each), so
+    the answers are kept for as many files as a large repository holds."""
     from ..load.loader import real_folder
 
     if not os.path.isabs(path):

@@ -286,16 +286,29 @@ class BaselineRun:
         if self._error is not None:
             raise self._error
         if not self._loaded:
-            from ..baseline.store import BaselineError
             from ..scan.baseline_check import reference_baseline
 
-            try:
+            try:  # (no baseline file: the baseline modules are not even imported)
                 self._baseline = reference_baseline(self.policy)
-            except BaselineError as exc:  # kept, so that every later use says the same
-                self._error = exc
+            except Exception as exc:
+                from ..baseline.store import BaselineError
+
+                if isinstance(exc, BaselineError):  # kept: every later use says the same
+                    self._error = exc
                 raise
             self._loaded = True
         return self._baseline
+
+    def read(self) -> "tuple[Baseline | None, Exception | None]":
+        """``(baseline, None)``, or ``(None, the BaselineError met reading it)``."""
+        try:
+            return self.baseline(), None
+        except Exception as exc:
+            from ..baseline.store import BaselineError  # only now: none without a file
+
+            if not isinstance(exc, BaselineError):
+                raise
+            return None, exc
 
     def _nested_baseline(self, policy: "Config") -> "Baseline | None":
         path = policy.baseline_path

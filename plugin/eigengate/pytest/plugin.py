@@ -213,15 +213,9 @@ def _settings(config: pytest.Config) -> Settings:
 
 def _baseline_or_usage_error(config: pytest.Config, s: Settings) -> None:
     """Read the baseline now (it is kept), so a broken one stops the run as a usage error."""
-    from ..baseline.store import BaselineError
-
-    try:
-        s.baseline.baseline()
-    except BaselineError as exc:
-        message = f"eigengate: {_baseline_error(exc, config)}"
-    else:
-        return
-    raise pytest.UsageError(message)  # outside the except: no "during handling" chain
+    error = s.baseline.read()[1]
+    if error is not None:
+        raise pytest.UsageError(f"eigengate: {_baseline_error(error, config)}")
 
 
 def _baseline_error(exc: Any, config: pytest.Config) -> str:

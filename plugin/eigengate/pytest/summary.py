@@ -87,14 +87,11 @@ class Reporter:
                     terminalreporter.write_line(line)
 
     def _baseline_lines(self) -> list[str]:
-        from ..baseline.store import BaselineError
-
         config, option = self.config, self.config.option
         s = self.settings
-        try:
-            baseline = s.baseline.baseline()
-        except BaselineError as exc:
-            return [f"baseline not read: {self._baseline_error(exc, config)}"]
+        baseline, error = s.baseline.read()
+        if error is not None:
+            return [f"baseline not read: {self._baseline_error(error, config)}"]
         # the paths and eigengate options as given, for the commands the summary prints
         paths = list(config.args) if config.args_source == pytest.Config.ArgsSource.ARGS \
             else []
