@@ -3,12 +3,12 @@ of the repository policy; every bad value is a :class:`~eigengate.errors.ModelEr
 
 from __future__ import annotations
 
-import difflib
 import math
 from typing import Any, Callable, Iterable, Mapping, Sequence
 
 from ..analysis.equilibrium import EQUILIBRIUM_TYPES
 from ..errors import ModelError
+from ..model.formats import suggest
 from .known_modes import KnownMode
 from .requirements import (
     DirectionCounts, EquilibriumType, MaxFrequency, MinDamping, MinDecayRate, NoSaddle,
@@ -36,8 +36,8 @@ def _positive(value: Any, source: str, fld: str, line: int | None, *, allow_zero
 
 def _unknown(key: str, allowed: Iterable[str], source: str, fld: str, line: int | None) -> ModelError:
     allowed = sorted(allowed)
-    close = difflib.get_close_matches(key, allowed, n=1)
-    hint = f"did you mean {close[0]!r}?" if close else "allowed: " + ", ".join(allowed)
+    close = suggest(key, allowed)
+    hint = f"did you mean {close!r}?" if close else "allowed: " + ", ".join(allowed)
     return ModelError(source, fld, f"is not a known field (got {key!r})", line=line, hint=hint)
 
 
@@ -75,10 +75,10 @@ def _stable(value, source, fld, line):
 
 def _equilibrium(value, source, fld, line):
     if value not in EQUILIBRIUM_TYPES:
-        close = difflib.get_close_matches(str(value), EQUILIBRIUM_TYPES, n=1)
+        close = suggest(str(value), EQUILIBRIUM_TYPES)
         raise ModelError(source, fld, f"must be one of {', '.join(EQUILIBRIUM_TYPES)}, got "
                          f"{value!r}", line=line,
-                         hint=f"did you mean {close[0]!r}?" if close else None)
+                         hint=f"did you mean {close!r}?" if close else None)
     return EquilibriumType(value)
 
 
@@ -240,10 +240,10 @@ def parse_known_modes(raw: Any, source: str, prefix: str = "known_modes",
         if states is not None:
             for n in names:
                 if n not in states:
-                    close = difflib.get_close_matches(n, states, n=1)
+                    close = suggest(n, states)
                     raise ModelError(source, f"{fld}.states", f"names no state of the model "
                                      f"(got {n!r})", line=line,
-                                     hint=f"did you mean {close[0]!r}?" if close else None)
+                                     hint=f"did you mean {close!r}?" if close else None)
         reason = item.get("reason", "")
         if not isinstance(reason, str):
             raise ModelError(source, f"{fld}.reason", f"must be text, got {reason!r}", line=line)

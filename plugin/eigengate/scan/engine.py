@@ -112,20 +112,23 @@ def file_result(source: str, results: Sequence[ModelResult], error: ModelError |
 
 
 def analyse_file(path: str | Path, root: str | Path | None = None,
-                 config: "Config | None" = None
+                 config: "Config | None" = None, rel: str | None = None
                  ) -> tuple[str, tuple[ModelResult, ...], ModelError | None, list[str]]:
     """Load and analyse a model file without waivers: (source, results, error, referenced
-    matrix files). The cache stores exactly this."""
+    matrix files). The cache stores exactly this. ``rel``: the file's path relative to the
+    configuration's root, links resolved, when discovery has found it already."""
     from ..load.loader import load_models_with_refs, real_folder
 
     if root is None and config is not None:
         root = config.root
     allow = False
     if config is not None:
-        import os
+        if rel is None:
+            import os
 
-        rel = os.path.relpath(os.path.realpath(path), real_folder(os.fspath(config.root)))
-        allow = config.policy_for(rel.replace(os.sep, "/")).allow_python
+            rel = os.path.relpath(os.path.realpath(path), real_folder(os.fspath(config.root)))
+            rel = rel.replace(os.sep, "/")
+        allow = config.policy_for(rel).allow_python
     try:
         models, refs = load_models_with_refs(path, root=root, allow_python=allow)
         return models[0].source, tuple(analyse_model(m, config) for m in models), None, refs

@@ -148,7 +148,7 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
     jobs = default_jobs() if jobs is None else max(1, jobs)
     def local(item: tuple[int, str, str | None]) -> None:
         i, path, key = item
-        source, results, error, refs = analyse_file(path, config.root, config)
+        source, results, error, refs = analyse_file(path, config.root, config, names[i])
         if cache is not None and key is not None and error is None:
             data, blobs = results_to_data(source, results, error)
             cache.put(key, data, blobs.items, refs)
