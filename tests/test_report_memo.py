@@ -152,12 +152,27 @@ def test_another_date_is_another_check(repo, scans):
     lambda raw: b"",
     lambda raw: raw[:22] + b"0" * 40 + raw[62:],             # another checksum
 ])
-def test_a_damaged_memo_is_ignored_and_written_again(repo, scans, damage):
+@pytest.mark.parametrize("which", ["*.memo", "*.report"])
+def test_a_damaged_memo_is_ignored_and_written_again(repo, scans, damage, which):
     first = _check(repo)
-    (memo,) = _memos(repo)
+    (memo,) = sorted((repo / ".eigengate-cache").rglob(which))
     memo.write_bytes(damage(memo.read_bytes()))
     assert _check(repo) == first and len(scans) == 2
     assert _check(repo) == first and len(scans) == 2  # written again whole
+
+
+def test_the_oldest_reports_give_way(repo, scans, monkeypatch):
+    import eigengate.scan.report_memo as memo_mod
+
+    monkeypatch.setattr(memo_mod, "KEEP", 2)
+    for args in ((), ("-q",), ("--format", "json")):
+        _check(repo, *args)
+    assert len(sorted((repo / ".eigengate-cache").rglob("*.report"))) == 2
+    _check(repo, "--format", "json")
+    _check(repo, "-q")
+    assert len(scans) == 3  # the two latest are answered
+    _check(repo)
+    assert len(scans) == 4  # the first gave way
 
 
 def test_each_configuration_has_its_own_memo(repo, scans):

@@ -40,9 +40,10 @@ __all__ = ["ReportMemo"]
 
 #: Version of the memo's own layout (inside a cache format).
 MEMO_VERSION = 1
-#: A memo larger than this is not read (it holds status records and a few reports).
+#: A memo file larger than this is neither written nor read.
 MAX_BYTES = 64 << 20
-#: Reports kept per configuration (for as many different command lines or dates).
+#: Reports kept per configuration (for as many different command lines or dates), each in
+#: a file of its own beside the memo of status records, read only when its inputs match.
 KEEP = 8
 _MAGIC = b"eigengate report memo\n"
 
@@ -89,27 +90,18 @@ class ReportMemo:
         self._seen: dict[str, Any] | None = None  # what observe() saw: written by record()
 
     # ------------------------------------------------------------------ reading
+    def _report_path(self, digest: str) -> Path:
+        return self.path.with_name(f"{self.path.stem}-{digest[:32]}.report")
+
     def _read(self) -> dict[str, Any] | None:
-        try:
-            with open(self.path, "rb") as fh:
-                if os.fstat(fh.fileno()).st_size > MAX_BYTES:
-                    return None
-                raw = fh.read(MAX_BYTES + 1)
-        except OSError:
-            return None
-        head, sep, payload = raw[len(_MAGIC):].partition(b"\n")
-        if not raw.startswith(_MAGIC) or not sep or head != _checksum(payload):
-            return None
-        try:
-            data = json.loads(payload)
-        except ValueError:
-            return None
+        data = _read_checked(self.path)
         if type(data) is not dict or data.get("salt") != self.salt:
             return None
         for name in ("files", "refs", "sniff", "refs_of"):
             if type(data.get(name)) is not dict:
                 return None
-        if type(data.get("outputs")) is not list:
+        outputs = data.get("outputs")
+        if type(outputs) is not list or not all(type(d) is str for d in outputs):
             return None
         return data
 
@@ -151,7 +143,7 @@ class ReportMemo:
                 keys.append(key)
             refs = {}
             for key in keys:
-                names = data["refs_of"].get(key)
+                names = data["refs_of"].get(key, [])  # recorded only when there are any
                 if type(names) is not list:
                     raise _Miss
                 for rel in names:
@@ -167,10 +159,12 @@ class ReportMemo:
         except _Miss:
             return None
         digest = self._digest([f.rel for f in found], keys, unselected, refs)
-        for row in data["outputs"]:
-            if type(row) is list and len(row) == 4 and row[0] == digest \
-                    and type(row[1]) is str and type(row[2]) is str and type(row[3]) is int:
-                return row[1], row[2], row[3]
+        if digest not in data["outputs"]:
+            return None
+        row = _read_checked(self._report_path(digest))
+        if type(row) is list and len(row) == 4 and row[0] == digest and type(row[1]) is str \
+                and type(row[2]) is str and type(row[3]) is int:
+            return row[1], row[2], row[3]
         return None
 
     def _digest(self, rels: list[str], keys: list[str], unselected: list[str],
@@ -208,7 +202,8 @@ class ReportMemo:
             if row is None or row[4] != key or entry_refs is None:
                 return
             files[name] = row
-            refs_of[key] = sorted(entry_refs)  # type: ignore[index]
+            if entry_refs:
+                refs_of[key] = sorted(entry_refs)  # type: ignore[index]
             for rel, digest in entry_refs.items():
                 ref_row = cache.status_row("refs", rel)
                 if ref_row is None or ref_row[4] != digest:
@@ -226,31 +221,63 @@ class ReportMemo:
         seen = self._seen
         if seen is None:
             return
+        digest = seen["digest"]
+        if not _write_checked(self._report_path(digest), [digest, out, err, int(status)]):
+            return
         old = self._read()
-        outputs = [[seen["digest"], out, err, int(status)]]
-        if old is not None:
-            outputs += [row for row in old["outputs"]
-                        if type(row) is list and row[:1] != [seen["digest"]]][:KEEP - 1]
-        payload = json.dumps({"salt": self.salt, "files": seen["files"], "refs": seen["refs"],
-                              "refs_of": seen["refs_of"], "sniff": seen["sniff"],
-                              "outputs": outputs}, separators=(",", ":")).encode()
-        raw = _MAGIC + _checksum(payload) + b"\n" + payload
-        if len(raw) > MAX_BYTES:
+        listed = [digest] + [d for d in (old["outputs"] if old else []) if d != digest]
+        if not _write_checked(self.path, {
+                "salt": self.salt, "files": seen["files"], "refs": seen["refs"],
+                "refs_of": seen["refs_of"], "sniff": seen["sniff"], "outputs": listed[:KEEP]}):
             return
-        import tempfile
-
-        try:
-            self.path.parent.mkdir(parents=True, exist_ok=True)
-            fd, tmp = tempfile.mkstemp(prefix=".tmp-", dir=self.path.parent)
+        for gone in listed[KEEP:]:  # the reports no longer listed
             try:
-                with os.fdopen(fd, "wb") as fh:
-                    fh.write(raw)
-                os.replace(tmp, self.path)
-            except BaseException:
-                try:
-                    os.unlink(tmp)
-                except OSError:
-                    pass
-                raise
-        except OSError:
-            return
+                os.unlink(self._report_path(gone))
+            except OSError:
+                pass
+
+
+def _read_checked(path: Path) -> Any:
+    """The JSON value of a memo file whose checksum fits, or None (missing, too large,
+    damaged)."""
+    try:
+        with open(path, "rb") as fh:
+            if os.fstat(fh.fileno()).st_size > MAX_BYTES:
+                return None
+            raw = fh.read(MAX_BYTES + 1)
+    except OSError:
+        return None
+    head, sep, payload = raw[len(_MAGIC):].partition(b"\n")
+    if not raw.startswith(_MAGIC) or not sep or head != _checksum(payload):
+        return None
+    try:
+        return json.loads(payload)
+    except ValueError:
+        return None
+
+
+def _write_checked(path: Path, value: Any) -> bool:
+    """Write a memo file atomically (a half-written one is never visible); False when it
+    is too large or cannot be written (the memo is optional)."""
+    payload = json.dumps(value, separators=(",", ":")).encode()
+    raw = _MAGIC + _checksum(payload) + b"\n" + payload
+    if len(raw) > MAX_BYTES:
+        return False
+    import tempfile
+
+    try:
+        path.parent.mkdir(parents=True, exist_ok=True)
+        fd, tmp = tempfile.mkstemp(prefix=".tmp-", dir=path.parent)
+        try:
+            with os.fdopen(fd, "wb") as fh:
+                fh.write(raw)
+            os.replace(tmp, path)
+        except BaseException:
+            try:
+                os.unlink(tmp)
+            except OSError:
+                pass
+            raise
+    except OSError:
+        return False
+    return True
