@@ -202,7 +202,8 @@ def test_checks_that_write_files_or_bypass_the_cache_always_run(repo, scans, arg
 
 def test_a_no_change_check_imports_neither_numpy_nor_scipy(tmp_path):
     # a whole process, as a user runs it; the files must be older than the 2 s racy window
-    # of the cache's status records before the first check records them
+    # of the cache's status records before the first check records them. The policy's
+    # requirements table is not even parsed (the memo needs its digest only).
     import subprocess
 
     (tmp_path / ".git").mkdir()
@@ -210,11 +211,20 @@ def test_a_no_change_check_imports_neither_numpy_nor_scipy(tmp_path):
     write(tmp_path / "models" / "arm.yaml", oscillator("arm"))
     time.sleep(2.1)
     probe = ("import sys\nfrom eigengate.cli import main\nstatus = main(sys.argv[1:])\n"
-             "heavy = sorted({m.split('.')[0] for m in sys.modules} & {'numpy', 'scipy', 'yaml'})\n"
+             "heavy = sorted({m.split('.')[0] for m in sys.modules} & {'numpy', 'scipy', 'yaml'}"
+             " | {m for m in sys.modules if m.startswith('eigengate.rules.requirements')})\n"
              "sys.stderr.write(f'\\nheavy={heavy} status={status}\\n')\n")
     runs = [subprocess.run([sys.executable, "-c", probe, "check", str(tmp_path)],
                            capture_output=True, text=True, cwd=tmp_path, env=cli_env())
             for _ in range(2)]
-    assert "heavy=['numpy'" in runs[0].stderr and "status=1" in runs[0].stderr
+    assert "'numpy'" in runs[0].stderr and "status=1" in runs[0].stderr
     assert "heavy=[] status=1" in runs[1].stderr
     assert runs[1].stdout == runs[0].stdout and "arm" in runs[0].stdout
+
+
+def test_a_broken_requirements_table_is_still_refused(repo, scans):
+    _check(repo)
+    write(repo / "pyproject.toml", "[tool.eigengate.requirements]\nmin_dampign = 0.3\n")
+    status, out, err = _check(repo)
+    assert status == 2 and "min_dampign" in err and "min_damping" in err and out == ""
+    assert len(scans) == 1

@@ -272,11 +272,22 @@ def _missing(paths: Sequence[str]) -> None:
         raise UsageError(f"no such file or folder: {', '.join(gone)}")
 
 
-def _load_config(args, start: Path):
+def _load_config(args, start: Path, *, defer: bool = False):
     from .scan.config import ConfigError, load_config
 
     try:
-        return load_config(Path(args.config) if args.config else None, start=start)
+        return load_config(Path(args.config) if args.config else None, start=start,
+                           defer=defer)
+    except ConfigError as exc:
+        raise UsageError(str(exc)) from None
+
+
+def _complete(config):
+    """The configuration with what loading deferred parsed (UsageError as loading)."""
+    from .scan.config import ConfigError
+
+    try:
+        return config.complete()
     except ConfigError as exc:
         raise UsageError(str(exc)) from None
 
@@ -404,15 +415,9 @@ def _check(args) -> int:
         _missing(args.paths)
     if args.jobs is not None and args.jobs < 1:
         raise UsageError(f"--jobs must be at least 1, got {args.jobs}")
-    config = _load_config(args, _config_start(args.paths))
+    # the requirements table is parsed only when the report memo cannot answer
+    config = _load_config(args, _config_start(args.paths), defer=True)
     paths, complete = args.paths or [config.root], not args.paths
-    if args.changed_files and args.paths:
-        from .scan.dependents import changed_scope
-
-        scope = changed_scope(args.paths, config, use_cache=not args.no_cache)
-        paths, complete = list(scope.paths), scope.everything
-        if not paths:
-            return Exit.CLEAN  # nothing the commit changed is used by a model
     memo = _memo(args, outputs, config, paths, complete)
     if memo is not None:
         again = memo.replay(paths, filter_named=args.only_model_files)
@@ -421,6 +426,14 @@ def _check(args) -> int:
             sys.stdout.write(out)
             sys.stderr.write(err)
             return status
+    _complete(config)
+    if args.changed_files and args.paths:
+        from .scan.dependents import changed_scope
+
+        scope = changed_scope(args.paths, config, use_cache=not args.no_cache)
+        paths, complete = list(scope.paths), scope.everything
+        if not paths:
+            return Exit.CLEAN  # nothing the commit changed is used by a model
     from .scan.engine import FileResult
     from .scan.runner import scan, terminal_progress
 

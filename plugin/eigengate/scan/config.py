@@ -127,6 +127,19 @@ class Config:
     #: repository-relative path → its policy (policy_for's answers: a scan asks for each
     #: file several times)
     _by_path: dict = field(default_factory=dict, compare=False, repr=False)
+    #: ``(table, shown)`` of a requirements table read but not yet parsed (``defer``):
+    #: parsed by :meth:`complete`, at the latest when a model's layers are first asked for
+    _pending: Any = field(default=None, compare=False, repr=False)
+
+    def complete(self) -> "Config":
+        """Parse what loading deferred (the requirements table); ConfigError as loading
+        without ``defer`` would have raised it."""
+        pending = self._pending
+        if pending is not None:
+            table, shown = pending
+            object.__setattr__(self, "requirements", _layer(table, shown, "requirements"))
+            object.__setattr__(self, "_pending", None)
+        return self
 
     # ------------------------------------------------------------------ nested policies
     def policy_for(self, rel: str) -> "Config":
@@ -249,6 +262,7 @@ class Config:
     def layers_for(self, rel: str) -> list[Layer]:
         if (own := self._own(rel)) is not None:
             return own.layers_for(rel)
+        self.complete()
         return [*self.inherited, self.requirements] + [o.requirements for o in self.overrides if o.applies(rel)]
 
     def on_uncertain_for(self, rel: str) -> str | None:
@@ -301,11 +315,13 @@ def _load_nested(path: Path, root: Path, base: str, parent: "Config", memo: dict
                         parent=parent, folders=memo)
 
 
-def load_config(path: Path | None = None, *, start: Path | None = None) -> Config:
+def load_config(path: Path | None = None, *, start: Path | None = None,
+                defer: bool = False) -> Config:
     """Read the configuration at ``path``, or discover it from ``start`` (default: cwd).
 
     Without a configuration file the root is the nearest folder with ``.git`` (or ``start``)
-    and every default applies.
+    and every default applies. ``defer``: leave the requirements table to
+    :meth:`Config.complete` (a check answered by the report memo needs only the digest).
     """
     if path is None:
         path = find_top_config(start or Path.cwd())
@@ -317,7 +333,7 @@ def load_config(path: Path | None = None, *, start: Path | None = None) -> Confi
                             find_root(base), source=None)  # the defaults, with their digest
     path = Path(path)
     return parse_config(read_table(path, str(path)), root=path.resolve().parent,
-                        source=path.name)
+                        source=path.name, defer=defer)
 
 
 def _strings(value: Any, source: str, key: str) -> tuple[str, ...]:
@@ -372,7 +388,7 @@ def _drift(value: Any, source: str, key: str) -> None:
 
 def parse_config(table: Mapping[str, Any], *, root: Path, source: str | None = "pyproject.toml",
                  base: str = "", parent: Config | None = None,
-                 folders: dict | None = None) -> Config:
+                 folders: dict | None = None, defer: bool = False) -> Config:
     """Validate a ``[tool.eigengate]`` table (already parsed); a nested policy names its
     folder ``base`` (relative to ``root``) and the ``parent`` policy above it, whose keys it
     inherits with ``extend = true``."""
@@ -409,7 +425,9 @@ def parse_config(table: Mapping[str, Any], *, root: Path, source: str | None = "
                               f"must be a whole number of days from 0 to 3660, got {days!r}",
                               "0 reports no waiver before it expires; the default is 30")
         kw["waiver_warning_days"] = days
-    if "requirements" in table:
+    if "requirements" in table and defer:
+        kw["_pending"] = (table["requirements"], shown)
+    elif "requirements" in table:
         kw["requirements"] = _layer(table["requirements"], shown, "requirements")
     if "severity" in table:
         sev = table["severity"]
@@ -525,4 +543,4 @@ def _inherit(kw: dict[str, Any], parent: Config) -> None:
         kw.setdefault(key, getattr(parent, key))
     kw["severity"] = {**parent.severity, **kw.get("severity", {})}
     kw["overrides"] = parent.overrides + tuple(kw.get("overrides", ()))
-    kw["inherited"] = parent.inherited + (parent.requirements,)
+    kw["inherited"] = parent.inherited + (parent.complete().requirements,)
