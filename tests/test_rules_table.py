@@ -162,3 +162,10 @@ def test_a_verdict_says_how_it_was_decided_by_default(uncertain, given, expected
                 passed=True, uncertain=uncertain, measured=-1.0, threshold=0.0, margin=1.0,
                 unit="1/s", offending=(), message="", decided_by=given)
     assert v.decided_by == expected
+
+
+def test_the_rule_ids_list_matches_the_catalogue():
+    # the policy's digest and checks use the list without importing the catalogue
+    from eigengate.rules.rule_ids import RULE_IDS
+
+    assert RULE_IDS == tuple(sorted(RULES))

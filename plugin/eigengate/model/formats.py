@@ -16,6 +16,7 @@ from pathlib import Path
 from typing import Any, Iterable
 
 from ..errors import ModelError
+from .filenames import printable_name  # noqa: F401 (re-exported)
 from .limits import (  # noqa: F401 (the limits and number checks, re-exported)
     FLOAT_MAX, MAX_INT_DIGITS, MAX_NESTING, MAX_VALUES, int_problem, int_value)
 
@@ -27,16 +28,6 @@ MAX_MODEL_FILE_BYTES = 8 * 1024 * 1024
 #: File name endings this module reads, mapped to the format name used in messages.
 SUFFIXES = {".yaml": "YAML", ".yml": "YAML", ".toml": "TOML", ".json": "JSON"}
 
-
-
-def printable_name(name: str) -> str:
-    """A file name as it can be shown and stored: bytes that are not UTF-8 (kept by the file
-    system's surrogateescape decoding) become ``\\xff`` escapes."""
-    try:
-        name.encode("utf-8")
-        return name
-    except UnicodeEncodeError:
-        return name.encode("utf-8", "surrogateescape").decode("utf-8", "backslashreplace")
 
 
 def suggest(word: str, choices: Iterable[str]) -> str | None:

@@ -42,11 +42,11 @@ to, and each keeps its own baseline next to it.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Mapping, Sequence
 
 from ..rules.patterns import glob_any, glob_match
+from .frozen import Frozen, factory
 from .policyfiles import (  # noqa: F401 (ConfigError re-exported)
     ConfigError, find_config, find_top_config, policy_file, read_table)
 
@@ -54,8 +54,9 @@ if TYPE_CHECKING:  # pragma: no cover
     from ..model.core import Model
     from ..rules.requirements import Requirement
     from ..rules.waivers import Waiver
+    from .overrides import Override
 
-__all__ = ["Config", "ConfigError", "Override", "load_config", "find_config", "CONFIG_KEYS",
+__all__ = ["Config", "ConfigError", "load_config", "find_config", "CONFIG_KEYS",
            "cluster_address"]
 
 CONFIG_KEYS = ("include", "exclude", "on_uncertain", "require", "select", "ignore",
@@ -63,6 +64,8 @@ CONFIG_KEYS = ("include", "exclude", "on_uncertain", "require", "select", "ignor
                "allowed_drift", "extend", "cluster", "waiver_warning_days")
 OVERRIDE_KEYS = ("paths", "requirements", "on_uncertain", "require", "allowed_drift")
 SEVERITIES = ("error", "warning", "off")
+#: Where a policy's baseline is kept, relative to its folder, unless it says otherwise.
+DEFAULT_BASELINE = ".eigengate/baseline.json"
 #: The Dask comm schemes an address may name.
 CLUSTER_SCHEMES = ("tcp", "tls", "ws", "wss", "ucx")
 
@@ -82,54 +85,63 @@ def cluster_address(value: Any) -> str:
 Layer = tuple[tuple["Requirement", ...], tuple[str, ...]]
 
 
-@dataclass(frozen=True)
-class Override:
-    """Requirements and policy for the model files matching ``paths``."""
+class Config(Frozen):
+    """The effective repository policy (a frozen record, see :mod:`eigengate.scan.frozen`).
 
-    paths: tuple[str, ...]
-    requirements: Layer = ((), ())
-    on_uncertain: str | None = None
-    allowed_drift: Mapping[str, Any] | None = None
-    require: str | None = None
+    Fields: ``root``; ``source`` (the policy file, None for the defaults); ``include`` and
+    ``exclude`` globs; ``on_uncertain``, ``require``; rule ``select`` and ``ignore``
+    prefixes; ``requirements`` (the policy's layer); ``severity`` (rule → level);
+    ``overrides``; ``waivers``; ``allow_python``; ``waiver_warning_days`` (EG006: a waiver
+    this close to its expiry is reported); ``baseline`` (repository-relative path of the
+    baseline); ``allowed_drift``; ``cluster`` (a Dask scheduler's address, the command line's
+    executor); ``digest`` (hash of the configuration table, part of every cache key);
+    ``base`` (a nested policy's folder relative to ``root``, the outermost policy's folder,
+    which model sources are relative to; its globs are stored relative to ``root``);
+    ``inherited`` (requirement layers of the policies it extends). Not compared: ``_folders``
+    (folder relative to root → the policy that governs it, shared by a tree of policies),
+    ``_by_path`` (repository-relative path → its policy: policy_for's answers, as a scan
+    asks for each file several times) and ``_pending`` (``(table, shown)`` of a requirements
+    table read but not yet parsed, ``defer``: parsed by :meth:`complete`, at the latest when
+    a model's layers are first asked for).
+    """
 
-    def applies(self, rel: str) -> bool:
-        return any(glob_match(rel, p) for p in self.paths)
+    FIELDS = (
+        ("root", Frozen.REQUIRED, True), ("source", None, True), ("include", (), True),
+        ("exclude", (), True), ("on_uncertain", None, True), ("require", None, True),
+        ("select", (), True), ("ignore", (), True), ("requirements", ((), ()), True),
+        ("severity", factory(dict), True), ("overrides", (), True), ("waivers", (), True),
+        ("allow_python", False, True), ("waiver_warning_days", 30, True),
+        ("baseline", DEFAULT_BASELINE, True), ("allowed_drift", None, True),
+        ("cluster", None, True), ("digest", "", True), ("base", "", True),
+        ("inherited", (), True), ("_folders", factory(dict), False),
+        ("_by_path", factory(dict), False), ("_pending", None, False))
 
+    if TYPE_CHECKING:  # the fields, for type checkers
+        root: Path
+        source: str | None
+        include: tuple[str, ...]
+        exclude: tuple[str, ...]
+        on_uncertain: str | None
+        require: str | None
+        select: tuple[str, ...]
+        ignore: tuple[str, ...]
+        requirements: Layer
+        severity: Mapping[str, str]
+        overrides: tuple["Override", ...]
+        waivers: tuple["Waiver", ...]
+        allow_python: bool
+        waiver_warning_days: int
+        baseline: str
+        allowed_drift: Mapping[str, Any] | None
+        cluster: str | None
+        digest: str
+        base: str
+        inherited: tuple[Layer, ...]
+        _folders: dict
+        _by_path: dict
+        _pending: Any
 
-@dataclass(frozen=True)
-class Config:
-    """The effective repository policy."""
-
-    root: Path
-    source: str | None = None
-    include: tuple[str, ...] = ()
-    exclude: tuple[str, ...] = ()
-    on_uncertain: str | None = None
-    require: str | None = None
-    select: tuple[str, ...] = ()
-    ignore: tuple[str, ...] = ()
-    requirements: Layer = ((), ())
-    severity: Mapping[str, str] = field(default_factory=dict)
-    overrides: tuple[Override, ...] = ()
-    waivers: tuple["Waiver", ...] = ()
-    allow_python: bool = False
-    waiver_warning_days: int = 30  # EG006: a waiver this close to its expiry is reported
-    baseline: str = ".eigengate/baseline.json"  # repository-relative path of the baseline
-    allowed_drift: Mapping[str, Any] | None = None
-    cluster: str | None = None  # a Dask scheduler's address (the command line's executor)
-    digest: str = ""  # hash of the configuration table, part of every cache key
-    #: A nested policy: its folder relative to ``root`` (the outermost policy's folder, which
-    #: model sources are relative to); its globs are stored relative to ``root``.
-    base: str = ""
-    inherited: tuple[Layer, ...] = ()  # requirement layers of the policies it extends
-    #: folder (relative to root) → the policy that governs it; shared by a tree of policies
-    _folders: dict = field(default_factory=dict, compare=False, repr=False)
-    #: repository-relative path → its policy (policy_for's answers: a scan asks for each
-    #: file several times)
-    _by_path: dict = field(default_factory=dict, compare=False, repr=False)
-    #: ``(table, shown)`` of a requirements table read but not yet parsed (``defer``):
-    #: parsed by :meth:`complete`, at the latest when a model's layers are first asked for
-    _pending: Any = field(default=None, compare=False, repr=False)
+        def __init__(self, root: Path, **kwargs: Any) -> None: ...
 
     def complete(self) -> "Config":
         """Parse what loading deferred (the requirements table); ConfigError as loading
@@ -392,7 +404,7 @@ def parse_config(table: Mapping[str, Any], *, root: Path, source: str | None = "
     """Validate a ``[tool.eigengate]`` table (already parsed); a nested policy names its
     folder ``base`` (relative to ``root``) and the ``parent`` policy above it, whose keys it
     inherits with ``extend = true``."""
-    from ..rules.catalogue import RULES
+    from ..rules.rule_ids import RULE_IDS as RULES  # the catalogue itself is not needed
 
     shown = source if source is not None else "pyproject.toml"  # None: the defaults
 
@@ -458,6 +470,8 @@ def parse_config(table: Mapping[str, Any], *, root: Path, source: str | None = "
                                   "files this override applies to)")
             if "allowed_drift" in item:
                 _drift(item["allowed_drift"], shown, f"{where}allowed_drift")
+            from .overrides import Override
+
             out.append(Override(
                 allowed_drift=item.get("allowed_drift"),
                 paths=_strings(item["paths"], shown, f"{where}paths"),
@@ -531,7 +545,7 @@ def _nest(kw: dict[str, Any], base: str, source: str) -> None:
                             for o in kw.get("overrides", ()))
     kw["waivers"] = tuple(replace(w, paths=tuple(_rebase(p, base) for p in w.paths))
                           for w in kw.get("waivers", ()))
-    kw["baseline"] = f"{base}/{kw.get('baseline', Config.baseline)}"
+    kw["baseline"] = f"{base}/{kw.get('baseline', DEFAULT_BASELINE)}"
     kw["base"] = base
 
 

@@ -14,7 +14,7 @@ import stat
 from pathlib import Path
 from typing import TYPE_CHECKING, Callable, NamedTuple, Protocol, Sequence
 
-from ..model.formats import printable_name
+from ..model.filenames import printable_name
 
 if TYPE_CHECKING:  # pragma: no cover
     from .config import Config

@@ -1,0 +1,28 @@
+"""A policy's overrides: requirements and policy for the model files matching some globs
+(``[[tool.eigengate.overrides]]``), imported only by a policy that has them."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Any, Mapping
+
+from ..rules.patterns import glob_match
+
+if TYPE_CHECKING:  # pragma: no cover
+    from .config import Layer
+
+__all__ = ["Override"]
+
+
+@dataclass(frozen=True)
+class Override:
+    """Requirements and policy for the model files matching ``paths``."""
+
+    paths: tuple[str, ...]
+    requirements: Layer = ((), ())
+    on_uncertain: str | None = None
+    allowed_drift: Mapping[str, Any] | None = None
+    require: str | None = None
+
+    def applies(self, rel: str) -> bool:
+        return any(glob_match(rel, p) for p in self.paths)
