@@ -9,7 +9,7 @@ from typing import TYPE_CHECKING
 if TYPE_CHECKING:  # pragma: no cover
     from .config import Config
 
-__all__ = ["CACHE_DIR", "FORMAT", "cache_name", "hasher"]
+__all__ = ["CACHE_DIR", "FORMAT", "cache_name"]
 
 CACHE_DIR = ".eigengate-cache"
 FORMAT = 10  # 8: mode names; 9: results carry their pictures (plot data); 10: summaries
@@ -21,12 +21,3 @@ def cache_name(config: "Config", rel: str) -> str:
     policy = config.policy_for(rel)
     return rel if policy is config else f"{rel}\0{policy.digest}"
 
-
-def hasher(size: int = 32):
-    """A BLAKE2b hash object (``size`` bytes) for the cache's own keys: the interpreter's
-    built-in one, so that a check answered by the report memo loads no OpenSSL."""
-    try:
-        from _blake2 import blake2b
-    except ImportError:  # pragma: no cover - an interpreter built without it
-        from hashlib import blake2b
-    return blake2b(digest_size=size)

@@ -522,7 +522,7 @@ def parse_config(table: Mapping[str, Any], *, root: Path, source: str | None = "
         outer = parent.digest
     import json
 
-    from .cache_format import hasher
+    from .digests import hasher
 
     # the rule table is part of the key: results cached before a rule was added are not reused;
     # where the files are analysed is not (a cluster's results are a local run's)

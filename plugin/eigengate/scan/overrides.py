@@ -9,7 +9,7 @@ from typing import TYPE_CHECKING, Any, Mapping
 from ..rules.patterns import glob_match
 
 if TYPE_CHECKING:  # pragma: no cover
-    from .config import Layer
+    from ..rules.requirements import Requirement
 
 __all__ = ["Override"]
 
@@ -19,7 +19,7 @@ class Override:
     """Requirements and policy for the model files matching ``paths``."""
 
     paths: tuple[str, ...]
-    requirements: Layer = ((), ())
+    requirements: tuple[tuple["Requirement", ...], tuple[str, ...]] = ((), ())  # a layer
     on_uncertain: str | None = None
     allowed_drift: Mapping[str, Any] | None = None
     require: str | None = None

@@ -30,7 +30,8 @@ import os
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Sequence
 
-from .cache_format import CACHE_DIR, FORMAT, cache_name as _name, hasher
+from .cache_format import CACHE_DIR, FORMAT, cache_name as _name
+from .digests import hasher
 
 if TYPE_CHECKING:  # pragma: no cover
     from .cache import ResultCache
