@@ -228,3 +228,12 @@ def test_a_broken_requirements_table_is_still_refused(repo, scans):
     status, out, err = _check(repo)
     assert status == 2 and "min_dampign" in err and "min_damping" in err and out == ""
     assert len(scans) == 1
+
+
+@pytest.mark.parametrize("args, says", [(("--cluster", "scheduler:8786"), "--cluster"),
+                                        (("--jobs", "0"), "--jobs"),
+                                        (("--output", "nonsense"), "--output")])
+def test_the_options_are_checked_before_the_memo_answers(repo, scans, args, says):
+    _check(repo)
+    status, out, err = _check(repo, *args)
+    assert status == 2 and says in err and out == ""

@@ -200,6 +200,7 @@ def _check(args) -> int:
     # the requirements table is parsed only when the report memo cannot answer
     config = _load_config(args, _config_start(args.paths), defer=True)
     paths, complete = args.paths or [config.root], not args.paths
+    cluster = _cluster(args, config)  # its options checked before anything is answered
     memo = _memo(args, outputs, config, paths, complete)
     if memo is not None:
         again = memo.replay(paths, filter_named=args.only_model_files)
@@ -221,7 +222,7 @@ def _check(args) -> int:
 
     result = scan(paths, config, jobs=args.jobs, use_cache=not args.no_cache,
                   progress=terminal_progress(), filter_named=args.only_model_files,
-                  complete=complete, cluster=_cluster(args, config), memo=memo)
+                  complete=complete, cluster=cluster, memo=memo)
     files = list(result.files)
     notes = []
     failed = result.failed
