@@ -53,7 +53,9 @@ def test_first_order_on_floats_matches_numpy(case, odd):
     norm = float(rng.uniform(0.1, 100.0))
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         bound, kappa = bounds.first_order(R, vr, vl, dots, absl, norm, 1.0)
-        delta, kap = small_modes.first_order(R, vr, vl, dots.tolist(), absl.tolist(), norm)
+        delta, kap = small_modes.first_order(
+            *(bounds.column_norms(x).tolist() for x in (vr, vl, R)), dots.tolist(),
+            absl.tolist(), n, norm)
     assert _same_list(delta, bound) and _same_list(kap, kappa)
 
 
@@ -114,6 +116,24 @@ def test_norms_match_numpy_linalg_norm(case, real):
     assert small_modes._norm1(np.abs(a)) == float(np.linalg.norm(a, 1))
     flat = a.ravel(order="K")
     assert math.sqrt(flat.dot(flat)) == float(np.linalg.norm(a, "fro"))
+
+
+@settings(max_examples=100, deadline=None)
+@given(_cases)
+def test_stacked_column_norms_match_numpy_linalg_norm(case):
+    # reference: numpy.linalg.norm(axis=0) of the Fortran-ordered vl and vr; the small path
+    # takes both in one reduction over the rows of the C-ordered stack they are views of
+    n, seed, _ = case
+    rng = np.random.default_rng(seed)
+    both = np.array((_complex(rng, n, n, False), _complex(rng, n, n, False)))
+    vl, vr = both[0].T, both[1].T
+    assert vl.flags.f_contiguous and vr.flags.f_contiguous
+    bothc = both.conj()
+    stacked = np.sqrt(np.add.reduce((bothc * both).real, axis=(2,)))
+    assert stacked[0].tobytes() == np.linalg.norm(vl, axis=0).tobytes()
+    assert stacked[1].tobytes() == np.linalg.norm(vr, axis=0).tobytes()
+    assert bothc[0].T.tobytes() == vl.conj().tobytes()
+    assert bothc[0].T.strides == vl.conj().strides
 
 
 def test_with_fields_is_dataclasses_replace():
