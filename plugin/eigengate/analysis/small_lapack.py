@@ -120,10 +120,16 @@ def _complex_vectors(w: "np.ndarray", vin: "np.ndarray") -> "np.ndarray":
 
 @functools.lru_cache(maxsize=256)
 def _pair_index(first: tuple[int, ...]) -> tuple:
-    """The index arrays of the first and second columns of the pairs ``first`` (kept: the
-    same few layouts of pairs recur from model to model)."""
+    """The indices of the first and second columns of the pairs ``first`` (kept: the same few
+    layouts of pairs recur from model to model): slices where the pairs follow each other
+    (every second column from one on, the usual layout: the same elements, copied faster),
+    index arrays otherwise."""
     import numpy as np
 
+    start = first[0] if first else 0
+    if list(first) == list(range(start, start + 2 * len(first), 2)):
+        stop = start + 2 * len(first)
+        return slice(start, stop, 2), slice(start + 1, stop, 2)
     one = np.array(first, dtype=np.intp)
     one.flags.writeable = False
     two = one + 1
