@@ -336,7 +336,7 @@ def analyse(model: Model) -> Spectrum:
     sizes = None if labels is None or labels == list(range(len(labels))) else \
         collections.Counter(labels)
     columns = part.T  # columns[i]: part[:, i], the same view
-    rows, keys = [], []
+    rows, keys, states = [], [], model.states
     for members in clusters:
         single = len(members) == 1
         if single:  # the common case: no numpy calls per eigenvalue
@@ -367,14 +367,19 @@ def analyse(model: Model) -> Spectrum:
             ring = math.inf  # cluster_radius of one disc: none, or not alone in its component
         else:
             ring = (abs(lams[i] - centre) + rhos[i]) * _WIDEN
-        row = _mode_fields(model, centre, err, len(members), geometric, kap,
-                           columns[i] if single else weights, ring)
-        rows.append(row)
-        keys.append(sort_key(row, top))
+        mode = _mode(0, states, _mode_fields(model, centre, err, len(members), geometric, kap,
+                                             columns[i] if single else weights, ring))
+        rows.append(mode)
+        keys.append(sort_key(mode.__dict__, top))
     # Least stable (largest Re s) first, on rounded keys so round-off cannot reorder ties.
     order = sorted(range(len(rows)), key=keys.__getitem__)
-    modes = tuple(_mode(k + 1, model.states, rows[j]) for k, j in enumerate(order))
-    return Spectrum(model=model, modes=modes, infinite=infinite, norm=norm, balanced=balanced)
+    modes = tuple([rows[j] for j in order])
+    for k, mode in enumerate(modes, 1):
+        mode.__dict__["index"] = k  # its place in the order (the first key of its fields)
+    spectrum = object.__new__(Spectrum)  # Spectrum(...) without the frozen __init__'s cost
+    spectrum.__dict__.update(model=model, modes=modes, infinite=infinite, norm=norm,
+                             balanced=balanced, search=None)
+    return spectrum
 
 
 def _mode(index: int, states: tuple[str, ...], row: dict) -> Mode:

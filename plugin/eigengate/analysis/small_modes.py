@@ -38,7 +38,8 @@ def _norm1(absa: "np.ndarray") -> float:
     """``numpy.linalg.norm(A, 1)`` from ``|A|``: its own reduction (largest column sum)."""
     import numpy as np
 
-    return float(np.add.reduce(absa, axis=0).max())  # initial=0 changes nothing: sums ≥ 0
+    # x.max() is numpy.maximum.reduce(x); initial=0 changes nothing: sums ≥ 0
+    return float(np.maximum.reduce(np.add.reduce(absa, axis=0)))
 
 
 def decompose(A: "np.ndarray", small: tuple):
