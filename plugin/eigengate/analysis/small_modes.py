@@ -52,7 +52,8 @@ def decompose(A: "np.ndarray", small: tuple):
     norm_a = _norm1(absa)
     work, balanced, absw = A, False, absa
     if A.shape[0] > 1 and norm_a > 0:
-        bal = small[0](A, scale=1, permute=0, overwrite_a=0)[0]  # matrix_balance's LAPACK call
+        # matrix_balance's LAPACK call, dgebal(a, scale=1, permute=0, overwrite_a=0)
+        bal = small[0](A, 1, 0, 0)[0]
         absb = np.abs(bal)
         if _norm1(absb) < 0.9 * norm_a:
             work, balanced, absw = bal, True, absb

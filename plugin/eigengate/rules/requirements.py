@@ -368,7 +368,9 @@ def origin(modes: Sequence[Mode], spectrum: Spectrum):
     and the description says so; when they are all the modes, there is nothing else to
     classify, so the origin is classified from all of them (a declared double zero stays a
     degenerate origin, never a node with no directions)."""
-    declared = spectrum.n_eigenvalues - sum(m.count for m in modes)
+    every = spectrum.modes
+    same = len(modes) == len(every) and all(a is b for a, b in zip(modes, every))
+    declared = 0 if same else spectrum.n_eigenvalues - sum(m.count for m in modes)
     seen = tuple(modes) if modes or not declared else spectrum.modes
     return classify(seen, declared=declared, set_aside=bool(modes)), seen
 
