@@ -483,7 +483,7 @@ def _mode_fields(model: Model, centre: complex, err: float, multiplicity: int, g
     wn = abs(s)
     if math.isfinite(re):  # rounding of s itself (and of the figures derived from it)
         floor = _FLOOR * wn
-        err_s, ring_s = max(err_s, floor), ring_s + floor
+        err_s, ring_s = floor if floor > err_s else err_s, ring_s + floor  # max(err_s, floor)
     if math.isinf(re):
         zeta, tau = 1.0, 0.0
     elif wn == 0.0:
@@ -491,7 +491,8 @@ def _mode_fields(model: Model, centre: complex, err: float, multiplicity: int, g
     else:
         zeta = -re / wn + 0.0  # + 0.0 turns -0.0 into 0.0
         tau = math.inf if re == 0.0 else -1.0 / re
-    return dict(eigenvalue=centre, s=s, multiplicity=multiplicity,
-                geometric_multiplicity=geometric, pair=pair, natural_frequency=wn,
-                damping_ratio=zeta, time_constant=tau, uncertainty=min(err_s, ring_s),
-                condition=kappa, participation=participation, enclosure=ring_s)
+    return {"eigenvalue": centre, "s": s, "multiplicity": multiplicity,
+            "geometric_multiplicity": geometric, "pair": pair, "natural_frequency": wn,
+            "damping_ratio": zeta, "time_constant": tau,
+            "uncertainty": ring_s if ring_s < err_s else err_s,  # min(err_s, ring_s)
+            "condition": kappa, "participation": participation, "enclosure": ring_s}

@@ -71,11 +71,15 @@ def flapack() -> Any:
 def small_lapack(A: "np.ndarray") -> tuple | None:
     """``(gebal, geev, lwork)`` for a finite float64 matrix up to SMALL_ORDER; None otherwise
     (the general path, which also raises on non-finite entries as scipy does)."""
+    import math
+
     import numpy as np
 
     n = A.shape[0]
+    # a finite sum means finite entries (an inf or a nan makes it inf or nan); a sum that
+    # overflows from finite entries sends them to the general path, which gives the same
     if not (0 < n <= SMALL_ORDER and A.dtype == np.float64 and A.ndim == 2
-            and A.shape == (n, n) and np.isfinite(A).all()):
+            and A.shape == (n, n) and math.isfinite(np.add.reduce(A, axis=None))):
         return None
     return _lapack_for(n)
 
