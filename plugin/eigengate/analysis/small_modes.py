@@ -139,6 +139,7 @@ def first_order(vnorm: list[float], wnorm: list[float], rnorm: list[float], dots
     eps = 2.0 ** -52
     floor_scale = EST_FLOOR * math.sqrt(n + 1) * eps
     least = FIGURE_FLOOR * eps
+    safety, finite, inf, worst = EST_SAFETY, math.isfinite, math.inf, 1.0 / eps
     delta, kappa = [], []
     for v, w, r, d, a in zip(vnorm, wnorm, rnorm, dots, absl):
         floor = floor_scale * (norm_a + a) * v
@@ -146,9 +147,11 @@ def first_order(vnorm: list[float], wnorm: list[float], rnorm: list[float], dots
             k = b = math.nan
         else:
             k = w * v / d
-            b = EST_SAFETY * (r + floor) * w / d
-        kappa.append(k if math.isfinite(k) else 1.0 / eps)
-        delta.append(max(b if math.isfinite(b) else math.inf, least * a))
+            b = safety * (r + floor) * w / d
+        kappa.append(k if finite(k) else worst)
+        b = b if finite(b) else inf
+        low = least * a
+        delta.append(low if low > b else b)  # max(b, low)
     return delta, kappa
 
 
