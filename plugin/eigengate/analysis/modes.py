@@ -26,7 +26,7 @@ import cmath
 import collections
 import math
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any, cast
+from typing import TYPE_CHECKING, Any, Callable, cast
 
 from ..errors import ModelError
 from ..model.core import Model
@@ -370,9 +370,10 @@ def analyse(model: Model) -> Spectrum:
         mode = _mode(0, states, _mode_fields(model, centre, err, len(members), geometric, kap,
                                              columns[i] if single else weights, ring))
         rows.append(mode)
-        keys.append(sort_key(mode.__dict__, top))
+        keys.append(top)
     # Least stable (largest Re s) first, on rounded keys so round-off cannot reorder ties.
-    order = sorted(range(len(rows)), key=keys.__getitem__)
+    order = mode_order([m.s.real for m in rows],
+                       lambda j: sort_key(rows[j].__dict__, keys[j]))
     modes = tuple([rows[j] for j in order])
     for k, mode in enumerate(modes, 1):
         mode.__dict__["index"] = k  # its place in the order (the first key of its fields)
@@ -393,6 +394,25 @@ def _mode(index: int, states: tuple[str, ...], row: dict) -> Mode:
     fields.update(row)
     fields["states"] = states
     return mode
+
+
+#: Real parts further apart than this relative gap (plus a tiny absolute one) cannot round
+#: to the same 10 significant digits: each rounding moves a value by at most 5e-10 of it.
+_APART = 2e-9
+_APART_TINY = 1e-300
+
+
+def mode_order(real: list[float], key: "Callable[[int], tuple]") -> list[int]:
+    """``sorted(range(n), key=key)`` for the :func:`sort_key` ``key(j)`` of the modes whose
+    ``s`` have the real parts ``real``: from the real parts alone when, largest first, each
+    is further from the next than rounding to 10 digits can close (their rounded keys then
+    differ, in the same order, and decide alone); by the keys otherwise."""
+    order = sorted(range(len(real)), key=real.__getitem__, reverse=True)
+    for a, b in zip(order, order[1:]):
+        x, y = real[a], real[b]
+        if not x - y > _APART * (abs(x) + abs(y)) + _APART_TINY:  # a nan fails too
+            return sorted(range(len(real)), key=key)
+    return order
 
 
 def sort_key(row: dict, top: int | None = None) -> tuple:

@@ -155,9 +155,10 @@ class Stability(Requirement):
         discrete = spectrum.model.discrete
         # one pass: each mode's side (equilibrium.side) and, off the exact boundary, how it
         # is decided (_side_level), in mode order
-        unstable, inexact, exact, decay, levels = [], [], [], [], set()
+        unstable, inexact, exact, decay, levels, total = [], [], [], [], set(), 0
         for m in modes:
             re, u = m.s.real, m.uncertainty
+            total += m.count
             decay.append(-re)  # m.decay_rate
             if not (re < -u or re > u) and re == 0.0:
                 exact.append(m)
@@ -203,7 +204,7 @@ class Stability(Requirement):
                          f" 1/s), worst {inexact[0].describe()}: could be {could}, not decided; "
                          + decided)
         if not parts:
-            parts.append(f"all {sum(m.count for m in modes)} eigenvalues "
+            parts.append(f"all {total} eigenvalues "
                          f"{'found ' if getattr(spectrum, 'search', None) else ''}satisfy {where}; "
                          f"slowest decay rate {_fmt(margin)} 1/s")
         if discrete:  # margin in the plane of the measured value: 1 - spectral radius
