@@ -14,10 +14,9 @@ import numpy as np
 from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 
-from eigengate import from_arrays
 from eigengate.analysis import modes, small_modes
 
-from test_modes_small_path import _fields, _general, _same
+from test_modes_small_path import assert_same_as_general
 
 
 def _rotation(re, im):
@@ -70,10 +69,7 @@ _cases = st.tuples(st.integers(1, 14) | st.integers(15, modes.SMALL_ORDER),
 @settings(max_examples=200, deadline=None)
 @given(_cases)
 def test_small_path_shortcuts_match_the_general_path(a):
-    fast = modes.analyse(from_arrays(a))
-    general = _general(a)
-    assert len(fast.modes) == len(general.modes)
-    assert all(_same(x, y) for x, y in zip(_fields(fast), _fields(general)))
+    assert_same_as_general(a)
 
 
 @settings(max_examples=100, deadline=None)
