@@ -101,16 +101,16 @@ def bounds(work: "np.ndarray", absw: "np.ndarray", lam: "np.ndarray", vr: "np.nd
     # gershgorin): no division by zero, overflow or invalid operation, so numpy.errstate
     # has nothing to change (underflow, which it leaves alone, aside).
     if sure and norm < _QUIET_NORM and min(dots, default=1.0) > _QUIET_DOT:
-        delta, kappa, rho = _bounds(work, absw, lam, vr, vl, R, dotc, dots, absl, vnorm, wnorm,
-                                    norm, base)
+        delta, kappa, rho = _bounds(work, absw, lam, vr, vl, vlc, R, dotc, dots, absl, vnorm,
+                                    wnorm, norm, base)
     else:
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-            delta, kappa, rho = _bounds(work, absw, lam, vr, vl, R, dotc, dots, absl, vnorm,
-                                        wnorm, norm, base, sure)
+            delta, kappa, rho = _bounds(work, absw, lam, vr, vl, vlc, R, dotc, dots, absl,
+                                        vnorm, wnorm, norm, base, sure)
     return delta, kappa, rho, vlc
 
 
-def _bounds(work, absw, lam, vr, vl, R, dotc, dots, absl, vnorm, wnorm, norm, base,
+def _bounds(work, absw, lam, vr, vl, vlc, R, dotc, dots, absl, vnorm, wnorm, norm, base,
             sure: bool = True):
     """:func:`bounds` once its products are formed (under the caller's numpy.errstate)."""
     delta, kappa = first_order(vnorm, wnorm, column_norms(R).tolist(), dots, absl.tolist(),
@@ -123,7 +123,7 @@ def _bounds(work, absw, lam, vr, vl, R, dotc, dots, absl, vnorm, wnorm, norm, ba
         cap_defective(lam, capped, base, norm, lam.shape[0])
         delta = capped.tolist()
     if sure:
-        rho = gershgorin(absw, absl, vr, vl, R, dotc)
+        rho = gershgorin(absw, absl, vr, vlc, R, dotc)
     else:  # enclose decides (it refuses, or an overflow of |wᴴv| alone)
         radii = enclose(work, lam, vr, vl, R)
         rho = None if radii is None else radii.tolist()
@@ -155,16 +155,20 @@ def first_order(vnorm: list[float], wnorm: list[float], rnorm: list[float], dots
     return delta, kappa
 
 
-def gershgorin(absa: "np.ndarray", absl: "np.ndarray", vr: "np.ndarray", vl: "np.ndarray",
+def gershgorin(absa: "np.ndarray", absl: "np.ndarray", vr: "np.ndarray", vlc: "np.ndarray",
                R: "np.ndarray", dots: "np.ndarray") -> list[float] | None:
-    """:func:`eigengate.analysis.bounds.gershgorin` as a list, its arithmetic on each row's
-    numbers in Python floats (the same IEEE operations in the same order); the sums and
-    products by numpy as there (``x.sum(axis=1)`` is ``numpy.add.reduce(x, axis=1)``)."""
+    """:func:`eigengate.analysis.bounds.gershgorin` as a list, from ``vlc = conj(vl)``, its
+    arithmetic on each row's numbers in Python floats (the same IEEE operations in the same
+    order); the sums and products by numpy as there (``x.sum(axis=1)`` is
+    ``numpy.add.reduce(x, axis=1)``). ``Y = conj(vl) / d`` here, ``conj(vl / conj(d))``
+    there: numpy's complex quotient (Smith's) carries the conjugates through exactly, but
+    for the sign of an exact zero, which no result reads (only ``|Y|`` and the sums of
+    ``I − Y·X``, taken in absolute value)."""
     import numpy as np
 
     n = absa.shape[0]
     add = np.add.reduce
-    Y = (vl / dots.conj()).conj().T
+    Y = (vlc / dots).T
     g, up = rounding(n)
     absx = np.abs(vr)
     absy = np.abs(Y)
