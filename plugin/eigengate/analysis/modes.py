@@ -26,7 +26,7 @@ import cmath
 import collections
 import math
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any, Callable, cast
+from typing import TYPE_CHECKING, Any, cast
 
 from ..errors import ModelError
 from ..model.core import Model
@@ -34,6 +34,7 @@ from . import small_modes
 from .bounds import (ENCLOSE_LIMIT, FIGURE_FLOOR, MAX_BLOCK, TOUCH, cap_defective, cluster_radius,
                      components, enclose, estimate, hoelder, map_to_s, sweep_order, touching,
                      touching_small)
+from .mode_order import _round_sig, mode_order, sort_key  # noqa: F401 (re-exported)
 from .small_lapack import SMALL_ORDER, small_eig, small_lapack  # noqa: F401 (SMALL_ORDER: public)
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -186,12 +187,6 @@ def _fmt_complex(z: complex, pair: bool) -> str:
         return f"{z.real:.6g}"
     sign = "±" if pair else ("+" if z.imag >= 0 else "-")
     return f"{z.real:.6g}{sign}{abs(z.imag):.6g}j"
-
-
-def _round_sig(x: float, digits: int = 10) -> float:
-    if x == 0.0 or not math.isfinite(x):
-        return x
-    return round(x, digits - 1 - int(math.floor(math.log10(abs(x)))))
 
 
 def _decompose(model: Model):
@@ -394,35 +389,6 @@ def _mode(index: int, states: tuple[str, ...], row: dict) -> Mode:
     fields.update(row)
     fields["states"] = states
     return mode
-
-
-#: Real parts further apart than this relative gap (plus a tiny absolute one) cannot round
-#: to the same 10 significant digits: each rounding moves a value by at most 5e-10 of it.
-_APART = 2e-9
-_APART_TINY = 1e-300
-
-
-def mode_order(real: list[float], key: "Callable[[int], tuple]") -> list[int]:
-    """``sorted(range(n), key=key)`` for the :func:`sort_key` ``key(j)`` of the modes whose
-    ``s`` have the real parts ``real``: from the real parts alone when, largest first, each
-    is further from the next than rounding to 10 digits can close (their rounded keys then
-    differ, in the same order, and decide alone); by the keys otherwise."""
-    order = sorted(range(len(real)), key=real.__getitem__, reverse=True)
-    for a, b in zip(order, order[1:]):
-        x, y = real[a], real[b]
-        if not x - y > _APART * (abs(x) + abs(y)) + _APART_TINY:  # a nan fails too
-            return sorted(range(len(real)), key=key)
-    return order
-
-
-def sort_key(row: dict, top: int | None = None) -> tuple:
-    """Least stable (largest Re s) first, on rounded keys so round-off cannot reorder ties;
-    ``top``: the index of the largest participation factor, when known."""
-    if top is None:
-        import numpy as np
-
-        top = int(np.argmax(row["participation"]))
-    return (-_round_sig(row["s"].real), _round_sig(abs(row["s"].imag)), top)
 
 
 def _clusters(lam: "np.ndarray", delta: "np.ndarray") -> list[list[int]]:

@@ -22,6 +22,7 @@ from .known_modes import KnownMode, known_modes_verdict, split_known_modes
 from ..analysis.modes import Mode, Spectrum
 from ..analysis.sparse_modes import Target
 from .catalogue import RULES, Rule, Verdict, make_verdict
+from .region_geometry import region_distance
 
 __all__ = [
     "Verdict", "Requirement", "Stability", "MinDecayRate", "MinDamping", "MaxFrequency",
@@ -287,32 +288,6 @@ class MaxFrequency(Requirement):
         return _threshold_verdict(self, rows, self.omega, False, "natural frequency",
                                   on_uncertain, empty="no modes to check",
                                   suggest=lambda w: f"passes with max_frequency ≥ {_fmt(w)}")
-
-
-def region_distance(s: complex, alpha: float | None, zeta: float | None,
-                    omega: float | None) -> float:
-    """Signed s-plane distance from ``s`` to the boundary of the allowed region.
-
-    Positive inside. Inside, it is exact (the smallest distance to any constraint's boundary);
-    outside, it is the largest distance to a single violated constraint, a lower bound of the
-    distance to the region.
-    """
-    if math.isinf(s.real):
-        return math.inf
-    d = []
-    if alpha is not None:
-        d.append(-alpha - s.real)
-    if zeta is not None:
-        theta0 = math.acos(max(-1.0, min(1.0, zeta)))  # half-angle of the sector about -Re
-        r = abs(s)
-        phi = math.atan2(abs(s.imag), -s.real) if r > 0 else 0.0
-        gap = theta0 - phi
-        d.append(r * math.sin(gap) if abs(gap) < math.pi / 2 else math.copysign(r, gap))
-    if omega is not None:
-        d.append(omega - abs(s))
-    # Inside, the nearest boundary is the nearest constraint's; outside, min(d) is minus the
-    # largest single violation.
-    return min(d)
 
 
 @dataclass(frozen=True)
