@@ -276,6 +276,20 @@ def _join(lam, radius, factor: float, order, re, close: Sequence[int], rmax: flo
     """Union-find of :func:`touching` over the candidate positions ``close`` (ascending) of
     the sweep order ``order`` (real parts ``re`` in that order)."""
     n = len(order)
+    edges = []
+    for a in close:
+        i = order[a]
+        ri = radius[i]
+        reach = factor * (ri + rmax)
+        b = a + 1
+        while b < n and re[b] - re[a] <= reach:
+            j = order[b]
+            if abs(lam[i] - lam[j]) <= factor * (ri + radius[j]):
+                edges.append((i, j))
+            b += 1
+    if not edges:  # candidates, none touching (a complex pair's members, say)
+        return list(range(n))
+    # union-find: each root is the smallest index of its component, whatever the order
     parent = list(range(n))
 
     def find(i: int) -> int:
@@ -284,17 +298,10 @@ def _join(lam, radius, factor: float, order, re, close: Sequence[int], rmax: flo
             i = parent[i]
         return i
 
-    for a in close:
-        i = order[a]
-        reach = factor * (radius[i] + rmax)
-        b = a + 1
-        while b < n and re[b] - re[a] <= reach:
-            j = order[b]
-            if abs(lam[i] - lam[j]) <= factor * (radius[i] + radius[j]):
-                ri, rj = find(i), find(j)
-                if ri != rj:
-                    parent[max(ri, rj)] = min(ri, rj)
-            b += 1
+    for i, j in edges:
+        ri, rj = find(i), find(j)
+        if ri != rj:
+            parent[max(ri, rj)] = min(ri, rj)
     return [find(i) for i in range(n)]
 
 

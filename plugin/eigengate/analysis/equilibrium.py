@@ -79,17 +79,25 @@ def classify(modes: Iterable[Mode], *, declared: int = 0, set_aside: bool = True
     whose members might be distinct, or a complex pair, in the exact matrix.
     """
     modes = list(modes)
-    sides = [side(m) for m in modes]
-    stable = sum(m.count for m, k in zip(modes, sides) if k < 0)
-    unstable = sum(m.count for m, k in zip(modes, sides) if k > 0)
-    boundary = [m for m, k in zip(modes, sides) if k == 0]
-    center = sum(m.count for m in boundary)
+    stable = unstable = center = 0
+    boundary, repeated = [], []
+    for m in modes:  # side(m), m.count and the repeated modes in one pass
+        re, u = m.s.real, m.uncertainty
+        count = m.count
+        if re < -u:
+            stable += count
+        elif re > u:
+            unstable += count
+        else:
+            boundary.append(m)
+            center += count
+        if m.multiplicity > 1:
+            repeated.append(m)
     n = stable + unstable + center
     reasons = []
     if any(m.s.real != 0.0 for m in boundary):  # on_boundary_inexact
         reasons.append("an eigenvalue lies within its numerical uncertainty of the boundary")
     zero = [m for m in boundary if abs(m.s) <= m.uncertainty]
-    repeated = [m for m in modes if m.multiplicity > 1]
     real_repeated = [m for m in repeated if not m.pair]
     detail = ""
     if stable and unstable:
@@ -128,5 +136,7 @@ def classify(modes: Iterable[Mode], *, declared: int = 0, set_aside: bool = True
             "every eigenvalue is a declared known mode, so the type is theirs")
     if reasons:
         detail += ("; " if detail else "") + "; ".join(reasons)
-    return Equilibrium(type=kind, stable=stable, unstable=unstable, center=center,
+    eq = object.__new__(Equilibrium)  # Equilibrium(...) without the frozen __init__'s cost
+    eq.__dict__.update(type=kind, stable=stable, unstable=unstable, center=center,
                        uncertain=bool(reasons), detail=detail)
+    return eq

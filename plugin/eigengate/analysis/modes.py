@@ -34,6 +34,7 @@ from . import small_modes
 from .bounds import (ENCLOSE_LIMIT, FIGURE_FLOOR, MAX_BLOCK, TOUCH, cap_defective, cluster_radius,
                      components, enclose, estimate, hoelder, map_to_s, sweep_order, touching,
                      touching_small)
+from .mode_order import _round_sig, mode_order, sort_key  # noqa: F401 (re-exported)
 from .small_lapack import SMALL_ORDER, small_eig, small_lapack  # noqa: F401 (SMALL_ORDER: public)
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -188,12 +189,6 @@ def _fmt_complex(z: complex, pair: bool) -> str:
     return f"{z.real:.6g}{sign}{abs(z.imag):.6g}j"
 
 
-def _round_sig(x: float, digits: int = 10) -> float:
-    if x == 0.0 or not math.isfinite(x):
-        return x
-    return round(x, digits - 1 - int(math.floor(math.log10(abs(x)))))
-
-
 def _decompose(model: Model):
     """Return eigenvalues, right vectors, left vectors (as columns), E-weighted left vectors,
     the norm the bounds scale with, the number of infinite eigenvalues, whether the matrix
@@ -293,7 +288,7 @@ def analyse(model: Model) -> Spectrum:
     n = model.n_states
     small = small_lapack(model.A) if model.E is None else None
     if small is not None:  # a small standard model: the same arithmetic, fewer numpy calls
-        lam, vr, vl, norm, balanced, work, absw = small_modes.decompose(model.A, small)
+        lam, vr, vl, both, norm, balanced, work, absw = small_modes.decompose(model.A, small)
         infinite = 0
     else:
         lam, vr, vl, ew, norm, infinite, balanced, work = _decompose(model)
@@ -305,7 +300,8 @@ def analyse(model: Model) -> Spectrum:
     # Defective eigenvalues: the Hölder-type scale of the QR/QZ backward error n·eps·‖A‖.
     base = BOUND_FACTOR * n * eps * max(norm, 2.2250738585072014e-308)
     if small is not None:
-        deltas, kappas, rhos, ewc = small_modes.bounds(work, absw, lam, vr, vl, norm, base)
+        deltas, kappas, rhos, ewc = small_modes.bounds(work, absw, lam, vr, vl, both, norm,
+                                                         base)
         sweep = sweep_order(lam.real.tolist())
         labels = None if rhos is None else touching_small(lams, rhos, TOUCH, sweep)
         clusters = _groups(touching_small(lams, deltas, CLUSTER_FACTOR, sweep))
@@ -325,20 +321,23 @@ def analyse(model: Model) -> Spectrum:
 
     # Participation p_ki = |v_ki · conj((E^H w)_ki)|, normalised to sum 1 per eigenvalue.
     raw = np.abs(vr * ewc)
-    sums = raw.sum(axis=0)
+    sums = np.add.reduce(raw, axis=0)  # raw.sum(axis=0)
     if 0.0 in sums.tolist():
         sums[sums == 0] = 1.0
     part = raw / sums
 
     tops = part.argmax(axis=0).tolist()
-    sizes = None if labels is None else collections.Counter(labels)
-    columns = list(part.T)  # part[:, i] for each i, the same views
-    rows, keys = [], []
+    # the discs' component sizes, unless each disc is alone in its own (the usual spectrum)
+    sizes = None if labels is None or labels == list(range(len(labels))) else \
+        collections.Counter(labels)
+    columns = part.T  # columns[i]: part[:, i], the same view
+    rows, keys, states = [], [], model.states
     for members in clusters:
-        if len(members) == 1:  # the common case: no numpy calls per eigenvalue
+        single = len(members) == 1
+        if single:  # the common case: no numpy calls per eigenvalue
             i = members[0]
             centre, err, geometric = lams[i], deltas[i], 1
-            kap, weights, top = kappas[i], columns[i], tops[i]
+            kap, top = kappas[i], tops[i]
         else:
             vals = lam[members]
             centre = complex(vals.mean())
@@ -357,14 +356,26 @@ def analyse(model: Model) -> Spectrum:
             centre = complex(centre.real, 0.0)
         elif centre.imag < 0:
             continue  # the conjugate cluster stands for this one
-        ring = cluster_radius(lams, rhos, labels, members, centre, sizes)
-        row = _mode_fields(model, centre, err, len(members), geometric, kap, weights, ring)
-        rows.append(row)
-        keys.append(sort_key(row, top))
+        if not single:
+            ring = cluster_radius(lams, rhos, labels, members, centre, sizes)
+        elif labels is None or (sizes is not None and sizes[labels[i]] != 1):
+            ring = math.inf  # cluster_radius of one disc: none, or not alone in its component
+        else:
+            ring = (abs(lams[i] - centre) + rhos[i]) * _WIDEN
+        mode = _mode(0, states, _mode_fields(model, centre, err, len(members), geometric, kap,
+                                             columns[i] if single else weights, ring))
+        rows.append(mode)
+        keys.append(top)
     # Least stable (largest Re s) first, on rounded keys so round-off cannot reorder ties.
-    order = sorted(range(len(rows)), key=keys.__getitem__)
-    modes = tuple(_mode(k + 1, model.states, rows[j]) for k, j in enumerate(order))
-    return Spectrum(model=model, modes=modes, infinite=infinite, norm=norm, balanced=balanced)
+    order = mode_order([m.s.real for m in rows],
+                       lambda j: sort_key(rows[j].__dict__, keys[j]))
+    modes = tuple([rows[j] for j in order])
+    for k, mode in enumerate(modes, 1):
+        mode.__dict__["index"] = k  # its place in the order (the first key of its fields)
+    spectrum = object.__new__(Spectrum)  # Spectrum(...) without the frozen __init__'s cost
+    spectrum.__dict__.update(model=model, modes=modes, infinite=infinite, norm=norm,
+                             balanced=balanced, search=None)
+    return spectrum
 
 
 def _mode(index: int, states: tuple[str, ...], row: dict) -> Mode:
@@ -378,16 +389,6 @@ def _mode(index: int, states: tuple[str, ...], row: dict) -> Mode:
     fields.update(row)
     fields["states"] = states
     return mode
-
-
-def sort_key(row: dict, top: int | None = None) -> tuple:
-    """Least stable (largest Re s) first, on rounded keys so round-off cannot reorder ties;
-    ``top``: the index of the largest participation factor, when known."""
-    if top is None:
-        import numpy as np
-
-        top = int(np.argmax(row["participation"]))
-    return (-_round_sig(row["s"].real), _round_sig(abs(row["s"].imag)), top)
 
 
 def _clusters(lam: "np.ndarray", delta: "np.ndarray") -> list[list[int]]:
@@ -442,6 +443,12 @@ def vector_rank(vectors: "np.ndarray", size: int) -> int:
     return int(max(1, np.sum(sv > min(10.0 * eps ** (1.0 / size) * sv[0], 0.5))))
 
 
+#: ``FIGURE_FLOOR · eps``: the relative rounding floor of s, as :func:`_mode_fields` scales it.
+_FLOOR = FIGURE_FLOOR * 2.0 ** -52
+#: :func:`~eigengate.analysis.bounds.cluster_radius`'s widening of a radius for its rounding.
+_WIDEN = 1.0 + 4.0 * 2.0 ** -53
+
+
 def _mode_fields(model: Model, centre: complex, err: float, multiplicity: int, geometric: int,
                  kappa: float, participation: "np.ndarray", ring: float = math.inf) -> dict:
     pair = centre.imag != 0.0
@@ -458,18 +465,20 @@ def _mode_fields(model: Model, centre: complex, err: float, multiplicity: int, g
             if centre.imag == 0.0 and centre.real < 0:
                 s = complex(s.real, math.pi / T)
             err_s = err / r / T  # not err/(r·T): r·T may underflow
-    if math.isfinite(s.real):  # rounding of s itself (and of the figures derived from it)
-        floor = FIGURE_FLOOR * 2.0 ** -52 * abs(s)
-        err_s, ring_s = max(err_s, floor), ring_s + floor
+    re = s.real
     wn = abs(s)
-    if math.isinf(s.real):
+    if math.isfinite(re):  # rounding of s itself (and of the figures derived from it)
+        floor = _FLOOR * wn
+        err_s, ring_s = floor if floor > err_s else err_s, ring_s + floor  # max(err_s, floor)
+    if math.isinf(re):
         zeta, tau = 1.0, 0.0
     elif wn == 0.0:
         zeta, tau = 0.0, math.inf
     else:
-        zeta = -s.real / wn + 0.0  # + 0.0 turns -0.0 into 0.0
-        tau = math.inf if s.real == 0.0 else -1.0 / s.real
-    return dict(eigenvalue=centre, s=s, multiplicity=multiplicity,
-                geometric_multiplicity=geometric, pair=pair, natural_frequency=wn,
-                damping_ratio=zeta, time_constant=tau, uncertainty=min(err_s, ring_s),
-                condition=kappa, participation=participation, enclosure=ring_s)
+        zeta = -re / wn + 0.0  # + 0.0 turns -0.0 into 0.0
+        tau = math.inf if re == 0.0 else -1.0 / re
+    return {"eigenvalue": centre, "s": s, "multiplicity": multiplicity,
+            "geometric_multiplicity": geometric, "pair": pair, "natural_frequency": wn,
+            "damping_ratio": zeta, "time_constant": tau,
+            "uncertainty": ring_s if ring_s < err_s else err_s,  # min(err_s, ring_s)
+            "condition": kappa, "participation": participation, "enclosure": ring_s}

@@ -23,7 +23,7 @@ from typing import TYPE_CHECKING, Any
 if TYPE_CHECKING:  # pragma: no cover
     import numpy as np
 
-__all__ = ["SMALL_ORDER", "small_lapack", "small_eig", "flapack"]
+__all__ = ["SMALL_ORDER", "small_lapack", "small_eig", "small_eig_stacked", "flapack"]
 
 #: Up to this order a float64 matrix takes the direct LAPACK calls.
 SMALL_ORDER = 32
@@ -71,11 +71,15 @@ def flapack() -> Any:
 def small_lapack(A: "np.ndarray") -> tuple | None:
     """``(gebal, geev, lwork)`` for a finite float64 matrix up to SMALL_ORDER; None otherwise
     (the general path, which also raises on non-finite entries as scipy does)."""
+    import math
+
     import numpy as np
 
     n = A.shape[0]
+    # a finite sum means finite entries (an inf or a nan makes it inf or nan); a sum that
+    # overflows from finite entries sends them to the general path, which gives the same
     if not (0 < n <= SMALL_ORDER and A.dtype == np.float64 and A.ndim == 2
-            and A.shape == (n, n) and np.isfinite(A).all()):
+            and A.shape == (n, n) and math.isfinite(np.add.reduce(A, axis=None))):
         return None
     return _lapack_for(n)
 
@@ -118,34 +122,64 @@ def _complex_vectors(w: "np.ndarray", vin: "np.ndarray") -> "np.ndarray":
     return v
 
 
-def _complex_pairs(vl: "np.ndarray", vr: "np.ndarray", first: list[int]):
-    """:func:`_complex_vectors` of both xGEEV outputs at once, for pairs that do not overlap
-    (first columns ``first``): the same values, in the same (Fortran) layout."""
+@functools.lru_cache(maxsize=256)
+def _pair_index(first: tuple[int, ...]) -> tuple:
+    """The indices of the first and second columns of the pairs ``first`` (kept: the same few
+    layouts of pairs recur from model to model): slices where the pairs follow each other
+    (every second column from one on, the usual layout: the same elements, copied faster),
+    index arrays otherwise."""
     import numpy as np
 
+    start = first[0] if first else 0
+    if list(first) == list(range(start, start + 2 * len(first), 2)):
+        stop = start + 2 * len(first)
+        return slice(start, stop, 2), slice(start + 1, stop, 2)
     one = np.array(first, dtype=np.intp)
+    one.flags.writeable = False
     two = one + 1
+    two.flags.writeable = False
+    return one, two
+
+
+def _complex_pairs(vl: "np.ndarray", vr: "np.ndarray", first: list[int]) -> "np.ndarray":
+    """:func:`_complex_vectors` of both xGEEV outputs at once, for pairs that do not overlap
+    (first columns ``first``): ``both``, whose rows ``both[0]``, ``both[1]`` are the columns
+    of vl and vr, so ``both[0].T``, ``both[1].T`` are the same values in the same (Fortran)
+    layout."""
+    import numpy as np
+
+    one, two = _pair_index(tuple(first))
     both = np.array((vl.T, vr.T), dtype=np.complex128)  # rows: the columns of vl, vr
     both.imag[:, one] = both.real[:, two]
     both[:, two] = both[:, one].conj()
-    return both[0].T, both[1].T
+    return both
 
 
 def small_eig(work: "np.ndarray", small: tuple):
     """``scipy.linalg.eig(work, left=True, right=True, check_finite=False)`` for a real
     float64 matrix, as scipy computes it (same routine, workspace and post-processing)."""
+    return small_eig_stacked(work, small)[:3]
+
+
+def small_eig_stacked(work: "np.ndarray", small: tuple):
+    """:func:`small_eig` and, where the vectors are complex pairs that do not overlap (the
+    usual layout), the array ``both`` that ``vl`` and ``vr`` are the transposed rows of
+    (see :func:`_complex_pairs`); None in its place otherwise."""
     _, geev, lwork = small
-    wr, wi, vl, vr, info = geev(work, lwork=lwork, compute_vl=1, compute_vr=1, overwrite_a=0)
+    # dgeev(a, compute_vl, compute_vr, lwork, overwrite_a), positional: f2py's faster parse
+    wr, wi, vl, vr, info = geev(work, 1, 1, lwork, 0)
     if info != 0:  # the general path raises scipy's own error
         import scipy.linalg as la
 
-        return la.eig(work, left=True, right=True, check_finite=False)
+        return la.eig(work, left=True, right=True, check_finite=False) + (None,)
     w = wr + 1j * wi
-    imag = w.imag.tolist()
+    imag = wi.tolist()  # w.imag but for the sign of a zero, which no test below sees
+    both = None
     if any(imag):  # not every imaginary part zero
         first = _pair_columns(imag)
         if first is not None:
-            vl, vr = _complex_pairs(vl, vr, first)
+            both = _complex_pairs(vl, vr, first)
+            vl, vr = both[0].T, both[1].T
         else:
             vl, vr = _complex_vectors(w, vl), _complex_vectors(w, vr)
-    return w, vl, vr
+    return w, vl, vr, both

@@ -13,7 +13,7 @@ from ..analysis.equilibrium import EQUILIBRIUM_TYPES
 if TYPE_CHECKING:  # pragma: no cover
     from ..analysis.modes import Mode
 
-__all__ = ["Rule", "RULES", "Verdict", "Figure", "rule_by_key", "DECIDED_BY"]
+__all__ = ["Rule", "RULES", "Verdict", "make_verdict", "Figure", "rule_by_key", "DECIDED_BY"]
 
 #: How a verdict was decided: by a certified enclosure, by the first-order estimate, or not.
 DECIDED_BY = ("certified", "estimated", "uncertain")
@@ -49,6 +49,22 @@ class Verdict:
     def __post_init__(self) -> None:
         if not self.decided_by:
             object.__setattr__(self, "decided_by", "uncertain" if self.uncertain else "estimated")
+
+
+def make_verdict(rule: str, name: str, requirement: str, passed: bool, uncertain: bool,
+                 measured: "float | str", threshold: "float | str", margin: "float | None",
+                 unit: str, offending: tuple, message: str, suggestion: "str | None" = None,
+                 decided_by: str = "", figure: "Figure | None" = None) -> Verdict:
+    """``Verdict(...)`` with the same arguments, filled in directly rather than through the
+    frozen ``__init__`` (one ``object.__setattr__`` per field): the same instance, the
+    fields in the same order, ``__post_init__``'s default of ``decided_by`` included."""
+    v = object.__new__(Verdict)
+    v.__dict__.update(
+        rule=rule, name=name, requirement=requirement, passed=passed, uncertain=uncertain,
+        measured=measured, threshold=threshold, margin=margin, unit=unit, offending=offending,
+        message=message, suggestion=suggestion,
+        decided_by=decided_by or ("uncertain" if uncertain else "estimated"), figure=figure)
+    return v
 
 
 @dataclass(frozen=True)

@@ -21,7 +21,8 @@ from ..analysis.equilibrium import classify, side
 from .known_modes import KnownMode, known_modes_verdict, split_known_modes
 from ..analysis.modes import Mode, Spectrum
 from ..analysis.sparse_modes import Target
-from .catalogue import RULES, Rule, Verdict
+from .catalogue import RULES, Rule, Verdict, make_verdict
+from .region_geometry import region_distance
 
 __all__ = [
     "Verdict", "Requirement", "Stability", "MinDecayRate", "MinDamping", "MaxFrequency",
@@ -61,9 +62,9 @@ class Requirement:
         return None
 
     def _verdict(self, **kw: Any) -> Verdict:
-        info = self.info
-        return Verdict(rule=info.id, name=info.name, requirement=self.spec(),
-                       unit=kw.pop("unit", info.unit), **kw)
+        info = RULES[self.rule]
+        return make_verdict(rule=info.id, name=info.name, requirement=self.spec(),
+                            unit=kw.pop("unit", info.unit), **kw)
 
 
 def _fmt(x: float) -> str:
@@ -99,8 +100,14 @@ def _threshold_verdict(req: Requirement, rows: list[tuple[Mode, float, float, fl
                             margin=None, offending=(), message=empty, decided_by="certified")
     sign = 1.0 if at_least else -1.0
     margins = [(m, sign * (v - threshold), u, v, c) for m, v, u, c in rows]
-    failing = [m for m, g, u, _, _ in margins if g < -u]
-    unsure = [m for m, g, u, _, _ in margins if abs(g) <= u]
+    failing, unsure, offending = [], [], []  # offending: both, in row order
+    for m, g, u, _, _ in margins:
+        if g < -u:
+            failing.append(m)
+            offending.append(m)
+        elif abs(g) <= u:  # never also failing: |g| ≤ u rules out g < −u
+            unsure.append(m)
+            offending.append(m)
     worst = min(margins, key=lambda t: (t[1], t[0].index))
     margin, worst_value = worst[1], worst[3]
     uncertain = bool(unsure)
@@ -109,7 +116,7 @@ def _threshold_verdict(req: Requirement, rows: list[tuple[Mode, float, float, fl
         decided = "certified" if any(_level(g, u, c) == "certified" for _, g, u, _, c in margins
                                      if g < -u) else "estimated"
     else:
-        decided = _weakest(_level(g, u, c) for _, g, u, _, c in margins)
+        decided = _weakest({_level(g, u, c) for _, g, u, _, c in margins})
     rel = "≥" if at_least else "≤"
     if failing:
         verb = "modes violate" if len(failing) > 1 else "mode violates"
@@ -122,9 +129,9 @@ def _threshold_verdict(req: Requirement, rows: list[tuple[Mode, float, float, fl
                    f"the on_uncertain={on_uncertain} policy")
     else:
         message = f"{what} {_fmt(worst_value)} {rel} {_fmt(threshold)} (margin {_fmt(margin)})"
-    offending = tuple(m for m, *_ in margins if m in failing or m in unsure)
     return req._verdict(passed=passed, uncertain=uncertain, measured=worst_value,
-                        threshold=threshold, margin=margin, offending=offending, message=message,
+                        threshold=threshold, margin=margin, offending=tuple(offending),
+                        message=message,
                         suggestion=None if passed else suggest(worst_value), decided_by=decided)
 
 
@@ -147,15 +154,27 @@ class Stability(Requirement):
 
     def check(self, modes, spectrum, on_uncertain):
         discrete = spectrum.model.discrete
-        unstable = [m for m in modes if side(m) > 0]
-        boundary = [m for m in modes if side(m) == 0]
-        # A boundary mode computed exactly on the boundary (Re s == 0.0) is taken as exact; one
-        # within its bound but off it may lie on either side, so it decides nothing for sure.
-        inexact = [m for m in boundary if m.s.real != 0.0]
-        exact = [m for m in boundary if m.s.real == 0.0]
+        # one pass: each mode's side (equilibrium.side) and, off the exact boundary, how it
+        # is decided (_side_level), in mode order
+        unstable, inexact, exact, decay, levels, total = [], [], [], [], set(), 0
+        for m in modes:
+            re, u = m.s.real, m.uncertainty
+            total += m.count
+            decay.append(-re)  # m.decay_rate
+            if not (re < -u or re > u) and re == 0.0:
+                exact.append(m)
+                continue
+            if re > u and not re < -u:
+                unstable.append(m)
+            elif not re < -u:
+                # A boundary mode computed exactly on the boundary (Re s == 0.0) is taken as
+                # exact; one within its bound but off it may lie on either side, so it decides
+                # nothing for sure.
+                inexact.append(m)
+            levels.add(_level(re, u, m.enclosure))
         defective = [m for m in exact if m.defective]
         simple = [m for m in exact if not m.defective]
-        margin = min((m.decay_rate for m in modes), default=math.inf)
+        margin = min(decay, default=math.inf)
         abscissa = -margin
         certain = unstable + defective + ([] if self.allow_marginal else simple)
         uncertain = bool(inexact)
@@ -186,7 +205,7 @@ class Stability(Requirement):
                          f" 1/s), worst {inexact[0].describe()}: could be {could}, not decided; "
                          + decided)
         if not parts:
-            parts.append(f"all {sum(m.count for m in modes)} eigenvalues "
+            parts.append(f"all {total} eigenvalues "
                          f"{'found ' if getattr(spectrum, 'search', None) else ''}satisfy {where}; "
                          f"slowest decay rate {_fmt(margin)} 1/s")
         if discrete:  # margin in the plane of the measured value: 1 - spectral radius
@@ -195,8 +214,7 @@ class Stability(Requirement):
             decided = "certified" if any(_side_level(m) == "certified" for m in unstable) \
                 else "estimated"
         else:
-            decided = _weakest([_side_level(m) for m in modes if m not in exact]
-                               + ["estimated"] * bool(exact))
+            decided = _weakest(levels | ({"estimated"} if exact else set()))
         return self._verdict(passed=passed, uncertain=uncertain, measured=measured,
                              decided_by=decided,
                              threshold=1.0 if discrete else 0.0,
@@ -272,32 +290,6 @@ class MaxFrequency(Requirement):
                                   suggest=lambda w: f"passes with max_frequency ≥ {_fmt(w)}")
 
 
-def region_distance(s: complex, alpha: float | None, zeta: float | None,
-                    omega: float | None) -> float:
-    """Signed s-plane distance from ``s`` to the boundary of the allowed region.
-
-    Positive inside. Inside, it is exact (the smallest distance to any constraint's boundary);
-    outside, it is the largest distance to a single violated constraint, a lower bound of the
-    distance to the region.
-    """
-    if math.isinf(s.real):
-        return math.inf
-    d = []
-    if alpha is not None:
-        d.append(-alpha - s.real)
-    if zeta is not None:
-        theta0 = math.acos(max(-1.0, min(1.0, zeta)))  # half-angle of the sector about -Re
-        r = abs(s)
-        phi = math.atan2(abs(s.imag), -s.real) if r > 0 else 0.0
-        gap = theta0 - phi
-        d.append(r * math.sin(gap) if abs(gap) < math.pi / 2 else math.copysign(r, gap))
-    if omega is not None:
-        d.append(omega - abs(s))
-    # Inside, the nearest boundary is the nearest constraint's; outside, min(d) is minus the
-    # largest single violation.
-    return min(d)
-
-
 @dataclass(frozen=True)
 class PoleRegion(Requirement):
     """All poles inside {Re s ≤ -α} ∩ {ζ ≥ ζmin} ∩ {|s| ≤ ωmax} (any subset of the three)."""
@@ -352,7 +344,9 @@ def origin(modes: Sequence[Mode], spectrum: Spectrum):
     and the description says so; when they are all the modes, there is nothing else to
     classify, so the origin is classified from all of them (a declared double zero stays a
     degenerate origin, never a node with no directions)."""
-    declared = spectrum.n_eigenvalues - sum(m.count for m in modes)
+    every = spectrum.modes
+    same = len(modes) == len(every) and all(a is b for a, b in zip(modes, every))
+    declared = 0 if same else spectrum.n_eigenvalues - sum(m.count for m in modes)
     seen = tuple(modes) if modes or not declared else spectrum.modes
     return classify(seen, declared=declared, set_aside=bool(modes)), seen
 
@@ -448,11 +442,15 @@ def evaluate(spectrum: Spectrum, requirements: Sequence[Requirement] | None = No
     policy = on_uncertain or model.on_uncertain or "fail"
     if policy not in ("fail", "pass"):
         raise ValueError(f"on_uncertain must be 'fail' or 'pass', got {policy!r}")
-    from .applicability import not_evaluable, unmet_for
-
     modes, taken = split_known_modes(spectrum, known)
     out = [known_modes_verdict(taken)] if known else []
-    refused = {id(r): why for r, why in unmet_for(model, reqs)}  # fail, never pass unseen
+    refused = {}
+    if any(getattr(r, "needs", "") for r in reqs):  # else unmet_for finds nothing unmet
+        from .applicability import unmet_for
+
+        refused = {id(r): why for r, why in unmet_for(model, reqs)}  # fail, never pass unseen
+    if refused:
+        from .applicability import not_evaluable
     if getattr(spectrum, "search", None) is not None:  # a sparse search: a partial spectrum
         from .partial import partial_verdict
 

@@ -27,16 +27,20 @@ def analyse_model(model: Model, config: "Config | None" = None) -> ModelResult:
     """Analyse one model and evaluate its requirements (the repository layers of ``config``
     below the model's own, when given); no waivers applied yet."""
     from ..analysis.sparse_modes import spectrum_of
-    from ..rules.partial import search_targets
     from ..rules.requirements import evaluate, origin, split_known_modes
 
     if config is not None:
         config = config.policy_for(model.source)  # a nested policy judges its own folder
         model = config.effective(model)
-    # a sparse model's search covers the regions its requirements judge
-    spectrum = spectrum_of(model, search_targets(model.requirements))
+    if model.sparse:  # a sparse model's search covers the regions its requirements judge
+        from ..rules.partial import search_targets
+
+        spectrum = spectrum_of(model, search_targets(model.requirements))
+    else:  # every eigenvalue: no regions to cover
+        spectrum = spectrum_of(model)
     verdicts = evaluate(spectrum) or (_nothing_checked(),)
-    remaining, _ = split_known_modes(spectrum, model.known_modes)
+    remaining = split_known_modes(spectrum, model.known_modes)[0] if model.known_modes \
+        else list(spectrum.modes)
     equilibrium = origin(remaining, spectrum)[0]
     if spectrum.search is not None:  # classified from the modes found: not decided
         from dataclasses import replace
