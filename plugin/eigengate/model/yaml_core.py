@@ -141,15 +141,22 @@ def _fast_resolution(loader: Any, yaml: Any) -> None:
 
 
 def parse_yaml(text: str, source: str) -> tuple[Any, dict[str, int]]:
-    import yaml
-
     from .yaml_events import may_be_plain, plain_document
+
+    plain_text = may_be_plain(text)
+    if plain_text:  # the line reader of block-style files (model.yaml_block), no PyYAML
+        from .yaml_block import block_document
+
+        found = block_document(text)
+        if found is not None:
+            return found
+    import yaml
 
     try:  # the pure-Python reader checks the characters already here
         loader = _yaml_loader_class()(text)
     except yaml.reader.ReaderError as exc:
         raise _unprintable(exc, text, source) from None
-    if may_be_plain(text):  # the short road; anything it declines takes the full one
+    if plain_text:  # the short road; anything it declines takes the full one
         try:
             plain = plain_document(loader)
         finally:
