@@ -95,7 +95,9 @@ def model_source(file: Path, root: Path) -> str:
     root_real = real_folder(os.fspath(root))
     real = os.path.realpath(file)
     if real.startswith(root_real) and real[len(root_real):len(root_real) + 1] in ("", os.sep):
-        source = Path(os.path.relpath(real, root_real)).as_posix()
+        # both paths are absolute and normalised: the relative path is the rest of ``real``
+        rest = real[len(root_real) + 1:] or "."
+        source = rest if os.sep == "/" else Path(rest).as_posix()
     else:
         here = os.path.join(real_folder(os.path.dirname(os.path.abspath(file))), file.name)
         if here.startswith(root_real + os.sep):

@@ -61,6 +61,10 @@ _NULLS = frozenset(("null", "Null", "NULL", "~"))
 _NOT_STR = frozenset(_BOOLS) | _NULLS
 
 
+#: The columns of the "-" of a line's items, from the first one's, by the text before them.
+_OFFSETS: dict[str, tuple[int, ...]] = {}
+
+
 class _Decline(Exception):
     """Not a document this reader is sure of: the other roads read it."""
 
@@ -155,9 +159,26 @@ def _build(text: str) -> tuple[dict[str, Any], dict[str, int]]:
         if dashes:
             if top_map:
                 raise _Decline  # "- " where a key belongs
-            columns = [col + i for i, ch in enumerate(dashes) if ch == "-"]
-            last = len(columns) - 1
-            for k, dash in enumerate(columns):
+            if first is not None:  # a matrix: its first row here, the rest in bulk
+                if len(stack) >= max_open:
+                    raise _Decline
+                i = len(top)
+                path = f"{top_path}.{i}" if top_path else str(i)
+                top.append([float(first)])
+                lines.setdefault(path, number)
+                number = _rest_of_matrix(found.group(0), indent, top, top_path, lines, number)
+                path = f"{top_path}.{len(top) - 1}" if top_path else str(len(top) - 1)
+                top, top_map, top_col, top_path = top[-1], False, col + 2, path
+                stack.append([top, False, top_col, path, False])
+                continue
+            offsets = _OFFSETS.get(dashes)
+            if offsets is None:
+                offsets = tuple(i for i, ch in enumerate(dashes) if ch == "-")
+                if len(dashes) <= 8:  # the usual few ("- ", "- - "), kept
+                    _OFFSETS[dashes] = offsets
+            last = len(offsets) - 1
+            for k, offset in enumerate(offsets):
+                dash = col + offset
                 i = len(top)
                 path = f"{top_path}.{i}" if top_path else str(i)
                 if k < last or key:
@@ -167,7 +188,7 @@ def _build(text: str) -> tuple[dict[str, Any], dict[str, int]]:
                     container = [] if inner else {}
                     top.append(container)
                     lines.setdefault(path, number)
-                    at = columns[k + 1] if inner else col + len(dashes)
+                    at = col + (offsets[k + 1] if inner else len(dashes))
                     stack.append([container, not inner, at, path, False])
                     top, top_map, top_col, top_path = container, not inner, at, path
                 elif decimal:
@@ -177,13 +198,7 @@ def _build(text: str) -> tuple[dict[str, Any], dict[str, int]]:
                 else:
                     top.append(None)
                     pending = (dash, False, top, i, path)
-            if first is not None:  # the other entries and rows of a matrix
-                outer, outer_path = stack[-2][0], stack[-2][3]
-                number = _rest_of_matrix(found.group(0), indent, outer, outer_path, lines,
-                                         number)
-                top, top_path = outer[-1], f"{outer_path}.{len(outer) - 1}"
-                stack[-1] = [top, False, top_col, top_path, False]
-            elif item is not None:
+            if item is not None:
                 number = _rest_of_run(found.group(0), top, number)
             if not key:
                 continue
