@@ -69,13 +69,21 @@ def load_models_with_refs(path: str | os.PathLike[str],
     """Like :func:`load_models`, also returning the repository-relative paths (POSIX) of the
     matrix files the model references, sorted and without repeats, so a cache can hash them."""
     file = Path(path)
-    base = Path(root) if root is not None else find_root(file)
+    base = _path(os.fspath(root)) if root is not None else find_root(file)
     source = model_source(file, base)
     data, lines = read_document(file, source)
     refs: list[str] = []
-    models = _load(data, source=source, root=base, base_dir=file.parent, lines=lines, refs=refs,
+    # the folder's Path from the (normalised) name of the file: equal to file.parent
+    models = _load(data, source=source, root=base,
+                   base_dir=_path(os.path.dirname(os.fspath(file))), lines=lines, refs=refs,
                    stem=file.stem, allow_python=allow_python)
     return models, sorted(set(refs))
+
+
+@functools.lru_cache(maxsize=256)
+def _path(name: str) -> Path:
+    """``Path(name)``, once per process for a root or model folder (a Path does not change)."""
+    return Path(name)
 
 
 @functools.lru_cache(maxsize=256)

@@ -69,7 +69,8 @@ def read_document(path: Path, source: str) -> tuple[dict[str, Any], dict[str, in
         When the file cannot be read, is empty, binary, not UTF-8, larger than
         :data:`MAX_MODEL_FILE_BYTES`, malformed, has duplicate keys or a non-mapping top level.
     """
-    path = Path(path)
+    if not isinstance(path, Path):
+        path = Path(path)
     suffix = path.suffix.lower()
     if suffix not in SUFFIXES:
         raise ModelError(source, "", f"has an unknown file type {path.suffix or '(none)'!r}",
