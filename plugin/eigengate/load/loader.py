@@ -14,7 +14,7 @@ from pathlib import Path
 from collections.abc import Mapping
 from typing import Any, Callable
 
-from ..model.formats import read_document, suggest
+from ..model.formats import printable_name, read_document, suggest
 from ..errors import ModelError
 from ..model.core import Model, sample_period_problem
 
@@ -98,8 +98,6 @@ def model_source(file: Path, root: Path) -> str:
     a link in the repository that points outside it is refused (like a matrix file's link,
     before anything of the target is read), as is a name that is not valid UTF-8 (shown with
     escapes). A file outside ``root`` that is not such a link keeps the path it was given."""
-    from ..model.formats import printable_name
-
     root_real = real_folder(os.fspath(root))
     real = os.path.realpath(file)
     if real.startswith(root_real) and real[len(root_real):len(root_real) + 1] in ("", os.sep):

@@ -12,6 +12,7 @@ from dataclasses import dataclass, field, fields
 from itertools import chain
 from typing import TYPE_CHECKING, Any, Mapping, Sequence
 
+from . import limits as _limits
 from ..errors import ModelError
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -237,9 +238,7 @@ def is_sparse(value: Any) -> bool:
 def dense_limit() -> int:
     """Most states of a dense model on this machine (:data:`MAX_STATES`, or fewer where
     physical memory cannot hold the dense analysis's copies; see ``model.limits``)."""
-    from .limits import dense_state_limit
-
-    return dense_state_limit(MAX_STATES)
+    return _limits.dense_state_limit(MAX_STATES)
 
 
 def _check_dense_size(shape: tuple[int, ...], bad) -> None:
@@ -431,9 +430,7 @@ def from_arrays(
     if a.shape[0] != a.shape[1]:
         raise ModelError(source, fld("A"), f"must be square, got {a.shape[0]}×{a.shape[1]}",
                          line=lines.get(fld("A")))
-    from .limits import MAX_SPARSE_STATES
-
-    limit = MAX_SPARSE_STATES if keep else dense_limit()
+    limit = _limits.MAX_SPARSE_STATES if keep else dense_limit()
     if n > limit:
         what = "a sparse" if keep else "a dense"
         raise ModelError(source, fld("A"), f"has {n} states, more than the limit of {limit} for "

@@ -12,6 +12,8 @@ import re
 from typing import Any
 
 from . import limits as _limits
+from .yaml_block import block_document
+from . import yaml_events as _events  # its functions read at call time (tests patch them)
 from ..errors import ModelError
 
 __all__ = ["parse_yaml"]
@@ -141,12 +143,8 @@ def _fast_resolution(loader: Any, yaml: Any) -> None:
 
 
 def parse_yaml(text: str, source: str) -> tuple[Any, dict[str, int]]:
-    from .yaml_events import may_be_plain, plain_document
-
-    plain_text = may_be_plain(text)
+    plain_text = _events.may_be_plain(text)
     if plain_text:  # the line reader of block-style files (model.yaml_block), no PyYAML
-        from .yaml_block import block_document
-
         found = block_document(text)
         if found is not None:
             return found
@@ -158,7 +156,7 @@ def parse_yaml(text: str, source: str) -> tuple[Any, dict[str, int]]:
         raise _unprintable(exc, text, source) from None
     if plain_text:  # the short road; anything it declines takes the full one
         try:
-            plain = plain_document(loader)
+            plain = _events.plain_document(loader)
         finally:
             loader.dispose()
         if plain is not None:
