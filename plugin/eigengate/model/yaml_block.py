@@ -238,8 +238,10 @@ def _rest_of_matrix(body: str, indent: str, outer: list[Any], path: str,
     a row starts as many lines after the one before as that one has entries. Returns the
     matrix's last line."""
     chunks = ("\n" + body).split("\n" + indent + "- ")  # "", then "- x ... - x" per row
-    outer[-1].extend(map(float, chunks[1].split()[3::2]))
-    rows = [list(map(float, chunk.split()[1::2])) for chunk in chunks[2:]]
+    entry = "\n" + indent + "  - "  # before every entry of a row after its first
+    # float() ignores the line break after a row's last entry
+    outer[-1].extend(map(float, chunks[1].split(entry)[1:]))
+    rows = [list(map(float, chunk[2:].split(entry))) for chunk in chunks[2:]]
     line = number + len(outer[-1])
     for i, row in enumerate(rows, len(outer)):
         lines[f"{path}.{i}"] = line  # a new path: no other node has it
