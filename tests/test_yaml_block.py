@@ -9,7 +9,6 @@ None, the sign of a zero) and the field-line map are identical. What resolves to
 1.2.2 spec, 10.3.2 Tag Resolution, through the loader's own resolver.
 """
 
-import math
 from pathlib import Path
 
 import pytest
@@ -18,34 +17,10 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from eigengate.errors import ModelError
-from eigengate.model import limits, yaml_block, yaml_core, yaml_events
+from eigengate.model import limits, yaml_block, yaml_events
+from test_yaml_events import _full, _short as _events, _typed  # the two roads, and types
 
 ROOT = Path(__file__).resolve().parent.parent
-
-
-def _full(text):
-    with pytest.MonkeyPatch.context() as m:
-        m.setattr(yaml_events, "may_be_plain", lambda t: False)
-        return yaml_core.parse_yaml(text, "m.yaml")
-
-
-def _events(text):
-    loader = yaml_core._yaml_loader_class()(text)
-    try:
-        return yaml_events.plain_document(loader)
-    finally:
-        loader.dispose()
-
-
-def _typed(x):
-    """Data with every scalar's type (and the sign of a zero) made visible to ==."""
-    if isinstance(x, dict):
-        return {k: _typed(v) for k, v in x.items()}
-    if isinstance(x, list):
-        return [_typed(v) for v in x]
-    if isinstance(x, float):
-        return ("float", x.hex() if math.isfinite(x) else repr(x))
-    return (type(x).__name__, x)
 
 
 def _same_or_declined(text):
