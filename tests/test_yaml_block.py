@@ -149,7 +149,8 @@ def test_hand_written_block_documents_are_read_the_same(text):
     "a:\n  b: 1\n c: 2\n", "a:\n- 1\n  - 2\n", "- a\n- b\n", "1.5\n", "  a: 1\n", "",
     "# only a comment\n", "a: =\n", "a: x:y\n", "a: b: c\n", "a: - x\n", "a: x#y\n", "a: é\n",
     "a: 1\r\nb: 2\r\n", "a:\n  - 1\n  b: 2\n", "a: 1\n- 2\n", "? a\n: 1\n", "a: ~x\n",
-    "a:\n    b: 1\n  c: 2\n", "a: \u00a0\n", "a: 1 # \x07\n",
+    "a:\n    b: 1\n  c: 2\n", "a: \u00a0\n", "a: 1 # \x07\n", "k" * 1100 + ": 1\n",
+    "a:\n- " + "k" * 1100 + ": 1\n",
 ])
 def test_what_the_line_reader_declines(text):
     assert yaml_block.block_document(text) is None

@@ -29,8 +29,10 @@ from . import limits as _limits
 __all__ = ["block_document"]
 
 #: A key: an identifier-like plain scalar (letters, digits, ``_`` and ``-``). With no dot
-#: in a key, and no key that looks like a list index, every dotted path names one node.
-_KEY = r"[A-Za-z_][A-Za-z0-9_\-]*"
+#: in a key, and no key that looks like a list index, every dotted path names one node. An
+#: implicit key is at most 1024 characters (YAML 1.2.2 spec, 7.4.3; libyaml refuses longer
+#: ones): longer keys are left to the other roads.
+_KEY = r"[A-Za-z_][A-Za-z0-9_\-]{0,200}"
 #: A decimal float (the event road's ``_DECIMAL``): a core-schema float that float() reads.
 _DEC = r"[-+]?(?:[0-9]+\.[0-9]*|\.[0-9]+)(?:[eE][-+]?[0-9]+)?"
 #: A plain scalar of one line: no indicator first (a ``-`` only before a letter, digit, ``_``
