@@ -51,8 +51,13 @@ scalars = (st.floats(allow_nan=False, allow_infinity=False) | st.integers(-10**1
 matrices = st.integers(1, 5).flatmap(lambda n: st.lists(
     st.lists(st.floats(-1e6, 1e6) | st.integers(-9, 9), min_size=n, max_size=n),
     min_size=1, max_size=5))
-documents = st.recursive(scalars | matrices, lambda inner: st.lists(inner, max_size=4)
-                         | st.dictionaries(keys, inner, max_size=4), max_leaves=30)
+
+
+def _nest(inner):
+    return st.lists(inner, max_size=4) | st.dictionaries(keys, inner, max_size=4)
+
+
+documents = st.recursive(scalars | matrices, _nest, max_leaves=30)
 
 
 friendly = (st.floats(allow_nan=False, allow_infinity=False) | st.integers(-10**9, 10**9)
@@ -60,9 +65,14 @@ friendly = (st.floats(allow_nan=False, allow_infinity=False) | st.integers(-10**
             | st.from_regex(r"[a-z][a-z0-9_ ()/=,;+-]{0,10}[a-z0-9)]", fullmatch=True))
 names = st.from_regex(r"[a-z][a-z0-9_]{0,6}", fullmatch=True).filter(
     lambda k: k not in ("true", "false", "null"))
-friendly_documents = st.recursive(
-    friendly | matrices, lambda inner: st.lists(inner, min_size=1, max_size=4)
-    | st.dictionaries(names, inner, min_size=1, max_size=4), max_leaves=30)
+
+
+def _nest_friendly(inner):
+    return st.lists(inner, min_size=1, max_size=4) | st.dictionaries(names, inner, min_size=1,
+                                                                     max_size=4)
+
+
+friendly_documents = st.recursive(friendly | matrices, _nest_friendly, max_leaves=30)
 
 
 def _decorate(text, data):
