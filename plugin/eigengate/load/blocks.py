@@ -13,6 +13,9 @@ from .inputs import ModelInputs
 from .parameters import parse_parameters
 from ..model.core import Model, as_matrix, from_arrays
 
+#: The fields of a plant block and of a controller block, in the order messages list them.
+_PLANT_KEYS = tuple(dict.fromkeys(SS_KEYS + TF_KEYS + SO_PLANT_KEYS))
+_CONTROLLER_KEYS = tuple(dict.fromkeys(CONTROLLER_SS_KEYS + CONTROLLER_TF_KEYS))
 _STRUCTURE = {"state_gain": "closed loop: state feedback",
               "output_gain": "closed loop: output feedback",
               "controller": "closed loop: dynamic controller"}
@@ -134,11 +137,8 @@ def _system(block: dict[str, Any], ctx: _Ctx, path: str, *, plant: bool) -> tupl
     """A plant or controller block, state space or transfer function, as a Model."""
     from ..model import interconnect as ic
 
-    ss_keys = SS_KEYS if plant else CONTROLLER_SS_KEYS
-    tf_keys = TF_KEYS if plant else CONTROLLER_TF_KEYS
     what = "a plant" if plant else "a controller"
-    so_keys = SO_PLANT_KEYS if plant else ()
-    _check_keys(block, tuple(dict.fromkeys(ss_keys + tf_keys + so_keys)), ctx, path, what)
+    _check_keys(block, _PLANT_KEYS if plant else _CONTROLLER_KEYS, ctx, path, what)
     ss_given = [k for k in ("A", "B", "C", "D", "E") if k in block]
     tf_given = [k for k in ("num", "den") if k in block]
     if ss_given and tf_given:

@@ -64,6 +64,8 @@ class _Ctx:
                           hint=hint)
 
     def prefixed_lines(self) -> dict[str, int]:
+        if not self.prefix:
+            return dict(self.lines)
         return {self.prefix + k: v for k, v in self.lines.items()}
 
 
@@ -80,6 +82,8 @@ def _check_keys(block: Mapping[str, Any], allowed: tuple[str, ...], ctx: _Ctx, p
 
 def _matrix(value: Any, ctx: _Ctx, path: str) -> Any:
     """Inline value as is (from_arrays converts it); a file reference loaded and checked."""
+    if value is None or type(value) is list:  # inline: no reference (a mapping) to load
+        return value
     from ..model.matrixfiles import is_reference, load_reference
 
     if value is None or not is_reference(value):

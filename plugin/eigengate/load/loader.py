@@ -14,7 +14,7 @@ from pathlib import Path
 from collections.abc import Mapping
 from typing import Any, Callable
 
-from ..model.formats import read_document, suggest
+from ..model.formats import printable_name, read_document, suggest
 from ..errors import ModelError
 from ..model.core import Model, sample_period_problem
 
@@ -69,13 +69,21 @@ def load_models_with_refs(path: str | os.PathLike[str],
     """Like :func:`load_models`, also returning the repository-relative paths (POSIX) of the
     matrix files the model references, sorted and without repeats, so a cache can hash them."""
     file = Path(path)
-    base = Path(root) if root is not None else find_root(file)
+    base = _path(os.fspath(root)) if root is not None else find_root(file)
     source = model_source(file, base)
     data, lines = read_document(file, source)
     refs: list[str] = []
-    models = _load(data, source=source, root=base, base_dir=file.parent, lines=lines, refs=refs,
+    # the folder's Path from the (normalised) name of the file: equal to file.parent
+    models = _load(data, source=source, root=base,
+                   base_dir=_path(os.path.dirname(os.fspath(file))), lines=lines, refs=refs,
                    stem=file.stem, allow_python=allow_python)
     return models, sorted(set(refs))
+
+
+@functools.lru_cache(maxsize=256)
+def _path(name: str) -> Path:
+    """``Path(name)``, once per process for a root or model folder (a Path does not change)."""
+    return Path(name)
 
 
 @functools.lru_cache(maxsize=256)
@@ -90,12 +98,12 @@ def model_source(file: Path, root: Path) -> str:
     a link in the repository that points outside it is refused (like a matrix file's link,
     before anything of the target is read), as is a name that is not valid UTF-8 (shown with
     escapes). A file outside ``root`` that is not such a link keeps the path it was given."""
-    from ..model.formats import printable_name
-
     root_real = real_folder(os.fspath(root))
     real = os.path.realpath(file)
     if real.startswith(root_real) and real[len(root_real):len(root_real) + 1] in ("", os.sep):
-        source = Path(os.path.relpath(real, root_real)).as_posix()
+        # both paths are absolute and normalised: the relative path is the rest of ``real``
+        rest = real[len(root_real) + 1:] or "."
+        source = rest if os.sep == "/" else Path(rest).as_posix()
     else:
         here = os.path.join(real_folder(os.path.dirname(os.path.abspath(file))), file.name)
         if here.startswith(root_real + os.sep):

@@ -7,10 +7,12 @@ same errors with the same wording.
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass, field, fields
 from itertools import chain
 from typing import TYPE_CHECKING, Any, Mapping, Sequence
 
+from . import limits as _limits
 from ..errors import ModelError
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -38,6 +40,7 @@ MIN_SCALE = 1e-150
 MIN_SAMPLE_PERIOD = 1e-15
 MAX_SAMPLE_PERIOD = 1e15
 _NUMBER_TYPES = frozenset((int, float))  # exact types: bool, a subclass of int, is refused
+_LIST_TYPE = {list}
 
 
 @dataclass(frozen=True, eq=False)
@@ -194,11 +197,11 @@ def as_matrix(
         arr = np.array(arr, dtype=float, copy=True)
     else:
         rows = value if type(value) is list and value and \
-            all(type(row) is list for row in value) else _rows_of(value, bad, allow_vector)
+            set(map(type, value)) == _LIST_TYPE else _rows_of(value, bad, allow_vector)
         width = len(rows[0]) if rows else 0
-        # Fast path: one pass in C over the entry types; the loop below only runs to find
-        # and name the first bad entry.
-        rows_ok = all(len(row) == width for row in rows) and \
+        # Fast path: passes in C over the row lengths and entry types; the loop below only
+        # runs to find and name the first bad entry.
+        rows_ok = len(set(map(len, rows))) <= 1 and \
             set(map(type, chain.from_iterable(rows))) <= _NUMBER_TYPES
         for i, row in enumerate(() if rows_ok else rows):
             if len(row) != width:
@@ -235,9 +238,7 @@ def is_sparse(value: Any) -> bool:
 def dense_limit() -> int:
     """Most states of a dense model on this machine (:data:`MAX_STATES`, or fewer where
     physical memory cannot hold the dense analysis's copies; see ``model.limits``)."""
-    from .limits import dense_state_limit
-
-    return dense_state_limit(MAX_STATES)
+    return _limits.dense_state_limit(MAX_STATES)
 
 
 def _check_dense_size(shape: tuple[int, ...], bad) -> None:
@@ -338,10 +339,16 @@ def _rows_of(value: Any, bad, allow_vector: bool) -> list[list[Any]]:
               "write [[a, b]] for one row or [[a], [b]] for one column")
 
 
+@functools.lru_cache(maxsize=256)
+def _default_names(prefix: str, count: int) -> tuple[str, ...]:
+    """``(x1, x2, ...)``: the same tuple for every model of a size (tuples do not change)."""
+    return tuple(f"{prefix}{i + 1}" for i in range(count))
+
+
 def _names(given: Sequence[str] | None, count: int, prefix: str, source: str, field_path: str,
            lines: Mapping[str, int]) -> tuple[str, ...]:
     if given is None:
-        return tuple(f"{prefix}{i + 1}" for i in range(count))
+        return _default_names(prefix, count)
     names = tuple(given)
     line = lines.get(field_path)
     if len(names) != count:
@@ -423,9 +430,7 @@ def from_arrays(
     if a.shape[0] != a.shape[1]:
         raise ModelError(source, fld("A"), f"must be square, got {a.shape[0]}×{a.shape[1]}",
                          line=lines.get(fld("A")))
-    from .limits import MAX_SPARSE_STATES
-
-    limit = MAX_SPARSE_STATES if keep else dense_limit()
+    limit = _limits.MAX_SPARSE_STATES if keep else dense_limit()
     if n > limit:
         what = "a sparse" if keep else "a dense"
         raise ModelError(source, fld("A"), f"has {n} states, more than the limit of {limit} for "

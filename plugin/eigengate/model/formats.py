@@ -11,6 +11,7 @@ loader's business.
 from __future__ import annotations
 
 import json
+import os
 import re
 from pathlib import Path
 from typing import Any, Iterable
@@ -59,7 +60,8 @@ def read_document(path: Path, source: str) -> tuple[dict[str, Any], dict[str, in
         When the file cannot be read, is empty, binary, not UTF-8, larger than
         :data:`MAX_MODEL_FILE_BYTES`, malformed, has duplicate keys or a non-mapping top level.
     """
-    path = Path(path)
+    if not isinstance(path, Path):
+        path = Path(path)
     suffix = path.suffix.lower()
     if suffix not in SUFFIXES:
         raise ModelError(source, "", f"has an unknown file type {path.suffix or '(none)'!r}",
@@ -79,30 +81,47 @@ def read_regular(path: "str | Path", source: str, limit: int, hint: str | None =
     import os
     import stat
 
-    what = {stat.S_IFIFO: "a FIFO", stat.S_IFSOCK: "a socket", stat.S_IFCHR: "a device",
-            stat.S_IFBLK: "a device", stat.S_IFDIR: "a folder"}
-    flags = os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_NOCTTY", 0) \
-        | getattr(os, "O_BINARY", 0)
     try:
         st = os.stat(path)
         if not stat.S_ISREG(st.st_mode):
-            raise _not_regular(source, what.get(stat.S_IFMT(st.st_mode), "not a file"))
+            raise _not_regular(source, st.st_mode)
         if st.st_size > limit:
             raise _too_big(source, st.st_size, limit, hint)
-        fd = os.open(path, flags)
-        with os.fdopen(fd, "rb") as fh:
-            st = os.fstat(fh.fileno())  # what was opened, in case it changed since
+        fd = os.open(path, _READ_FLAGS)
+        try:
+            st = os.fstat(fd)  # what was opened, in case it changed since
             if not stat.S_ISREG(st.st_mode):
-                raise _not_regular(source, what.get(stat.S_IFMT(st.st_mode), "not a file"))
-            raw = fh.read(limit + 1)
+                raise _not_regular(source, st.st_mode)
+            # os.read, not a file object: one read of the whole file and one at its end
+            # (plain reads until the end of the file or past the limit)
+            parts, size, want = [], 0, min(st.st_size, limit) + 1
+            while size <= limit:
+                part = os.read(fd, want)
+                if not part:
+                    break
+                parts.append(part)
+                size += len(part)
+                want = min(limit + 1 - size, 1 << 16)
+        finally:
+            os.close(fd)
     except OSError as exc:
         raise ModelError(source, "", f"cannot be read: {exc.strerror or exc}") from None
+    raw = parts[0] if len(parts) == 1 else b"".join(parts)
     if len(raw) > limit:
         raise _too_big(source, len(raw), limit, hint)
     return raw
 
 
-def _not_regular(source: str, kind: str) -> ModelError:
+_READ_FLAGS = os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_NOCTTY", 0) \
+    | getattr(os, "O_BINARY", 0)
+
+
+def _not_regular(source: str, mode: int) -> ModelError:
+    import stat
+
+    kind = {stat.S_IFIFO: "a FIFO", stat.S_IFSOCK: "a socket", stat.S_IFCHR: "a device",
+            stat.S_IFBLK: "a device", stat.S_IFDIR: "a folder"}.get(stat.S_IFMT(mode),
+                                                                   "not a file")
     return ModelError(source, "", f"cannot be read: it is {kind}, not a regular file",
                       hint="model files are ordinary files")
 

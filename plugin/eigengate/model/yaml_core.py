@@ -12,6 +12,8 @@ import re
 from typing import Any
 
 from . import limits as _limits
+from .yaml_block import block_document
+from . import yaml_events as _events  # its functions read at call time (tests patch them)
 from ..errors import ModelError
 
 __all__ = ["parse_yaml"]
@@ -141,17 +143,20 @@ def _fast_resolution(loader: Any, yaml: Any) -> None:
 
 
 def parse_yaml(text: str, source: str) -> tuple[Any, dict[str, int]]:
+    plain_text = _events.may_be_plain(text)
+    if plain_text:  # the line reader of block-style files (model.yaml_block), no PyYAML
+        found = block_document(text)
+        if found is not None:
+            return found
     import yaml
-
-    from .yaml_events import may_be_plain, plain_document
 
     try:  # the pure-Python reader checks the characters already here
         loader = _yaml_loader_class()(text)
     except yaml.reader.ReaderError as exc:
         raise _unprintable(exc, text, source) from None
-    if may_be_plain(text):  # the short road; anything it declines takes the full one
+    if plain_text:  # the short road; anything it declines takes the full one
         try:
-            plain = plain_document(loader)
+            plain = _events.plain_document(loader)
         finally:
             loader.dispose()
         if plain is not None:
