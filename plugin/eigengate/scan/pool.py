@@ -102,12 +102,17 @@ def _context():
     return mp.get_context("spawn")  # pragma: no cover - not on Linux
 
 
+def _helpers() -> tuple[Any, Any]:
+    """multiprocessing's forkserver and resource tracker objects (None for one whose module
+    was never imported: it cannot be running, and a forked pool imports neither)."""
+    forkserver = sys.modules.get("multiprocessing.forkserver")
+    tracker = sys.modules.get("multiprocessing.resource_tracker")
+    return getattr(forkserver, "_forkserver", None), getattr(tracker, "_resource_tracker", None)
+
+
 def _helpers_running() -> tuple[bool, bool]:
     """Whether multiprocessing's forkserver and resource tracker processes are running."""
-    from multiprocessing import forkserver, resource_tracker
-
-    server = getattr(forkserver, "_forkserver", None)
-    tracker = getattr(resource_tracker, "_resource_tracker", None)
+    server, tracker = _helpers()
     return (getattr(server, "_forkserver_pid", None) is not None,
             getattr(tracker, "_pid", None) is not None)
 
@@ -115,12 +120,7 @@ def _helpers_running() -> tuple[bool, bool]:
 def _stop_helpers(before: tuple[bool, bool]) -> None:
     """Stop the forkserver and resource tracker when this pool started them (their ``_stop``
     is what the standard library's own tests use; absent, they exit with this process)."""
-    from multiprocessing import forkserver, resource_tracker
-
-    now = _helpers_running()
-    for was, running, helper in ((before[0], now[0], getattr(forkserver, "_forkserver", None)),
-                                 (before[1], now[1],
-                                  getattr(resource_tracker, "_resource_tracker", None))):
+    for was, running, helper in zip(before, _helpers_running(), _helpers()):
         stop = getattr(helper, "_stop", None)
         if running and not was and stop is not None:
             try:
