@@ -22,18 +22,17 @@ itself (README, .gitignore, CACHEDIR.TAG).
 
 from __future__ import annotations
 
-import array
 import hashlib
 import json
 import os
-import struct
-import sys
 import time
-import zlib
 from pathlib import Path
 from typing import Any, Callable
 
+from .pack import (  # noqa: F401 (re-exported: the pack format)
+    Pack, PackBlobs, RawBlobs, read_pack, write_pack)
 from .pool import item_bytes
+from .status_records import is_record, record_value, signature
 from .summary import summary_of
 
 __all__ = ["ResultCache", "Pack", "PackBlobs", "RawBlobs", "CACHE_DIR", "read_pack", "write_pack"]
@@ -56,204 +55,6 @@ def _sha(data: bytes) -> str:
 #: A file changed this soon before a check began could change again within the same
 #: timestamp tick without its status showing it: its status is not recorded.
 _RACY_NS = 2_000_000_000
-
-
-def _signature(st: os.stat_result) -> list[int]:
-    return [st.st_size, st.st_mtime_ns, st.st_ctime_ns, st.st_ino]
-
-
-#: First bytes of a pack; then the sizes of head, index and body and a CRC-32 of all three
-#: (little-endian, 8+8+8+4 bytes).
-_MAGIC = b"eigengate result pack\n"
-_HEADER = struct.Struct("<QQQI")
-#: Per blob, in the index: offset and size in the body, rows and columns (-1, -1 for a text).
-_INDEX_COLUMNS = 4
-
-
-class Pack:
-    """A pack read back and checked: its head (JSON), blob index and body."""
-
-    def __init__(self, head: dict, index: list, body: memoryview) -> None:
-        self.head, self._body = head, body
-        #: offset, size, rows, columns of each blob in turn, flat (a row per blob would cost
-        #: a list per blob to build: thousands for each warm check)
-        self._index = index
-        self._count = len(index) // _INDEX_COLUMNS
-
-    def row(self, i: int) -> tuple[int, int, int, int]:
-        """Offset, size, rows and columns of blob ``i``."""
-        k = _INDEX_COLUMNS * i
-        f = self._index
-        return f[k], f[k + 1], f[k + 2], f[k + 3]
-
-    def shapes(self, first: int, count: int) -> list[tuple[int, int] | None]:
-        f = self._index
-        return [None if f[k + 3] < 0 else (f[k + 2], f[k + 3])
-                for k in range(_INDEX_COLUMNS * first, _INDEX_COLUMNS * (first + count),
-                               _INDEX_COLUMNS)]
-
-    def blobs(self, first: Any, count: Any) -> "PackBlobs":
-        """The blobs of one entry; ValueError when its span is not within the index."""
-        if type(first) is not int or type(count) is not int or not (
-                0 <= first and 0 <= count <= self._count - first):
-            raise ValueError("entry blobs lie outside the pack index")
-        return PackBlobs(self, first, count)
-
-    def items(self, first: Any, count: Any) -> list[tuple[bytes, list | None]]:
-        """An entry's blobs as ``(bytes, shape or None)``, as :func:`write_pack` takes them;
-        ValueError when its span is not within the index."""
-        self.blobs(first, count)
-        out = []
-        for off, size, rows, cols in map(self.row, range(first, first + count)):
-            out.append((bytes(self._body[off:off + size]), None if cols < 0 else [rows, cols]))
-        return out
-
-
-class _BlobReader:
-    """Reading methods of :class:`eigengate.scan.serial.Blobs` over raw blobs: each is its
-    bytes (float64, little-endian, or UTF-8 JSON) with its shape (None for a text), served
-    by ``_raw``."""
-
-    __slots__ = ()
-
-    def _raw(self, i: Any) -> tuple[Any, int, int]:  # pragma: no cover - abstract
-        raise NotImplementedError
-
-    def array(self, i: Any):
-        import numpy as np
-
-        raw, rows, cols = self._raw(i)
-        if cols < 0:
-            raise ValueError(f"blob {i} is not an array")
-        return np.frombuffer(raw, dtype="<f8", count=rows * cols).reshape(rows, cols)
-
-    def rows(self, i: Any) -> list[list[float]]:
-        """An array blob as rows of Python floats, read without numpy (a warm re-check
-        renders findings' mode rows from these)."""
-        raw, rows, cols = self._raw(i)
-        if cols < 0:
-            raise ValueError(f"blob {i} is not an array")
-        flat = _little("d", raw).tolist()
-        return [flat[k:k + cols] for k in range(0, rows * cols, cols)]
-
-    def json(self, i: Any):
-        raw, _, cols = self._raw(i)
-        if cols >= 0:
-            raise ValueError(f"blob {i} is not a text")
-        return json.loads(bytes(raw))
-
-
-class PackBlobs(_BlobReader):
-    """The blobs of one cache entry, served from the body of its pack."""
-
-    __slots__ = ("_pack", "_first", "_count")
-
-    def __init__(self, pack: Pack, first: int, count: int) -> None:
-        self._pack, self._first, self._count = pack, first, count
-
-    def _raw(self, i: Any) -> tuple[Any, int, int]:
-        if type(i) is not int or not 0 <= i < self._count:
-            raise ValueError(f"blob {i!r} is not one of the entry's {self._count}")
-        off, size, rows, cols = self._pack.row(self._first + i)
-        return self._pack._body[off:off + size], rows, cols
-
-    def shapes(self) -> list[tuple[int, int] | None]:
-        """``(rows, columns)`` of each array blob, None for each text."""
-        return self._pack.shapes(self._first, self._count)
-
-
-class RawBlobs(_BlobReader):
-    """Blobs as a worker sends them (``(bytes, [rows, columns] or None)``, what
-    :func:`write_pack` takes), checked on arrival: sizes fit shapes."""
-
-    __slots__ = ("_items", "_shapes")
-
-    def __init__(self, items: list) -> None:
-        shapes: list[tuple[int, int] | None] = []
-        for raw, shape in items:
-            if shape is None:
-                shapes.append(None)
-                continue
-            rows, cols = shape
-            if rows < 0 or cols < 0 or len(raw) != 8 * rows * cols:
-                raise ValueError("blob size does not fit its shape")
-            shapes.append((rows, cols))
-        self._items, self._shapes = items, shapes
-
-    def _raw(self, i: Any) -> tuple[Any, int, int]:
-        if type(i) is not int or not 0 <= i < len(self._items):
-            raise ValueError(f"blob {i!r} is not one of the entry's {len(self._items)}")
-        raw, shape = self._items[i]
-        return (raw, -1, -1) if shape is None else (raw, shape[0], shape[1])
-
-    def shapes(self) -> list[tuple[int, int] | None]:
-        return self._shapes
-
-
-def _little(code: str, raw) -> array.array:
-    """Little-endian 8-byte numbers of ``raw`` as an array of this machine's order."""
-    out = array.array(code)
-    out.frombytes(raw)
-    if sys.byteorder != "little":  # pragma: no cover - big-endian machines
-        out.byteswap()
-    return out
-
-
-def write_pack(head: dict, entry_blobs: dict[str, list[tuple[bytes, list | None]]]) -> bytes:
-    """The bytes of a pack: ``head`` (whose entries get their ``blobs`` as ``[first, count]``
-    in the index) and, for each entry key, its blobs as ``(bytes, shape or None)``. Blobs
-    are 8-byte aligned in the body."""
-    chunks: list[bytes] = []
-    index: list[tuple[int, int, int, int]] = []
-    size = 0
-    for key, items in entry_blobs.items():
-        head["entries"][key]["blobs"] = [len(index), len(items)]
-        for raw, shape in items:
-            pad = -size % 8
-            if pad:
-                chunks.append(b"\0" * pad)
-                size += pad
-            rows, cols = (-1, -1) if shape is None else shape
-            index.append((size, len(raw), rows, cols))
-            chunks.append(raw)
-            size += len(raw)
-    head_bytes = json.dumps(head, separators=(",", ":")).encode("utf-8")
-    flat = array.array("q", [v for row in index for v in row])
-    if sys.byteorder != "little":  # pragma: no cover - big-endian machines
-        flat.byteswap()
-    index_bytes = flat.tobytes()
-    body = b"".join(chunks)
-    crc = zlib.crc32(body, zlib.crc32(index_bytes, zlib.crc32(head_bytes)))
-    return b"".join((_MAGIC, _HEADER.pack(len(head_bytes), len(index), len(body), crc),
-                     head_bytes, index_bytes, body))
-
-
-def read_pack(raw: bytes) -> Pack:
-    """A pack from its bytes, checked whole (sizes, checksum, every blob inside the body with
-    a size that fits its shape); ValueError when it is not one, or not whole."""
-    start = len(_MAGIC) + _HEADER.size
-    if raw[:len(_MAGIC)] != _MAGIC or len(raw) < start:
-        raise ValueError("not an eigengate result pack")
-    n_head, n_blobs, n_body, crc = _HEADER.unpack_from(raw, len(_MAGIC))
-    n_index = 8 * _INDEX_COLUMNS * n_blobs
-    if len(raw) != start + n_head + n_index + n_body:
-        raise ValueError("pack size does not match its header")
-    view = memoryview(raw)
-    head_bytes = view[start:start + n_head]
-    index_bytes = view[start + n_head:start + n_head + n_index]
-    body = view[start + n_head + n_index:]
-    if zlib.crc32(body, zlib.crc32(index_bytes, zlib.crc32(head_bytes))) != crc:
-        raise ValueError("pack checksum does not match")
-    flat = _little("q", index_bytes).tolist()
-    c = _INDEX_COLUMNS
-    for off, size, rows, cols in zip(flat[0::c], flat[1::c], flat[2::c], flat[3::c]):
-        if off < 0 or size < 0 or off > n_body - size or (
-                rows != -1 if cols < 0 else rows < 0 or size != 8 * rows * cols):
-            raise ValueError("pack index does not fit its body")
-    head = json.loads(bytes(head_bytes))
-    if not isinstance(head, dict):
-        raise ValueError("pack head is not an object")
-    return Pack(head, flat, body)
 
 
 class ResultCache:
@@ -308,17 +109,11 @@ class ResultCache:
     def _recorded(self, table: str, rel: str, st: os.stat_result) -> str | None:
         if self._old is None:
             self._entries()
-        row = self._noted[table].get(rel) or self._tables[table].get(rel)
-        # _signature(st), compared field by field (a warm check asks this of every file)
-        if type(row) is list and len(row) == 5 and row[0] == st.st_size \
-                and row[1] == st.st_mtime_ns and row[2] == st.st_ctime_ns \
-                and row[3] == st.st_ino and type(row[4]) is str:
-            return row[4]
-        return None
+        return record_value(self._noted[table].get(rel) or self._tables[table].get(rel), st)
 
     def _note(self, table: str, rel: str, st: os.stat_result | None, value: str) -> None:
         if st is not None and max(st.st_mtime_ns, st.st_ctime_ns) < self._started - _RACY_NS:
-            row = _signature(st) + [value]
+            row = signature(st) + [value]
             self._entries()
             if self._tables[table].get(rel) != row:  # only what is new makes a save
                 self._noted[table][rel] = row
@@ -328,13 +123,13 @@ class ResultCache:
         ("files", "refs", "sniff") as the next save writes it, or None."""
         self._entries()
         row = self._noted[table].get(rel) or self._tables[table].get(rel)
-        return row if type(row) is list and len(row) == 5 and type(row[4]) is str else None
+        return row if is_record(row) else None
 
     def status_table(self, table: str) -> dict[str, list]:
         """Every status record of ``table`` as the next save writes it."""
         self._entries()
         return {rel: row for rel, row in {**self._tables[table], **self._noted[table]}.items()
-                if type(row) is list and len(row) == 5 and type(row[4]) is str}
+                if is_record(row)}
 
     def entry_refs(self, key: str) -> dict[str, str] | None:
         """The referenced files of entry ``key`` with their hashes (made or used in this
@@ -463,7 +258,7 @@ class ResultCache:
         for table, wanted in (("files", entries), ("refs", refs)):
             rows = {**self._tables[table], **self._noted[table]}
             head[table] = {rel: row for rel, row in rows.items()
-                           if type(row) is list and len(row) == 5 and row[4] in wanted}
+                           if is_record(row) and row[4] in wanted}
         sniff = {**self._tables["sniff"], **self._noted["sniff"]}
         head["sniff"] = dict(list(sniff.items())[-self.MAX_ENTRIES:])
         raw = write_pack(head, blobs)

@@ -32,6 +32,7 @@ from typing import TYPE_CHECKING, Any, Sequence
 
 from .cache_format import CACHE_DIR, FORMAT, cache_name as _name
 from .digests import hasher
+from .status_records import record_value, signature
 
 if TYPE_CHECKING:  # pragma: no cover
     from .cache import ResultCache
@@ -57,20 +58,6 @@ def _checksum(payload: bytes) -> bytes:
     h = hasher(20)
     h.update(payload)
     return h.hexdigest().encode()
-
-
-def _sig(st: os.stat_result) -> list[int]:
-    return [st.st_size, st.st_mtime_ns, st.st_ctime_ns, st.st_ino]
-
-
-def _row_value(row: Any, st: os.stat_result | None) -> str | None:
-    """The value of a status record ``[size, mtime, ctime, inode, value]`` when ``st``
-    matches it, else None."""
-    if st is not None and type(row) is list and len(row) == 5 and row[0] == st.st_size \
-            and row[1] == st.st_mtime_ns and row[2] == st.st_ctime_ns \
-            and row[3] == st.st_ino and type(row[4]) is str:
-        return row[4]
-    return None
 
 
 class ReportMemo:
@@ -118,7 +105,7 @@ class ReportMemo:
         class Records:
             @staticmethod
             def sniffed(rel: str, st: os.stat_result) -> bool | None:
-                said = _row_value(sniff.get(rel), st)
+                said = record_value(sniff.get(rel), st)
                 if said is None:
                     raise _Miss
                 return said == "model"
@@ -133,12 +120,13 @@ class ReportMemo:
         try:
             found = find_model_files(
                 list(paths), self.config, filter_named=filter_named, unselected=unselected,
-                sniffs=Records(), known=lambda rel, st: _row_value(files.get(_name(self.config, rel)), st)
+                sniffs=Records(),
+                known=lambda rel, st: record_value(files.get(_name(self.config, rel)), st)
                 is not None)
             keys = []
             for f in found:
                 key = None if f.content is not None else \
-                    _row_value(files.get(_name(self.config, f.rel)), f.stat)
+                    record_value(files.get(_name(self.config, f.rel)), f.stat)
                 if key is None:
                     raise _Miss  # not recorded (new, changed, racy), or not readable
                 keys.append(key)
@@ -153,7 +141,7 @@ class ReportMemo:
                             st = os.stat(Path(self.config.root) / rel)
                         except (OSError, TypeError, ValueError):
                             raise _Miss from None
-                        digest = _row_value(data["refs"].get(rel), st)
+                        digest = record_value(data["refs"].get(rel), st)
                         if digest is None:
                             raise _Miss
                         refs[rel] = digest
@@ -176,7 +164,7 @@ class ReportMemo:
         for policy in self.config.policies():
             try:
                 st = os.stat(policy.baseline_path)
-                baselines.append([policy.base, policy.digest, _sig(st)])
+                baselines.append([policy.base, policy.digest, signature(st)])
             except OSError:
                 baselines.append([policy.base, policy.digest, None])
         h = hasher(20)
