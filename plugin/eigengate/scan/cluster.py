@@ -126,7 +126,7 @@ def _analyse_chunk(spec: tuple[str, str | None, str, str], paths: list[str]) -> 
     was = gc.isenabled()
     gc.disable()
     try:
-        return [encoded(p, config) for p in paths]
+        return encoded(paths, config)
     finally:
         if was:
             gc.enable()
@@ -261,7 +261,7 @@ def chunk_sizes(files: int, threads: int) -> list[int]:
 
 def cluster_run(todo: Sequence[tuple[int, str, Any]], names: Sequence[str], config: Config,
                 address: str, remote: Callable[[list, list[Outcome]], None],
-                step: Callable[[int], None], local: Callable[[tuple], None]) -> None:
+                step: Callable[[int], None], local: Callable[[list], None]) -> None:
     """Analyse ``todo`` ((slot, path, cache key) items; ``names[slot]`` is the file's
     repository-relative name) on the cluster at ``address``; hand each finished chunk to
     ``remote`` (items, outcomes) and count it with ``step``. A file named outside the
@@ -276,7 +276,7 @@ def cluster_run(todo: Sequence[tuple[int, str, Any]], names: Sequence[str], conf
         if full.startswith(root):
             inside.append((item[0], full, item[2]))
         else:
-            local(item)
+            local([item])
             step(1)
     if inside:
         _run(inside, names, config, address, remote, step, __version__)

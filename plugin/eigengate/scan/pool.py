@@ -35,16 +35,20 @@ CHUNK_MIN = 4
 AHEAD = 2
 
 
-def encoded(path: str, config: Any) -> tuple[dict, list, list[str], bool]:
-    """Analyse one file in a worker (of the pool or of a cluster): (JSON-safe data, its blobs
-    as ``(bytes, shape)``, referenced files, whether it loaded). ``config`` is a
+def encoded(paths: list[str], config: Any) -> list[tuple[dict, list, list[str], bool]]:
+    """Analyse files in a worker (of the pool or of a cluster), stage by stage
+    (:func:`~eigengate.scan.engine.analyse_files`): per file (JSON-safe data, its blobs as
+    ``(bytes, shape)``, referenced files, whether it loaded). ``config`` is a
     :class:`~eigengate.scan.config.Config`."""
-    from .engine import analyse_file
+    from .engine import analyse_files
     from .serial import results_to_data
 
-    source, results, error, refs = analyse_file(path, config.root, config)
-    data, blobs = results_to_data(source, results, error)
-    return data, [item_bytes(x) for x in blobs.items], refs, error is None
+    out = []
+    for source, results, error, refs in analyse_files([(p, None) for p in paths],
+                                                      config.root, config):
+        data, blobs = results_to_data(source, results, error)
+        out.append((data, [item_bytes(x) for x in blobs.items], refs, error is None))
+    return out
 
 
 def item_bytes(item) -> tuple[bytes, list | None]:
@@ -76,7 +80,7 @@ def _serve(conn, config) -> None:
             if paths is None:
                 return
             try:
-                out: list | None = [encoded(p, config) for p in paths]
+                out: list | None = encoded(paths, config)
             except Exception:  # noqa: BLE001 - reported by the parent's own run of the chunk
                 out = None
             conn.send(out)
@@ -131,7 +135,7 @@ def _stop_helpers(before: tuple[bool, bool]) -> None:
 
 def pool_run(todo: list, config: Any, jobs: int, local: Callable, remote: Callable,
              step: Callable[[int], None]) -> None:
-    """Analyse ``todo`` (``(slot, path, key)`` items) in ``jobs`` processes: ``local(item)``
+    """Analyse ``todo`` (``(slot, path, key)`` items) in ``jobs`` processes: ``local(items)``
     here, ``remote(items, records)`` for what a worker sent; ``step(n)`` after each n files."""
     ctx = _context()
     before = _helpers_running()
@@ -162,8 +166,7 @@ def pool_run(todo: list, config: Any, jobs: int, local: Callable, remote: Callab
                 try:
                     conn.send([p for _, p, _ in items])
                 except OSError:  # the worker is gone (its pipe says so at the next read)
-                    for item in items:
-                        local(item)
+                    local(items)
                     step(n)
                     continue
                 held[conn].append(items)
@@ -181,13 +184,11 @@ def pool_run(todo: list, config: Any, jobs: int, local: Callable, remote: Callab
                 except (EOFError, OSError):  # the worker died: its chunks are done here
                     records = None
                     for rest in (items, *held.pop(conn)):
-                        for item in rest:
-                            local(item)
+                        local(rest)
                         step(len(rest))
                     continue
                 if records is None:
-                    for item in items:
-                        local(item)
+                    local(items)
                 else:
                     remote(items, records)
                 step(len(items))
@@ -195,8 +196,7 @@ def pool_run(todo: list, config: Any, jobs: int, local: Callable, remote: Callab
             if front < back:  # a few files at a time, to be back soon to collect
                 n = min(CHUNK_MIN, back - front)
                 back -= n
-                for item in todo[back:back + n]:
-                    local(item)
+                local(todo[back:back + n])
                 step(n)
     finally:
         for conn in list(held):

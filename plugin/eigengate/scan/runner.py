@@ -20,7 +20,7 @@ from typing import Callable, Sequence
 from .cache_format import cache_name
 from .config import Config
 from .discovery import find_model_files
-from .engine import (FileResult, analyse_file, file_result, policy_findings,
+from .engine import (FileResult, analyse_file, analyse_files, file_result, policy_findings,
                      unselected_findings)
 from ..rules.findings import Finding
 
@@ -28,6 +28,8 @@ __all__ = ["Scan", "scan", "default_jobs", "cache_name"]
 
 #: Below this many files to analyse, a pool costs more than it saves.
 POOL_THRESHOLD = 16
+#: Files analysed here at a time, stage by stage (see :func:`~eigengate.scan.engine.analyse_files`).
+BATCH = 32
 
 
 @dataclass(frozen=True, eq=False)
@@ -146,13 +148,14 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
     if progress:
         progress(done, total)
     jobs = default_jobs() if jobs is None else max(1, jobs)
-    def local(item: tuple[int, str, str | None]) -> None:
-        i, path, key = item
-        source, results, error, refs = analyse_file(path, config.root, config, names[i])
-        if cache is not None and key is not None and error is None:
-            data, blobs = results_to_data(source, results, error)
-            cache.put(key, data, blobs.items, refs)
-        slots[i] = (source, results, error)
+    def local(items: Sequence[tuple[int, str, str | None]]) -> None:
+        # stage by stage over the items (analyse_files), the cache's records as a third
+        done = analyse_files([(path, names[i]) for i, path, _ in items], config.root, config)
+        for (i, _, key), (source, results, error, refs) in zip(items, done):
+            if cache is not None and key is not None and error is None:
+                data, blobs = results_to_data(source, results, error)
+                cache.put(key, data, blobs.items, refs)
+            slots[i] = (source, results, error)
 
     def remote(items, outcome) -> None:
         for (i, path, key), (data, blobs, refs, ok) in zip(items, outcome):
@@ -179,9 +182,9 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
 
         pool_run(todo, config, jobs, local, remote, step)
     else:
-        for item in todo:
-            local(item)
-            step(1)
+        for k in range(0, len(todo), BATCH):
+            local(todo[k:k + BATCH])
+            step(len(todo[k:k + BATCH]))
     if cache is not None:
         if memo is not None:
             memo.observe(names, keys, unselected, cache)
