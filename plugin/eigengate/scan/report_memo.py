@@ -117,16 +117,24 @@ class ReportMemo:
         from .discovery import find_model_files
 
         unselected: list[str] = []
+        known: dict[str, str] = {}  # the files answered by their status records: their keys
+
+        def knows(rel: str, st: os.stat_result) -> bool:
+            key = record_value(files.get(_name(self.config, rel)), st)
+            if key is not None:
+                known[rel] = key
+            return key is not None
+
         try:
             found = find_model_files(
                 list(paths), self.config, filter_named=filter_named, unselected=unselected,
-                sniffs=Records(),
-                known=lambda rel, st: record_value(files.get(_name(self.config, rel)), st)
-                is not None)
+                sniffs=Records(), known=knows)
             keys = []
             for f in found:
-                key = None if f.content is not None else \
-                    record_value(files.get(_name(self.config, f.rel)), f.stat)
+                key = None
+                if f.content is None:  # (a named file was not asked of ``knows``)
+                    key = known.get(f.rel) or record_value(
+                        files.get(_name(self.config, f.rel)), f.stat)
                 if key is None:
                     raise _Miss  # not recorded (new, changed, racy), or not readable
                 keys.append(key)
