@@ -13,11 +13,13 @@ from support import FIXED_TODAY, cli_env, oscillator, run_main, write
 
 import eigengate.scan.cache as cache_mod
 import eigengate.scan.runner as runner_mod
+import eigengate.scan.status_records as records_mod
 
 
 @pytest.fixture
 def repo(tmp_path, monkeypatch):
     monkeypatch.setattr(cache_mod, "_RACY_NS", 0)  # the files were written just now
+    monkeypatch.setattr(records_mod, "RACY_NS", 0)
     (tmp_path / ".git").mkdir()
     write(tmp_path / "pyproject.toml", "[tool.eigengate.requirements]\nstable = true\n")
     write(tmp_path / "models" / "arm.yaml", oscillator("arm"))  # fails min_damping 0.3
@@ -30,18 +32,25 @@ def repo(tmp_path, monkeypatch):
     return tmp_path
 
 
-@pytest.fixture
-def scans(monkeypatch):
-    """How many times a check ran its scan (a check answered by the memo runs none)."""
+def _count_calls(monkeypatch, name: str, *modules) -> list:
+    """A list that grows by one at each call of function ``name`` of the first of
+    ``modules``, replaced by a counting one in all of them."""
     calls = []
-    real = runner_mod.scan
+    real = getattr(modules[0], name)
 
     def counted(*args, **kwargs):
         calls.append(1)
         return real(*args, **kwargs)
 
-    monkeypatch.setattr(runner_mod, "scan", counted)
+    for module in modules:
+        monkeypatch.setattr(module, name, counted)
     return calls
+
+
+@pytest.fixture
+def scans(monkeypatch):
+    """How many times a check ran its scan (a check answered by the memo runs none)."""
+    return _count_calls(monkeypatch, "scan", runner_mod)
 
 
 def _check(repo, *args, env=None):
@@ -120,6 +129,7 @@ def _baseline_accepted(repo):
     _plain_file_becomes_model, _policy_changes, _nested_policy, _baseline_accepted])
 def test_any_change_of_an_input_runs_the_check_in_full(repo, scans, change):
     before = _check(repo)
+    assert _check(repo) == before  # answered, and its discovery's walk kept for the next
     change(repo)
     ran = len(scans)  # accepting a baseline scans too
     after = _check(repo)
@@ -237,3 +247,50 @@ def test_the_options_are_checked_before_the_memo_answers(repo, scans, args, says
     _check(repo)
     status, out, err = _check(repo, *args)
     assert status == 2 and says in err and out == ""
+
+
+@pytest.fixture
+def discoveries(monkeypatch):
+    """How many times a check walked the repository's folders to find its model files."""
+    import eigengate.scan.discovery as discovery_mod
+
+    return _count_calls(monkeypatch, "find_model_files", discovery_mod, runner_mod)
+
+
+def test_an_unchanged_walk_is_not_walked_again(repo, scans, discoveries):
+    first = _check(repo)  # (it made the cache folder: the root's status changed)
+    assert _check(repo) == first and len(scans) == 1 and len(discoveries) == 2
+    assert _check(repo) == first and len(scans) == 1
+    assert len(discoveries) == 2  # every folder and candidate had its status: no walk
+    _new_model(repo)  # the folder's status changes: walked again, and the new file found
+    after = _check(repo)
+    assert len(discoveries) == 4  # the memo's walk (a miss: a new file), then the scan's
+    assert len(scans) == 2 and "boom" in after[1] and after == _fresh(repo)
+
+
+def test_a_nested_pyproject_that_becomes_a_policy_is_seen(repo, scans, discoveries):
+    write(repo / "models" / "pyproject.toml", "[project]\nname = 'models'\n")
+    first = _check(repo)
+    assert _check(repo) == first == _check(repo) and len(scans) == 1
+    assert len(discoveries) == 2  # the third check read its walk
+    # edited in place (its folder's status unchanged): its own status tells
+    write(repo / "models" / "pyproject.toml", "[project]\nname = 'models'\n\n"
+          "[tool.eigengate.requirements]\nmin_damping = 0.5\n")
+    after = _check(repo)
+    assert len(scans) == 2 and after != first and after == _fresh(repo)
+
+
+@pytest.mark.skipif(not hasattr(os, "symlink"), reason="needs symbolic links")
+def test_a_folder_with_a_link_is_always_walked(repo, scans, discoveries):
+    os.symlink(repo / "models" / "arm.yaml", repo / "models" / "arm_link.yaml")
+    first = _check(repo)
+    assert _check(repo) == first == _check(repo) and len(scans) == 1  # the memo answers ...
+    assert len(discoveries) == 3  # ... after walking: a link's target is not in its status
+    assert first == _fresh(repo)
+
+
+def test_a_walk_within_the_racy_window_is_not_kept(repo, scans, discoveries, monkeypatch):
+    monkeypatch.setattr(records_mod, "RACY_NS", 10**18)  # the folders changed "just now"
+    first = _check(repo)
+    assert _check(repo) == first == _check(repo) and len(scans) == 1
+    assert len(discoveries) == 3

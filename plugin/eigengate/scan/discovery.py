@@ -19,7 +19,7 @@ from ..model.filenames import printable_name
 if TYPE_CHECKING:  # pragma: no cover
     from .config import Config
 
-__all__ = ["FoundFile", "find_model_files", "MODEL_SUFFIXES"]
+__all__ = ["FoundFile", "Walk", "find_model_files", "MODEL_SUFFIXES"]
 
 MODEL_SUFFIXES = (".yaml", ".yml", ".toml", ".json")
 
@@ -27,6 +27,22 @@ MODEL_SUFFIXES = (".yaml", ".yml", ".toml", ".json")
 #: discovering it is kept (for the cache key) up to this many bytes.
 _SNIFF_BYTES = 65536
 _KEEP_BYTES = 1 << 18
+
+
+class Walk:
+    """What a discovery looked at, each status taken before anything was read: every folder
+    it listed and every entry with a model suffix, as ``(path, status)`` and ``(path, rel,
+    status)``; ``whole`` is false when it also met what status alone cannot vouch for (a
+    named file, a link). The report memo keeps it to tell, by status alone, that discovering
+    again would find the same (a folder's status changes when an entry is added, removed or
+    renamed; a file's when it is written)."""
+
+    __slots__ = ("folders", "files", "whole")
+
+    def __init__(self) -> None:
+        self.folders: list[tuple[str, os.stat_result | None]] = []
+        self.files: list[tuple[str, str, os.stat_result | None]] = []
+        self.whole = True
 
 
 class FoundFile(NamedTuple):
@@ -63,8 +79,8 @@ def _sniff(path: str) -> tuple[bool | None, bytes | None]:
 def find_model_files(paths: Sequence[str | Path], config: "Config | None" = None, *,
                      filter_named: bool = False,
                      known: Callable[[str, os.stat_result], bool] | None = None,
-                     unselected: list[str] | None = None, sniffs: "Sniffs | None" = None
-                     ) -> list[FoundFile]:
+                     unselected: list[str] | None = None, sniffs: "Sniffs | None" = None,
+                     walk: Walk | None = None) -> list[FoundFile]:
     """The model files below ``paths`` (folders are expanded, sorted; named files pass
     through, or are tested too with ``filter_named``: a pre-commit hook is handed every
     changed file).
@@ -76,7 +92,8 @@ def find_model_files(paths: Sequence[str | Path], config: "Config | None" = None
     With ``unselected`` (a list), the model files that the include globs miss (neither
     included nor excluded, told by content) are appended to it as relative paths; ``sniffs``
     (the result cache) remembers, by file status, what a file's content said, so an
-    unchanged file is not read again to tell.
+    unchanged file is not read again to tell. ``walk`` (a :class:`Walk`) is told what was
+    looked at.
     """
     look = _Look(known, unselected, sniffs)
     root = os.path.realpath(config.root) if config is not None else os.path.realpath(".")
@@ -85,6 +102,8 @@ def find_model_files(paths: Sequence[str | Path], config: "Config | None" = None
         p = Path(p)
         if not p.is_dir():
             full = os.fspath(p)
+            if walk is not None:
+                walk.whole = False
             rel, content = _named(full, root)
             if filter_named:
                 found = _select(full, os.path.basename(full), rel, config, look, None,
@@ -100,9 +119,13 @@ def find_model_files(paths: Sequence[str | Path], config: "Config | None" = None
         while stack:  # like os.walk: hidden entries skipped, linked folders not followed
             folder = stack.pop()
             real_folder = _rel(os.path.realpath(folder), root)
+            if walk is not None:
+                walk.folders.append((folder, _stat(folder)))  # before it is listed
             try:
                 entries = list(os.scandir(folder))
             except OSError:
+                if walk is not None:
+                    walk.whole = False
                 continue
             for e in entries:
                 if e.name.startswith("."):
@@ -113,6 +136,8 @@ def find_model_files(paths: Sequence[str | Path], config: "Config | None" = None
                         continue
                     content = None
                     if e.is_symlink():
+                        if walk is not None:
+                            walk.whole = False
                         if os.path.isdir(e.path):
                             continue
                         rel, content = _named(e.path, root)
@@ -120,7 +145,11 @@ def find_model_files(paths: Sequence[str | Path], config: "Config | None" = None
                         rel = e.name if real_folder == "." else f"{real_folder}/{e.name}"
                         rel = printable_name(rel)
                 except OSError:
+                    if walk is not None:
+                        walk.whole = False
                     continue
+                if walk is not None and os.path.splitext(e.name)[1] in MODEL_SUFFIXES:
+                    walk.files.append((e.path, rel, _stat(e.path, e)))  # before any read
                 found = _select(e.path, e.name, rel, config, look, e, content)
                 if found is not None:
                     below.append(found)

@@ -27,11 +27,13 @@ from __future__ import annotations
 
 import json
 import os
+import time
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Sequence
 
 from .cache_format import CACHE_DIR, FORMAT, cache_name as _name
 from .digests import hasher
+from . import status_records
 from .status_records import record_value, signature
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -41,7 +43,7 @@ if TYPE_CHECKING:  # pragma: no cover
 __all__ = ["ReportMemo"]
 
 #: Version of the memo's own layout (inside a cache format).
-MEMO_VERSION = 1
+MEMO_VERSION = 2  # 2: the discovery walk
 #: A memo file larger than this is neither written nor read.
 MAX_BYTES = 64 << 20
 #: Reports kept per configuration (for as many different command lines or dates), each in
@@ -76,6 +78,7 @@ class ReportMemo:
         h.update(salt.encode())
         self.path = Path(config.root) / CACHE_DIR / f"v{FORMAT}" / f"{h.hexdigest()[:24]}.memo"
         self._seen: dict[str, Any] | None = None  # what observe() saw: written by record()
+        self._started = time.time_ns()  # before any status is taken: the racy window's end
 
     # ------------------------------------------------------------------ reading
     def _report_path(self, digest: str) -> Path:
@@ -118,23 +121,38 @@ class ReportMemo:
 
         unselected: list[str] = []
         known: dict[str, str] = {}  # the files answered by their status records: their keys
+        policies: dict[str, Any] = {}  # folder → the policy that judges its files
+
+        def name(rel: str) -> str:  # cache_name, its policy found once per folder
+            folder = rel.rpartition("/")[0]
+            policy = policies.get(folder)
+            if policy is None:
+                policy = policies[folder] = self.config.policy_for(rel)
+            return rel if policy is self.config else f"{rel}\0{policy.digest}"
 
         def knows(rel: str, st: os.stat_result) -> bool:
-            key = record_value(files.get(_name(self.config, rel)), st)
+            key = record_value(files.get(name(rel)), st)
             if key is not None:
                 known[rel] = key
             return key is not None
 
         try:
-            found = find_model_files(
-                list(paths), self.config, filter_named=filter_named, unselected=unselected,
-                sniffs=Records(), known=knows)
+            walked = self._walked(data.get("walk"), paths, filter_named)
+            walk = None
+            if walked is not None:  # every folder and candidate as it was: found the same
+                found, unselected = walked
+            else:
+                from .discovery import Walk
+
+                walk = Walk()
+                found = find_model_files(
+                    list(paths), self.config, filter_named=filter_named,
+                    unselected=unselected, sniffs=Records(), known=knows, walk=walk)
             keys = []
             for f in found:
                 key = None
                 if f.content is None:  # (a named file was not asked of ``knows``)
-                    key = known.get(f.rel) or record_value(
-                        files.get(_name(self.config, f.rel)), f.stat)
+                    key = known.get(f.rel) or record_value(files.get(name(f.rel)), f.stat)
                 if key is None:
                     raise _Miss  # not recorded (new, changed, racy), or not readable
                 keys.append(key)
@@ -161,8 +179,76 @@ class ReportMemo:
         row = _read_checked(self._report_path(digest))
         if type(row) is list and len(row) == 4 and row[0] == digest and type(row[1]) is str \
                 and type(row[2]) is str and type(row[3]) is int:
+            if walk is not None:  # walked: kept for the next check, when it can be trusted
+                record = self._walk_record(walk, [f.path for f in found],
+                                           [f.rel for f in found], unselected)
+                if record is not None:
+                    _write_checked(self.path, {**data, "walk": record})
             return row[1], row[2], row[3]
         return None
+
+    def _walk_key(self) -> list:
+        """What a discovery's walk depends on besides the statuses: the paths walked (as the
+        request names them, from its working folder) and whether named files are tested."""
+        r = self.request
+        return [r.get("paths"), r.get("cwd"), r.get("only_model_files")]
+
+    def _walked(self, walk: Any, paths: Sequence[str | Path], filter_named: bool):
+        """``(found files, unselected model files)`` as the recorded discovery found them,
+        when it walked the same paths and every folder it listed and every entry with a
+        model suffix still has the status recorded (taken before it was listed or read);
+        None otherwise (a discovery runs). The nested policies are met as discovery meets
+        them, so their digests count as before."""
+        from .discovery import FoundFile
+
+        if type(walk) is not dict or walk.get("key") != self._walk_key() \
+                or self._walk_key() != [[os.fspath(p) for p in paths], os.getcwd(),
+                                        filter_named]:
+            return None
+        try:
+            for path, sig in walk["folders"]:
+                if signature(os.stat(path)) != sig:
+                    return None
+            status = {}
+            stat = os.stat
+            for path, rel, sig in walk["files"]:
+                st = stat(path)
+                if sig != [st.st_size, st.st_mtime_ns, st.st_ctime_ns, st.st_ino]:
+                    return None  # (signature(st), written out: asked of every file)
+                status[path] = st
+            met = set()  # the nested policies are per folder: one file of each asks
+            for path, rel, _ in walk["files"]:
+                folder = rel.rpartition("/")[0]
+                if folder not in met and os.path.basename(path) != "pyproject.toml":
+                    met.add(folder)
+                    self.config.policy_for(rel)  # (a nested policy's error as discovery's)
+            found = [FoundFile(path, rel, None, status[path]) for path, rel in walk["found"]]
+            unselected = walk["unselected"]
+            if not all(type(r) is str for r in unselected):
+                return None
+            return found, list(unselected)
+        except (OSError, KeyError, TypeError, ValueError):
+            return None
+
+    def _walk_record(self, walk, found: list[str], rels: list[str], unselected: list[str]
+                     ) -> dict | None:
+        """What :meth:`_walked` reads: None when the walk met a named file or a link, or a
+        status it could not take or cannot trust (changed within the racy window)."""
+        if walk is None or not walk.whole or len(found) != len(rels):
+            return None
+        limit = self._started - status_records.RACY_NS
+
+        def trusted(st) -> bool:
+            return st is not None and max(st.st_mtime_ns, st.st_ctime_ns) < limit
+
+        if not all(trusted(st) for _, st in walk.folders) or \
+                not all(trusted(st) for _, _, st in walk.files):
+            return None
+        return {"key": self._walk_key(),
+                "folders": [[path, signature(st)] for path, st in walk.folders],
+                "files": [[path, rel, signature(st)] for path, rel, st in walk.files],
+                "found": [[path, rel] for path, rel in zip(found, rels)],
+                "unselected": list(unselected)}
 
     def _digest(self, rels: list[str], keys: list[str], unselected: list[str],
                 refs: dict[str, str]) -> str:
@@ -183,7 +269,7 @@ class ReportMemo:
 
     # ------------------------------------------------------------------ recording
     def observe(self, rels: list[str], keys: list[str | None], unselected: list[str],
-                cache: "ResultCache") -> None:
+                cache: "ResultCache", walk=None, found: list[str] | None = None) -> None:
         """What a scan saw (called by it before the cache is saved): the model files found,
         their keys, the unselected model files, and the cache's status records. Nothing is
         recorded when an input has no status record (it changed too recently to trust one)
@@ -209,6 +295,7 @@ class ReportMemo:
         ref_hashes = {rel: row[4] for rel, row in refs.items()}
         self._seen = {"files": files, "refs": refs, "refs_of": refs_of,
                       "sniff": cache.status_table("sniff"),
+                      "walk": self._walk_record(walk, found or [], rels, unselected),
                       "digest": self._digest(list(rels), keys, unselected,  # type: ignore[arg-type]
                                              ref_hashes)}
 
@@ -225,7 +312,8 @@ class ReportMemo:
         listed = [digest] + [d for d in (old["outputs"] if old else []) if d != digest]
         if not _write_checked(self.path, {
                 "salt": self.salt, "files": seen["files"], "refs": seen["refs"],
-                "refs_of": seen["refs_of"], "sniff": seen["sniff"], "outputs": listed[:KEEP]}):
+                "refs_of": seen["refs_of"], "sniff": seen["sniff"], "walk": seen["walk"],
+                "outputs": listed[:KEEP]}):
             return
         for gone in listed[KEEP:]:  # the reports no longer listed
             try:

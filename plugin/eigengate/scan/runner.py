@@ -19,7 +19,7 @@ from typing import Callable, Sequence
 
 from .cache_format import cache_name
 from .config import Config
-from .discovery import find_model_files
+from .discovery import Walk, find_model_files
 from .engine import (FileResult, analyse_file, analyse_files, file_result, policy_findings,
                      unselected_findings)
 from ..rules.findings import Finding
@@ -116,9 +116,11 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
             known[rel] = key
         return key is not None
 
+    walk = Walk() if memo is not None and cache is not None else None
     files = find_model_files(
         list(paths), config, filter_named=filter_named, unselected=unselected, sniffs=cache,
-        known=None if cache is None else knows)
+        known=None if cache is None else knows, walk=walk)
+    found = [f.path for f in files] if walk is not None else []  # for the memo
     slots: list[tuple | None] = [None] * len(files)
     todo: list[tuple[int, str, str | None]] = []
     names = [f.rel for f in files]  # what a file that no cluster worker analysed is called
@@ -187,7 +189,7 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
             step(len(todo[k:k + BATCH]))
     if cache is not None:
         if memo is not None:
-            memo.observe(names, keys, unselected, cache)
+            memo.observe(names, keys, unselected, cache, walk, found)
         cache.save()
     out = tuple(file_result(s, r, e, config, on) for s, r, e in slots)  # type: ignore[misc]
     policy = (unselected_findings(config, sorted(unselected))

@@ -7,7 +7,11 @@ from __future__ import annotations
 import os
 from typing import Any
 
-__all__ = ["signature", "is_record", "record_value"]
+__all__ = ["RACY_NS", "signature", "is_record", "record_value"]
+
+#: A file changed this soon before a check began could change again within the same
+#: timestamp tick without its status showing it: its status is not recorded.
+RACY_NS = 2_000_000_000
 
 
 def signature(st: os.stat_result) -> list[int]:
