@@ -223,13 +223,17 @@ def test_a_no_change_check_imports_neither_numpy_nor_scipy(tmp_path):
     probe = ("import sys\nfrom eigengate.cli import main\nstatus = main(sys.argv[1:])\n"
              "heavy = sorted({m.split('.')[0] for m in sys.modules} & {'numpy', 'scipy', 'yaml'}"
              " | {m for m in sys.modules if m.startswith('eigengate.rules.requirements')})\n"
-             "sys.stderr.write(f'\\nheavy={heavy} status={status}\\n')\n")
+             "sys.stderr.write(f'\\nheavy={heavy} status={status}\\n')\n"
+             "parsing = sorted({'tomllib', 'typing'} & set(sys.modules))\n"
+             "sys.stderr.write(f'parsing={parsing}\\n')\n")
     runs = [subprocess.run([sys.executable, "-c", probe, "check", str(tmp_path)],
                            capture_output=True, text=True, cwd=tmp_path, env=cli_env())
-            for _ in range(2)]
+            for _ in range(3)]
     assert "'numpy'" in runs[0].stderr and "status=1" in runs[0].stderr
-    assert "heavy=[] status=1" in runs[1].stderr
-    assert runs[1].stdout == runs[0].stdout and "arm" in runs[0].stdout
+    assert "heavy=[] status=1" in runs[1].stderr and "'tomllib'" in runs[1].stderr
+    # the third takes the policy's table as the second kept it: no TOML read, no typing
+    assert "heavy=[] status=1" in runs[2].stderr and "parsing=[]" in runs[2].stderr
+    assert runs[2].stdout == runs[1].stdout == runs[0].stdout and "arm" in runs[0].stdout
 
 
 def test_a_broken_requirements_table_is_still_refused(repo, scans):

@@ -9,9 +9,12 @@ loads neither numpy nor scipy.
 from __future__ import annotations
 
 import importlib
-from typing import TYPE_CHECKING, Any
 
 from .version import __version__
+
+TYPE_CHECKING = False  # typing.TYPE_CHECKING, without importing typing at run time
+if TYPE_CHECKING:  # pragma: no cover - names for annotations only
+    from typing import Any
 
 # public name -> "module" (relative to this package), or "module:attribute" for a renamed one
 _EXPORTS = {

@@ -10,11 +10,14 @@ from __future__ import annotations
 import os
 import sys
 from pathlib import Path
-from typing import Sequence
 
 from .arguments import COMMANDS, FORMATS, _normalise, _parser  # noqa: F401 (re-exported)
 from .files import _make_folder, _write_atomic, _write_files, _write_pole_maps  # noqa: F401
 from .status import CLOSED_PIPE, Exit, OutputError, UsageError  # noqa: F401 (re-exported)
+
+TYPE_CHECKING = False  # typing.TYPE_CHECKING, without importing typing at run time
+if TYPE_CHECKING:  # pragma: no cover - names for annotations only
+    from typing import Sequence
 
 __all__ = ["main", "run", "Exit", "FORMATS"]
 
@@ -121,7 +124,7 @@ def _load_config(args, start: Path, *, defer: bool = False):
 
     try:
         return load_config(Path(args.config) if args.config else None, start=start,
-                           defer=defer)
+                           defer=defer, remember=defer and not args.no_cache)
     except ConfigError as exc:
         raise UsageError(str(exc)) from None
 

@@ -4,7 +4,8 @@ in it. Kept apart from the cache itself so that a check answered by the report m
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING
+TYPE_CHECKING = False  # typing.TYPE_CHECKING, without importing typing at run time
+
 
 if TYPE_CHECKING:  # pragma: no cover
     from .config import Config

@@ -43,7 +43,7 @@ to, and each keeps its own baseline next to it.
 from __future__ import annotations
 
 from pathlib import Path
-from typing import TYPE_CHECKING, Any, Mapping, Sequence
+from collections.abc import Mapping
 
 from ..rules.patterns import glob_any, glob_match
 from .frozen import Frozen, factory
@@ -53,7 +53,9 @@ from .policy_values import (  # noqa: F401 (cluster_address and Layer re-exporte
 from .policyfiles import (  # noqa: F401 (ConfigError re-exported)
     ConfigError, find_config, find_top_config, policy_file, read_table)
 
-if TYPE_CHECKING:  # pragma: no cover
+TYPE_CHECKING = False  # typing.TYPE_CHECKING, without importing typing at run time
+if TYPE_CHECKING:  # pragma: no cover - names for annotations only
+    from typing import Any, Sequence
     from ..model.core import Model
     from ..rules.requirements import Requirement
     from ..rules.waivers import Waiver
@@ -314,12 +316,14 @@ def _load_nested(path: Path, root: Path, base: str, parent: "Config", memo: dict
 
 
 def load_config(path: Path | None = None, *, start: Path | None = None,
-                defer: bool = False) -> Config:
+                defer: bool = False, remember: bool = False) -> Config:
     """Read the configuration at ``path``, or discover it from ``start`` (default: cwd).
 
     Without a configuration file the root is the nearest folder with ``.git`` (or ``start``)
     and every default applies. ``defer``: leave the requirements table to
     :meth:`Config.complete` (a check answered by the report memo needs only the digest).
+    ``remember``: the policy table is taken from, or kept in, the one remembered by the
+    policy file's status (:mod:`eigengate.scan.policy_memo`).
     """
     if path is None:
         path = find_top_config(start or Path.cwd())
@@ -330,8 +334,8 @@ def load_config(path: Path | None = None, *, start: Path | None = None,
         return parse_config({}, root=find_root(base / "_") if base.is_dir() else
                             find_root(base), source=None)  # the defaults, with their digest
     path = Path(path)
-    return parse_config(read_table(path, str(path)), root=path.resolve().parent,
-                        source=path.name, defer=defer)
+    return parse_config(read_table(path, str(path), remember=remember),
+                        root=path.resolve().parent, source=path.name, defer=defer)
 
 
 def parse_config(table: Mapping[str, Any], *, root: Path, source: str | None = "pyproject.toml",

@@ -12,12 +12,18 @@ from __future__ import annotations
 import os
 import stat
 from pathlib import Path
-from typing import TYPE_CHECKING, Callable, NamedTuple, Protocol, Sequence
-
 from ..model.filenames import printable_name
 
-if TYPE_CHECKING:  # pragma: no cover
+TYPE_CHECKING = False  # typing.TYPE_CHECKING, without importing typing at run time
+if TYPE_CHECKING:  # pragma: no cover - names for annotations only
+    from typing import Callable, Protocol, Sequence
+
     from .config import Config
+
+    class Sniffs(Protocol):
+        def sniffed(self, rel: str, st: os.stat_result) -> bool | None: ...
+
+        def note_sniff(self, rel: str, st: os.stat_result | None, is_model: bool) -> None: ...
 
 __all__ = ["FoundFile", "Walk", "find_model_files", "MODEL_SUFFIXES"]
 
@@ -45,16 +51,20 @@ class Walk:
         self.whole = True
 
 
-class FoundFile(NamedTuple):
+class FoundFile:
     """A discovered model file: its path (as found), its path relative to the configuration's
     root after resolving links (what include and exclude globs match, and a stable identity
     for the cache), its bytes when discovery read them whole, and its status (``os.stat``,
     taken before any read) when the caller asked for it."""
 
-    path: str
-    rel: str
-    content: bytes | None = None
-    stat: os.stat_result | None = None
+    __slots__ = ("path", "rel", "content", "stat")
+
+    def __init__(self, path: str, rel: str, content: bytes | None = None,
+                 stat: os.stat_result | None = None) -> None:
+        self.path, self.rel, self.content, self.stat = path, rel, content, stat
+
+    def __repr__(self) -> str:
+        return f"FoundFile(path={self.path!r}, rel={self.rel!r})"
 
 
 def _sniff(path: str) -> tuple[bool | None, bytes | None]:
@@ -189,16 +199,14 @@ def _stat(path: str, entry: os.DirEntry | None = None) -> os.stat_result | None:
         return None
 
 
-class Sniffs(Protocol):
-    def sniffed(self, rel: str, st: os.stat_result) -> bool | None: ...
+class _Look:
+    """What a discovery was asked to do besides finding (see :func:`find_model_files`)."""
 
-    def note_sniff(self, rel: str, st: os.stat_result | None, is_model: bool) -> None: ...
+    __slots__ = ("known", "unselected", "sniffs")
 
-
-class _Look(NamedTuple):
-    known: Callable[[str, os.stat_result], bool] | None
-    unselected: list[str] | None
-    sniffs: "Sniffs | None"
+    def __init__(self, known: "Callable[[str, os.stat_result], bool] | None",
+                 unselected: list[str] | None, sniffs: "Sniffs | None") -> None:
+        self.known, self.unselected, self.sniffs = known, unselected, sniffs
 
 
 def _has_key(full: str, rel: str, st: os.stat_result | None, sniffs) -> bool:

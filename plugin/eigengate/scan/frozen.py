@@ -4,7 +4,10 @@ report memo builds and which must therefore not pull in ``dataclasses`` (and ``i
 
 from __future__ import annotations
 
-from typing import Any, Callable, ClassVar
+TYPE_CHECKING = False  # typing.TYPE_CHECKING, without importing typing at run time
+if TYPE_CHECKING:  # pragma: no cover - names for annotations only
+    from typing import Any, Callable, ClassVar
+
 
 __all__ = ["Frozen", "factory"]
 

@@ -4,11 +4,12 @@ was expected."""
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING, Any, Sequence
 
 from .policyfiles import ConfigError
 
-if TYPE_CHECKING:  # pragma: no cover
+TYPE_CHECKING = False  # typing.TYPE_CHECKING, without importing typing at run time
+if TYPE_CHECKING:  # pragma: no cover - names for annotations only
+    from typing import Any, Sequence
     from ..rules.requirements import Requirement
 
 __all__ = ["cluster_address", "CLUSTER_SCHEMES"]

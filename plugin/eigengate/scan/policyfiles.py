@@ -5,9 +5,12 @@ from __future__ import annotations
 
 import sys
 from pathlib import Path
-from typing import Any
 
 from ..errors import EigengateError
+
+TYPE_CHECKING = False  # typing.TYPE_CHECKING, without importing typing at run time
+if TYPE_CHECKING:  # pragma: no cover - names for annotations only
+    from typing import Any
 
 __all__ = ["ConfigError", "find_config", "find_top_config", "policy_file", "read_table"]
 
@@ -71,7 +74,26 @@ def _toml_loads(text: str):
     return tomllib.loads(text)
 
 
-def read_table(path: Path, shown: str) -> Any:
+def read_table(path: Path, shown: str, *, remember: bool = False) -> Any:
+    """The eigengate table of policy file ``path`` (``shown`` in messages). ``remember``:
+    take it from, or keep it in, the table remembered by the file's status
+    (:mod:`eigengate.scan.policy_memo`)."""
+    if remember:
+        import os
+
+        from .policy_memo import keep, recall
+
+        real = os.path.realpath(path)
+        try:
+            st: os.stat_result | None = os.stat(real)  # before it is read
+        except OSError:
+            st = None
+        table = recall(real, st)
+        if table is not None:
+            return table
+        table = read_table(path, shown)
+        keep(real, st, table)
+        return table
     try:
         table = _toml_loads(path.read_text(encoding="utf-8"))
     except FileNotFoundError:

@@ -29,14 +29,16 @@ import json
 import os
 import time
 from pathlib import Path
-from typing import TYPE_CHECKING, Any, Sequence
 
 from .cache_format import CACHE_DIR, FORMAT, cache_name as _name
+from .checked_json import read_checked, write_checked
 from .digests import hasher
 from . import status_records
 from .status_records import record_value, signature
 
-if TYPE_CHECKING:  # pragma: no cover
+TYPE_CHECKING = False  # typing.TYPE_CHECKING, without importing typing at run time
+if TYPE_CHECKING:  # pragma: no cover - names for annotations only
+    from typing import Any, Sequence
     from .cache import ResultCache
     from .config import Config
 
@@ -54,12 +56,6 @@ _MAGIC = b"eigengate report memo\n"
 
 class _Miss(Exception):
     """A question the memo's records do not answer: the check runs in full."""
-
-
-def _checksum(payload: bytes) -> bytes:
-    h = hasher(20)
-    h.update(payload)
-    return h.hexdigest().encode()
 
 
 class ReportMemo:
@@ -85,7 +81,7 @@ class ReportMemo:
         return self.path.with_name(f"{self.path.stem}-{digest[:32]}.report")
 
     def _read(self) -> dict[str, Any] | None:
-        data = _read_checked(self.path)
+        data = read_checked(self.path, _MAGIC, MAX_BYTES)
         if type(data) is not dict or data.get("salt") != self.salt:
             return None
         for name in ("files", "refs", "sniff", "refs_of"):
@@ -176,14 +172,14 @@ class ReportMemo:
         digest = self._digest([f.rel for f in found], keys, unselected, refs)
         if digest not in data["outputs"]:
             return None
-        row = _read_checked(self._report_path(digest))
+        row = read_checked(self._report_path(digest), _MAGIC, MAX_BYTES)
         if type(row) is list and len(row) == 4 and row[0] == digest and type(row[1]) is str \
                 and type(row[2]) is str and type(row[3]) is int:
             if walk is not None:  # walked: kept for the next check, when it can be trusted
                 record = self._walk_record(walk, [f.path for f in found],
                                            [f.rel for f in found], unselected)
                 if record is not None:
-                    _write_checked(self.path, {**data, "walk": record})
+                    write_checked(self.path, _MAGIC, MAX_BYTES, {**data, "walk": record})
             return row[1], row[2], row[3]
         return None
 
@@ -252,7 +248,7 @@ class ReportMemo:
 
     def _digest(self, rels: list[str], keys: list[str], unselected: list[str],
                 refs: dict[str, str]) -> str:
-        from ..rules.dates import today
+        from ..rules.dates import today_iso
 
         baselines: list[list[Any]] = []
         for policy in self.config.policies():
@@ -262,7 +258,7 @@ class ReportMemo:
             except OSError:
                 baselines.append([policy.base, policy.digest, None])
         h = hasher(20)
-        h.update(json.dumps([self.request, today().isoformat(), rels, keys, unselected,
+        h.update(json.dumps([self.request, today_iso(), rels, keys, unselected,
                              sorted(refs.items()), baselines],
                             separators=(",", ":")).encode())
         return h.hexdigest()
@@ -306,11 +302,12 @@ class ReportMemo:
         if seen is None:
             return
         digest = seen["digest"]
-        if not _write_checked(self._report_path(digest), [digest, out, err, int(status)]):
+        if not write_checked(self._report_path(digest), _MAGIC, MAX_BYTES,
+                             [digest, out, err, int(status)]):
             return
         old = self._read()
         listed = [digest] + [d for d in (old["outputs"] if old else []) if d != digest]
-        if not _write_checked(self.path, {
+        if not write_checked(self.path, _MAGIC, MAX_BYTES, {
                 "salt": self.salt, "files": seen["files"], "refs": seen["refs"],
                 "refs_of": seen["refs_of"], "sniff": seen["sniff"], "walk": seen["walk"],
                 "outputs": listed[:KEEP]}):
@@ -320,49 +317,3 @@ class ReportMemo:
                 os.unlink(self._report_path(gone))
             except OSError:
                 pass
-
-
-def _read_checked(path: Path) -> Any:
-    """The JSON value of a memo file whose checksum fits, or None (missing, too large,
-    damaged)."""
-    try:
-        with open(path, "rb") as fh:
-            if os.fstat(fh.fileno()).st_size > MAX_BYTES:
-                return None
-            raw = fh.read(MAX_BYTES + 1)
-    except OSError:
-        return None
-    head, sep, payload = raw[len(_MAGIC):].partition(b"\n")
-    if not raw.startswith(_MAGIC) or not sep or head != _checksum(payload):
-        return None
-    try:
-        return json.loads(payload)
-    except ValueError:
-        return None
-
-
-def _write_checked(path: Path, value: Any) -> bool:
-    """Write a memo file atomically (a half-written one is never visible); False when it
-    is too large or cannot be written (the memo is optional)."""
-    payload = json.dumps(value, separators=(",", ":")).encode()
-    raw = _MAGIC + _checksum(payload) + b"\n" + payload
-    if len(raw) > MAX_BYTES:
-        return False
-    import tempfile
-
-    try:
-        path.parent.mkdir(parents=True, exist_ok=True)
-        fd, tmp = tempfile.mkstemp(prefix=".tmp-", dir=path.parent)
-        try:
-            with os.fdopen(fd, "wb") as fh:
-                fh.write(raw)
-            os.replace(tmp, path)
-        except BaseException:
-            try:
-                os.unlink(tmp)
-            except OSError:
-                pass
-            raise
-    except OSError:
-        return False
-    return True

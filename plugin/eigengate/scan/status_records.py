@@ -5,7 +5,10 @@ said), answered only for a file whose status is still the one recorded."""
 from __future__ import annotations
 
 import os
-from typing import Any
+
+TYPE_CHECKING = False  # typing.TYPE_CHECKING, without importing typing at run time
+if TYPE_CHECKING:  # pragma: no cover - names for annotations only
+    from typing import Any
 
 __all__ = ["RACY_NS", "signature", "is_record", "record_value"]
 
