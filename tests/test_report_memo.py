@@ -262,21 +262,27 @@ def discoveries(monkeypatch):
 
 
 def test_an_unchanged_walk_is_not_walked_again(repo, scans, discoveries):
-    first = _check(repo)  # (it made the cache folder: the root's status changed)
-    assert _check(repo) == first and len(scans) == 1 and len(discoveries) == 2
-    assert _check(repo) == first and len(scans) == 1
-    assert len(discoveries) == 2  # every folder and candidate had its status: no walk
-    _new_model(repo)  # the folder's status changes: walked again, and the new file found
+    first = _check(repo)  # (it made the cache folder: hidden, as discovery leaves it)
+    assert _check(repo) == first == _check(repo) and len(scans) == 1
+    assert len(discoveries) == 1  # the same names everywhere, every candidate's status: no walk
+    _new_model(repo)  # a name more in its folder: walked again, and the new file found
     after = _check(repo)
-    assert len(discoveries) == 4  # the memo's walk (a miss: a new file), then the scan's
+    assert len(discoveries) == 3  # the memo's walk (a miss: a new file), then the scan's
     assert len(scans) == 2 and "boom" in after[1] and after == _fresh(repo)
+
+
+def test_a_renamed_model_file_is_walked_again(repo, scans, discoveries):
+    first = _check(repo)
+    (repo / "models" / "arm.yaml").rename(repo / "models" / "arm2.yaml")  # same status
+    after = _check(repo)
+    assert len(scans) == 2 and after != first and after == _fresh(repo)
 
 
 def test_a_nested_pyproject_that_becomes_a_policy_is_seen(repo, scans, discoveries):
     write(repo / "models" / "pyproject.toml", "[project]\nname = 'models'\n")
     first = _check(repo)
     assert _check(repo) == first == _check(repo) and len(scans) == 1
-    assert len(discoveries) == 2  # the third check read its walk
+    assert len(discoveries) == 1  # the checks after the first read its walk
     # edited in place (its folder's status unchanged): its own status tells
     write(repo / "models" / "pyproject.toml", "[project]\nname = 'models'\n\n"
           "[tool.eigengate.requirements]\nmin_damping = 0.5\n")
@@ -294,7 +300,7 @@ def test_a_folder_with_a_link_is_always_walked(repo, scans, discoveries):
 
 
 def test_a_walk_within_the_racy_window_is_not_kept(repo, scans, discoveries, monkeypatch):
-    monkeypatch.setattr(records_mod, "RACY_NS", 10**18)  # the folders changed "just now"
+    monkeypatch.setattr(records_mod, "RACY_NS", 10**18)  # the files changed "just now"
     first = _check(repo)
     assert _check(repo) == first == _check(repo) and len(scans) == 1
     assert len(discoveries) == 3

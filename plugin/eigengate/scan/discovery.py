@@ -25,7 +25,7 @@ if TYPE_CHECKING:  # pragma: no cover - names for annotations only
 
         def note_sniff(self, rel: str, st: os.stat_result | None, is_model: bool) -> None: ...
 
-__all__ = ["FoundFile", "Walk", "find_model_files", "MODEL_SUFFIXES"]
+__all__ = ["FoundFile", "Walk", "find_model_files", "listed_names", "MODEL_SUFFIXES"]
 
 MODEL_SUFFIXES = (".yaml", ".yml", ".toml", ".json")
 
@@ -36,19 +36,26 @@ _KEEP_BYTES = 1 << 18
 
 
 class Walk:
-    """What a discovery looked at, each status taken before anything was read: every folder
-    it listed and every entry with a model suffix, as ``(path, status)`` and ``(path, rel,
-    status)``; ``whole`` is false when it also met what status alone cannot vouch for (a
-    named file, a link). The report memo keeps it to tell, by status alone, that discovering
-    again would find the same (a folder's status changes when an entry is added, removed or
-    renamed; a file's when it is written)."""
+    """What a discovery looked at: every folder it listed with the names it listed there
+    (hidden ones left out, as discovery leaves them), and every entry with a model suffix
+    with its status taken before it was read, as ``(path, names)`` and ``(path, rel,
+    status)``; ``whole`` is false when it also met what names and statuses cannot vouch for
+    (a named file, a link, an entry it could not look at). The report memo keeps it to tell
+    that discovering again would find the same: the same names in every folder, and every
+    candidate with its status (a file's status changes when it is written)."""
 
     __slots__ = ("folders", "files", "whole")
 
     def __init__(self) -> None:
-        self.folders: list[tuple[str, os.stat_result | None]] = []
+        self.folders: list[tuple[str, list[str]]] = []
         self.files: list[tuple[str, str, os.stat_result | None]] = []
         self.whole = True
+
+
+def listed_names(names) -> list[str]:
+    """The names of a folder's listing that discovery looks at (hidden ones left out), in
+    order."""
+    return sorted(n for n in names if not n.startswith("."))
 
 
 class FoundFile:
@@ -129,14 +136,14 @@ def find_model_files(paths: Sequence[str | Path], config: "Config | None" = None
         while stack:  # like os.walk: hidden entries skipped, linked folders not followed
             folder = stack.pop()
             real_folder = _rel(os.path.realpath(folder), root)
-            if walk is not None:
-                walk.folders.append((folder, _stat(folder)))  # before it is listed
             try:
                 entries = list(os.scandir(folder))
             except OSError:
                 if walk is not None:
                     walk.whole = False
                 continue
+            if walk is not None:
+                walk.folders.append((folder, listed_names(e.name for e in entries)))
             for e in entries:
                 if e.name.startswith("."):
                     continue

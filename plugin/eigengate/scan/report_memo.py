@@ -9,8 +9,10 @@ recorded only when the file had not changed for two seconds before that check be
 the report's text, the messages written to standard error and the exit status, under a hash
 of all those inputs.
 
-The next check asks first: it loads the configuration, discovers the model files as usual
-(nested policies included), and takes each file's key from its status record, each
+The next check asks first: it loads the configuration, discovers the model files (nested
+policies included; as the last discovery found them when every folder it listed still
+lists the same names and every file it looked at has the status it had), and takes each
+file's key from its status record, each
 referenced file's hash from its status record, and each non-model file's "no model_format"
 answer from its record. When every one of them is answered by a record and the hash of the
 inputs has a report, that report is written and nothing is read, parsed or analysed (numpy
@@ -191,20 +193,20 @@ class ReportMemo:
 
     def _walked(self, walk: Any, paths: Sequence[str | Path], filter_named: bool):
         """``(found files, unselected model files)`` as the recorded discovery found them,
-        when it walked the same paths and every folder it listed and every entry with a
-        model suffix still has the status recorded (taken before it was listed or read);
-        None otherwise (a discovery runs). The nested policies are met as discovery meets
-        them, so their digests count as before."""
-        from .discovery import FoundFile
+        when it walked the same paths, every folder it listed still lists the same names
+        and every entry with a model suffix still has the status recorded (taken before it
+        was read); None otherwise (a discovery runs). The nested policies are met as
+        discovery meets them, so their digests count as before."""
+        from .discovery import FoundFile, listed_names
 
         if type(walk) is not dict or walk.get("key") != self._walk_key() \
                 or self._walk_key() != [[os.fspath(p) for p in paths], os.getcwd(),
                                         filter_named]:
             return None
         try:
-            for path, sig in walk["folders"]:
-                if signature(os.stat(path)) != sig:
-                    return None
+            for path, names in walk["folders"]:
+                if listed_names(os.listdir(path)) != names:
+                    return None  # an entry added, removed or renamed
             status = {}
             stat = os.stat
             for path, rel, sig in walk["files"]:
@@ -229,7 +231,8 @@ class ReportMemo:
     def _walk_record(self, walk, found: list[str], rels: list[str], unselected: list[str]
                      ) -> dict | None:
         """What :meth:`_walked` reads: None when the walk met a named file or a link, or a
-        status it could not take or cannot trust (changed within the racy window)."""
+        file whose status it could not take or cannot trust (changed within the racy
+        window)."""
         if walk is None or not walk.whole or len(found) != len(rels):
             return None
         limit = self._started - status_records.RACY_NS
@@ -237,11 +240,10 @@ class ReportMemo:
         def trusted(st) -> bool:
             return st is not None and max(st.st_mtime_ns, st.st_ctime_ns) < limit
 
-        if not all(trusted(st) for _, st in walk.folders) or \
-                not all(trusted(st) for _, _, st in walk.files):
+        if not all(trusted(st) for _, _, st in walk.files):
             return None
         return {"key": self._walk_key(),
-                "folders": [[path, signature(st)] for path, st in walk.folders],
+                "folders": [[path, names] for path, names in walk.folders],
                 "files": [[path, rel, signature(st)] for path, rel, st in walk.files],
                 "found": [[path, rel] for path, rel in zip(found, rels)],
                 "unselected": list(unselected)}
