@@ -10,9 +10,9 @@ from typing import TYPE_CHECKING
 from ..errors import ModelError
 from ..model.core import Model
 from .findings import Finding
-from .grid_summary import GridSummary, summarise_grid
 
 if TYPE_CHECKING:  # pragma: no cover
+    from .grid_summary import GridSummary
     from ..analysis.equilibrium import Equilibrium
     from ..analysis.modes import Spectrum
     from .catalogue import Verdict
@@ -65,5 +65,11 @@ class FileResult:
     @functools.cached_property
     def grid(self) -> GridSummary | None:
         """The summary of an operating-point grid (every point, worst first), or None when
-        the file is not a grid (:func:`eigengate.rules.grid_summary.summarise_grid`)."""
+        the file is not a grid (:func:`eigengate.rules.grid_summary.summarise_grid`; not
+        imported for a file whose models are no grid's points, which it would say too)."""
+        if self.error is not None or not self.results \
+                or any(r.model.grid is None for r in self.results):
+            return None
+        from .grid_summary import summarise_grid
+
         return summarise_grid(self)
