@@ -36,20 +36,27 @@ _KEEP_BYTES = 1 << 18
 
 
 class Walk:
-    """What a discovery looked at: every folder it listed with the names it listed there
-    (hidden ones left out, as discovery leaves them), and every entry with a model suffix
-    with its status taken before it was read, as ``(path, names)`` and ``(path, rel,
-    status)``; ``whole`` is false when it also met what names and statuses cannot vouch for
-    (a named file, a link, an entry it could not look at). The report memo keeps it to tell
-    that discovering again would find the same: the same names in every folder, and every
-    candidate with its status (a file's status changes when it is written)."""
+    """What a discovery looked at: every folder it listed, with its path relative to the
+    root (links resolved) and the names it listed there (hidden ones left out, as discovery
+    leaves them), and every entry with a model suffix with its status taken before it was
+    read, as ``(path, rel, names)`` and ``(folder's index, name, rel, status)``; ``whole``
+    is false when it also met what names and statuses cannot vouch for (a named file, a
+    link, an entry it could not look at). The report memo keeps it to tell that discovering
+    again would find the same: the same names in every folder, and every candidate with its
+    status (a file's status changes when it is written)."""
 
     __slots__ = ("folders", "files", "whole")
 
     def __init__(self) -> None:
-        self.folders: list[tuple[str, list[str]]] = []
-        self.files: list[tuple[str, str, os.stat_result | None]] = []
+        self.folders: list[tuple[str, str, list[str]]] = []
+        self.files: list[tuple[int, str, str, os.stat_result | None]] = []
         self.whole = True
+
+
+def walked_rel(folder_rel: str, name: str) -> str:
+    """The path relative to the root of entry ``name`` of a folder whose path relative to
+    the root is ``folder_rel``, as discovery names a file that is no link."""
+    return printable_name(name if folder_rel == "." else f"{folder_rel}/{name}")
 
 
 def listed_names(names) -> list[str]:
@@ -143,7 +150,7 @@ def find_model_files(paths: Sequence[str | Path], config: "Config | None" = None
                     walk.whole = False
                 continue
             if walk is not None:
-                walk.folders.append((folder, listed_names(e.name for e in entries)))
+                walk.folders.append((folder, real_folder, listed_names(e.name for e in entries)))
             for e in entries:
                 if e.name.startswith("."):
                     continue
@@ -159,14 +166,14 @@ def find_model_files(paths: Sequence[str | Path], config: "Config | None" = None
                             continue
                         rel, content = _named(e.path, root)
                     else:
-                        rel = e.name if real_folder == "." else f"{real_folder}/{e.name}"
-                        rel = printable_name(rel)
+                        rel = walked_rel(real_folder, e.name)
                 except OSError:
                     if walk is not None:
                         walk.whole = False
                     continue
                 if walk is not None and os.path.splitext(e.name)[1] in MODEL_SUFFIXES:
-                    walk.files.append((e.path, rel, _stat(e.path, e)))  # before any read
+                    walk.files.append((len(walk.folders) - 1, e.name, rel,
+                                       _stat(e.path, e)))  # before any read
                 found = _select(e.path, e.name, rel, config, look, e, content)
                 if found is not None:
                     below.append(found)

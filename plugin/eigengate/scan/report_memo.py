@@ -197,42 +197,50 @@ class ReportMemo:
         and every entry with a model suffix still has the status recorded (taken before it
         was read); None otherwise (a discovery runs). The nested policies are met as
         discovery meets them, so their digests count as before."""
-        from .discovery import FoundFile, listed_names
+        from .discovery import FoundFile, listed_names, walked_rel
 
         if type(walk) is not dict or walk.get("key") != self._walk_key() \
                 or self._walk_key() != [[os.fspath(p) for p in paths], os.getcwd(),
                                         filter_named]:
             return None
         try:
-            for path, names in walk["folders"]:
+            folders = walk["folders"]
+            for path, _, names in folders:
                 if listed_names(os.listdir(path)) != names:
                     return None  # an entry added, removed or renamed
-            status = {}
-            stat = os.stat
-            for path, rel, sig in walk["files"]:
-                st = stat(path)
-                if sig != [st.st_size, st.st_mtime_ns, st.st_ctime_ns, st.st_ino]:
-                    return None  # (signature(st), written out: asked of every file)
-                status[path] = st
+            paths_of, rels, stats = [], [], []
+            stat, join = os.stat, os.path.join
             met = set()  # the nested policies are per folder: one file of each asks
-            for path, rel, _ in walk["files"]:
-                folder = rel.rpartition("/")[0]
-                if folder not in met and os.path.basename(path) != "pyproject.toml":
-                    met.add(folder)
+            for k, name, rel, sig in walk["files"]:
+                folder, folder_rel, _ = folders[k]
+                path = join(folder, name)
+                st = stat(path)
+                if sig is not None and \
+                        sig != [st.st_size, st.st_mtime_ns, st.st_ctime_ns, st.st_ino]:
+                    return None  # (signature(st), written out: asked of every file)
+                rel = walked_rel(folder_rel, name) if rel is None else rel
+                if k not in met and name != "pyproject.toml":
+                    met.add(k)
                     self.config.policy_for(rel)  # (a nested policy's error as discovery's)
-            found = [FoundFile(path, rel, None, status[path]) for path, rel in walk["found"]]
+                paths_of.append(path)
+                rels.append(rel)
+                stats.append(st)
+            found = [FoundFile(paths_of[i], rels[i], None, stats[i]) for i in walk["found"]]
             unselected = walk["unselected"]
             if not all(type(r) is str for r in unselected):
                 return None
             return found, list(unselected)
-        except (OSError, KeyError, TypeError, ValueError):
+        except (OSError, KeyError, TypeError, ValueError, IndexError):
             return None
 
     def _walk_record(self, walk, found: list[str], rels: list[str], unselected: list[str]
                      ) -> dict | None:
         """What :meth:`_walked` reads: None when the walk met a named file or a link, or a
         file whose status it could not take or cannot trust (changed within the racy
-        window)."""
+        window). A found file's status is not kept here: the "files" table has its record,
+        which replaying compares."""
+        from .discovery import walked_rel
+
         if walk is None or not walk.whole or len(found) != len(rels):
             return None
         limit = self._started - status_records.RACY_NS
@@ -240,13 +248,26 @@ class ReportMemo:
         def trusted(st) -> bool:
             return st is not None and max(st.st_mtime_ns, st.st_ctime_ns) < limit
 
-        if not all(trusted(st) for _, _, st in walk.files):
+        if not all(trusted(st) for *_, st in walk.files):
             return None
-        return {"key": self._walk_key(),
-                "folders": [[path, names] for path, names in walk.folders],
-                "files": [[path, rel, signature(st)] for path, rel, st in walk.files],
-                "found": [[path, rel] for path, rel in zip(found, rels)],
-                "unselected": list(unselected)}
+        index = {}
+        files = []
+        for i, (k, name, rel, st) in enumerate(walk.files):
+            path = os.path.join(walk.folders[k][0], name)
+            index[path] = i
+            files.append([k, name, None if rel == walked_rel(walk.folders[k][1], name) else rel,
+                          signature(st)])
+        try:
+            hits = [index[path] for path in found]
+        except KeyError:
+            return None  # found otherwise than by the walk
+        for i in hits:
+            files[i][3] = None
+        if [files[i][2] or walked_rel(walk.folders[files[i][0]][1], files[i][1])
+                for i in hits] != list(rels):
+            return None
+        return {"key": self._walk_key(), "folders": [list(f) for f in walk.folders],
+                "files": files, "found": hits, "unselected": list(unselected)}
 
     def _digest(self, rels: list[str], keys: list[str], unselected: list[str],
                 refs: dict[str, str]) -> str:
