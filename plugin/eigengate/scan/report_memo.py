@@ -209,16 +209,21 @@ class ReportMemo:
                 if listed_names(os.listdir(path)) != names:
                     return None  # an entry added, removed or renamed
             paths_of, rels, stats = [], [], []
-            stat, join = os.stat, os.path.join
+            stat = os.stat
+            # each folder's prefixes: of an entry's path as scandir makes it (the folder,
+            # a separator unless it ends in one, the name), and of its relative path
+            prefixes = [(path if path.endswith(os.sep) else path + os.sep,
+                         "" if rel == "." else rel + "/") for path, rel, _ in folders]
             met = set()  # the nested policies are per folder: one file of each asks
             for k, name, rel, sig in walk["files"]:
-                folder, folder_rel, _ = folders[k]
-                path = join(folder, name)
+                at, below = prefixes[k]
+                path = at + name
                 st = stat(path)
                 if sig is not None and \
                         sig != [st.st_size, st.st_mtime_ns, st.st_ctime_ns, st.st_ino]:
                     return None  # (signature(st), written out: asked of every file)
-                rel = walked_rel(folder_rel, name) if rel is None else rel
+                if rel is None:  # (a printable folder and an ASCII name: printable)
+                    rel = below + name if name.isascii() else walked_rel(folders[k][1], name)
                 if k not in met and name != "pyproject.toml":
                     met.add(k)
                     self.config.policy_for(rel)  # (a nested policy's error as discovery's)
