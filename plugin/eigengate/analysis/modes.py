@@ -333,16 +333,15 @@ def analyse(model: Model) -> Spectrum:
     sizes = None if labels is None or labels == list(range(len(labels))) else \
         collections.Counter(labels)
     columns = part.T  # columns[i]: part[:, i], the same view
+    todo: list[list[int]] = []  # the clusters the loop below makes modes of
     if clusters is None and sizes is None and model.sample_period is None:
         rows, keys = _simple_modes(lams, deltas, kappas, None if labels is None else rhos,
                                    columns, tops, model.states)
-        clusters = ()  # done
     else:
         rows, keys = [], []
-        if clusters is None:
-            clusters = [[i] for i in range(n)]
+        todo = [[i] for i in range(n)] if clusters is None else clusters
     states = model.states
-    for members in clusters:
+    for members in todo:
         single = len(members) == 1
         if single:  # the common case: no numpy calls per eigenvalue
             i = members[0]

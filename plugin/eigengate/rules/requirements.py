@@ -94,7 +94,7 @@ def _threshold_verdict(req: Requirement, rows: list[tuple[Mode, float, float, fl
     # order), the worst row (the smallest (margin, index), the first of equals, as min()
     # finds it) and how each row is decided (_level: only the weakest level matters)
     failing, unsure, offending, unsure_u = [], [], [], []
-    worst = None
+    worst: tuple[float, int, float] | None = None  # (margin, index, value)
     certified_failure = loose = unsure_level = False
     for m, v, u, c in rows:
         g = sign * (v - threshold)
@@ -114,6 +114,7 @@ def _threshold_verdict(req: Requirement, rows: list[tuple[Mode, float, float, fl
             loose = True
         if worst is None or g < worst[0] or (g == worst[0] and m.index < worst[1]):
             worst = (g, m.index, v)
+    assert worst is not None  # rows is not empty
     margin, worst_value = worst[0], worst[2]
     uncertain = bool(unsure)
     passed = not failing and (not unsure or on_uncertain == "pass")
