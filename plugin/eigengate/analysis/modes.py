@@ -304,7 +304,8 @@ def analyse(model: Model) -> Spectrum:
                                                          base)
         sweep = sweep_order(lam.real.tolist())
         labels = None if rhos is None else touching_small(lams, rhos, TOUCH, sweep)
-        clusters = _groups(touching_small(lams, deltas, CLUSTER_FACTOR, sweep))
+        near = touching_small(lams, deltas, CLUSTER_FACTOR, sweep)
+        clusters = None if near == list(range(n)) else _groups(near)  # None: no cluster
     else:
         # A posteriori bounds from the residuals A v - λ v (descriptor: A v - λ E v) and the
         # left vectors; κ_i = ‖w‖‖v‖/|w^H v| (w^H E v for descriptor models) alongside.
@@ -318,6 +319,7 @@ def analyse(model: Model) -> Spectrum:
         deltas, kappas = delta.tolist(), kappa.tolist()
         rhos = None if rho is None else rho.tolist()
         clusters = _clusters(lam, delta)
+    n = len(lams)  # the finite eigenvalues (a descriptor model may have fewer than states)
 
     # Participation p_ki = |v_ki · conj((E^H w)_ki)|, normalised to sum 1 per eigenvalue.
     raw = np.abs(vr * ewc)
@@ -331,8 +333,15 @@ def analyse(model: Model) -> Spectrum:
     sizes = None if labels is None or labels == list(range(len(labels))) else \
         collections.Counter(labels)
     columns = part.T  # columns[i]: part[:, i], the same view
-    rows, keys, states = [], [], model.states
-    for members in clusters:
+    todo: list[list[int]] = []  # the clusters the loop below makes modes of
+    if clusters is None and sizes is None and model.sample_period is None:
+        rows, keys = _simple_modes(lams, deltas, kappas, None if labels is None else rhos,
+                                   columns, tops, model.states)
+    else:
+        rows, keys = [], []
+        todo = [[i] for i in range(n)] if clusters is None else clusters
+    states = model.states
+    for members in todo:
         single = len(members) == 1
         if single:  # the common case: no numpy calls per eigenvalue
             i = members[0]
@@ -376,6 +385,44 @@ def analyse(model: Model) -> Spectrum:
     spectrum.__dict__.update(model=model, modes=modes, infinite=infinite, norm=norm,
                              balanced=balanced, search=None)
     return spectrum
+
+
+def _simple_modes(lams: list[complex], deltas: list[float], kappas: list[float],
+                  rhos: list[float] | None, columns: "np.ndarray", tops: list[int],
+                  states: tuple[str, ...]) -> tuple[list[Mode], list[int]]:
+    """The modes (unordered) and their top states of a continuous spectrum with no cluster
+    and each enclosure disc alone in its component (``rhos``; None for no enclosure), as
+    :func:`analyse`'s loop builds them with :func:`_mode_fields` and :func:`_mode`: the
+    same arithmetic inline (``s`` is the centre, finite), each field dict made once, in the
+    same key order."""
+    new, inf = object.__new__, math.inf
+    rows, keys = [], []
+    for i, centre in enumerate(lams):
+        err = deltas[i]
+        if abs(centre.imag) <= err:
+            centre = complex(centre.real, 0.0)
+        elif centre.imag < 0:
+            continue  # the conjugate stands for this one
+        ring = inf if rhos is None else (abs(lams[i] - centre) + rhos[i]) * _WIDEN
+        re = centre.real
+        wn = abs(centre)
+        floor = _FLOOR * wn  # the rounding of s itself (re is finite)
+        err_s, ring_s = floor if floor > err else err, ring + floor
+        if wn == 0.0:
+            zeta, tau = 0.0, inf
+        else:
+            zeta = -re / wn + 0.0  # + 0.0 turns -0.0 into 0.0
+            tau = inf if re == 0.0 else -1.0 / re
+        mode = new(Mode)
+        object.__setattr__(mode, "__dict__", {
+            "index": 0, "eigenvalue": centre, "s": centre, "multiplicity": 1,
+            "geometric_multiplicity": 1, "pair": centre.imag != 0.0, "natural_frequency": wn,
+            "damping_ratio": zeta, "time_constant": tau,
+            "uncertainty": ring_s if ring_s < err_s else err_s, "condition": kappas[i],
+            "participation": columns[i], "enclosure": ring_s, "states": states})
+        rows.append(mode)
+        keys.append(tops[i])
+    return rows, keys
 
 
 def _mode(index: int, states: tuple[str, ...], row: dict) -> Mode:

@@ -71,15 +71,6 @@ def _fmt(x: float) -> str:
     return f"{x:.6g}"
 
 
-def _weakest(levels: Iterable[str]) -> str:
-    """The weakest of several decisions (all must hold): uncertain < estimated < certified."""
-    levels = list(levels)
-    for level in ("uncertain", "estimated"):
-        if level in levels:
-            return level
-    return "certified"
-
-
 def _level(distance: float, u: float, c: float) -> str:
     d = abs(distance)
     return "certified" if d > c and d > u else "estimated" if d > u else "uncertain"
@@ -99,24 +90,38 @@ def _threshold_verdict(req: Requirement, rows: list[tuple[Mode, float, float, fl
         return req._verdict(passed=True, uncertain=False, measured="n/a", threshold=threshold,
                             margin=None, offending=(), message=empty, decided_by="certified")
     sign = 1.0 if at_least else -1.0
-    margins = [(m, sign * (v - threshold), u, v, c) for m, v, u, c in rows]
-    failing, unsure, offending = [], [], []  # offending: both, in row order
-    for m, g, u, _, _ in margins:
-        if g < -u:
+    # one pass over the rows: margins, the failing and unsure modes (offending: both, in row
+    # order), the worst row (the smallest (margin, index), the first of equals, as min()
+    # finds it) and how each row is decided (_level: only the weakest level matters)
+    failing, unsure, offending, unsure_u = [], [], [], []
+    worst: tuple[float, int, float] | None = None  # (margin, index, value)
+    certified_failure = loose = unsure_level = False
+    for m, v, u, c in rows:
+        g = sign * (v - threshold)
+        d = abs(g)
+        if g < -u:  # then d > u: the failure is certified when d > c as well
             failing.append(m)
             offending.append(m)
-        elif abs(g) <= u:  # never also failing: |g| ≤ u rules out g < −u
+            if d > c:
+                certified_failure = True
+        elif d <= u:  # never also failing: |g| ≤ u rules out g < −u
             unsure.append(m)
             offending.append(m)
-    worst = min(margins, key=lambda t: (t[1], t[0].index))
-    margin, worst_value = worst[1], worst[3]
+            unsure_u.append(u)
+        if not d > u:  # _level: uncertain
+            unsure_level = True
+        elif not d > c:  # _level: estimated
+            loose = True
+        if worst is None or g < worst[0] or (g == worst[0] and m.index < worst[1]):
+            worst = (g, m.index, v)
+    assert worst is not None  # rows is not empty
+    margin, worst_value = worst[0], worst[2]
     uncertain = bool(unsure)
     passed = not failing and (not unsure or on_uncertain == "pass")
     if failing:
-        decided = "certified" if any(_level(g, u, c) == "certified" for _, g, u, _, c in margins
-                                     if g < -u) else "estimated"
-    else:
-        decided = _weakest({_level(g, u, c) for _, g, u, _, c in margins})
+        decided = "certified" if certified_failure else "estimated"
+    else:  # _weakest of the rows' levels
+        decided = "uncertain" if unsure_level else "estimated" if loose else "certified"
     rel = "≥" if at_least else "≤"
     if failing:
         verb = "modes violate" if len(failing) > 1 else "mode violates"
@@ -124,7 +129,7 @@ def _threshold_verdict(req: Requirement, rows: list[tuple[Mode, float, float, fl
                    f"{_fmt(threshold)}: worst {_fmt(worst_value)} (margin {_fmt(margin)})")
     elif unsure:
         message = (f"{what} {_fmt(worst_value)} is within its numerical uncertainty "
-                   f"(±{_fmt(max(u for m, g, u, _, _ in margins if m in unsure))}) of the "
+                   f"(±{_fmt(max(unsure_u))}) of the "
                    f"threshold {_fmt(threshold)}; verdict {'passed' if passed else 'failed'} by "
                    f"the on_uncertain={on_uncertain} policy")
     else:
@@ -156,10 +161,11 @@ class Stability(Requirement):
         discrete = spectrum.model.discrete
         # one pass: each mode's side (equilibrium.side) and, off the exact boundary, how it
         # is decided (_side_level), in mode order
-        unstable, inexact, exact, decay, levels, total = [], [], [], [], set(), 0
+        unstable, inexact, exact, decay, total = [], [], [], [], 0
+        unsure_level = loose = False  # whether _level gave "uncertain", "estimated"
         for m in modes:
             re, u = m.s.real, m.uncertainty
-            total += m.count
+            total += m.multiplicity * (2 if m.pair else 1)  # m.count
             decay.append(-re)  # m.decay_rate
             if not (re < -u or re > u) and re == 0.0:
                 exact.append(m)
@@ -171,7 +177,11 @@ class Stability(Requirement):
                 # exact; one within its bound but off it may lie on either side, so it decides
                 # nothing for sure.
                 inexact.append(m)
-            levels.add(_level(re, u, m.enclosure))
+            d = abs(re)  # _level(re, u, m.enclosure)
+            if not d > u:
+                unsure_level = True
+            elif not d > m.enclosure:
+                loose = True
         defective = [m for m in exact if m.defective]
         simple = [m for m in exact if not m.defective]
         margin = min(decay, default=math.inf)
@@ -214,7 +224,8 @@ class Stability(Requirement):
             decided = "certified" if any(_side_level(m) == "certified" for m in unstable) \
                 else "estimated"
         else:
-            decided = _weakest(levels | ({"estimated"} if exact else set()))
+            decided = "uncertain" if unsure_level else "estimated" if loose or exact else \
+                "certified"  # _weakest of the levels, an exact boundary mode's "estimated"
         return self._verdict(passed=passed, uncertain=uncertain, measured=measured,
                              decided_by=decided,
                              threshold=1.0 if discrete else 0.0,

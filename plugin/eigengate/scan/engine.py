@@ -26,33 +26,53 @@ __all__ = ["ModelResult", "FileResult", "analyse_model", "apply_waivers", "check
 def analyse_model(model: Model, config: "Config | None" = None) -> ModelResult:
     """Analyse one model and evaluate its requirements (the repository layers of ``config``
     below the model's own, when given); no waivers applied yet."""
-    from ..analysis.sparse_modes import spectrum_of
-    from ..rules.requirements import evaluate, origin, split_known_modes
-
+    analyse, evaluate, origin, classify, pictures_of = _stages or _analysis_stages()
     if config is not None:
         config = config.policy_for(model.source)  # a nested policy judges its own folder
         model = config.effective(model)
     if model.sparse:  # a sparse model's search covers the regions its requirements judge
+        from ..analysis.sparse_modes import spectrum_of
         from ..rules.partial import search_targets
 
         spectrum = spectrum_of(model, search_targets(model.requirements))
-    else:  # every eigenvalue: no regions to cover
-        spectrum = spectrum_of(model)
+    else:  # every eigenvalue: no regions to cover (spectrum_of's dense analysis)
+        spectrum = analyse(model)
     verdicts = evaluate(spectrum) or (_nothing_checked(),)
-    remaining = split_known_modes(spectrum, model.known_modes)[0] if model.known_modes \
-        else list(spectrum.modes)
-    equilibrium = origin(remaining, spectrum)[0]
+    if model.known_modes:
+        from ..rules.requirements import split_known_modes
+
+        equilibrium = origin(split_known_modes(spectrum, model.known_modes)[0], spectrum)[0]
+    else:  # origin() of every mode: none declared, nothing set aside
+        modes = spectrum.modes
+        equilibrium = classify(modes, declared=0, set_aside=bool(modes))
     if spectrum.search is not None:  # classified from the modes found: not decided
         from dataclasses import replace
 
         equilibrium = replace(equilibrium, uncertain=True, detail=f"from the "
                               f"{spectrum.n_eigenvalues} eigenvalues a sparse search found "
                               f"of {model.n_states}, not the whole spectrum")
-    from ..rules.pictures import pictures_of
+    result = object.__new__(ModelResult)  # ModelResult(...) without the frozen __init__'s cost
+    result.__dict__.update(model=model, spectrum=spectrum, equilibrium=equilibrium,
+                           verdicts=verdicts, findings=tuple(findings_of(model, verdicts, config)),
+                           waived=(), used_waivers=(), pictures=pictures_of(model, verdicts))
+    return result
 
-    return ModelResult(model=model, spectrum=spectrum, equilibrium=equilibrium,
-                       verdicts=verdicts, findings=tuple(findings_of(model, verdicts, config)),
-                       pictures=pictures_of(model, verdicts))
+
+#: The functions :func:`analyse_model` calls, imported on its first call (the analysis
+#: modules stay unimported until a model is analysed; a statement ``from … import`` in the
+#: function itself would cost microseconds per model).
+_stages: tuple = ()
+
+
+def _analysis_stages() -> tuple:
+    global _stages
+    from ..analysis.equilibrium import classify
+    from ..analysis.modes import analyse
+    from ..rules.pictures import pictures_of
+    from ..rules.requirements import evaluate, origin
+
+    _stages = (analyse, evaluate, origin, classify, pictures_of)
+    return _stages
 
 
 def _nothing_checked():
