@@ -275,24 +275,36 @@ class Config(Frozen):
     def _policy_for(self, rel: str, key: str) -> str | None:
         if (own := self._own(rel)) is not None:
             return own._policy_for(rel, key)
-        value = getattr(self, key)
-        for o in self.overrides:
-            if getattr(o, key) is not None and o.applies(rel):
-                value = getattr(o, key)
-        return value
+        return self._own_value(rel, key)
 
     def effective(self, model: "Model") -> "Model":
         """``model`` with the repository layers applied below its own requirements."""
         from ..rules.requirements import apply_layers
 
-        if (own := self._own(model.source)) is not None:
+        rel = model.source
+        if (own := self._own(rel)) is not None:
             return own.effective(model)
-        layers = self.layers_for(model.source) + [(model.requirements, model.disabled)]
-        reqs = tuple(r for r in apply_layers(layers) if self.rule_enabled(r.rule))
+        # this policy judges ``rel``: its own layers, values and rule switches, as
+        # layers_for, _policy_for and rule_enabled give them (each would look for it again)
+        self.complete()
+        layers = [*self.inherited, self.requirements,
+                  *[o.requirements for o in self.overrides if o.applies(rel)],
+                  (model.requirements, model.disabled)]
+        reqs = apply_layers(layers)
+        if self.severity or self.ignore or self.select:  # else every rule is on
+            reqs = tuple(r for r in reqs if self.rule_enabled(r.rule))
         return model.with_fields(
             requirements=reqs, disabled=(),
-            on_uncertain=model.on_uncertain or self.on_uncertain_for(model.source),
-            require=model.require or self.require_for(model.source))
+            on_uncertain=model.on_uncertain or self._own_value(rel, "on_uncertain"),
+            require=model.require or self._own_value(rel, "require"))
+
+    def _own_value(self, rel: str, key: str) -> str | None:
+        """:meth:`_policy_for` of a ``rel`` this policy judges."""
+        value = getattr(self, key)
+        for o in self.overrides:
+            if getattr(o, key) is not None and o.applies(rel):
+                value = getattr(o, key)
+        return value
 
 
 def _rebase(pattern: str, base: str) -> str:
