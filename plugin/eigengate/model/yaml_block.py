@@ -253,10 +253,12 @@ def _matrix_rows(body: str, indent: str) -> list[list[float]] | None:
     one point; None unless every entry is a decimal (:data:`_DEC`). Such an entry is one
     when float() reads it: float's syntax, less underscores, blanks and the words inf and
     nan (which those characters cannot spell), with the point a decimal has."""
-    chunks = ("\n" + body).split("\n" + indent + "- ")  # "", then "- x ... - x" per row
+    # "", then "x\n<indent>  - x ... - x\n" per row: "- - " starts a row and nothing else
+    # (an entry holds no blank), and float() ignores the line break after an entry
+    chunks = body.split(indent + "- - ")
     entry = "\n" + indent + "  - "  # before every entry of a row after its first
-    try:  # float() ignores the line break after a row's last entry
-        return [list(map(float, chunk[2:].split(entry))) for chunk in chunks[1:]]
+    try:
+        return [list(map(float, chunk.split(entry))) for chunk in chunks[1:]]
     except ValueError:
         return None
 
@@ -267,9 +269,9 @@ def _add_rows(rows: list[list[float]], outer: list[Any], path: str, lines: dict[
     list at ``path``), noting each row's line as the event road notes a list in a list.
     Every entry has a line of its own, so a row starts as many lines after the one before as
     that one has entries. Returns the matrix's last line."""
-    line = number
-    for i, row in enumerate(rows, len(outer)):
-        lines.setdefault(f"{path}.{i}" if path else str(i), line)
+    line, start = number, len(outer)
+    for i, row in enumerate(rows, start):  # new paths: no other node has them
+        lines[f"{path}.{i}"] = line
         line += len(row)
     outer.extend(rows)
     return line - 1
