@@ -81,7 +81,7 @@ def load_models_with_refs(path: str | os.PathLike[str],
     # the folder's Path from the (normalised) name of the file: equal to file.parent
     models = _load(data, source=source, root=base, base_dir=_path(os.path.dirname(name)),
                    lines=lines, refs=refs, allow_python=allow_python,
-                   stem=name_parts(name)[0] if type(file) is str else file.stem)
+                   stem=file.stem if isinstance(file, Path) else name_parts(name)[0])
     return models, sorted(set(refs))
 
 
