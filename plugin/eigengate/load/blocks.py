@@ -11,6 +11,7 @@ from .context import (CONTROLLER_SS_KEYS, CONTROLLER_TF_KEYS, FEEDBACK_KEYS, FEE
                      SO_PLANT_KEYS, SS_KEYS, TF_KEYS, _check_keys, _Ctx, _mapping, _matrix, _requirements)
 from .inputs import ModelInputs
 from .parameters import parse_parameters
+from ..rules.applicability import refuse_unmet
 from ..model.core import Model, as_matrix, from_arrays
 
 #: The fields of a plant block and of a controller block, in the order messages list them.
@@ -86,7 +87,7 @@ def build_model(doc: Mapping[str, Any], ctx: _Ctx, name: str, label: str | None)
         model = plant.with_fields(**fields)
     else:
         model = from_arrays(*matrices, e, states=states, inputs=plant.inputs,
-                            outputs=plant.outputs, lines=ctx.prefixed_lines(),
+                            outputs=plant.outputs, lines=_lines(ctx),
                             prefix=ctx.prefix, sparse=plant.sparse, **fields)
     for req in requirements:  # a requirement the model cannot be judged by is refused here
         why = req.unfit(model)
@@ -104,18 +105,27 @@ def build_model(doc: Mapping[str, Any], ctx: _Ctx, name: str, label: str | None)
             raise ctx.err("requirements.robust", "is not evaluated on a model with known_modes "
                           "(they are matched at the nominal values only)",
                           "remove known_modes, or check the range without robust")
-    return model.with_fields(lines=dict(ctx.lines),
-                             loop_parts=_loop(doc, ctx, parts, requirements, box is not None),
-                             allowed_drift=drift, require=require, parameters=box,
-                             file_inputs=ModelInputs.linear(doc, ctx, _loop_matrices))
+    rest = dict(lines=dict(ctx.lines),
+                loop_parts=_loop(doc, ctx, parts, requirements, box is not None),
+                allowed_drift=drift, require=require, parameters=box,
+                file_inputs=ModelInputs.linear(doc, ctx, _loop_matrices))
+    if box is not None:  # the box keeps the model it was checked with: a copy
+        return model.with_fields(**rest)
+    # ``model`` is a new copy that nothing else holds: completed in place (what with_fields
+    # would copy it into)
+    model.__dict__.update(rest)
+    return model
+
+
+def _lines(ctx: _Ctx) -> dict[str, int]:
+    """The field lines for :func:`from_arrays` (which copies them): the context's own without
+    a prefix."""
+    return ctx.lines if not ctx.prefix else ctx.prefixed_lines()
 
 
 def _loop(doc: Mapping[str, Any], ctx: _Ctx, parts: list[dict[str, Any]],
           requirements: tuple, parameters: bool = False) -> Any:
     """LoopParts of a closed loop (with the ``loop:`` block applied), or None without one."""
-    from ..rules.applicability import refuse_unmet
-    from ..rules.loop_requirements import parse_loop_block
-
     # a linear model provides a loop (with feedback), parameters (with a parameters block)
     # and nothing else: the rest is refused
     refuse_unmet(requirements, ("loop",) * bool(parts) + ("parameters",) * parameters,
@@ -126,6 +136,7 @@ def _loop(doc: Mapping[str, Any], ctx: _Ctx, parts: list[dict[str, Any]],
                           "add feedback (state_gain, output_gain or controller)")
         return None
     from ..analysis.margins import LoopParts
+    from ..rules.loop_requirements import parse_loop_block
 
     kw = parts[0]
     channels = {"plant_input": kw["inputs"], "plant_output": kw["outputs"]}
@@ -180,7 +191,7 @@ def _system(block: dict[str, Any], ctx: _Ctx, path: str, *, plant: bool) -> tupl
         model = from_arrays(**mats, sparse=sparse, states=_names(block, "states", ctx, path),
                             inputs=_names(block, "inputs", ctx, path),
                             outputs=_names(block, "outputs", ctx, path), source=ctx.source,
-                            lines=ctx.prefixed_lines(), prefix=prefix)
+                            lines=_lines(ctx), prefix=prefix)
         return model, "descriptor" if model.E is not None else "state-space"
     for k in ("num", "den"):
         if k not in block:
@@ -203,7 +214,7 @@ def _system(block: dict[str, Any], ctx: _Ctx, path: str, *, plant: bool) -> tupl
     model = from_arrays(a, b, c, d, states=_names(block, "states", ctx, path),
                         inputs=_names(block, "inputs", ctx, path),
                         outputs=_names(block, "outputs", ctx, path), source=ctx.source,
-                        lines=ctx.prefixed_lines(), prefix=prefix)
+                        lines=_lines(ctx), prefix=prefix)
     return model, "transfer function"
 
 

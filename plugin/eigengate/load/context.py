@@ -114,7 +114,7 @@ def _requirements(doc: Mapping[str, Any], ctx: _Ctx, states: list[str]
                   ) -> tuple[tuple, tuple[str, ...], tuple]:
     from ..rules import parsing as _reqparse
 
-    lines = ctx.prefixed_lines()
+    lines = ctx.prefixed_lines() if ctx.prefix else ctx.lines  # only read
     requirements: tuple = ()
     disabled: tuple[str, ...] = ()
     known: tuple = ()

@@ -10,10 +10,12 @@ from __future__ import annotations
 import dataclasses
 import functools
 import os
+import stat
 from pathlib import Path
 from collections.abc import Mapping
 from typing import Any, Callable
 
+from ..model.filenames import name_parts, plain_name
 from ..model.formats import printable_name, read_document, suggest
 from ..errors import ModelError
 from ..model.core import Model, sample_period_problem
@@ -68,15 +70,18 @@ def load_models_with_refs(path: str | os.PathLike[str],
                           allow_python: bool = False) -> tuple[list[Model], list[str]]:
     """Like :func:`load_models`, also returning the repository-relative paths (POSIX) of the
     matrix files the model references, sorted and without repeats, so a cache can hash them."""
-    file = Path(path)
-    base = _path(os.fspath(root)) if root is not None else find_root(file)
+    name = path if type(path) is str else os.fspath(path)
+    # a plain absolute name is what Path(name) makes of it: read as it is, with no Path
+    file: str | Path = name if type(name) is str and plain_name(name) else Path(path)
+    name = os.fspath(file)
+    base = _path(os.fspath(root)) if root is not None else find_root(Path(file))
     source = model_source(file, base)
     data, lines = read_document(file, source)
     refs: list[str] = []
     # the folder's Path from the (normalised) name of the file: equal to file.parent
-    models = _load(data, source=source, root=base,
-                   base_dir=_path(os.path.dirname(os.fspath(file))), lines=lines, refs=refs,
-                   stem=file.stem, allow_python=allow_python)
+    models = _load(data, source=source, root=base, base_dir=_path(os.path.dirname(name)),
+                   lines=lines, refs=refs, allow_python=allow_python,
+                   stem=file.stem if isinstance(file, Path) else name_parts(name)[0])
     return models, sorted(set(refs))
 
 
@@ -93,18 +98,34 @@ def real_folder(folder: str) -> str:
     return os.path.realpath(folder)
 
 
-def model_source(file: Path, root: Path) -> str:
+def _real_path(file: str | Path) -> str:
+    """``os.path.realpath(file)``; for a plain name (:func:`eigengate.model.filenames.
+    plain_name`) that is not a link, its real folder (once per process, :func:`real_folder`)
+    and its name: the folder's parts are not looked at again for every file in it."""
+    if type(file) is str and plain_name(file):
+        try:
+            mode = os.lstat(file).st_mode
+        except OSError:
+            mode = None
+        if mode is not None and not stat.S_ISLNK(mode):
+            folder, _, last = file.rpartition("/")
+            return os.path.join(real_folder(folder or "/"), last)
+    return os.path.realpath(file)
+
+
+def model_source(file: str | Path, root: Path) -> str:
     """The repository-relative name of model file ``file``, after checking that it may be read:
     a link in the repository that points outside it is refused (like a matrix file's link,
     before anything of the target is read), as is a name that is not valid UTF-8 (shown with
     escapes). A file outside ``root`` that is not such a link keeps the path it was given."""
     root_real = real_folder(os.fspath(root))
-    real = os.path.realpath(file)
+    real = _real_path(file)
     if real.startswith(root_real) and real[len(root_real):len(root_real) + 1] in ("", os.sep):
         # both paths are absolute and normalised: the relative path is the rest of ``real``
         rest = real[len(root_real) + 1:] or "."
         source = rest if os.sep == "/" else Path(rest).as_posix()
     else:
+        file = Path(file)
         here = os.path.join(real_folder(os.path.dirname(os.path.abspath(file))), file.name)
         if here.startswith(root_real + os.sep):
             raise ModelError(printable_name(Path(os.path.relpath(here, root_real)).as_posix()),

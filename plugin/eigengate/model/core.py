@@ -8,14 +8,14 @@ same errors with the same wording.
 from __future__ import annotations
 
 import functools
-from dataclasses import dataclass, field, fields
+from dataclasses import MISSING, dataclass, field, fields
 from typing import TYPE_CHECKING, Any, Mapping, Sequence
 
 from . import limits as _limits
 from ..errors import ModelError
 from .matrices import (  # noqa: F401 (re-exported: the model's matrix checks)
     MAX_MAGNITUDE, MAX_STATES, MIN_SCALE, SPARSE_THRESHOLD, _check_scale, as_matrix, as_sparse,
-    dense_limit, is_sparse)
+    check_scale_top, dense_limit, is_sparse, matrix_and_top)
 
 if TYPE_CHECKING:  # pragma: no cover
     import numpy as np
@@ -137,6 +137,24 @@ class Model:
 
 
 _FIELD_NAMES = frozenset(f.name for f in fields(Model))
+#: Every field's default, in field order (None for the five matrices and name, which have
+#: none, and for ``lines``, whose default is made per model).
+_DEFAULTS = {f.name: None if f.default is MISSING else f.default for f in fields(Model)}
+
+
+def new_model(**values: Any) -> Model:
+    """``Model(**values)`` without the frozen ``__init__``'s assignment per field: the same
+    fields in the same order (a Model has no ``__post_init__``). ``values`` gives name, the
+    four matrices A to D and ``lines`` (the fields without a plain default)."""
+    assert _REQUIRED.issubset(values) and _FIELD_NAMES.issuperset(values)
+    new = object.__new__(Model)
+    state = new.__dict__
+    state.update(_DEFAULTS)
+    state.update(values)
+    return new
+
+
+_REQUIRED = frozenset(("name", "A", "B", "C", "D", "lines"))
 
 
 def sample_period_problem(value: Any) -> str | None:
@@ -233,10 +251,12 @@ def from_arrays(
     if keep:
         a = spmat(A, "A")
         e_sparse = None if E is None else spmat(E, "E")
+        _check_scale(a, lambda p, h=None: ModelError(source, fld("A"), p,
+                                                     line=lines.get(fld("A")), hint=h))
     else:
-        a = mat(A, "A")
-    _check_scale(a, lambda p, h=None: ModelError(source, fld("A"), p, line=lines.get(fld("A")),
-                                                 hint=h))
+        a, top = matrix_and_top(A, source, fld("A"), lines.get(fld("A")))
+        check_scale_top(a, top, lambda p, h=None: ModelError(source, fld("A"), p,
+                                                             line=lines.get(fld("A")), hint=h))
     n = a.shape[0]
     if a.shape[0] * a.shape[1] == 0:
         raise ModelError(source, fld("A"), "must not be empty, got a 0×0 matrix",
@@ -284,12 +304,12 @@ def from_arrays(
         ident = e.nnz == n and bool((e.diagonal() == 1.0).all())
         e = None if ident else e
     elif E is not None:
-        e = mat(E, "E")
+        e, top = matrix_and_top(E, source, fld("E"), lines.get(fld("E")))
         if e.shape != (n, n):
             raise ModelError(source, fld("E"), f"must be {n}×{n} like A, got "
                              f"{e.shape[0]}×{e.shape[1]}", line=lines.get(fld("E")))
-        _check_scale(e, lambda p, h=None: ModelError(source, fld("E"), p,
-                                                     line=lines.get(fld("E")), hint=h))
+        check_scale_top(e, top, lambda p, h=None: ModelError(source, fld("E"), p,
+                                                             line=lines.get(fld("E")), hint=h))
         if np.array_equal(e, np.eye(n)):
             e = None  # an identity E is an ordinary state-space model
     if sample_period is not None:
@@ -300,7 +320,7 @@ def from_arrays(
     if on_uncertain not in (None, "fail", "pass"):
         raise ModelError(source, "on_uncertain", f"must be 'fail' or 'pass', got {on_uncertain!r}",
                          line=lines.get("on_uncertain"))
-    return Model(
+    return new_model(
         name=name,
         A=a, B=b, C=c, D=d, E=e,
         sample_period=sample_period,

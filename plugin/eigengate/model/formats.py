@@ -17,7 +17,7 @@ from pathlib import Path
 from typing import Any, Iterable
 
 from ..errors import ModelError
-from .filenames import printable_name  # noqa: F401 (re-exported)
+from .filenames import name_parts, plain_name, printable_name  # noqa: F401 (re-exported)
 from .limits import (  # noqa: F401 (the limits and number checks, re-exported)
     FLOAT_MAX, MAX_INT_DIGITS, MAX_NESTING, MAX_VALUES, int_problem, int_value)
 
@@ -39,7 +39,7 @@ def suggest(word: str, choices: Iterable[str]) -> str | None:
     return found[0] if found else None
 
 
-def read_document(path: Path, source: str) -> tuple[dict[str, Any], dict[str, int]]:
+def read_document(path: "str | Path", source: str) -> tuple[dict[str, Any], dict[str, int]]:
     """Read the model file at ``path`` into plain data and a field-line map.
 
     Parameters
@@ -60,11 +60,15 @@ def read_document(path: Path, source: str) -> tuple[dict[str, Any], dict[str, in
         When the file cannot be read, is empty, binary, not UTF-8, larger than
         :data:`MAX_MODEL_FILE_BYTES`, malformed, has duplicate keys or a non-mapping top level.
     """
-    if not isinstance(path, Path):
-        path = Path(path)
-    suffix = path.suffix.lower()
+    if isinstance(path, Path):
+        given = path.suffix
+    else:  # a name that Path keeps unchanged is used as it is (the loader passes such names)
+        name = os.fspath(path)
+        given = name_parts(name)[1] if type(name) is str and plain_name(name) \
+            else Path(name).suffix
+    suffix = given.lower()
     if suffix not in SUFFIXES:
-        raise ModelError(source, "", f"has an unknown file type {path.suffix or '(none)'!r}",
+        raise ModelError(source, "", f"has an unknown file type {given or '(none)'!r}",
                          hint="model files end in " + ", ".join(SUFFIXES))
     raw = read_regular(path, source, MAX_MODEL_FILE_BYTES,
                        "keep large matrices in .npz files referenced with {file: ...}")

@@ -4,6 +4,8 @@ share: below both, so neither imports the other."""
 
 from __future__ import annotations
 
+import functools
+
 __all__ = ["MAX_NESTING", "MAX_VALUES", "MAX_INT_DIGITS", "FLOAT_MAX", "int_problem",
            "DENSE_COPIES", "MAX_SPARSE_STATES", "physical_memory", "memory_budget",
            "dense_state_limit", "sparse_entry_limit",
@@ -64,6 +66,13 @@ MAX_SPARSE_STATES = 10_000_000
 
 def physical_memory() -> int:
     """Physical memory of the machine in bytes (8 GiB when the system does not say)."""
+    return _physical_memory()
+
+
+@functools.lru_cache(maxsize=1)
+def _physical_memory() -> int:
+    """:func:`physical_memory`, asked of the system once per process (it does not change
+    while the process runs; tests replace :func:`physical_memory` itself)."""
     import os
 
     try:

@@ -13,7 +13,7 @@ from ..errors import ModelError
 if TYPE_CHECKING:  # pragma: no cover
     import numpy as np
 
-__all__ = ["as_matrix", "as_sparse", "is_sparse", "dense_limit", "MAX_STATES",
+__all__ = ["as_matrix", "matrix_and_top", "check_scale_top", "as_sparse", "is_sparse", "dense_limit", "MAX_STATES",
            "SPARSE_THRESHOLD", "MAX_MAGNITUDE", "MIN_SCALE"]
 
 #: Largest number of states of a dense model (dense eigen-decomposition stays in seconds);
@@ -47,6 +47,48 @@ def as_matrix(
     taken as one row when ``allow_vector`` is true. Booleans, strings, complex numbers, NaN
     and Inf are refused with the position of the first bad entry.
     """
+    if type(value) is list and value:  # the usual inline matrix: checked in a few C passes
+        plain = _plain_rows(value)
+        if plain is not None:
+            return plain[0]
+    return _general_matrix(value, source, field_path, line, allow_vector)
+
+
+def matrix_and_top(value: Any, source: str, field_path: str, line: int | None
+                   ) -> "tuple[np.ndarray, float]":
+    """:func:`as_matrix` of ``value`` and the largest magnitude of its entries (0.0 when it
+    has none), for :func:`check_scale_top`: one reduction serves both checks."""
+    if type(value) is list and value:
+        plain = _plain_rows(value)
+        if plain is not None:
+            return plain
+    import numpy as np
+
+    arr = _general_matrix(value, source, field_path, line, False)
+    return arr, float(np.abs(arr).max()) if arr.size else 0.0
+
+
+def _plain_rows(rows: list[Any]) -> "tuple[np.ndarray, float] | None":
+    """The float array of ``rows`` and its largest magnitude, when ``rows`` is a list of
+    equal-length lists of int and float entries of magnitude at most :data:`MAX_MAGNITUDE`
+    (what the general path accepts of a list of lists, built the same way); None for
+    anything else, which the general path words."""
+    if set(map(type, rows)) != _LIST_TYPE or len(set(map(len, rows))) != 1 \
+            or not set(map(type, chain.from_iterable(rows))) <= _NUMBER_TYPES:
+        return None
+    import numpy as np
+
+    arr = np.array(rows, dtype=float).reshape(len(rows), len(rows[0]))
+    if not arr.size:
+        return arr, 0.0
+    top = float(np.abs(arr).max())
+    if not top <= MAX_MAGNITUDE:
+        return None  # NaN, Inf or too large: the general path names the entry
+    return arr, top
+
+
+def _general_matrix(value: Any, source: str, field_path: str, line: int | None,
+                    allow_vector: bool) -> "np.ndarray":
     import numpy as np
 
     def bad(problem: str, hint: str | None = None) -> ModelError:
@@ -169,6 +211,12 @@ def as_sparse(value: Any, source: str, field_path: str, *, line: int | None = No
             raise bad(f"must hold {what}, entry ({i + 1},{int(m.indices[k]) + 1}) is "
                       f"{data[k]:g}", hint)
     return m
+
+
+def check_scale_top(arr: "np.ndarray", top: float, bad) -> None:
+    """:func:`_check_scale` of a dense ``arr`` whose largest magnitude ``top`` is known."""
+    if 0.0 < top < MIN_SCALE:
+        _check_scale(arr, bad)
 
 
 def _check_scale(arr: "np.ndarray", bad) -> None:

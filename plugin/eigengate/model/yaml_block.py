@@ -50,6 +50,13 @@ _LINE = (rf"( *)((?:-(?: +|(?=\n)))*)(?:({_KEY}):(?: +|(?=\n)))?(?:({_DEC})|({_S
 _MATRIX = rf"( *)- - ({_DEC})\n(?:\1  - {_DEC}\n)*(?:\1- - {_DEC}\n(?:\1  - {_DEC}\n)*)*"
 _RUN = rf"( *)- ({_DEC})\n(?:\3- {_DEC}\n)+"
 _TOKEN = re.compile(f"{_MATRIX}|{_RUN}|{_LINE}")
+#: :data:`_TOKEN` with a matrix's entries matched as runs of the characters of a decimal
+#: with exactly one point (much faster than matching each as a decimal); :func:`_matrix_rows`
+#: keeps the match only when every entry is a decimal after all, else :data:`_TOKEN` matches
+#: there.
+_NUMBERISH = r"[-+0-9eE]*\.[-+0-9eE]*"
+_QUICK = re.compile(rf"( *)- - ({_NUMBERISH})\n(?:\1  - {_NUMBERISH}\n)*"
+                    rf"(?:\1- - {_NUMBERISH}\n(?:\1  - {_NUMBERISH}\n)*)*|{_RUN}|{_LINE}")
 _INT = re.compile(r"[-+]?[0-9]+\Z")
 #: A core-schema float without a point: digits and an exponent (1e5).
 _EXPONENT = re.compile(r"[-+]?[0-9]+[eE][-+]?[0-9]+\Z")
@@ -104,7 +111,7 @@ def block_document(text: str) -> tuple[dict[str, Any], dict[str, int]] | None:
 
 def _build(text: str) -> tuple[dict[str, Any], dict[str, int]]:
     max_open = _limits.MAX_NESTING - 2  # near the limit: the full road words it
-    convert, token = scalar_value, _TOKEN.match
+    convert, token = scalar_value, _QUICK.match
     root: dict[str, Any] = {}
     lines: dict[str, int] = {}
     # open blocks, innermost last: [container, is_mapping, column, path, indentless]; an
@@ -120,9 +127,18 @@ def _build(text: str) -> tuple[dict[str, Any], dict[str, int]]:
         found = token(text, pos)
         if found is None:
             raise _Decline  # a line of another form
+        matrix, first, run, item, indent, dashes, key, decimal, plain = found.groups()
+        rows = None
+        if first is not None:
+            rows = _matrix_rows(found.group(0), matrix)
+            if rows is None:  # an entry that is not a decimal: the exact pattern there
+                found = _TOKEN.match(text, pos)
+                if found is None:
+                    raise _Decline
+                matrix, first, run, item, indent, dashes, key, decimal, plain = \
+                    found.groups()
         pos = found.end()
         number += 1
-        matrix, first, run, item, indent, dashes, key, decimal, plain = found.groups()
         if first is not None:
             indent, dashes, decimal = matrix, "- - ", first
         elif item is not None:
@@ -161,14 +177,13 @@ def _build(text: str) -> tuple[dict[str, Any], dict[str, int]]:
         if dashes:
             if top_map:
                 raise _Decline  # "- " where a key belongs
-            if first is not None:  # a matrix: its first row here, the rest in bulk
+            if first is not None:  # a matrix: its rows in bulk
                 if len(stack) >= max_open:
                     raise _Decline
-                i = len(top)
-                path = f"{top_path}.{i}" if top_path else str(i)
-                top.append([float(first)])
-                lines.setdefault(path, number)
-                number = _rest_of_matrix(found.group(0), indent, top, top_path, lines, number)
+                if rows is None:  # the exact pattern matched its first rows
+                    rows = _matrix_rows(found.group(0), indent)
+                    assert rows is not None
+                number = _add_rows(rows, top, top_path, lines, number)
                 path = f"{top_path}.{len(top) - 1}" if top_path else str(len(top) - 1)
                 top, top_map, top_col, top_path = top[-1], False, col + 2, path
                 stack.append([top, False, top_col, path, False])
@@ -232,21 +247,31 @@ def _rest_of_run(body: str, seq: list[Any], number: int) -> int:
     return number + body.count("\n") - 1
 
 
-def _rest_of_matrix(body: str, indent: str, outer: list[Any], path: str,
-                    lines: dict[str, int], number: int) -> int:
-    """Read the rest of a block-style matrix at ``path`` whose first entry, on line
-    ``number``, is read: the first row's other entries, then every further row (its line
-    noted, as the event road notes a list in a list). Every entry has a line of its own, so
-    a row starts as many lines after the one before as that one has entries. Returns the
-    matrix's last line."""
-    chunks = ("\n" + body).split("\n" + indent + "- ")  # "", then "- x ... - x" per row
+def _matrix_rows(body: str, indent: str) -> list[list[float]] | None:
+    """The rows of a block-style matrix ``body`` at ``indent`` (rows ``- - x`` and entries
+    ``  - x``, one a line) whose entries are runs of the characters of a decimal with exactly
+    one point; None unless every entry is a decimal (:data:`_DEC`). Such an entry is one
+    when float() reads it: float's syntax, less underscores, blanks and the words inf and
+    nan (which those characters cannot spell), with the point a decimal has."""
+    # "", then "x\n<indent>  - x ... - x\n" per row: "- - " starts a row and nothing else
+    # (an entry holds no blank), and float() ignores the line break after an entry
+    chunks = body.split(indent + "- - ")
     entry = "\n" + indent + "  - "  # before every entry of a row after its first
-    # float() ignores the line break after a row's last entry
-    outer[-1].extend(map(float, chunks[1].split(entry)[1:]))
-    rows = [list(map(float, chunk[2:].split(entry))) for chunk in chunks[2:]]
-    line = number + len(outer[-1])
-    for i, row in enumerate(rows, len(outer)):
-        lines[f"{path}.{i}"] = line  # a new path: no other node has it
+    try:
+        return [list(map(float, chunk.split(entry))) for chunk in chunks[1:]]
+    except ValueError:
+        return None
+
+
+def _add_rows(rows: list[list[float]], outer: list[Any], path: str, lines: dict[str, int],
+              number: int) -> int:
+    """Append a matrix's ``rows``, whose first entry is on line ``number``, to ``outer`` (a
+    list at ``path``), noting each row's line as the event road notes a list in a list.
+    Every entry has a line of its own, so a row starts as many lines after the one before as
+    that one has entries. Returns the matrix's last line."""
+    line, start = number, len(outer)
+    for i, row in enumerate(rows, start):  # new paths: no other node has them
+        lines[f"{path}.{i}"] = line
         line += len(row)
     outer.extend(rows)
     return line - 1

@@ -167,7 +167,49 @@ def parse_requirement_layer(raw: Any, source: str, prefix: str = "requirements."
                             lines: Mapping[str, int] | None = None
                             ) -> tuple[tuple[Requirement, ...], tuple[str, ...]]:
     """Validate a ``requirements:`` mapping; return (requirements by rule id, rule ids
-    switched off with ``false``)."""
+    switched off with ``false``).
+
+    A layer of plain values (``{stable: true, min_damping: 0.05}``, most model files) is
+    parsed once per process: what it gives depends on its keys and values only (source,
+    prefix and lines name a bad value, and a layer that fails is never kept), and both
+    tuples and the frozen requirements in them are immutable, so models share them."""
+    key = _layer_key(raw)
+    if key is None:
+        return _parse_layer(raw, source, prefix, lines)
+    found = _LAYERS.get(key)
+    if found is None:
+        found = _parse_layer(raw, source, prefix, lines)
+        if len(_LAYERS) >= _MAX_LAYERS:
+            _LAYERS.clear()
+        _LAYERS[key] = found
+    return found
+
+
+#: Parsed layers by :func:`_layer_key`; emptied when it holds :data:`_MAX_LAYERS`.
+_LAYERS: dict[tuple, tuple[tuple[Requirement, ...], tuple[str, ...]]] = {}
+_MAX_LAYERS = 512
+_PLAIN_VALUES = frozenset((bool, int, float, str))
+
+
+def _layer_key(raw: Any) -> tuple | None:
+    """A key that tells apart every two layers that could parse differently: each entry's
+    key, the exact type of its value and the value; None for a layer that is not a dict of
+    plain values (it is parsed every time). A float zero is never keyed (0.0 and -0.0 are
+    equal keys, and a requirement keeps its value's sign), nor is NaN, which equals
+    nothing."""
+    if type(raw) is not dict:
+        return None
+    key = []
+    for k, v in raw.items():
+        kind = type(v)
+        if kind not in _PLAIN_VALUES or kind is float and (v == 0.0 or v != v):
+            return None
+        key.append((k, kind, v))
+    return tuple(key)
+
+
+def _parse_layer(raw: Any, source: str, prefix: str, lines: Mapping[str, int] | None
+                 ) -> tuple[tuple[Requirement, ...], tuple[str, ...]]:
     lines = lines or {}
     base = prefix.rstrip(".")
     raw = _mapping(raw, source, base, lines.get(base))
