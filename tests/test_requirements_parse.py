@@ -75,3 +75,44 @@ def test_known_modes_parse_and_check_state_names():
         parse_known_modes([{"count": 0}], "m.yaml", "known_modes", {})
     with pytest.raises(ModelError, match=r"known_modes must be a list"):
         parse_known_modes({"count": 1}, "m.yaml", "known_modes", {})
+
+
+def test_deferred_requirement_keys_are_the_modules_own():
+    # the keys parsed by modules imported on first use are listed, in order, without
+    # importing them; the list must be what the modules define (common practice: a
+    # registry kept by hand is checked against its source)
+    import importlib
+
+    from eigengate.rules import parsing
+
+    for module, keys in parsing.DEFERRED_KEYS.items():
+        real = importlib.import_module(module, "eigengate.rules").PARSERS
+        assert tuple(real) == keys, module
+    assert parsing.REQUIREMENT_KEYS[:8] == ("stable", "min_decay_rate", "min_damping",
+                                            "max_frequency", "pole_region", "equilibrium",
+                                            "no_saddle", "directions")
+    assert parsing.REQUIREMENT_KEYS[8:] == (*parsing.DEFERRED_KEYS[".loop_requirements"],
+                                            *parsing.DEFERRED_KEYS[".robustness"], "robust")
+
+
+def test_a_plain_model_imports_no_margin_or_robustness_rules(tmp_path):
+    import subprocess
+    import sys
+
+    from support import cli_env, oscillator, write
+
+    (tmp_path / ".git").mkdir()
+    write(tmp_path / "m.yaml", oscillator("arm"))
+    probe = ("import sys\nfrom eigengate.cli import main\nmain(sys.argv[1:])\n"
+             "print(sorted(m for m in sys.modules if m in {'eigengate.rules.loop_requirements',"
+             " 'eigengate.rules.robustness', 'eigengate.analysis.parametric',"
+             " 'eigengate.baseline.inputs', 'eigengate.rules.grid_summary'}))\n")
+    out = subprocess.run([sys.executable, "-c", probe, "check", "-q", "--no-cache",
+                          str(tmp_path / "m.yaml")], capture_output=True, text=True,
+                         cwd=tmp_path, env=cli_env())
+    assert out.stdout.strip().splitlines()[-1] == "[]", out.stdout + out.stderr
+    write(tmp_path / "m.yaml", oscillator("arm") + "  min_gain_margin_db: 6\n")
+    again = subprocess.run([sys.executable, "-c", probe, "check", "-q", "--no-cache",
+                            str(tmp_path / "m.yaml")], capture_output=True, text=True,
+                           cwd=tmp_path, env=cli_env())
+    assert "eigengate.rules.loop_requirements" in again.stdout  # used: imported

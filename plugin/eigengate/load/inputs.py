@@ -24,7 +24,9 @@ import dataclasses
 from collections.abc import Mapping
 from typing import Any, Callable
 
-from ..baseline.inputs import InputBlock, block_of
+TYPE_CHECKING = False  # typing.TYPE_CHECKING, without importing typing at run time
+if TYPE_CHECKING:  # pragma: no cover - names for annotations only
+    from ..baseline.inputs import InputBlock
 
 __all__ = ["ModelInputs"]
 
@@ -176,6 +178,7 @@ class ModelInputs:
 
 
 def _record(name: str, arr: Any, file: str | None) -> InputBlock:
+    from ..baseline.inputs import InputBlock, block_of  # (only for a baseline's records)
     from ..model.core import is_sparse
 
     if is_sparse(arr):  # a digest of the sparse structure; never the values

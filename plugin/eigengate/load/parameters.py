@@ -17,12 +17,14 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping
-from typing import Any, Callable
+from typing import TYPE_CHECKING, Any, Callable
 
-from ..analysis.parametric import ParameterBox
 from ..model.core import Model, as_matrix
 from ..model.formats import suggest
 from .context import _check_keys, _Ctx, _kind, _mapping, _matrix
+
+if TYPE_CHECKING:  # pragma: no cover
+    from ..analysis.parametric import ParameterBox
 
 __all__ = ["TARGETS", "PARAMETER_KEYS", "MAX_PARAMETERS", "parse_parameters"]
 
@@ -66,6 +68,8 @@ def parse_parameters(doc: Mapping[str, Any], ctx: _Ctx, nominal: Model,
                                            tuple[Any, Any]]) -> ParameterBox:
     """The checked ``parameters`` block of ``doc`` (a file or an operating point merged into
     it) as a :class:`ParameterBox` whose ``build`` forms ``(A, E)`` with ``closed_loop``."""
+    from ..analysis.parametric import ParameterBox  # noqa: F811 (only a file with parameters)
+
     raw = _mapping(doc["parameters"], ctx, "parameters")
     if not raw:
         raise ctx.err("parameters", "declares no parameter",

@@ -115,14 +115,33 @@ _PARSERS: dict[str, Callable[..., Requirement | None]] = {
     "directions": _directions,
 }
 
-# Margin and equilibrium keys (EG301-EG305, EG401-EG404) are parsed where they are defined.
-from .loop_requirements import PARSERS as _LOOP_PARSERS  # noqa: E402
+#: Keys parsed where they are defined, by the module's ``PARSERS``, in its order: margin and
+#: equilibrium keys (EG301-EG305, EG401-EG404), robustness keys (EG110-EG112). The module is
+#: imported when a file first uses one of them (a model without them never imports it;
+#: ``tests/test_requirements_parse.py`` checks these lists against the modules).
+DEFERRED_KEYS = {
+    ".loop_requirements": ("min_gain_margin_db", "min_phase_margin_deg", "min_delay_margin",
+                           "max_sensitivity_peak", "min_disk_margin", "no_saddle_in_box",
+                           "equilibrium_at", "equilibrium_count", "equilibria_stable"),
+    ".robustness": ("min_stability_radius", "max_transient_growth",
+                    "max_pseudospectral_abscissa"),
+}
 
-_PARSERS.update(_LOOP_PARSERS)
-# Robustness keys (EG110-EG112), parsed where they are defined.
-from .robustness import PARSERS as _ROBUST_PARSERS  # noqa: E402
 
-_PARSERS.update(_ROBUST_PARSERS)
+def _deferred(module: str, key: str) -> Callable[..., Requirement | None]:
+    def parse(*args: Any) -> Requirement | None:
+        import importlib
+
+        real = importlib.import_module(module, __package__).PARSERS[key]
+        _PARSERS[key] = real  # from now on, directly
+        return real(*args)
+
+    return parse
+
+
+for _module, _keys in DEFERRED_KEYS.items():
+    for _key in _keys:
+        _PARSERS[_key] = _deferred(_module, _key)
 
 
 def _robust(value, source, fld, line):

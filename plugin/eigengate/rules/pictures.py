@@ -15,8 +15,6 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING, Any, Sequence
 
-from .loop_requirements import LOOP_RULES
-
 if TYPE_CHECKING:  # pragma: no cover
     from .catalogue import Verdict
 
@@ -30,6 +28,8 @@ def pictures_of(model: Any, verdicts: Sequence["Verdict"]) -> tuple:
     """The plot data of one analysed model (an empty tuple when it has nothing to draw)."""
     out: list = []
     parts = getattr(model, "loop_parts", None)
+    if parts is not None:  # a model with a loop (whose requirements import these rules)
+        from .loop_requirements import LOOP_RULES
     if parts is not None and any(v.rule in LOOP_RULES and v.measured not in ("unstable", "n/a")
                                  for v in verdicts):
         from ..analysis.loop_curves import loop_curves
