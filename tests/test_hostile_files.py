@@ -263,3 +263,34 @@ def test_closed_pipe_stops_quietly(tmp_path):
         assert err == "", err
         assert rc == 141, rc  # 128 + SIGPIPE: what shells report for a writer cut off
 
+
+
+@pytest.mark.skipif(not hasattr(os, "mkfifo"), reason="needs FIFOs")
+@pytest.mark.parametrize("runner", ["check", "check --no-cache", "pytest"])
+def test_a_fifo_selected_by_name_is_a_finding_not_a_hang(tmp_path, runner):
+    # include globs select files by name, without looking inside: the cache's key and the
+    # loader must both refuse to open a FIFO (which would block), and a file over the size
+    # limit is not read whole for its key either
+    import subprocess
+    import sys
+
+    from support import cli_env
+
+    (tmp_path / ".git").mkdir()
+    write(tmp_path / "pyproject.toml", '[tool.eigengate]\ninclude = ["models/*.yaml"]\n')
+    write(tmp_path / "models" / "arm.yaml", oscillator("arm", min_damping=0.05))
+    os.mkfifo(tmp_path / "models" / "pipe.yaml")
+    big = tmp_path / "models" / "huge.yaml"
+    with open(big, "wb") as fh:
+        fh.write(b"model_format: 1\n# " + b"x" * (9 << 20) + b"\n")
+    cmd = [sys.executable, "-m", "pytest", "-q", "-p", "no:cacheprovider"] \
+        if runner == "pytest" else [sys.executable, "-m", "eigengate", *runner.split(), "."]
+    out = subprocess.run(cmd, capture_output=True, text=True, cwd=tmp_path, env=cli_env(),
+                         timeout=120)
+    text = out.stdout + out.stderr
+    assert out.returncode == 1, text
+    assert "Traceback" not in text and "huge.yaml" in text
+    if runner == "pytest":  # (pytest's own walk passes over what is not a regular file)
+        assert "1 passed, 1 error" in text
+    else:
+        assert "FIFO" in text and "arm" in text

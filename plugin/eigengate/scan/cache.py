@@ -153,11 +153,13 @@ class ResultCache:
         key = None if st is None else self.known_key(rel, st)
         if key is None:
             if content is None:
-                try:
-                    with open(path, "rb") as fh:
-                        content = fh.read()
-                except OSError:
-                    return None
+                from ..errors import ModelError
+                from ..model.formats import MAX_MODEL_FILE_BYTES, read_regular
+
+                try:  # as the loader reads it: never a FIFO or device, never past its limit
+                    content = read_regular(path, rel, MAX_MODEL_FILE_BYTES)
+                except ModelError:
+                    return None  # no key: the loader says what is wrong with the file
             key = self.key(rel, content)
             self.note_key(rel, st, key)
         return key
