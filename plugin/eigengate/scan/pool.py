@@ -5,7 +5,7 @@ chunks of file paths and send back, per chunk, compact records: each file's JSON
 its blobs as ``(bytes, shape)`` (what the cache pack stores; :class:`~eigengate.scan.cache.RawBlobs`
 reads them), its referenced files and whether it loaded. Nothing is pickled but plain data.
 
-Workers take chunks from the front of the list, this process four files at a time from the
+Workers take chunks from the front of the list, this process 16 files at a time from the
 back, between collecting what the workers send, so it analyses while the workers start (their
 imports), and there are never more busy processes than jobs. Each worker has two chunks in
 hand, so it never waits for this process; chunks shrink as the two ends meet, so everyone
@@ -31,6 +31,9 @@ __all__ = ["encoded", "item_bytes", "pool_run"]
 CHUNK_MAX = 64
 #: ... and at least this many (also what this process takes at a time).
 CHUNK_MIN = 4
+#: Files this process analyses at a time, stage by stage, between collecting what the
+#: workers send (each worker holds two chunks meanwhile: none waits).
+OWN_BATCH = 16
 #: Chunks a worker holds: the one it analyses and the next.
 AHEAD = 2
 
@@ -194,7 +197,7 @@ def pool_run(todo: list, config: Any, jobs: int, local: Callable, remote: Callab
                 step(len(items))
                 feed(conn)
             if front < back:  # a few files at a time, to be back soon to collect
-                n = min(CHUNK_MIN, back - front)
+                n = min(OWN_BATCH, back - front)
                 back -= n
                 local(todo[back:back + n])
                 step(n)
