@@ -152,3 +152,33 @@ requirements: {stable: true, min_damping: 0.1}
     assert [fr.findings for fr in pooled.files] == [fr.findings for fr in single.files]
     fatal = next(fr for fr in pooled.files if fr.source.endswith("a0_fatal.yaml"))
     assert fatal.error is None and fatal.results  # analysed here, not lost
+
+
+@pytest.mark.parametrize("budget", [0, 64 << 20])
+def test_a_file_is_read_once_and_analysed_from_the_bytes_of_its_key(tmp_path, monkeypatch,
+                                                                    budget):
+    import collections
+
+    import eigengate.model.formats as formats
+    from eigengate.scan import runner
+    from eigengate.scan.config import load_config
+
+    root = _repository(tmp_path / "repo")
+    config = load_config(start=root)
+    reference = runner.scan([root], config, use_cache=False, jobs=1)
+    reads: collections.Counter = collections.Counter()
+    real = formats.read_regular
+
+    def counted(path, *args, **kwargs):
+        reads[os.fspath(path)] += 1
+        return real(path, *args, **kwargs)
+
+    monkeypatch.setattr(formats, "read_regular", counted)
+    monkeypatch.setattr(runner, "READ_BUDGET", budget)
+    cold = runner.scan([root], config, use_cache=True, jobs=1)
+    assert [fr.findings for fr in cold.files] == [fr.findings for fr in reference.files]
+    models = {k: n for k, n in reads.items() if k.endswith(".yaml")}
+    readable = [k for k in models if not k.endswith(("d_broken.yaml", "e_odd.yaml",
+                                                     "g_missing.yaml"))]
+    # once for its key, and (without a budget) once more to be analysed
+    assert readable and all(models[k] == (2 if budget == 0 else 1) for k in readable), models

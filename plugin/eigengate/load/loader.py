@@ -67,16 +67,19 @@ def load_models(path: str | os.PathLike[str], root: str | os.PathLike[str] | Non
 
 def load_models_with_refs(path: str | os.PathLike[str],
                           root: str | os.PathLike[str] | None = None, *,
-                          allow_python: bool = False) -> tuple[list[Model], list[str]]:
+                          allow_python: bool = False, content: bytes | None = None
+                          ) -> tuple[list[Model], list[str]]:
     """Like :func:`load_models`, also returning the repository-relative paths (POSIX) of the
-    matrix files the model references, sorted and without repeats, so a cache can hash them."""
+    matrix files the model references, sorted and without repeats, so a cache can hash them.
+    ``content``: the file's bytes, read already (as ``model.formats.read_regular`` reads
+    them: a regular file within the size limit); the file is then not read again."""
     name = path if type(path) is str else os.fspath(path)
     # a plain absolute name is what Path(name) makes of it: read as it is, with no Path
     file: str | Path = name if type(name) is str and plain_name(name) else Path(path)
     name = os.fspath(file)
     base = _path(os.fspath(root)) if root is not None else find_root(Path(file))
     source = model_source(file, base)
-    data, lines = read_document(file, source)
+    data, lines = read_document(file, source, content)
     refs: list[str] = []
     # the folder's Path from the (normalised) name of the file: equal to file.parent
     models = _load(data, source=source, root=base, base_dir=_path(os.path.dirname(name)),

@@ -39,7 +39,8 @@ def suggest(word: str, choices: Iterable[str]) -> str | None:
     return found[0] if found else None
 
 
-def read_document(path: "str | Path", source: str) -> tuple[dict[str, Any], dict[str, int]]:
+def read_document(path: "str | Path", source: str, raw: bytes | None = None
+                  ) -> tuple[dict[str, Any], dict[str, int]]:
     """Read the model file at ``path`` into plain data and a field-line map.
 
     Parameters
@@ -48,6 +49,9 @@ def read_document(path: "str | Path", source: str) -> tuple[dict[str, Any], dict
         File to read; its suffix (``.yaml``, ``.yml``, ``.toml``, ``.json``) picks the format.
     source
         Name used for the file in error messages (repository-relative).
+    raw
+        The file's bytes when the caller has read them already (as :func:`read_regular`
+        reads them); then the file is not read again.
 
     Returns
     -------
@@ -70,8 +74,9 @@ def read_document(path: "str | Path", source: str) -> tuple[dict[str, Any], dict
     if suffix not in SUFFIXES:
         raise ModelError(source, "", f"has an unknown file type {given or '(none)'!r}",
                          hint="model files end in " + ", ".join(SUFFIXES))
-    raw = read_regular(path, source, MAX_MODEL_FILE_BYTES,
-                       "keep large matrices in .npz files referenced with {file: ...}")
+    if raw is None:
+        raw = read_regular(path, source, MAX_MODEL_FILE_BYTES,
+                           "keep large matrices in .npz files referenced with {file: ...}")
     # parse_bytes checks the size again: the file may have grown between stat and read.
     return parse_bytes(raw, suffix, source)
 

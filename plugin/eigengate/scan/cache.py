@@ -150,19 +150,27 @@ class ResultCache:
         """The key of model file ``rel`` (at ``path``, status ``st`` taken before reading):
         the recorded one when its status is unchanged, else from its bytes (``content`` when
         already read), recording the status; None when it cannot be read."""
+        return self.file_key_read(rel, st, path, content)[0]
+
+    def file_key_read(self, rel: str, st: os.stat_result | None, path: str,
+                      content: bytes | None = None) -> tuple[str | None, bytes | None]:
+        """:meth:`file_key`, and the bytes it read for it (None when it read none: the key
+        was recorded, ``content`` was given, or the file cannot be read), so that the file is
+        analysed from the very bytes its key names."""
         key = None if st is None else self.known_key(rel, st)
+        read = None
         if key is None:
             if content is None:
                 from ..errors import ModelError
                 from ..model.formats import MAX_MODEL_FILE_BYTES, read_regular
 
                 try:  # as the loader reads it: never a FIFO or device, never past its limit
-                    content = read_regular(path, rel, MAX_MODEL_FILE_BYTES)
+                    content = read = read_regular(path, rel, MAX_MODEL_FILE_BYTES)
                 except ModelError:
-                    return None  # no key: the loader says what is wrong with the file
+                    return None, None  # no key: the loader says what is wrong with the file
             key = self.key(rel, content)
             self.note_key(rel, st, key)
-        return key
+        return key, read
 
     def note_key(self, rel: str, st: os.stat_result | None, key: str) -> None:
         """Record the status of model file ``rel`` (taken before it was read) with its key."""

@@ -30,6 +30,9 @@ __all__ = ["Scan", "scan", "default_jobs", "cache_name"]
 POOL_THRESHOLD = 16
 #: Files analysed here at a time, stage by stage (see :func:`~eigengate.scan.engine.analyse_files`).
 BATCH = 32
+#: Bytes of model files read for their cache keys that are kept to be analysed (not read
+#: again); beyond it, a file is read again when analysed.
+READ_BUDGET = 64 << 20
 
 
 @dataclass(frozen=True, eq=False)
@@ -126,13 +129,20 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
     names = [f.rel for f in files]  # what a file that no cluster worker analysed is called
     hits = 0
     keys: list[str | None] = [None] * len(files)
+    # the bytes read for a file's key, analysed here from the same bytes (up to a budget)
+    read: dict[int, bytes] = {}
+    budget = READ_BUDGET
     for i, f in enumerate(files):
         files[i] = None  # type: ignore[call-overload]  # its bytes are not kept past here
         key = None
         if cache is not None:
             key = known.get(f.rel) if f.content is None else None
             if key is None:
-                key = cache.file_key(cache_name(config, f.rel), f.stat, f.path, f.content)
+                key, raw = cache.file_key_read(cache_name(config, f.rel), f.stat, f.path,
+                                               f.content)
+                if raw is not None and len(raw) <= budget:
+                    read[i] = raw
+                    budget -= len(raw)
             keys[i] = key
             if key is not None:
                 hit = cache.get(key)
@@ -141,6 +151,7 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
                         slots[i] = results_from_summary(*hit, _reload(f.path, key, config,
                                                                        cache))
                         hits += 1
+                        read.pop(i, None)  # not analysed
                         continue
                     except DAMAGE:
                         pass  # a corrupt entry: analyse again and overwrite it
@@ -152,7 +163,8 @@ def _scan(paths, config: Config, *, jobs, use_cache, progress, on, filter_named,
     jobs = default_jobs() if jobs is None else max(1, jobs)
     def local(items: Sequence[tuple[int, str, str | None]]) -> None:
         # stage by stage over the items (analyse_files), the cache's records as a third
-        done = analyse_files([(path, names[i]) for i, path, _ in items], config.root, config)
+        done = analyse_files([(path, names[i], read.pop(i, None)) for i, path, _ in items],
+                             config.root, config)
         for (i, _, key), (source, results, error, refs) in zip(items, done):
             if cache is not None and key is not None and error is None:
                 data, blobs = results_to_data(source, results, error)
