@@ -210,10 +210,7 @@ class ReportMemo:
                     return None  # an entry added, removed or renamed
             paths_of, rels, stats = [], [], []
             stat = os.stat
-            # each folder's prefixes: of an entry's path as scandir makes it (the folder,
-            # a separator unless it ends in one, the name), and of its relative path
-            prefixes = [(path if path.endswith(os.sep) else path + os.sep,
-                         "" if rel == "." else rel + "/") for path, rel, _ in folders]
+            prefixes = _prefixes(folders)
             met = set()  # the nested policies are per folder: one file of each asks
             for k, name, rel, sig in walk["files"]:
                 at, below = prefixes[k]
@@ -255,21 +252,21 @@ class ReportMemo:
 
         if not all(trusted(st) for *_, st in walk.files):
             return None
+        prefixes = _prefixes(walk.folders)
         index = {}
         files = []
         for i, (k, name, rel, st) in enumerate(walk.files):
-            path = os.path.join(walk.folders[k][0], name)
-            index[path] = i
-            files.append([k, name, None if rel == walked_rel(walk.folders[k][1], name) else rel,
-                          signature(st)])
+            at, below = prefixes[k]
+            index[at + name] = i
+            usual = below + name if name.isascii() else walked_rel(walk.folders[k][1], name)
+            files.append([k, name, None if rel == usual else rel, signature(st)])
         try:
             hits = [index[path] for path in found]
         except KeyError:
             return None  # found otherwise than by the walk
         for i in hits:
             files[i][3] = None
-        if [files[i][2] or walked_rel(walk.folders[files[i][0]][1], files[i][1])
-                for i in hits] != list(rels):
+        if [walk.files[i][2] for i in hits] != list(rels):
             return None
         return {"key": self._walk_key(), "folders": [list(f) for f in walk.folders],
                 "files": files, "found": hits, "unselected": list(unselected)}
@@ -345,3 +342,11 @@ class ReportMemo:
                 os.unlink(self._report_path(gone))
             except OSError:
                 pass
+
+
+def _prefixes(folders) -> list[tuple[str, str]]:
+    """Each walked folder's prefixes: of an entry's path as ``scandir`` makes it (the folder,
+    a separator unless it ends in one, the name) and of its path relative to the root (a
+    printable folder's: with an ASCII name, printable as it is)."""
+    return [(path if path.endswith(os.sep) else path + os.sep, "" if rel == "." else rel + "/")
+            for path, rel, _ in folders]
