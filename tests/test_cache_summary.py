@@ -118,11 +118,11 @@ def test_damaged_whole_data_is_analysed_again_when_read(repo, tmp_path):
         blobs = {}
         for key, entry in read.head["entries"].items():
             items = read.items(*entry["blobs"])
-            data = json.loads(items[-1][0])
-            for r in data.get("results", ()):
-                r["verdicts"] = "damaged"
-                r["model"]["states"] = 7
-            items[-1] = (json.dumps(data).encode(), None)
+            rest = json.loads(items[-1][0])  # per model [model, spectrum, equilibrium,
+            for r in rest:                    # verdicts, pictures] (scan.encode)
+                r[3] = "damaged"
+                r[0][7] = 7  # the model's states
+            items[-1] = (json.dumps(rest).encode(), None)
             blobs[key] = items
         pack.write_bytes(write_pack(read.head, blobs))
     warm, fresh = _scans(root)

@@ -23,7 +23,6 @@ itself (README, .gitignore, CACHEDIR.TAG).
 from __future__ import annotations
 
 import hashlib
-import json
 import os
 import time
 from pathlib import Path
@@ -31,7 +30,6 @@ from typing import Any, Callable
 
 from .pack import (  # noqa: F401 (re-exported: the pack format)
     Pack, PackBlobs, RawBlobs, read_pack, write_pack)
-from .pool import item_bytes
 from .status_records import is_record, record_value, signature
 from .summary import summary_of
 
@@ -198,10 +196,10 @@ class ResultCache:
                 self._old = {}  # missing or corrupt: start again, never trust it
         return self._old
 
-    def get(self, key: str) -> tuple[dict[str, Any], PackBlobs, Callable[[], Any]] | None:
-        """The stored summary, blobs and a reader of the whole data for ``key``
-        (:mod:`eigengate.scan.summary`), or None (missing, corrupt, or a reference changed).
-        The whole data is the entry's last blob, a JSON text."""
+    def get(self, key: str) -> tuple[dict[str, Any], PackBlobs, None] | None:
+        """The stored summary and blobs for ``key`` (:mod:`eigengate.scan.summary`; the last
+        blob, a JSON text, is the rest of the data), and None in place of the whole data,
+        or None (missing, corrupt, or a reference changed)."""
         entry = self._entries().get(key)
         try:
             # a missing entry (None) raises TypeError here, handled like a malformed one
@@ -210,7 +208,7 @@ class ResultCache:
                     or count < 1:
                 return None
             pack = self._read
-            whole = pack.blobs(first, count)  # type: ignore[union-attr]
+            blobs = pack.blobs(first, count)  # type: ignore[union-attr]
             if pack.row(first + count - 1)[3] >= 0:  # type: ignore[union-attr]
                 return None  # the last blob is not a text
             if refs and self._ref_hashes(sorted(refs)) != refs:
@@ -218,15 +216,15 @@ class ResultCache:
         except (KeyError, TypeError, ValueError, AttributeError):
             return None
         self._used[key] = None
-        return summary, PackBlobs(pack, first, count - 1), lambda: whole.json(count - 1)  # type: ignore[arg-type]
+        return summary, blobs, None
 
     def put(self, key: str, data: dict[str, Any], blobs: list, refs: list[str]) -> None:
-        """Remember ``data`` and its blob items (see :class:`eigengate.scan.serial.Blobs`) for
-        ``key``; written by :meth:`save`."""
+        """Remember ``data`` (the summary) and its blobs, each ``(bytes, shape or None)``
+        (:func:`eigengate.scan.encode.results_to_data`), for ``key``; written, as they
+        are, by :meth:`save`."""
         hashes = self._ref_hashes(refs)
         if hashes is not None:
-            self._new[key] = ({"refs": hashes, "summary": summary_of(data)},
-                              [*blobs, json.dumps(data, separators=(",", ":"))])
+            self._new[key] = ({"refs": hashes, "summary": data}, blobs)
 
     def _old_blobs(self, entry: dict) -> list[tuple[bytes, Any]] | None:
         try:
@@ -251,8 +249,8 @@ class ResultCache:
                 entries[k] = {"refs": old[k].get("refs"), "summary": old[k].get("summary")}
                 blobs[k] = kept
         for k, (entry, items) in self._new.items():
-            entries[k] = dict(entry)
-            blobs[k] = [item_bytes(x) for x in items]
+            entries[k] = entry  # its blobs' span is set by write_pack
+            blobs[k] = items
         head: dict[str, Any] = {"salt": self._salt, "entries": entries}
         refs = {h for e in entries.values() for h in (e.get("refs") or {}).values()}
         for table, wanted in (("files", entries), ("refs", refs)):

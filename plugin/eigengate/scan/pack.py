@@ -14,7 +14,7 @@ import sys
 import zlib
 from typing import Any
 
-__all__ = ["Pack", "PackBlobs", "RawBlobs", "read_pack", "write_pack"]
+__all__ = ["Pack", "PackBlobs", "RawBlobs", "BlobReader", "read_pack", "write_pack"]
 
 
 #: First bytes of a pack; then the sizes of head, index and body and a CRC-32 of all three
@@ -64,9 +64,9 @@ class Pack:
         return out
 
 
-class _BlobReader:
-    """Reading methods of :class:`eigengate.scan.serial.Blobs` over raw blobs: each is its
-    bytes (float64, little-endian, or UTF-8 JSON) with its shape (None for a text), served
+class BlobReader:
+    """Reading methods over raw blobs (:class:`eigengate.scan.encode.Blobs`): each is its
+    bytes (float64, little-endian, or UTF-8 text) with its shape (None for a text), served
     by ``_raw``."""
 
     __slots__ = ()
@@ -91,14 +91,17 @@ class _BlobReader:
         flat = _little("d", raw).tolist()
         return [flat[k:k + cols] for k in range(0, rows * cols, cols)]
 
-    def json(self, i: Any):
+    def text(self, i: Any) -> str:
         raw, _, cols = self._raw(i)
         if cols >= 0:
             raise ValueError(f"blob {i} is not a text")
-        return json.loads(bytes(raw))
+        return str(raw, "utf-8")
+
+    def json(self, i: Any):
+        return json.loads(self.text(i))
 
 
-class PackBlobs(_BlobReader):
+class PackBlobs(BlobReader):
     """The blobs of one cache entry, served from the body of its pack."""
 
     __slots__ = ("_pack", "_first", "_count")
@@ -117,7 +120,7 @@ class PackBlobs(_BlobReader):
         return self._pack.shapes(self._first, self._count)
 
 
-class RawBlobs(_BlobReader):
+class RawBlobs(BlobReader):
     """Blobs as a worker sends them (``(bytes, [rows, columns] or None)``, what
     :func:`write_pack` takes), checked on arrival: sizes fit shapes."""
 
@@ -154,32 +157,42 @@ def _little(code: str, raw) -> array.array:
     return out
 
 
+_dumps = json.JSONEncoder(separators=(",", ":"), check_circular=False).encode
+_PAD = [b"\0" * k for k in range(8)]
+
+
 def write_pack(head: dict, entry_blobs: dict[str, list[tuple[bytes, list | None]]]) -> bytes:
     """The bytes of a pack: ``head`` (whose entries get their ``blobs`` as ``[first, count]``
     in the index) and, for each entry key, its blobs as ``(bytes, shape or None)``. Blobs
     are 8-byte aligned in the body."""
     chunks: list[bytes] = []
-    index: list[tuple[int, int, int, int]] = []
+    index: list[int] = []
+    entries = head["entries"]
     size = 0
+    n = 0
     for key, items in entry_blobs.items():
-        head["entries"][key]["blobs"] = [len(index), len(items)]
+        entries[key]["blobs"] = [n, len(items)]
+        n += len(items)
         for raw, shape in items:
             pad = -size % 8
             if pad:
-                chunks.append(b"\0" * pad)
+                chunks.append(_PAD[pad])
                 size += pad
-            rows, cols = (-1, -1) if shape is None else shape
-            index.append((size, len(raw), rows, cols))
+            length = len(raw)
+            if shape is None:
+                index += (size, length, -1, -1)
+            else:
+                index += (size, length, shape[0], shape[1])
             chunks.append(raw)
-            size += len(raw)
-    head_bytes = json.dumps(head, separators=(",", ":")).encode("utf-8")
-    flat = array.array("q", [v for row in index for v in row])
+            size += length
+    head_bytes = _dumps(head).encode("utf-8")
+    flat = array.array("q", index)
     if sys.byteorder != "little":  # pragma: no cover - big-endian machines
         flat.byteswap()
     index_bytes = flat.tobytes()
     body = b"".join(chunks)
     crc = zlib.crc32(body, zlib.crc32(index_bytes, zlib.crc32(head_bytes)))
-    return b"".join((_MAGIC, _HEADER.pack(len(head_bytes), len(index), len(body), crc),
+    return b"".join((_MAGIC, _HEADER.pack(len(head_bytes), n, len(body), crc),
                      head_bytes, index_bytes, body))
 
 
