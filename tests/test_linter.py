@@ -6,7 +6,7 @@ import textwrap
 
 import numpy as np
 import pytest
-from support import oscillator, run_cli, run_main, write
+from support import entry_rest, oscillator, run_cli, run_main, with_rest, write
 
 
 def _make_repo(tmp_path):
@@ -149,8 +149,7 @@ def _rewrite_heads(repo, change, summary=None):
         blobs = {}
         for key, entry in read.head["entries"].items():
             items = read.items(*entry["blobs"])
-            rest = change(json.loads(items[-1][0]))
-            items[-1] = (json.dumps(rest).encode(), None)
+            items = with_rest(items, change(entry_rest(items)))
             if summary is not None:
                 summary(entry["summary"])
             blobs[key] = items
@@ -198,7 +197,7 @@ def test_corrupt_cache_is_ignored_and_rebuilt(repo, damage, no_cache_stdout):
         read = read_pack(pack.read_bytes())
         assert read.head["entries"]
         for entry in read.head["entries"].values():
-            rest = json.loads(read.items(*entry["blobs"])[-1][0])
+            rest = entry_rest(read.items(*entry["blobs"]))
             count = entry["blobs"][1]
             assert all(0 <= r[0][0] < count and 0 <= r[1][6] < count for r in rest)
             assert all(s[4] is None or 0 <= s[4] < count for s in entry["summary"]["results"])

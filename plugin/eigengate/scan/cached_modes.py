@@ -5,8 +5,11 @@ spectrum's summary figures are stored as they are."""
 
 from __future__ import annotations
 
+import math
 import operator
+import struct
 from collections.abc import Sequence
+from itertools import compress, starmap
 from typing import TYPE_CHECKING, cast
 
 from .lazy import LazyField
@@ -14,7 +17,7 @@ from .lazy import LazyField
 if TYPE_CHECKING:  # pragma: no cover - a warm re-check that builds no mode imports neither
     from ..analysis.modes import Spectrum
 
-__all__ = ["CachedSpectrum", "StoredSearch", "spectrum_figures", "blob_shape", "SPECTRUM_FIELDS",
+__all__ = ["CachedSpectrum", "StoredSearch", "mode_table", "blob_shape", "SPECTRUM_FIELDS",
            "MODE_GETTER", "MODE_COLUMNS"]
 
 
@@ -31,12 +34,24 @@ _MODE_SCALARS = ("multiplicity", "geometric_multiplicity", "pair", "natural_freq
 MODE_GETTER = operator.attrgetter("index", "eigenvalue.real", "eigenvalue.imag", "s.real",
                                   "s.imag", *_MODE_SCALARS)
 MODE_COLUMNS = 5 + len(_MODE_SCALARS)
+_MODE_ROW = struct.Struct(f"<{MODE_COLUMNS}d")
 
 
-def spectrum_figures(sp) -> list[float]:
-    """The figures of a spectrum that a cache entry's summary holds: spectral abscissa,
-    spectral radius, min damping."""
-    return [sp.spectral_abscissa, sp.spectral_radius, sp.min_damping]
+def mode_table(modes) -> tuple[bytes, list[float], int]:
+    """The modes' table (a row per mode, MODE_GETTER's fields, float64 little-endian), and,
+    read off its columns, what :class:`~eigengate.analysis.modes.Spectrum` derives from its
+    modes: ``[spectral abscissa, spectral radius, min damping]`` (what a cache entry's
+    summary holds) and the eigenvalue count, by the same definitions, in the same order
+    (a test compares them with the spectrum's own)."""
+    rows = list(map(MODE_GETTER, modes))
+    table = b"".join(starmap(_MODE_ROW.pack, rows))
+    if not rows:
+        return b"", [-math.inf, 0.0, 1.0], 0
+    # columns: 1, 2 eigenvalue, 3, 4 s (real, imaginary), 5 multiplicity, 7 pair, 9 ζ
+    c = list(zip(*rows))
+    figures = [max(c[3]), max(map(abs, map(complex, c[1], c[2]))),
+               min(compress(c[9], c[4]), default=1.0)]  # ζ of the oscillatory modes
+    return table, figures, sum(c[5]) + sum(compress(c[5], c[7]))
 
 
 class _LazyModes(Sequence):

@@ -19,9 +19,9 @@ the pack is written. Per model (positional lists, in this order)::
     verdict  its record, with the offending modes' positions in place of the modes
 
 A matrix is a blob index (or, sparse, ``["csr", rows, columns, data, indices, indptr]``);
-``lines`` is ``[keys, values]``: a text of the field paths joined by NUL and a 1×k matrix
-of their line numbers (or, for a path holding a NUL, the index of a JSON text of the
-table). The mode table has a row per mode (:data:`eigengate.scan.cached_modes.MODE_COLUMNS`),
+``lines`` is ``[keys, values]``: a text of the field paths joined by NUL and a 1×k table
+of their line numbers as int64 (or, for a path holding a NUL, the index of a JSON text of
+the table). The mode table has a row per mode (:data:`eigengate.scan.cached_modes.MODE_COLUMNS`),
 the participation matrix a row per mode. Nothing here executes code from the data.
 """
 
@@ -31,10 +31,9 @@ import array
 import json
 import operator
 import sys
-from itertools import chain
 from typing import Any
 
-from .cached_modes import MODE_COLUMNS, MODE_GETTER, spectrum_figures
+from .cached_modes import MODE_COLUMNS, mode_table
 from .records import record, requirement_classes
 
 __all__ = ["Blobs", "results_to_data", "ROW_COLUMNS", "TOP", "VERDICT_OFFENDING"]
@@ -43,40 +42,62 @@ _dumps = json.JSONEncoder(separators=(",", ":"), check_circular=False).encode
 _LITTLE = sys.byteorder == "little"
 
 
+_PAD = [b"\0" * k for k in range(8)]
+_NDARRAY: Any = None  # numpy's array type, once an array was put
+
+
+def _as_matrix(a):
+    """``a`` as a C-ordered float64 matrix of this machine's (little-endian) order."""
+    global _NDARRAY
+    import numpy as np  # encoding only: results read back never import numpy
+
+    _NDARRAY = np.ndarray
+    a = np.ascontiguousarray(a, dtype="<f8")
+    if a.ndim != 2:
+        raise ValueError(f"blob arrays are matrices, got {a.ndim} dimensions")
+    return a
+
+
 class Blobs:
-    """The blobs of one file's encoded results, in order: ``items`` holds each as
-    ``(bytes, [rows, columns])`` or ``(bytes, None)`` (see :mod:`eigengate.scan.pack`)."""
+    """The blobs of one file's encoded results, in order, as one *segment* of bytes (each
+    blob 8-byte aligned in it) and its flat index: offset in the segment, size, rows and
+    columns per blob (-1, -1 for a text). ``items`` is the pair, what the pack stores of an
+    entry (:func:`eigengate.scan.pack.write_pack`) and what a pool worker sends."""
+
+    __slots__ = ("chunks", "index", "size")
 
     def __init__(self) -> None:
-        self.items: list[tuple[bytes, list | None]] = []
+        self.chunks: list[bytes] = []
+        self.index: list[int] = []
+        self.size = 0
+
+    @property
+    def items(self) -> tuple[bytes, list[int]]:
+        return b"".join(self.chunks), self.index
+
+    def put_raw(self, raw: bytes, rows: int, cols: int) -> int:
+        """A matrix of 8-byte numbers already as its little-endian bytes (rows × cols), or a
+        text (-1, -1)."""
+        size = len(raw)
+        self.index += (self.size, size, rows, cols)
+        self.chunks.append(raw)
+        pad = -size % 8
+        if pad:
+            self.chunks.append(_PAD[pad])
+        self.size += size + pad
+        return len(self.index) // 4 - 1
 
     def put_array(self, a) -> int | None:
         """A float64 matrix (anything numpy reads as one)."""
-        import numpy as np  # encoding only: results read back never import numpy
-
         if a is None:
             return None
-        a = np.ascontiguousarray(a, dtype="<f8")
-        if a.ndim != 2:
-            raise ValueError(f"blob arrays are matrices, got {a.ndim} dimensions")
-        self.items.append((a.tobytes(), list(a.shape)))
-        return len(self.items) - 1
-
-    def put_raw(self, raw: bytes, rows: int, cols: int) -> int:
-        """A float64 matrix already as its little-endian bytes."""
-        self.items.append((raw, [rows, cols]))
-        return len(self.items) - 1
-
-    def put_floats(self, values) -> int:
-        """A 1×k matrix of numbers (Python floats, ints or bools)."""
-        a = array.array("d", values)
-        if not _LITTLE:  # pragma: no cover - big-endian machines
-            a.byteswap()
-        return self.put_raw(a.tobytes(), 1, len(a))
+        if type(a) is not _NDARRAY or a.dtype.char != "d" or a.ndim != 2 or not _LITTLE:
+            a = _as_matrix(a)
+        rows, cols = a.shape
+        return self.put_raw(a.tobytes(), rows, cols)  # C order, whatever a's layout
 
     def put_text(self, text: str) -> int:
-        self.items.append((text.encode("utf-8"), None))
-        return len(self.items) - 1
+        return self.put_raw(text.encode("utf-8"), -1, -1)
 
     def put_json(self, value) -> int:
         return self.put_text(_dumps(value))
@@ -90,8 +111,8 @@ _MATRICES = ("A", "B", "C", "D", "E")
 def _put_matrix(blobs: Blobs, a):
     """A matrix into the blobs: dense as it is, sparse (A, E of a sparse model) as its CSR
     arrays, each a 1×k float64 blob (indices are exact in float64 below 2⁵³)."""
-    if a is None:
-        return None
+    if a is None or type(a) is _NDARRAY:
+        return blobs.put_array(a)
     if type(a).__module__.startswith("scipy.sparse"):
         import numpy as np
 
@@ -104,11 +125,17 @@ def _put_matrix(blobs: Blobs, a):
 
 def _put_lines(blobs: Blobs, lines: dict) -> list | int:
     keys = "\0".join(lines)
-    values = lines.values()
-    if keys.count("\0") != max(0, len(lines) - 1) or (len(lines) == 1 and not keys) \
-            or not all(type(v) is int for v in values):
+    try:
+        numbers = array.array("q", lines.values())
+    except (TypeError, OverflowError):
+        numbers = None
+    # (line numbers are ints, never bools: the loader counts them)
+    if numbers is None or keys.count("\0") != max(0, len(lines) - 1) or (
+            len(lines) == 1 and not keys):
         return blobs.put_json(dict(lines))  # a path holding a NUL (or empty), or odd lines
-    return [blobs.put_text(keys), blobs.put_floats(values)]
+    if not _LITTLE:  # pragma: no cover - big-endian machines
+        numbers.byteswap()
+    return [blobs.put_text(keys), blobs.put_raw(numbers.tobytes(), 1, len(numbers))]
 
 
 def _model_rest(m, blobs: Blobs, with_states: bool) -> list:
@@ -148,25 +175,32 @@ def _field_data(info) -> dict | None:
 
 # ------------------------------------------------------------------ spectrum
 
-def _spectrum_rest(sp, n_states: int, blobs: Blobs) -> list:
+def _spectrum_data(sp, n_states: int, blobs: Blobs) -> tuple[list, list]:
+    """A spectrum's record in the rest and its figures for the summary."""
     modes = sp.modes
     k = len(modes)
-    table = array.array("d", chain.from_iterable(map(MODE_GETTER, modes)))
-    if not _LITTLE:  # pragma: no cover - big-endian machines
-        table.byteswap()
-    rows = blobs.put_raw(table.tobytes(), k, MODE_COLUMNS)
+    table, figures, count = mode_table(modes)
+    rows = blobs.put_raw(table, k, MODE_COLUMNS)
     if k:
-        import numpy as np
-
-        part = np.concatenate([m.participation for m in modes], dtype="<f8")
+        part = _participation([m.participation for m in modes])
         if part.shape != (k * n_states,):
             raise ValueError("participation factors do not fit the model's states")
         part_blob = blobs.put_raw(part.tobytes(), k, n_states)
     else:
         part_blob = blobs.put_raw(b"", 0, 0)
-    return [sp.infinite, sp.norm, sp.balanced, sp.n_eigenvalues, k,
+    return [sp.infinite, sp.norm, sp.balanced, count, k,
             None if getattr(sp, "search", None) is None else sp.search.coverage(), rows,
-            part_blob]
+            part_blob], figures
+
+
+def _participation(factors: list):
+    """The modes' participation factors end to end, float64 of this machine's order."""
+    import numpy as np
+
+    part = np.concatenate(factors)
+    if part.dtype.char != "d" or not _LITTLE:
+        part = part.astype("<f8")
+    return part
 
 
 # ------------------------------------------------------------------ findings and verdicts
@@ -243,16 +277,15 @@ def results_to_data(source: str, results, error) -> tuple[dict, Blobs]:
     summaries = []
     rest = []
     for r in results:
-        m, sp = r.model, r.spectrum
+        m = r.model
         findings, rows = _findings_data(r.findings, m.states, blobs)
-        lines = m.lines
+        spectrum, figures = _spectrum_data(r.spectrum, len(m.states), blobs)
         summaries.append([m.source, [record(w) for w in m.waivers],
                           None if m.grid is None else [[k, v] for k, v in m.grid],
                           findings, rows, list(m.states) if findings else None, m.name,
-                          m.label, m.sample_period, spectrum_figures(sp),
-                          {k: v for k, v in lines.items() if "." not in k}])
-        rest.append([_model_rest(m, blobs, not findings),
-                     _spectrum_rest(sp, len(m.states), blobs), record(r.equilibrium),
+                          m.label, m.sample_period, figures,
+                          {k: v for k, v in m.lines.items() if "." not in k}])
+        rest.append([_model_rest(m, blobs, not findings), spectrum, record(r.equilibrium),
                      [_verdict_rest(v) for v in r.verdicts],
                      [[type(p).__name__, record(p)] for p in r.pictures]])
     blobs.put_text(_dumps(rest))

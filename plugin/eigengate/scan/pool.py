@@ -2,8 +2,9 @@
 
 Workers are started once, at the start of the scan, each with a duplex pipe; they are fed
 chunks of file paths and send back, per chunk, compact records: each file's JSON-safe data,
-its blobs as ``(bytes, shape)`` (what the cache pack stores; :class:`~eigengate.scan.cache.RawBlobs`
-reads them), its referenced files and whether it loaded. Nothing is pickled but plain data.
+its blobs as one segment of bytes and its index (what the cache pack stores;
+:class:`~eigengate.scan.cache.RawBlobs` reads them), its referenced files and whether it
+loaded. Nothing is pickled but plain data.
 
 Workers take chunks from the front of the list, this process four files at a time from the
 back, between collecting what the workers send, so it analyses while the workers start (their
@@ -25,7 +26,7 @@ import sys
 from collections import deque
 from typing import Any, Callable
 
-__all__ = ["encoded", "item_bytes", "pool_run"]
+__all__ = ["encoded", "pool_run"]
 
 #: Files per chunk sent to a worker: at most this many ...
 CHUNK_MAX = 64
@@ -37,26 +38,14 @@ AHEAD = 2
 
 def encoded(path: str, config: Any) -> tuple[dict, list, list[str], bool]:
     """Analyse one file in a worker (of the pool or of a cluster): (JSON-safe data, its blobs
-    as ``(bytes, shape)``, referenced files, whether it loaded). ``config`` is a
+    as a segment and its index, referenced files, whether it loaded). ``config`` is a
     :class:`~eigengate.scan.config.Config`."""
     from .engine import analyse_file
     from .serial import results_to_data
 
     source, results, error, refs = analyse_file(path, config.root, config)
     data, blobs = results_to_data(source, results, error)
-    return data, [item_bytes(x) for x in blobs.items], refs, error is None
-
-
-def item_bytes(item) -> tuple[bytes, list | None]:
-    """A blob item (a float64 matrix or a JSON text) as its bytes and shape; one already in
-    that form is kept."""
-    if isinstance(item, tuple):
-        return item
-    if isinstance(item, str):
-        return item.encode("utf-8"), None
-    if item.ndim != 2:
-        raise ValueError(f"blob arrays are matrices, got {item.ndim} dimensions")
-    return item.astype("<f8", copy=False).tobytes(), list(item.shape)
+    return data, blobs.items, refs, error is None
 
 
 def _serve(conn, config) -> None:

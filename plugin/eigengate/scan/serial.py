@@ -25,7 +25,7 @@ from ..rules.known_modes import KnownMode
 from .cached_modes import CachedSpectrum, blob_shape
 from .encode import ROW_COLUMNS, VERDICT_OFFENDING, Blobs, results_to_data
 from .lazy import LazyField
-from .pack import BlobReader
+from .pack import RawBlobs
 from .records import REQUIREMENT_NAMES, pictures_from, requirement_classes, unrecord
 from ..model.core import Model
 from ..rules.catalogue import Verdict
@@ -36,28 +36,9 @@ if TYPE_CHECKING:  # pragma: no cover - a warm re-check that builds no mode impo
 
 __all__ = ["results_to_data", "results_from_data", "CachedSpectrum", "CachedModel", "Blobs",
            "FORMAT", "fill_model", "result_parts", "findings_from", "summary_fields",
-           "rest_of", "ItemBlobs"]
+           "rest_of"]
 
 from .cache_format import FORMAT  # noqa: E402 (re-exported)
-
-
-class ItemBlobs(BlobReader):
-    """The reading methods over a :class:`~eigengate.scan.encode.Blobs` (or its items) just
-    written, unchecked: they are this process's own."""
-
-    __slots__ = ("_items",)
-
-    def __init__(self, blobs) -> None:
-        self._items = blobs.items if isinstance(blobs, Blobs) else blobs
-
-    def _raw(self, i: Any) -> tuple[Any, int, int]:
-        if type(i) is not int or not 0 <= i < len(self._items):
-            raise ValueError(f"blob {i!r} is not one of the entry's {len(self._items)}")
-        raw, shape = self._items[i]
-        return (raw, -1, -1) if shape is None else (raw, shape[0], shape[1])
-
-    def shapes(self) -> list[tuple[int, int] | None]:
-        return [None if shape is None else (shape[0], shape[1]) for _, shape in self._items]
 
 
 # ------------------------------------------------------------------ model and results
@@ -79,8 +60,8 @@ def _array(ref: tuple):
 
 
 def _lines(ref: tuple) -> dict:
-    """The line table: field paths joined by NUL and a 1×k matrix of their line numbers, or
-    (a path holding a NUL) a JSON text."""
+    """The line table: field paths joined by NUL and a 1×k table of their line numbers
+    (int64), or (a path holding a NUL) a JSON text."""
     blobs, index = ref
     if type(index) is int:
         table = blobs.json(index)
@@ -89,11 +70,11 @@ def _lines(ref: tuple) -> dict:
         return table
     keys, values = index
     names = blobs.text(keys)
-    numbers = blobs.rows(values)[0]
+    numbers = blobs.ints(values)
     paths = names.split("\0") if numbers else []
-    if len(paths) != len(numbers) or not all(v == int(v) for v in numbers):
+    if len(paths) != len(numbers):
         raise ValueError("line table does not fit its line numbers")
-    return dict(zip(paths, map(int, numbers)))
+    return dict(zip(paths, numbers))
 
 
 def _requirements_of(records: list) -> tuple:
@@ -305,7 +286,7 @@ def results_from_data(d: dict, blobs):
         src, fld, problem, line, hint = d["error"]
         return d["source"], (), ModelError(src, fld, problem, line=line, hint=hint)
     if isinstance(blobs, Blobs):
-        blobs = ItemBlobs(blobs)
+        blobs = RawBlobs(blobs.items)
     shapes = blobs.shapes()
     summaries = d["results"]
     out = []
