@@ -169,3 +169,24 @@ def boom_files(root: Path, damping: float) -> None:
     write(root / "plantdyn" / "arm.py", BOOM_FIELD)
     write(root / "plantdyn" / "coefficients.py", f"DAMPING = {damping}\n")
     write(root / "models" / "boom.yaml", BOOM_MODEL)
+
+
+def entry_rest(items) -> list:
+    """The rest of a cache entry's data (its last blob, a JSON text; scan.encode) from its
+    blobs as a pack gives them: one segment and its flat index."""
+    import json
+
+    segment, index = items
+    off, size = index[-4], index[-3]
+    return json.loads(segment[off:off + size])
+
+
+def with_rest(items, rest) -> tuple:
+    """A cache entry's blobs (segment and index) with its last blob, the rest of its data,
+    replaced by the JSON text of ``rest``."""
+    import json
+
+    segment, index = items
+    text = json.dumps(rest).encode()
+    off = index[-4]
+    return segment[:off] + text, index[:-3] + [len(text)] + index[-2:]

@@ -68,8 +68,8 @@ def _record(item) -> str:
 
     source, results, error, refs = item
     data, blobs = results_to_data(source, results, error)
-    shown = [b if isinstance(b, str) else [list(b.shape), b.tobytes().hex()]
-             for b in blobs.items]
+    segment, index = blobs.items
+    shown = [segment.hex(), index]
     return json.dumps([data, shown, refs, None if error is None else str(error)],
                       sort_keys=True)
 

@@ -5,7 +5,6 @@ must be what the fresh scan gives; a quiet report of passing files decodes no wh
 and whole data that fails its checks when read is replaced by a fresh analysis."""
 
 import dataclasses
-import json
 import shutil
 from pathlib import Path
 
@@ -17,6 +16,7 @@ from eigengate.scan.cache import read_pack, write_pack
 from eigengate.scan.config import load_config
 from eigengate.scan.runner import scan
 from eigengate.scan.summary import CachedResult
+from support import entry_rest, with_rest
 
 EXAMPLE = Path(__file__).resolve().parent.parent / "example_repo"
 _SPECTRUM = ("infinite", "norm", "balanced", "spectral_abscissa", "spectral_radius",
@@ -118,12 +118,11 @@ def test_damaged_whole_data_is_analysed_again_when_read(repo, tmp_path):
         blobs = {}
         for key, entry in read.head["entries"].items():
             items = read.items(*entry["blobs"])
-            data = json.loads(items[-1][0])
-            for r in data.get("results", ()):
-                r["verdicts"] = "damaged"
-                r["model"]["states"] = 7
-            items[-1] = (json.dumps(data).encode(), None)
-            blobs[key] = items
+            rest = entry_rest(items)  # per model [model, spectrum, equilibrium, verdicts,
+            for r in rest:            # pictures] (scan.encode)
+                r[3] = "damaged"
+                r[0][7] = 7  # the model's states
+            blobs[key] = with_rest(items, rest)
         pack.write_bytes(write_pack(read.head, blobs))
     warm, fresh = _scans(root)
     assert warm.analysed == 0  # the summaries are whole: every file served

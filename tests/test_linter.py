@@ -6,7 +6,7 @@ import textwrap
 
 import numpy as np
 import pytest
-from support import oscillator, run_cli, run_main, write
+from support import entry_rest, oscillator, run_cli, run_main, with_rest, write
 
 
 def _make_repo(tmp_path):
@@ -137,10 +137,11 @@ def _packs(repo):
 
 
 def _rewrite_heads(repo, change, summary=None):
-    """Rewrite every pack with ``change`` applied to each entry's data (its last blob, read
-    when a report reads beyond the entry's summary) and ``summary`` to its summary (in the
-    head), with a correct checksum, so only the reader's own checks of the entries stand
-    between it and them."""
+    """Rewrite every pack with each entry's rest of the data (its last blob, read when a
+    report reads beyond the entry's summary; per model ``[model, spectrum, equilibrium,
+    verdicts, pictures]``, scan.encode) replaced by what ``change`` returns for it and
+    ``summary`` applied to its summary (in the head), with a correct checksum, so only the
+    reader's own checks of the entries stand between it and them."""
     from eigengate.scan.cache import read_pack, write_pack
 
     for pack in _packs(repo):
@@ -148,9 +149,7 @@ def _rewrite_heads(repo, change, summary=None):
         blobs = {}
         for key, entry in read.head["entries"].items():
             items = read.items(*entry["blobs"])
-            data = json.loads(items[-1][0])
-            change(data)
-            items[-1] = (json.dumps(data).encode(), None)
+            items = with_rest(items, change(entry_rest(items)))
             if summary is not None:
                 summary(entry["summary"])
             blobs[key] = items
@@ -175,15 +174,18 @@ def test_corrupt_cache_is_ignored_and_rebuilt(repo, damage, no_cache_stdout):
         elif damage == "empty":
             pack.write_bytes(b"")
     if damage == "nonsense results":
-        _rewrite_heads(repo, lambda d: d.__setitem__("results", "nonsense"))
-    elif damage == "bad blob spans":
-        _rewrite_heads(repo, lambda d: d["results"][0]["model"].__setitem__("A", 10**6))
-    elif damage == "wrong shapes":
-        _rewrite_heads(repo, lambda d: d["results"][0]["spectrum"].__setitem__("modes", "x"))
+        _rewrite_heads(repo, lambda rest: "nonsense")
+    elif damage == "bad blob spans":  # the first model's matrix A
+        _rewrite_heads(repo, lambda rest: [[[10**6] + rest[0][0][1:]] + rest[0][1:]]
+                       + rest[1:])
+    elif damage == "wrong shapes":  # the first model's mode table
+        _rewrite_heads(repo, lambda rest: [
+            [rest[0][0], rest[0][1][:6] + ["x"] + rest[0][1][7:]] + rest[0][2:]] + rest[1:])
     elif damage == "nonsense summary":
-        _rewrite_heads(repo, lambda d: None, lambda s: s.__setitem__("results", "nonsense"))
+        _rewrite_heads(repo, lambda rest: rest,
+                       lambda s: s.__setitem__("results", "nonsense"))
     elif damage == "summary rows outside":  # findings' mode rows: a table of the blobs
-        _rewrite_heads(repo, lambda d: None,
+        _rewrite_heads(repo, lambda rest: rest,
                        lambda s: [r.__setitem__(4, 10**6) for r in s["results"]])
     again = run_cli("check", cwd=repo)
     assert again.stdout == first and "Traceback" not in again.stderr
@@ -195,10 +197,9 @@ def test_corrupt_cache_is_ignored_and_rebuilt(repo, damage, no_cache_stdout):
         read = read_pack(pack.read_bytes())
         assert read.head["entries"]
         for entry in read.head["entries"].values():
-            data = json.loads(read.items(*entry["blobs"])[-1][0])
+            rest = entry_rest(read.items(*entry["blobs"]))
             count = entry["blobs"][1]
-            assert all(0 <= r["model"]["A"] < count and 0 <= r["spectrum"]["modes"] < count
-                       for r in data["results"])
+            assert all(0 <= r[0][0] < count and 0 <= r[1][6] < count for r in rest)
             assert all(s[4] is None or 0 <= s[4] < count for s in entry["summary"]["results"])
     assert no_cache_stdout == first
     # and what was rebuilt is served whole: every entry a hit, its matrices readable

@@ -23,15 +23,13 @@ itself (README, .gitignore, CACHEDIR.TAG).
 from __future__ import annotations
 
 import hashlib
-import json
 import os
 import time
 from pathlib import Path
 from typing import Any, Callable
 
 from .pack import (  # noqa: F401 (re-exported: the pack format)
-    Pack, PackBlobs, RawBlobs, read_pack, write_pack)
-from .pool import item_bytes
+    Pack, PackBlobs, RawBlobs, Segment, read_pack, write_pack)
 from .status_records import is_record, record_value, signature
 from .summary import summary_of
 
@@ -80,7 +78,7 @@ class ResultCache:
         self._old: dict[str, Any] | None = None
         self._read: Pack | None = None
         self._tables: dict[str, dict] = {"files": {}, "refs": {}, "sniff": {}}
-        self._new: dict[str, tuple[dict, list]] = {}
+        self._new: dict[str, tuple[dict, Segment]] = {}
         self._used: dict[str, None] = {}  # ordered: the pack keeps the scan's order
         self._started = time.time_ns()
         self._at_exit = False
@@ -208,10 +206,10 @@ class ResultCache:
                 self._old = {}  # missing or corrupt: start again, never trust it
         return self._old
 
-    def get(self, key: str) -> tuple[dict[str, Any], PackBlobs, Callable[[], Any]] | None:
-        """The stored summary, blobs and a reader of the whole data for ``key``
-        (:mod:`eigengate.scan.summary`), or None (missing, corrupt, or a reference changed).
-        The whole data is the entry's last blob, a JSON text."""
+    def get(self, key: str) -> tuple[dict[str, Any], PackBlobs, None] | None:
+        """The stored summary and blobs for ``key`` (:mod:`eigengate.scan.summary`; the last
+        blob, a JSON text, is the rest of the data), and None in place of the whole data,
+        or None (missing, corrupt, or a reference changed)."""
         entry = self._entries().get(key)
         try:
             # a missing entry (None) raises TypeError here, handled like a malformed one
@@ -220,7 +218,7 @@ class ResultCache:
                     or count < 1:
                 return None
             pack = self._read
-            whole = pack.blobs(first, count)  # type: ignore[union-attr]
+            blobs = pack.blobs(first, count)  # type: ignore[union-attr]
             if pack.row(first + count - 1)[3] >= 0:  # type: ignore[union-attr]
                 return None  # the last blob is not a text
             if refs and self._ref_hashes(sorted(refs)) != refs:
@@ -228,17 +226,17 @@ class ResultCache:
         except (KeyError, TypeError, ValueError, AttributeError):
             return None
         self._used[key] = None
-        return summary, PackBlobs(pack, first, count - 1), lambda: whole.json(count - 1)  # type: ignore[arg-type]
+        return summary, blobs, None
 
-    def put(self, key: str, data: dict[str, Any], blobs: list, refs: list[str]) -> None:
-        """Remember ``data`` and its blob items (see :class:`eigengate.scan.serial.Blobs`) for
-        ``key``; written by :meth:`save`."""
+    def put(self, key: str, data: dict[str, Any], blobs: Segment, refs: list[str]) -> None:
+        """Remember ``data`` (the summary) and its blobs, a segment and its index
+        (:func:`eigengate.scan.encode.results_to_data`), for ``key``; written, as they
+        are, by :meth:`save`."""
         hashes = self._ref_hashes(refs)
         if hashes is not None:
-            self._new[key] = ({"refs": hashes, "summary": summary_of(data)},
-                              [*blobs, json.dumps(data, separators=(",", ":"))])
+            self._new[key] = ({"refs": hashes, "summary": data}, blobs)
 
-    def _old_blobs(self, entry: dict) -> list[tuple[bytes, Any]] | None:
+    def _old_blobs(self, entry: dict) -> Segment | None:
         try:
             return self._read.items(*entry["blobs"])  # type: ignore[union-attr]
         except (KeyError, TypeError, ValueError, AttributeError):
@@ -254,15 +252,15 @@ class ResultCache:
         order += [k for k in old if k not in self._used and k not in self._new]
         order = order[:max(0, self.MAX_ENTRIES - len(self._new))]
         entries: dict[str, Any] = {}
-        blobs: dict[str, list] = {}
+        blobs: dict[str, Segment] = {}
         for k in order:
             kept = self._old_blobs(old[k])
             if kept is not None:
                 entries[k] = {"refs": old[k].get("refs"), "summary": old[k].get("summary")}
                 blobs[k] = kept
         for k, (entry, items) in self._new.items():
-            entries[k] = dict(entry)
-            blobs[k] = [item_bytes(x) for x in items]
+            entries[k] = entry  # its blobs' span is set by write_pack
+            blobs[k] = items
         head: dict[str, Any] = {"salt": self._salt, "entries": entries}
         refs = {h for e in entries.values() for h in (e.get("refs") or {}).values()}
         for table, wanted in (("files", entries), ("refs", refs)):

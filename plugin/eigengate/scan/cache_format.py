@@ -13,7 +13,8 @@ if TYPE_CHECKING:  # pragma: no cover
 __all__ = ["CACHE_DIR", "FORMAT", "cache_name"]
 
 CACHE_DIR = ".eigengate-cache"
-FORMAT = 10  # 8: mode names; 9: results carry their pictures (plot data); 10: summaries
+FORMAT = 11  # 8: mode names; 9: results carry their pictures (plot data); 10: summaries;
+#         11: the rest of the data one positional JSON text, blobs as bytes (scan.encode)
 
 
 def cache_name(config: "Config", rel: str) -> str:

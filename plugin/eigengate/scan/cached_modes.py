@@ -1,11 +1,15 @@
 """The modes of a cached result: stored as one float64 table and a participation matrix
-(blobs of the entry, :mod:`eigengate.scan.serial`), built into
+(blobs of the entry, :mod:`eigengate.scan.encode`), built into
 :class:`~eigengate.analysis.modes.Mode` objects only when something reads them; the
 spectrum's summary figures are stored as they are."""
 
 from __future__ import annotations
 
+import math
+import operator
+import struct
 from collections.abc import Sequence
+from itertools import compress, starmap
 from typing import TYPE_CHECKING, cast
 
 from .lazy import LazyField
@@ -13,7 +17,8 @@ from .lazy import LazyField
 if TYPE_CHECKING:  # pragma: no cover - a warm re-check that builds no mode imports neither
     from ..analysis.modes import Spectrum
 
-__all__ = ["CachedSpectrum", "StoredSearch", "spectrum_data", "blob_shape", "SPECTRUM_FIELDS"]
+__all__ = ["CachedSpectrum", "StoredSearch", "mode_table", "blob_shape", "SPECTRUM_FIELDS",
+           "MODE_GETTER", "MODE_COLUMNS"]
 
 
 def blob_shape(shapes: list, index) -> tuple[int, int] | None:
@@ -25,14 +30,28 @@ def blob_shape(shapes: list, index) -> tuple[int, int] | None:
 _MODE_SCALARS = ("multiplicity", "geometric_multiplicity", "pair", "natural_frequency",
                  "damping_ratio", "time_constant", "uncertainty", "condition", "enclosure")
 #: A mode as a row of float64 (exact for every field): index, eigenvalue and s as real and
-#: imaginary parts, then the scalars above.
-_MODE_COLUMNS = 5 + len(_MODE_SCALARS)
+#: imaginary parts, then the scalars above; MODE_GETTER reads them off a mode at once.
+MODE_GETTER = operator.attrgetter("index", "eigenvalue.real", "eigenvalue.imag", "s.real",
+                                  "s.imag", *_MODE_SCALARS)
+MODE_COLUMNS = 5 + len(_MODE_SCALARS)
+_MODE_ROW = struct.Struct(f"<{MODE_COLUMNS}d")
 
 
-def _mode_table(modes, np):
-    rows = [[m.index, m.eigenvalue.real, m.eigenvalue.imag, m.s.real, m.s.imag]
-            + [getattr(m, k) for k in _MODE_SCALARS] for m in modes]
-    return np.array(rows, dtype=np.float64).reshape(len(rows), _MODE_COLUMNS)
+def mode_table(modes) -> tuple[bytes, list[float], int]:
+    """The modes' table (a row per mode, MODE_GETTER's fields, float64 little-endian), and,
+    read off its columns, what :class:`~eigengate.analysis.modes.Spectrum` derives from its
+    modes: ``[spectral abscissa, spectral radius, min damping]`` (what a cache entry's
+    summary holds) and the eigenvalue count, by the same definitions, in the same order
+    (a test compares them with the spectrum's own)."""
+    rows = list(map(MODE_GETTER, modes))
+    table = b"".join(starmap(_MODE_ROW.pack, rows))
+    if not rows:
+        return b"", [-math.inf, 0.0, 1.0], 0
+    # columns: 1, 2 eigenvalue, 3, 4 s (real, imaginary), 5 multiplicity, 7 pair, 9 ζ
+    c = list(zip(*rows))
+    figures = [max(c[3]), max(map(abs, map(complex, c[1], c[2]))),
+               min(compress(c[9], c[4]), default=1.0)]  # ζ of the oscillatory modes
+    return table, figures, sum(c[5]) + sum(compress(c[5], c[7]))
 
 
 class _LazyModes(Sequence):
@@ -63,7 +82,7 @@ class _LazyModes(Sequence):
                          pair=bool(r[7]), natural_frequency=r[8], damping_ratio=r[9],
                          time_constant=r[10], uncertainty=r[11], condition=r[12],
                          enclosure=r[13],
-                         participation=part[:, k], states=self._states)
+                         participation=part[k], states=self._states)
                     for k, r in enumerate(rows.tolist()))
         return self._built
 
@@ -102,23 +121,18 @@ class CachedSpectrum:
     """Stands in for :class:`~eigengate.analysis.modes.Spectrum` when a result comes from the cache:
     the summary figures are stored, the modes are built only when something reads them."""
 
-    def __init__(self, model, data: dict, blobs, shapes: list) -> None:
+    def __init__(self, model, data: list, figures: list, blobs, shapes: list) -> None:
+        """From the spectrum's record in an entry's rest and its figures in the summary
+        (:mod:`eigengate.scan.encode`), checked."""
         self.model = model
-        self.infinite = data["infinite"]
-        self.norm = data["norm"]
-        self.balanced = data["balanced"]
-        self.spectral_abscissa = data["abscissa"]
-        self.spectral_radius = data["radius"]
-        self.min_damping = data["min_damping"]
-        self.n_eigenvalues = data["n_eigenvalues"]
-        coverage = data.get("search")
+        (self.infinite, self.norm, self.balanced, self.n_eigenvalues, count, coverage,
+         rows, part) = data
+        self.spectral_abscissa, self.spectral_radius, self.min_damping = figures
         self.search = None if coverage is None else StoredSearch(str(coverage))
-        count = data["n_modes"]
-        rows, part = data["modes"], data["participation"]
         # The blobs are read when the modes are: check now that they fit, so a damaged
         # entry is analysed again instead of failing later.
-        if blob_shape(shapes, rows) != (count, _MODE_COLUMNS) or \
-                blob_shape(shapes, part) not in ((len(model.states), count), (0, 0)):
+        if type(count) is not int or blob_shape(shapes, rows) != (count, MODE_COLUMNS) or \
+                blob_shape(shapes, part) not in ((count, len(model.states)), (0, 0)):
             raise ValueError("mode table or participation factors do not fit the model")
         self.modes = _LazyModes(blobs, rows, part, model.states, count)
 
@@ -135,19 +149,3 @@ SPECTRUM_FIELDS = ("model", "infinite", "norm", "balanced", "spectral_abscissa",
 for _name in SPECTRUM_FIELDS:
     setattr(CachedSpectrum, _name, LazyField(_name))
 del _name
-
-
-def spectrum_data(sp, blobs) -> dict:
-    import numpy as np
-
-    modes = list(sp.modes)
-    part = np.stack([m.participation for m in modes], axis=1) if modes else np.zeros((0, 0))
-    return {
-        "infinite": sp.infinite, "norm": sp.norm, "balanced": sp.balanced,
-        "abscissa": sp.spectral_abscissa, "radius": sp.spectral_radius,
-        "min_damping": sp.min_damping, "n_eigenvalues": sp.n_eigenvalues,
-        "n_modes": len(modes),
-        "search": None if getattr(sp, "search", None) is None else sp.search.coverage(),
-        "modes": blobs.put_array(_mode_table(modes, np)),
-        "participation": blobs.put_array(part),
-    }

@@ -36,10 +36,13 @@ from __future__ import annotations
 
 import os
 import sys
-from typing import Any, Callable, Sequence
+from typing import TYPE_CHECKING, Any, Callable, Sequence
 
 from ..errors import EigengateError, ModelError
 from .config import Config
+
+if TYPE_CHECKING:
+    from .pack import Segment
 
 __all__ = ["ClusterError", "cluster_run", "connect_timeout", "CHUNK_MAX"]
 
@@ -50,7 +53,7 @@ DEFAULT_TIMEOUT = 10.0
 #: Task reruns after an exception raised on a worker (a worker that died is Dask's own count).
 RETRIES = 2
 
-Outcome = tuple[dict, list, list[str], bool]  # data, blob items, referenced files, loaded
+Outcome = tuple[dict, "Segment", list[str], bool]  # data, blobs, referenced files, loaded
 
 
 class ClusterError(EigengateError):

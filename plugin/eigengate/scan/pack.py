@@ -9,12 +9,17 @@ from __future__ import annotations
 
 import array
 import json
+import operator
 import struct
 import sys
 import zlib
 from typing import Any
 
-__all__ = ["Pack", "PackBlobs", "RawBlobs", "read_pack", "write_pack"]
+__all__ = ["Pack", "PackBlobs", "RawBlobs", "BlobReader", "Segment", "read_pack", "write_pack"]
+
+#: An entry's blobs as one segment of bytes and its flat index (offset in the segment, size,
+#: rows, columns per blob): what :func:`write_pack` takes and a pool worker sends.
+Segment = tuple[bytes, list[int]]
 
 
 #: First bytes of a pack; then the sizes of head, index and body and a CRC-32 of all three
@@ -54,19 +59,23 @@ class Pack:
             raise ValueError("entry blobs lie outside the pack index")
         return PackBlobs(self, first, count)
 
-    def items(self, first: Any, count: Any) -> list[tuple[bytes, list | None]]:
-        """An entry's blobs as ``(bytes, shape or None)``, as :func:`write_pack` takes them;
-        ValueError when its span is not within the index."""
+    def items(self, first: Any, count: Any) -> Segment:
+        """An entry's blobs as one segment and its index (offsets in the segment), as
+        :func:`write_pack` takes them; ValueError when its span is not within the index."""
         self.blobs(first, count)
-        out = []
-        for off, size, rows, cols in map(self.row, range(first, first + count)):
-            out.append((bytes(self._body[off:off + size]), None if cols < 0 else [rows, cols]))
-        return out
+        index = self._index[_INDEX_COLUMNS * first:_INDEX_COLUMNS * (first + count)]
+        if not index:
+            return b"", []
+        offsets = index[0::_INDEX_COLUMNS]
+        start = min(offsets) & ~7  # blobs are 8-byte aligned: so they stay in the segment
+        end = max(map(operator.add, offsets, index[1::_INDEX_COLUMNS]))
+        index[0::_INDEX_COLUMNS] = [off - start for off in offsets]
+        return bytes(self._body[start:end]), index
 
 
-class _BlobReader:
-    """Reading methods of :class:`eigengate.scan.serial.Blobs` over raw blobs: each is its
-    bytes (float64, little-endian, or UTF-8 JSON) with its shape (None for a text), served
+class BlobReader:
+    """Reading methods over raw blobs (:class:`eigengate.scan.encode.Blobs`): each is its
+    bytes (float64, little-endian, or UTF-8 text) with its shape (None for a text), served
     by ``_raw``."""
 
     __slots__ = ()
@@ -91,14 +100,24 @@ class _BlobReader:
         flat = _little("d", raw).tolist()
         return [flat[k:k + cols] for k in range(0, rows * cols, cols)]
 
-    def json(self, i: Any):
+    def text(self, i: Any) -> str:
         raw, _, cols = self._raw(i)
         if cols >= 0:
             raise ValueError(f"blob {i} is not a text")
-        return json.loads(bytes(raw))
+        return str(raw, "utf-8")
+
+    def json(self, i: Any):
+        return json.loads(self.text(i))
+
+    def ints(self, i: Any) -> list[int]:
+        """A 1×k blob of int64 numbers (a line table's), as Python ints."""
+        raw, rows, cols = self._raw(i)
+        if rows != 1:
+            raise ValueError(f"blob {i} is not a row of numbers")
+        return _little("q", raw).tolist()
 
 
-class PackBlobs(_BlobReader):
+class PackBlobs(BlobReader):
     """The blobs of one cache entry, served from the body of its pack."""
 
     __slots__ = ("_pack", "_first", "_count")
@@ -117,32 +136,46 @@ class PackBlobs(_BlobReader):
         return self._pack.shapes(self._first, self._count)
 
 
-class RawBlobs(_BlobReader):
-    """Blobs as a worker sends them (``(bytes, [rows, columns] or None)``, what
-    :func:`write_pack` takes), checked on arrival: sizes fit shapes."""
+class RawBlobs(BlobReader):
+    """Blobs as a worker sends them (a segment and its index, what :func:`write_pack`
+    takes: :class:`eigengate.scan.encode.Blobs`), checked on arrival: every blob inside
+    the segment, its size fitting its shape."""
 
-    __slots__ = ("_items", "_shapes")
+    __slots__ = ("_segment", "_index", "_count")
 
-    def __init__(self, items: list) -> None:
-        shapes: list[tuple[int, int] | None] = []
-        for raw, shape in items:
-            if shape is None:
-                shapes.append(None)
-                continue
-            rows, cols = shape
-            if rows < 0 or cols < 0 or len(raw) != 8 * rows * cols:
-                raise ValueError("blob size does not fit its shape")
-            shapes.append((rows, cols))
-        self._items, self._shapes = items, shapes
+    def __init__(self, items) -> None:
+        segment, index = items
+        if type(segment) is not bytes or type(index) not in (list, tuple) or \
+                not all(type(v) is int for v in index):
+            raise ValueError("blobs are not a segment and its index")
+        index = list(index)
+        _check_index(index, len(segment))
+        self._segment, self._index = memoryview(segment), index
+        self._count = len(index) // _INDEX_COLUMNS
 
     def _raw(self, i: Any) -> tuple[Any, int, int]:
-        if type(i) is not int or not 0 <= i < len(self._items):
-            raise ValueError(f"blob {i!r} is not one of the entry's {len(self._items)}")
-        raw, shape = self._items[i]
-        return (raw, -1, -1) if shape is None else (raw, shape[0], shape[1])
+        if type(i) is not int or not 0 <= i < self._count:
+            raise ValueError(f"blob {i!r} is not one of the entry's {self._count}")
+        k = _INDEX_COLUMNS * i
+        off, size, rows, cols = self._index[k:k + _INDEX_COLUMNS]
+        return self._segment[off:off + size], rows, cols
 
     def shapes(self) -> list[tuple[int, int] | None]:
-        return self._shapes
+        f = self._index
+        return [None if f[k + 3] < 0 else (f[k + 2], f[k + 3])
+                for k in range(0, len(f), _INDEX_COLUMNS)]
+
+
+def _check_index(flat: list, n_body: int) -> None:
+    """ValueError unless every blob of ``flat`` (offset, size, rows, columns each) lies
+    within a body of ``n_body`` bytes with a size that fits its shape."""
+    c = _INDEX_COLUMNS
+    if len(flat) % c:
+        raise ValueError("pack index is not whole")
+    for off, size, rows, cols in zip(flat[0::c], flat[1::c], flat[2::c], flat[3::c]):
+        if off < 0 or size < 0 or off > n_body - size or (
+                rows != -1 if cols < 0 else rows < 0 or size != 8 * rows * cols):
+            raise ValueError("pack index does not fit its body")
 
 
 def _little(code: str, raw) -> array.array:
@@ -154,32 +187,43 @@ def _little(code: str, raw) -> array.array:
     return out
 
 
-def write_pack(head: dict, entry_blobs: dict[str, list[tuple[bytes, list | None]]]) -> bytes:
+_dumps = json.JSONEncoder(separators=(",", ":"), check_circular=False).encode
+_PAD = [b"\0" * k for k in range(8)]
+
+
+def write_pack(head: dict, entry_blobs: dict[str, Segment]) -> bytes:
     """The bytes of a pack: ``head`` (whose entries get their ``blobs`` as ``[first, count]``
-    in the index) and, for each entry key, its blobs as ``(bytes, shape or None)``. Blobs
-    are 8-byte aligned in the body."""
+    in the index) and, for each entry key, its blobs as one segment of bytes and its flat
+    index (offset in the segment, size, rows, columns per blob;
+    :class:`eigengate.scan.encode.Blobs`). Segments are 8-byte aligned in the body, so
+    blobs aligned in theirs stay aligned."""
     chunks: list[bytes] = []
-    index: list[tuple[int, int, int, int]] = []
+    index: list[int] = []
+    bases: list[int] = []  # per blob, where its segment starts in the body
+    entries = head["entries"]
     size = 0
-    for key, items in entry_blobs.items():
-        head["entries"][key]["blobs"] = [len(index), len(items)]
-        for raw, shape in items:
-            pad = -size % 8
-            if pad:
-                chunks.append(b"\0" * pad)
-                size += pad
-            rows, cols = (-1, -1) if shape is None else shape
-            index.append((size, len(raw), rows, cols))
-            chunks.append(raw)
-            size += len(raw)
-    head_bytes = json.dumps(head, separators=(",", ":")).encode("utf-8")
-    flat = array.array("q", [v for row in index for v in row])
+    n = 0
+    for key, (segment, local) in entry_blobs.items():
+        count = len(local) // _INDEX_COLUMNS
+        entries[key]["blobs"] = [n, count]
+        n += count
+        index += local
+        bases += [size] * count
+        chunks.append(segment)
+        size += len(segment)
+        pad = -size % 8
+        if pad:
+            chunks.append(_PAD[pad])
+            size += pad
+    index[0::_INDEX_COLUMNS] = map(operator.add, index[0::_INDEX_COLUMNS], bases)
+    head_bytes = _dumps(head).encode("utf-8")
+    flat = array.array("q", index)
     if sys.byteorder != "little":  # pragma: no cover - big-endian machines
         flat.byteswap()
     index_bytes = flat.tobytes()
     body = b"".join(chunks)
     crc = zlib.crc32(body, zlib.crc32(index_bytes, zlib.crc32(head_bytes)))
-    return b"".join((_MAGIC, _HEADER.pack(len(head_bytes), len(index), len(body), crc),
+    return b"".join((_MAGIC, _HEADER.pack(len(head_bytes), n, len(body), crc),
                      head_bytes, index_bytes, body))
 
 
@@ -200,11 +244,7 @@ def read_pack(raw: bytes) -> Pack:
     if zlib.crc32(body, zlib.crc32(index_bytes, zlib.crc32(head_bytes))) != crc:
         raise ValueError("pack checksum does not match")
     flat = _little("q", index_bytes).tolist()
-    c = _INDEX_COLUMNS
-    for off, size, rows, cols in zip(flat[0::c], flat[1::c], flat[2::c], flat[3::c]):
-        if off < 0 or size < 0 or off > n_body - size or (
-                rows != -1 if cols < 0 else rows < 0 or size != 8 * rows * cols):
-            raise ValueError("pack index does not fit its body")
+    _check_index(flat, n_body)
     head = json.loads(bytes(head_bytes))
     if not isinstance(head, dict):
         raise ValueError("pack head is not an object")

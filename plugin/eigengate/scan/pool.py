@@ -2,8 +2,9 @@
 
 Workers are started once, at the start of the scan, each with a duplex pipe; they are fed
 chunks of file paths and send back, per chunk, compact records: each file's JSON-safe data,
-its blobs as ``(bytes, shape)`` (what the cache pack stores; :class:`~eigengate.scan.cache.RawBlobs`
-reads them), its referenced files and whether it loaded. Nothing is pickled but plain data.
+its blobs as one segment of bytes and its index (what the cache pack stores;
+:class:`~eigengate.scan.cache.RawBlobs` reads them), its referenced files and whether it
+loaded. Nothing is pickled but plain data.
 
 Workers take chunks from the front of the list, this process 16 files at a time from the
 back, between collecting what the workers send, so it analyses while the workers start (their
@@ -23,9 +24,12 @@ from __future__ import annotations
 import gc
 import sys
 from collections import deque
-from typing import Any, Callable
+from typing import TYPE_CHECKING, Any, Callable
 
-__all__ = ["encoded", "item_bytes", "pool_run"]
+if TYPE_CHECKING:
+    from .pack import Segment
+
+__all__ = ["encoded", "pool_run"]
 
 #: Files per chunk sent to a worker: at most this many ...
 CHUNK_MAX = 64
@@ -38,10 +42,10 @@ OWN_BATCH = 16
 AHEAD = 2
 
 
-def encoded(paths: list[str], config: Any) -> list[tuple[dict, list, list[str], bool]]:
+def encoded(paths: list[str], config: Any) -> list[tuple[dict, Segment, list[str], bool]]:
     """Analyse files in a worker (of the pool or of a cluster), stage by stage
     (:func:`~eigengate.scan.engine.analyse_files`): per file (JSON-safe data, its blobs as
-    ``(bytes, shape)``, referenced files, whether it loaded). ``config`` is a
+    a segment and its index, referenced files, whether it loaded). ``config`` is a
     :class:`~eigengate.scan.config.Config`."""
     from .engine import analyse_files
     from .serial import results_to_data
@@ -50,20 +54,8 @@ def encoded(paths: list[str], config: Any) -> list[tuple[dict, list, list[str], 
     for source, results, error, refs in analyse_files([(p, None) for p in paths],
                                                       config.root, config):
         data, blobs = results_to_data(source, results, error)
-        out.append((data, [item_bytes(x) for x in blobs.items], refs, error is None))
+        out.append((data, blobs.items, refs, error is None))
     return out
-
-
-def item_bytes(item) -> tuple[bytes, list | None]:
-    """A blob item (a float64 matrix or a JSON text) as its bytes and shape; one already in
-    that form is kept."""
-    if isinstance(item, tuple):
-        return item
-    if isinstance(item, str):
-        return item.encode("utf-8"), None
-    if item.ndim != 2:
-        raise ValueError(f"blob arrays are matrices, got {item.ndim} dimensions")
-    return item.astype("<f8", copy=False).tobytes(), list(item.shape)
 
 
 def _serve(conn, config) -> None:

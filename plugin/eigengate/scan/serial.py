@@ -1,19 +1,19 @@
-"""Exact round trip of check results, for the result cache and the process pool.
+"""Exact round trip of check results, for the result cache and the process pool: reading
+back what :mod:`eigengate.scan.encode` wrote (its docstring has the layout).
 
-A file's results become JSON-safe *data* plus a list of *blobs*: the large items (matrices,
-participation factors, mode rows, the line table) kept out of the JSON, so that reading a
-cache pack decodes only what a report reads. Matrices are float64 bytes, so a result read
-back renders to the same bytes as the one computed. Blobs are read lazily: a warm re-check
-that only prints a summary never touches a matrix or builds a Mode object. Nothing here
-executes code from the data: unknown kinds are errors, which the cache treats as a corrupt
-entry.
+A file's results are JSON-safe *data* (its summary) plus a list of *blobs*: the large items
+(matrices, participation factors, mode rows, the line table) and, last, the rest of the data
+as one JSON text, so that reading a cache pack decodes only what a report reads. Matrices
+are float64 bytes, so a result read back renders to the same bytes as the one computed.
+Blobs are read lazily: a warm re-check that only prints a summary never touches a matrix or
+builds a Mode object. Nothing here executes code from the data: unknown kinds are errors,
+which the cache treats as a corrupt entry.
 """
 
 from __future__ import annotations
 
 import functools
 import json
-from collections.abc import Sequence
 from typing import TYPE_CHECKING, Any, cast
 
 from .engine import ModelResult
@@ -22,9 +22,11 @@ from ..errors import ModelError
 from ..analysis.naming import mode_name
 from ..rules.findings import Finding, ModeRow
 from ..rules.known_modes import KnownMode
-from .cached_modes import CachedSpectrum, blob_shape, spectrum_data
+from .cached_modes import CachedSpectrum, blob_shape
+from .encode import ROW_COLUMNS, VERDICT_OFFENDING, Blobs, results_to_data
 from .lazy import LazyField
-from .records import REQUIREMENT_NAMES, pictures_from, record, requirement_classes, unrecord
+from .pack import RawBlobs
+from .records import REQUIREMENT_NAMES, pictures_from, requirement_classes, unrecord
 from ..model.core import Model
 from ..rules.catalogue import Verdict
 from ..rules.waivers import Waiver
@@ -33,49 +35,10 @@ if TYPE_CHECKING:  # pragma: no cover - a warm re-check that builds no mode impo
     from ..analysis.modes import Spectrum
 
 __all__ = ["results_to_data", "results_from_data", "CachedSpectrum", "CachedModel", "Blobs",
-           "FORMAT", "fill_model", "result_parts", "findings_from"]
+           "FORMAT", "fill_model", "result_parts", "findings_from", "summary_fields",
+           "rest_of"]
 
 from .cache_format import FORMAT  # noqa: E402 (re-exported)
-
-
-class Blobs:
-    """The large items of one file's encoded results, by index: float64 matrices, and JSON
-    texts of other values. Encoding appends to ``items``; decoding reads them back by index
-    (``shapes`` has None for a text). The cache's reader (:class:`eigengate.scan.cache.PackBlobs`)
-    serves the same three methods from the bytes of a pack."""
-
-    def __init__(self, items: list | None = None) -> None:
-        self.items: list = [] if items is None else items
-
-    def put_array(self, a) -> int | None:
-        import numpy as np  # encoding only: results read back never import numpy
-
-        if a is None:
-            return None
-        self.items.append(np.ascontiguousarray(a, dtype=np.float64))
-        return len(self.items) - 1
-
-    def put_json(self, value) -> int:
-        self.items.append(json.dumps(value, separators=(",", ":")))
-        return len(self.items) - 1
-
-    def shapes(self) -> list[tuple[int, int] | None]:
-        return [None if isinstance(a, str) else a.shape for a in self.items]
-
-    def array(self, i: int):
-        a = self.items[i]
-        if isinstance(a, str):
-            raise ValueError(f"blob {i} is not an array")
-        return a
-
-    def rows(self, i: int) -> list[list[float]]:  # as the cache's readers give them
-        return self.array(i).tolist()
-
-    def json(self, i: int):
-        text = self.items[i]
-        if not isinstance(text, str):
-            raise ValueError(f"blob {i} is not a text")
-        return json.loads(text)
 
 
 # ------------------------------------------------------------------ model and results
@@ -96,22 +59,22 @@ def _array(ref: tuple):
     return blobs.array(index)
 
 
-def _put_matrix(blobs: Blobs, a):
-    """A matrix into the blobs: dense as it is, sparse (A, E of a sparse model) as its CSR
-    arrays, each a 1×k float64 blob (indices are exact in float64 below 2⁵³)."""
-    if type(a).__module__.startswith("scipy.sparse"):
-        import numpy as np
-
-        c = a.tocsr()
-        return ["csr", int(c.shape[0]), int(c.shape[1])] + [
-            blobs.put_array(np.asarray(x, dtype=np.float64).reshape(1, -1))
-            for x in (c.data, c.indices, c.indptr)]
-    return blobs.put_array(a)
-
-
-def _text(ref: tuple):
+def _lines(ref: tuple) -> dict:
+    """The line table: field paths joined by NUL and a 1×k table of their line numbers
+    (int64), or (a path holding a NUL) a JSON text."""
     blobs, index = ref
-    return blobs.json(index)
+    if type(index) is int:
+        table = blobs.json(index)
+        if type(table) is not dict:
+            raise ValueError("line table is not a table")
+        return table
+    keys, values = index
+    names = blobs.text(keys)
+    numbers = blobs.ints(values)
+    paths = names.split("\0") if numbers else []
+    if len(paths) != len(numbers):
+        raise ValueError("line table does not fit its line numbers")
+    return dict(zip(paths, numbers))
 
 
 def _requirements_of(records: list) -> tuple:
@@ -124,7 +87,7 @@ def _known_modes_of(records: list) -> tuple:
 
 
 #: How a model field kept in ``_stored`` is built on first read.
-_LOADERS = {**{k: _array for k in _MATRICES}, "lines": _text,
+_LOADERS = {**{k: _array for k in _MATRICES}, "lines": _lines,
             "requirements": _requirements_of, "known_modes": _known_modes_of}
 
 
@@ -138,7 +101,7 @@ class CachedModel(Model):
     LOADERS = _LOADERS
 
     @property
-    def n_states(self) -> int:  # _model_from checked that A is n × n for n states
+    def n_states(self) -> int:  # fill_model checked that A is n × n for n states
         return len(self.states)
 
     def line_of(self, field_path: str) -> int | None:
@@ -153,49 +116,6 @@ class CachedModel(Model):
 for _f in Model.__dataclass_fields__:
     setattr(CachedModel, _f, LazyField(_f))
 del _f
-
-
-def _model_data(m, blobs: Blobs) -> dict:
-    classes = requirement_classes()
-    for r in m.requirements:
-        if type(r).__name__ not in classes:  # pragma: no cover - a new class not listed
-            raise TypeError(f"cannot cache requirement {type(r).__name__}")
-    out: dict[str, Any] = {k: _put_matrix(blobs, getattr(m, k)) for k in _MATRICES}
-    out.update({
-        "name": m.name, "label": m.label, "source": m.source, "structure": m.structure,
-        "sample_period": m.sample_period, "states": list(m.states), "inputs": list(m.inputs),
-        "outputs": list(m.outputs), "on_uncertain": m.on_uncertain, "require": m.require,
-        "disabled": list(m.disabled), "lines": blobs.put_json(dict(m.lines)),
-        "top_lines": {k: v for k, v in m.lines.items() if "." not in k},
-        "requirements": [[type(r).__name__, record(r)] for r in m.requirements],
-        "known_modes": [record(k) for k in m.known_modes],
-        "waivers": [record(w) for w in m.waivers],
-        "allowed_drift": m.allowed_drift,
-        "nonlinear": _field_data(m.nonlinear), "point_id": m.point_id,
-        "grid": None if m.grid is None else [[k, v] for k, v in m.grid],
-    })
-    return out
-
-
-# A linearised model's vector field is code and is not stored; what the reports read of it
-# (the operating point, the box, and the equilibria found in it) is.
-
-def _field_data(info) -> dict | None:
-    if info is None:
-        return None
-    search = info.shared.get("search")
-    return {
-        "x": list(info.x), "u": list(info.u), "carrier": info.carrier,
-        "carrier_label": info.carrier_label,
-        "box": None if info.box is None else [list(info.box[0]), list(info.box[1]),
-                                              list(info.box[2]), info.box[3], info.box[4]],
-        "search": None if search is None else {
-            "equilibria": [[list(e.x), e.residual, record(e.equilibrium),
-                            [[z.real, z.imag] for z in e.eigenvalues]]
-                           for e in search.equilibria],
-            "counts": [search.starts, search.converged, search.failed, search.outside],
-            "errors": list(search.errors)},
-    }
 
 
 def _field_from(d: dict | None):
@@ -234,85 +154,66 @@ def _cached_field_class():
     return CachedFieldPoint
 
 
-def _model_from(d: dict, blobs, shapes: list) -> CachedModel:
-    m = object.__new__(CachedModel)
-    fill_model(m, d, blobs, shapes)
-    return m
+def summary_fields(s: list) -> dict[str, Any]:
+    """The model fields that summary record ``s`` holds (its states only when it has
+    findings), checked; raises what a damaged record raises."""
+    (source, waivers, grid, _, _, states, name, label, period, _, top_lines) = s
+    if type(source) is not str or type(waivers) is not list or type(top_lines) is not dict:
+        raise ValueError("cached summary is not a model record")
+    out = dict(source=source, waivers=tuple([unrecord(Waiver, w) for w in waivers]),
+               grid=None if grid is None else tuple([(str(a), float(v)) for a, v in grid]),
+               name=name, label=label, sample_period=period, _top_lines=top_lines)
+    if states is not None:
+        out["states"] = tuple(states)
+    return out
 
 
-def fill_model(m: CachedModel, d: dict, blobs, shapes: list) -> None:
-    """Set the fields of cached model ``m`` from its record ``d``, checked; ValueError,
-    KeyError, TypeError or IndexError when the record is damaged (nothing set then)."""
+def fill_model(m: CachedModel, d: list, blobs, shapes: list) -> None:
+    """Set the fields of cached model ``m`` (its summary's fields already set) from its
+    record ``d`` in the entry's rest, checked; ValueError, KeyError, TypeError or
+    IndexError when the record is damaged (nothing set then)."""
+    (a, b, c, dd, e, lines, structure, states, inputs, outputs, on_uncertain, require,
+     disabled, requirements, known_modes, allowed_drift, nonlinear, point_id) = d
     classes = REQUIREMENT_NAMES  # the classes themselves are imported when first read
-    if not all(type(r) is list and len(r) == 2 and r[0] in classes for r in d["requirements"]) \
-            or type(d["known_modes"]) is not list:
+    if not all(type(r) is list and len(r) == 2 and r[0] in classes for r in requirements) \
+            or type(known_modes) is not list:
         raise ValueError("model requirements are not records of known classes")
     fields: dict[str, Any] = {}
-    stored = {"requirements": d["requirements"], "known_modes": d["known_modes"]}
-    for k in (*_MATRICES, "lines"):
-        index = d[k]
+    stored = {"requirements": requirements, "known_modes": known_modes}
+    for k, index in zip(_MATRICES, (a, b, c, dd, e)):
         if index is None and k != "A":
             fields[k] = None
             continue
         # read later: check now that it is there, and of its kind
-        if isinstance(index, list) and k != "lines":
+        if isinstance(index, list):
             if len(index) != 6 or index[0] != "csr" or type(index[1]) is not int \
                     or type(index[2]) is not int or any(
                         blob_shape(shapes, i) is None for i in index[3:]):
                 raise ValueError(f"model field {k} is not a sparse matrix record")
-        elif (blob_shape(shapes, index) is None) != (k == "lines"):
+        elif blob_shape(shapes, index) is None:
             raise ValueError(f"model field {k} is not a blob of its kind")
         stored[k] = (blobs, index)
-    n = len(d["states"])
-    a = d["A"]
+    if type(lines) is int:
+        if blob_shape(shapes, lines) is not None:
+            raise ValueError("model line table is not a text")
+    elif type(lines) is not list or len(lines) != 2 or blob_shape(shapes, lines[0]) is not None \
+            or (blob_shape(shapes, lines[1]) or (0, 0))[0] != 1:
+        raise ValueError("model line table is not a text and its numbers")
+    stored["lines"] = (blobs, lines)
+    if states is None:
+        states = m.__dict__["states"]  # in the summary
+    elif type(states) is not list:
+        raise ValueError("model states are not a list")
+    n = len(states)
     if (tuple(a[1:3]) if isinstance(a, list) else shapes[a]) != (n, n):
         raise ValueError("model matrix A does not fit its states")
     fields.update(
-        name=d["name"], label=d["label"], source=d["source"],
-        structure=d["structure"], sample_period=d["sample_period"],
-        states=tuple(d["states"]), inputs=tuple(d["inputs"]), outputs=tuple(d["outputs"]),
-        on_uncertain=d["on_uncertain"], require=d["require"], disabled=tuple(d["disabled"]),
-        waivers=tuple(unrecord(Waiver, w) for w in d["waivers"]),
-        allowed_drift=d["allowed_drift"], loop_parts=None, parameters=None, file_inputs=None,
-        nonlinear=_field_from(d["nonlinear"]), point_id=d.get("point_id"),
-        grid=None if d.get("grid") is None else tuple((str(k), float(v)) for k, v in d["grid"]))
+        structure=structure, states=tuple(states), inputs=tuple(inputs),
+        outputs=tuple(outputs), on_uncertain=on_uncertain, require=require,
+        disabled=tuple(disabled), allowed_drift=allowed_drift, loop_parts=None,
+        parameters=None, file_inputs=None, nonlinear=_field_from(nonlinear),
+        point_id=point_id)
     m.__dict__.update(fields, _stored=stored)
-
-
-#: A finding's mode row as float64: index, eigenvalue and s (real, imaginary), pair,
-#: multiplicity, defective, ζ, ωn, τ, bound, κ, then up to _TOP participating states as
-#: (position in the model's states, factor) after their count.
-_TOP = 3
-_ROW_COLUMNS = 14 + 2 * _TOP
-
-
-def _row_values(r: ModeRow, position: dict[str, int]) -> list[float] | None:
-    if len(r.top_states) > _TOP or any(n not in position for n, _ in r.top_states):
-        return None
-    out = [r.index, r.eigenvalue.real, r.eigenvalue.imag, r.s.real, r.s.imag, r.pair,
-           r.multiplicity, r.defective, r.damping_ratio, r.natural_frequency, r.time_constant,
-           r.uncertainty, r.condition, len(r.top_states)]
-    for n, p in r.top_states:
-        out += [position[n], p]
-    return out + [0.0] * (_ROW_COLUMNS - len(out))
-
-
-def _findings_data(findings, states: tuple[str, ...], blobs: Blobs) -> tuple[list, int | None]:
-    """The findings' records, their mode rows in one float64 table (a finding refers to its
-    ``[first, count]``), or as records where a row does not fit the table."""
-    position = {n: i for i, n in enumerate(states)}
-    table: list[list[float]] = []
-    out = []
-    for f in findings:
-        rows = [_row_values(r, position) for r in f.modes]
-        if any(r is None for r in rows):
-            out.append({"f": record(f), "modes": [record(r) for r in f.modes]})
-        else:
-            out.append({"f": record(f), "rows": [len(table), len(rows)]})
-            table.extend(rows)  # type: ignore[arg-type]
-    if not table:
-        return out, None
-    return out, blobs.put_array(table)
 
 
 def _row_of(r: list, states: tuple[str, ...]) -> ModeRow:
@@ -328,10 +229,12 @@ def _row_of(r: list, states: tuple[str, ...]) -> ModeRow:
 
 
 def findings_from(items: list, table: int | None, states: tuple[str, ...], blobs) -> tuple:
+    if not items and table is None:
+        return ()
     rows: list = []
     if table is not None:
         shape = blob_shape(blobs.shapes(), table)
-        if shape is None or shape[1] != _ROW_COLUMNS:
+        if shape is None or shape[1] != ROW_COLUMNS:
             raise ValueError("finding mode rows have the wrong width")
         rows = blobs.rows(table)  # no numpy: a warm re-check renders these
     out = []
@@ -347,51 +250,51 @@ def findings_from(items: list, table: int | None, states: tuple[str, ...], blobs
     return tuple(out)
 
 
-def _verdict_data(v) -> dict:
-    return {"v": record(v), "offending": [m.index - 1 for m in v.offending]}
+def result_parts(model, s: list, d: list, blobs, shapes: list) -> dict[str, Any]:
+    """The spectrum, equilibrium, verdicts and pictures of a result (summary record ``s``,
+    rest record ``d``) for its (cached) ``model``, checked."""
+    _, sp, equilibrium, verdicts, pictures = d
+    spectrum = CachedSpectrum(model, sp, s[9], blobs, shapes)
+    out = []
+    for v in verdicts:
+        offending = v[VERDICT_OFFENDING]
+        if type(offending) is not list:
+            raise ValueError("verdict offending modes are not a list")
+        out.append(unrecord(Verdict, v, offending=spectrum.modes.subset(offending)))
+    return {"spectrum": cast("Spectrum", spectrum), "verdicts": tuple(out),
+            "equilibrium": unrecord(Equilibrium, equilibrium),
+            "pictures": pictures_from(pictures)}
 
 
-def _result_data(r, blobs: Blobs) -> dict:
-    findings, rows = _findings_data(r.findings, r.model.states, blobs)
-    return {"model": _model_data(r.model, blobs), "spectrum": spectrum_data(r.spectrum, blobs),
-            "equilibrium": record(r.equilibrium),
-            "verdicts": [_verdict_data(v) for v in r.verdicts],
-            "findings": findings, "rows": rows,
-            "pictures": [[type(p).__name__, record(p)] for p in r.pictures]}
-
-
-def _result_from(d: dict, blobs, shapes: list):
-    model = _model_from(d["model"], blobs, shapes)
-    # CachedSpectrum stands in for a Spectrum: the same attributes, read lazily (duck typing)
-    return ModelResult(model=model, **result_parts(model, d, blobs, shapes),
-                       findings=findings_from(d["findings"], d["rows"], model.states, blobs))
-
-
-def result_parts(model, d: dict, blobs, shapes: list) -> dict[str, Any]:
-    """The spectrum, equilibrium, verdicts and pictures of a result's record ``d`` for its
-    (cached) ``model``, checked."""
-    spectrum = CachedSpectrum(model, d["spectrum"], blobs, shapes)
-    verdicts = [unrecord(Verdict, v["v"], offending=spectrum.modes.subset(v["offending"]))
-                for v in d["verdicts"]]
-    return {"spectrum": cast("Spectrum", spectrum), "verdicts": tuple(verdicts),
-            "equilibrium": unrecord(Equilibrium, d["equilibrium"]),
-            "pictures": pictures_from(d["pictures"])}
-
-
-def results_to_data(source: str, results: Sequence, error) -> tuple[dict, Blobs]:
-    """Data and blobs of one file's pre-waiver check: its model results, or its load error."""
-    blobs = Blobs()
-    if error is not None:
-        return {"source": source, "error": [error.source, error.field, error.problem,
-                                             error.line, error.hint]}, blobs
-    return {"source": source, "results": [_result_data(r, blobs) for r in results]}, blobs
+def rest_of(blobs, shapes: list, count: int) -> list:
+    """The rest records of an entry's ``count`` models: its last blob, a JSON text;
+    ValueError when it is not there or does not fit."""
+    if not shapes or shapes[-1] is not None:
+        raise ValueError("cached entry has no rest")
+    rest = blobs.json(len(shapes) - 1)
+    if type(rest) is not list or len(rest) != count or \
+            not all(type(r) is list and len(r) == 5 for r in rest):
+        raise ValueError("cached data does not fit its summary")
+    return rest
 
 
 def results_from_data(d: dict, blobs):
-    """Inverse of :func:`results_to_data`: ``(source, results, error)``. ``blobs`` is a
-    :class:`Blobs` or anything with its ``shapes``, ``array`` and ``json`` methods."""
+    """Inverse of :func:`results_to_data`: ``(source, results, error)``, every field read
+    and checked at once. ``blobs`` is a :class:`Blobs` or anything with the reading
+    methods of :class:`~eigengate.scan.pack.BlobReader`."""
     if "error" in d:
         src, fld, problem, line, hint = d["error"]
         return d["source"], (), ModelError(src, fld, problem, line=line, hint=hint)
+    if isinstance(blobs, Blobs):
+        blobs = RawBlobs(blobs.items)
     shapes = blobs.shapes()
-    return d["source"], tuple([_result_from(r, blobs, shapes) for r in d["results"]]), None
+    summaries = d["results"]
+    out = []
+    for s, r in zip(summaries, rest_of(blobs, shapes, len(summaries))):
+        model = object.__new__(CachedModel)
+        model.__dict__.update(summary_fields(s))
+        fill_model(model, r[0], blobs, shapes)
+        # CachedSpectrum stands in for a Spectrum: the same attributes (duck typing)
+        out.append(ModelResult(model=model, **result_parts(model, s, r, blobs, shapes),
+                               findings=findings_from(s[3], s[4], model.states, blobs)))
+    return d["source"], tuple(out), None
