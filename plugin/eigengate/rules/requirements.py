@@ -15,14 +15,24 @@ from __future__ import annotations
 import math
 from ..errors import counted
 from dataclasses import dataclass
-from typing import Any, Callable, Iterable, Sequence
+from typing import TYPE_CHECKING, Any, Callable, Iterable, Sequence
 
 from ..analysis.equilibrium import classify, side
 from .known_modes import KnownMode, known_modes_verdict, split_known_modes
 from ..analysis.modes import Mode, Spectrum
-from ..analysis.sparse_modes import Target
 from .catalogue import RULES, Rule, Verdict, make_verdict
 from .region_geometry import region_distance
+
+if TYPE_CHECKING:
+    from ..analysis.sparse_regions import Target
+
+
+def _target(kind: str, value: float) -> "Target":
+    """A region a sparse search must cover (its module is imported for a sparse model only)."""
+    from ..analysis.sparse_regions import Target
+
+    return Target(kind, value)
+
 
 __all__ = [
     "Verdict", "Requirement", "Stability", "MinDecayRate", "MinDamping", "MaxFrequency",
@@ -155,7 +165,7 @@ class Stability(Requirement):
         return "stable: marginal" if self.allow_marginal else "stable: true"
 
     def targets(self):
-        return (Target("right", 0.0),)
+        return (_target("right", 0.0),)
 
     def check(self, modes, spectrum, on_uncertain):
         discrete = spectrum.model.discrete
@@ -248,7 +258,7 @@ class MinDecayRate(Requirement):
         return f"min_decay_rate: {_fmt(self.alpha)}"
 
     def targets(self):
-        return (Target("right", -self.alpha),)
+        return (_target("right", -self.alpha),)
 
     def check(self, modes, spectrum, on_uncertain):
         return _threshold_verdict(self, _decay_rows(modes), self.alpha, True, "decay rate",
@@ -267,7 +277,7 @@ class MinDamping(Requirement):
         return f"min_damping: {_fmt(self.zeta)}"
 
     def targets(self):
-        return (Target("sector", self.zeta),)
+        return (_target("sector", self.zeta),)
 
     def check(self, modes, spectrum, on_uncertain):
         # cos is 1-Lipschitz and a disc of radius ρ about s turns the angle by ≤ asin(ρ/|s|).
@@ -291,7 +301,7 @@ class MaxFrequency(Requirement):
         return f"max_frequency: {_fmt(self.omega)}"
 
     def targets(self):
-        return (Target("outside", self.omega),)
+        return (_target("outside", self.omega),)
 
     def check(self, modes, spectrum, on_uncertain):
         rows = [(m, m.natural_frequency, m.uncertainty, m.enclosure) for m in modes
@@ -316,9 +326,9 @@ class PoleRegion(Requirement):
         return "pole_region: {" + ", ".join(parts) + "}"
 
     def targets(self):
-        return tuple(t for t in (None if self.alpha is None else Target("right", -self.alpha),
-                                 None if self.zeta is None else Target("sector", self.zeta),
-                                 None if self.omega is None else Target("outside", self.omega))
+        return tuple(t for t in (None if self.alpha is None else _target("right", -self.alpha),
+                                 None if self.zeta is None else _target("sector", self.zeta),
+                                 None if self.omega is None else _target("outside", self.omega))
                      if t is not None)
 
     def check(self, modes, spectrum, on_uncertain):

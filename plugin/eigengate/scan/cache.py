@@ -29,7 +29,8 @@ from pathlib import Path
 from typing import Any, Callable
 
 from .pack import (  # noqa: F401 (re-exported: the pack format)
-    Pack, PackBlobs, RawBlobs, Segment, read_pack, write_pack)
+    Pack, PackBlobs, RawBlobs, Segment, pack_chunks, read_pack, write_pack)
+from .checked_json import make_new, replace_atomically
 from .status_records import is_record, record_value, signature
 from .summary import summary_of
 
@@ -269,16 +270,11 @@ class ResultCache:
                            if is_record(row) and row[4] in wanted}
         sniff = {**self._tables["sniff"], **self._noted["sniff"]}
         head["sniff"] = dict(list(sniff.items())[-self.MAX_ENTRIES:])
-        raw = write_pack(head, blobs)
+        pieces = pack_chunks(head, blobs)
         try:
             self._ensure_folder()
             self._pack.parent.mkdir(parents=True, exist_ok=True)
-            import tempfile  # a no-change check writes nothing
-
-            fd, tmp = tempfile.mkstemp(prefix=".tmp-", dir=self._pack.parent)
-            with os.fdopen(fd, "wb") as fh:
-                fh.write(raw)
-            os.replace(tmp, self._pack)
+            replace_atomically(self._pack, pieces)
         except OSError:
             return
         self._old, self._new = None, {}
@@ -301,9 +297,9 @@ class ResultCache:
         self.folder.parent.mkdir(parents=True, exist_ok=True)
         # Build the explanatory files in a temporary folder, then move it into place, so a
         # half-made cache folder is never seen; a concurrent creator simply wins.
-        import tempfile
-
-        tmp = Path(tempfile.mkdtemp(prefix=".eigengate-cache-", dir=self.folder.parent))
+        # (as tempfile.mkdtemp makes one: owner-only, a name no other process picks)
+        tmp = Path(make_new(os.fspath(self.folder.parent), ".eigengate-cache-",
+                            lambda name: os.mkdir(name, 0o700))[1])
         try:
             self._explain(tmp)
             try:

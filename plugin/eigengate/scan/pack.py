@@ -15,7 +15,8 @@ import sys
 import zlib
 from typing import Any
 
-__all__ = ["Pack", "PackBlobs", "RawBlobs", "BlobReader", "Segment", "read_pack", "write_pack"]
+__all__ = ["Pack", "PackBlobs", "RawBlobs", "BlobReader", "Segment", "pack_chunks", "read_pack",
+           "write_pack"]
 
 #: An entry's blobs as one segment of bytes and its flat index (offset in the segment, size,
 #: rows, columns per blob): what :func:`write_pack` takes and a pool worker sends.
@@ -197,6 +198,13 @@ def write_pack(head: dict, entry_blobs: dict[str, Segment]) -> bytes:
     index (offset in the segment, size, rows, columns per blob;
     :class:`eigengate.scan.encode.Blobs`). Segments are 8-byte aligned in the body, so
     blobs aligned in theirs stay aligned."""
+    return b"".join(pack_chunks(head, entry_blobs))
+
+
+def pack_chunks(head: dict, entry_blobs: dict[str, Segment]) -> list[bytes]:
+    """:func:`write_pack`'s bytes as the pieces they are joined from, in order (a file is
+    written from them as they are: the body, megabytes for thousands of files, is never
+    copied whole; its checksum is taken piece by piece)."""
     chunks: list[bytes] = []
     index: list[int] = []
     bases: list[int] = []  # per blob, where its segment starts in the body
@@ -221,10 +229,11 @@ def write_pack(head: dict, entry_blobs: dict[str, Segment]) -> bytes:
     if sys.byteorder != "little":  # pragma: no cover - big-endian machines
         flat.byteswap()
     index_bytes = flat.tobytes()
-    body = b"".join(chunks)
-    crc = zlib.crc32(body, zlib.crc32(index_bytes, zlib.crc32(head_bytes)))
-    return b"".join((_MAGIC, _HEADER.pack(len(head_bytes), n, len(body), crc),
-                     head_bytes, index_bytes, body))
+    crc = zlib.crc32(index_bytes, zlib.crc32(head_bytes))
+    for chunk in chunks:
+        crc = zlib.crc32(chunk, crc)
+    return [_MAGIC, _HEADER.pack(len(head_bytes), n, size, crc), head_bytes, index_bytes,
+            *chunks]
 
 
 def read_pack(raw: bytes) -> Pack:
