@@ -13,7 +13,8 @@
   (``ss``, ``poles``, ``damp``): target ≤ 0.35× (warm); beside it, pytest's own floor: as
   many items from a collector that reads nothing, the same ones failing.
 
-Every process starts fresh, with its bytecode cached outside the folder as on a user's
+eigengate runs as the installed console script beside the interpreter (``python -m
+eigengate`` where there is none). Every process starts fresh, with its bytecode cached outside the folder as on a user's
 machine; each side runs once per round, back to back (the warm check three times in a row,
 its best counting), and each figure is the median of the per-round ratios with their range
 (:func:`bench_engine.ratio`): only ratios mean anything on a shared machine.
@@ -142,8 +143,15 @@ def main(argv=None) -> int:
         def run(cmd, cwd=repo) -> subprocess.CompletedProcess:
             return subprocess.run(cmd, cwd=cwd, env=env, capture_output=True, text=True)
 
+        # The console script a user runs (``pip install`` puts it beside the interpreter);
+        # ``python -m eigengate`` only where it is missing. PYTHONPATH puts this checkout's
+        # plugin/ first either way.
+        installed = Path(sys.executable).with_name("eigengate")
+        command = ([str(installed)] if installed.is_file() and os.access(installed, os.X_OK)
+                   else [sys.executable, "-m", "eigengate"])
+
         def check(*extra: str):
-            return run([sys.executable, "-m", "eigengate", "check", "-q", *extra, str(repo)])
+            return run([*command, "check", "-q", *extra, str(repo)])
 
         def cold():
             shutil.rmtree(repo / ".eigengate-cache", ignore_errors=True)
