@@ -1,0 +1,106 @@
+"""How the command line's process starts its work and ends (issue 16): the check runs from a
+frame with room below it (:mod:`eigengate.scan.stack_room`), the process ends without taking
+itself apart once everything is written (``cli._leave``), and a forked pool's workers start
+with the analysis modules this process imported for them."""
+
+import os
+import subprocess
+import sys
+import textwrap
+from pathlib import Path
+
+import pytest
+
+from eigengate.scan.stack_room import _SLOTS, _call, roomy_call
+
+PLUGIN = str(Path(__file__).resolve().parents[1] / "plugin")
+
+
+def python(code: str, **kw) -> subprocess.CompletedProcess:
+    env = {**os.environ, "PYTHONPATH": PLUGIN + os.pathsep + os.environ.get("PYTHONPATH", "")}
+    return subprocess.run([sys.executable, "-c", textwrap.dedent(code)], capture_output=True,
+                          text=True, env=env, timeout=120, **kw)
+
+
+def test_roomy_call_is_the_call():
+    assert roomy_call(divmod, 17, 5) == (3, 2)
+    assert roomy_call(dict, a=1, b=2) == {"a": 1, "b": 2}
+    with pytest.raises(ZeroDivisionError):
+        roomy_call(divmod, 1, 0)
+
+
+def test_deep_calls_below_it_work():
+    def depth(n):
+        return 0 if n == 0 else 1 + depth(n - 1)
+
+    assert roomy_call(depth, 600) == 600
+
+
+@pytest.mark.skipif(sys.implementation.name != "cpython", reason="CPython's frame layout")
+def test_its_frame_asks_for_the_room():
+    assert _call.__code__.co_stacksize == _SLOTS
+
+
+def test_the_process_ends_with_its_status_and_all_it_wrote():
+    out = python("""
+        import atexit, sys
+        from eigengate.cli import _leave
+        atexit.register(lambda: print("exit handler ran"))
+        print("written", end="; ")
+        print("to stderr", file=sys.stderr, end="")
+        _leave(3)
+        print("never")
+    """)
+    assert out.returncode == 3
+    assert out.stdout == "written; exit handler ran\n"
+    assert out.stderr == "to stderr"
+
+
+def test_a_running_thread_gets_the_ordinary_exit():
+    # the ordinary exit waits for a non-daemon thread; os._exit would cut it off
+    out = python("""
+        import threading, time
+        from eigengate.cli import _leave
+        def late():
+            time.sleep(0.3)
+            print("thread finished", flush=True)
+        threading.Thread(target=late).start()
+        _leave(1)
+    """)
+    assert out.returncode == 1
+    assert out.stdout == "thread finished\n"
+
+
+def test_a_check_through_the_console_entry_writes_everything(tmp_path):
+    from support import oscillator, write
+
+    (tmp_path / ".git").mkdir()
+    write(tmp_path / "pyproject.toml", "[tool.eigengate.requirements]\nstable = true\n")
+    write(tmp_path / "models" / "a.yaml", oscillator("a", min_damping=None))  # passes
+    report = tmp_path / "out.json"
+    out = python(f"""
+        import sys
+        sys.argv = ["eigengate", "check", "--output", "json:" + {str(report)!r},
+                    {str(tmp_path)!r}]
+        from eigengate.cli import run
+        run()
+    """)
+    assert out.returncode == 0, out.stderr
+    assert "1 file, 1 model checked" in out.stdout  # the text report's last lines came out
+    import json
+
+    assert json.loads(report.read_text(encoding="utf-8"))["files"]
+    assert (tmp_path / ".eigengate-cache").is_dir()  # the cache was saved before the end
+
+
+def test_a_fork_pool_preloads_the_analysis_without_numpy():
+    out = python("""
+        import sys
+        from eigengate.scan import pool
+        ctx = pool._context()
+        print(ctx.get_start_method(), "numpy" in sys.modules,
+              all(name in sys.modules for name in pool._FORK_PRELOAD))
+    """)
+    assert out.returncode == 0, out.stderr
+    if sys.platform.startswith("linux"):
+        assert out.stdout.split() == ["fork", "False", "True"]
