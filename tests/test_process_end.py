@@ -1,7 +1,7 @@
 """How the command line's process starts its work and ends (issue 16): the check runs from a
 frame with room below it (:mod:`eigengate.scan.stack_room`), the process ends without taking
 itself apart once everything is written (``cli._leave``), and a forked pool's workers start
-with the analysis modules this process imported for them."""
+with numpy and the analysis modules this process imported for them."""
 
 import os
 import subprocess
@@ -11,15 +11,17 @@ from pathlib import Path
 
 import pytest
 
+from eigengate.scan import pool as pool_mod
 from eigengate.scan.stack_room import _SLOTS, _call, roomy_call
 
 PLUGIN = str(Path(__file__).resolve().parents[1] / "plugin")
 
 
-def python(code: str, **kw) -> subprocess.CompletedProcess:
-    env = {**os.environ, "PYTHONPATH": PLUGIN + os.pathsep + os.environ.get("PYTHONPATH", "")}
+def python(code: str, env=None) -> subprocess.CompletedProcess:
+    env = dict(os.environ if env is None else env)
+    env["PYTHONPATH"] = PLUGIN + os.pathsep + env.get("PYTHONPATH", "")
     return subprocess.run([sys.executable, "-c", textwrap.dedent(code)], capture_output=True,
-                          text=True, env=env, timeout=120, **kw)
+                          text=True, env=env, timeout=120)
 
 
 def test_roomy_call_is_the_call():
@@ -93,14 +95,26 @@ def test_a_check_through_the_console_entry_writes_everything(tmp_path):
     assert (tmp_path / ".eigengate-cache").is_dir()  # the cache was saved before the end
 
 
-def test_a_fork_pool_preloads_the_analysis_without_numpy():
+@pytest.mark.skipif(not sys.platform.startswith("linux"), reason="the fork start method")
+def test_a_fork_pool_preloads_the_analysis_with_one_blas_thread():
+    env = {k: v for k, v in os.environ.items() if k not in pool_mod._ONE_THREAD}
     out = python("""
-        import sys
+        import os, sys
         from eigengate.scan import pool
         ctx = pool._context()
-        print(ctx.get_start_method(), "numpy" in sys.modules,
-              all(name in sys.modules for name in pool._FORK_PRELOAD))
-    """)
+        print(ctx.get_start_method(), os.environ["OPENBLAS_NUM_THREADS"],
+              all(name in sys.modules for name in pool._FORK_PRELOAD), pool._threads())
+    """, env=env)
     assert out.returncode == 0, out.stderr
-    if sys.platform.startswith("linux"):
-        assert out.stdout.split() == ["fork", "False", "True"]
+    assert out.stdout.split() == ["fork", "1", "True", "1"]
+
+
+@pytest.mark.skipif(not sys.platform.startswith("linux"), reason="the fork start method")
+def test_blas_threads_the_user_asked_for_are_not_forked():
+    env = {**os.environ, "OPENBLAS_NUM_THREADS": "2", "OMP_NUM_THREADS": "2"}
+    out = python("""
+        from eigengate.scan import pool
+        print(pool._context().get_start_method())
+    """, env=env)
+    assert out.returncode == 0, out.stderr
+    assert out.stdout.split() == ["forkserver"]

@@ -12,11 +12,13 @@ imports), and there are never more busy processes than jobs. Each worker has two
 hand, so it never waits for this process; chunks shrink as the two ends meet, so everyone
 finishes at about the same time.
 
-Start method: ``fork`` on Linux while this process has loaded no numpy and runs one thread
-(the command line: nothing heavy is loaded before the analysis starts, so no BLAS thread is
-forked), else ``forkserver`` (numpy and eigengate preloaded in the server), else
-``spawn``. When the pool closes every worker has exited and been joined, and a forkserver or
-resource tracker that the pool started is stopped: nothing of the pool outlives the scan.
+Start method: ``fork`` on Linux while this process runs one thread: numpy and the analysis
+modules are imported before the fork with the BLAS libraries at one thread per process (unless
+the user set their thread counts), so the workers start analysing at once and no BLAS thread
+is forked; where numpy was loaded before with threads of its own, ``forkserver`` (numpy and
+eigengate preloaded in the server), else ``spawn``. When the pool closes every worker has
+exited and been joined, and a forkserver or resource tracker that the pool started is
+stopped: nothing of the pool outlives the scan.
 """
 
 from __future__ import annotations
@@ -83,22 +85,45 @@ def _serve(conn, config) -> None:
         conn.close()
 
 
-#: The analysis modules a worker needs that load no numpy: imported here before a fork, so
-#: that each forked worker has them from the start instead of importing them itself (this
-#: process imports them for its own share anyway). Measured: a forked worker's first chunk
-#: took 104 ms against 27 ms for the next ones, most of it these imports and numpy's.
-_FORK_PRELOAD = ("eigengate.load.loader", "eigengate.load.blocks", "eigengate.analysis.modes",
+#: What a forked worker needs to analyse at once, imported here before the fork: this
+#: process imports it for its own share of the files anyway, and each worker then starts on
+#: its first chunk instead of importing numpy and the analysis itself (measured on 2,000
+#: small files: a worker's first chunk took 104 ms against 27 ms for the next ones, and
+#: numpy's import in two processes at once took 85 to 110 ms in each against 65 ms alone).
+_FORK_PRELOAD = ("numpy", "eigengate.load.loader", "eigengate.load.blocks",
+                 "eigengate.model.interconnect", "eigengate.analysis.modes",
                  "eigengate.analysis.small_modes", "eigengate.analysis.equilibrium",
                  "eigengate.rules.requirements", "eigengate.rules.pictures",
                  "eigengate.scan.serial")
 
+#: The thread counts of the BLAS libraries numpy and scipy load: one per process when the
+#: pool's processes are the parallelism (unless the user set them), so that loading them
+#: starts no threads and the process can be forked safely (and N processes do not run N
+#: BLAS thread pools on N cores).
+_ONE_THREAD = ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS")
+
+
+def _threads() -> int:
+    """The threads this process runs, native ones included (a BLAS library's): the entries
+    of ``/proc/self/task`` on Linux; a large number where that cannot be read."""
+    import os
+
+    try:
+        return len(os.listdir("/proc/self/task"))
+    except OSError:  # pragma: no cover - not Linux
+        return 1 << 30
+
 
 def _forkable() -> bool:
+    """Whether this process may be forked: Linux, one Python thread and, when numpy is
+    loaded, no other native thread either."""
     import multiprocessing as mp
     import threading
 
-    return (sys.platform.startswith("linux") and "fork" in mp.get_all_start_methods()
-            and "numpy" not in sys.modules and threading.active_count() == 1)
+    if not (sys.platform.startswith("linux") and "fork" in mp.get_all_start_methods()
+            and threading.active_count() == 1):
+        return False
+    return "numpy" not in sys.modules or _threads() == 1
 
 
 def _context():
@@ -107,9 +132,17 @@ def _context():
 
     methods = mp.get_all_start_methods()
     if _forkable():
+        if "numpy" not in sys.modules:
+            import os
+
+            for name in _ONE_THREAD:
+                os.environ.setdefault(name, "1")
         for name in _FORK_PRELOAD:
             importlib.import_module(name)
-        if _forkable():  # none of them loaded numpy (or started a thread) after all
+        from ..analysis.small_lapack import flapack
+
+        flapack()  # scipy's LAPACK extension and its BLAS, loaded once for every process
+        if _forkable():  # the BLAS libraries started no thread (a user's own count, say)
             return mp.get_context("fork")
     if "forkserver" in methods:
         ctx = mp.get_context("forkserver")
