@@ -118,3 +118,27 @@ def test_blas_threads_the_user_asked_for_are_not_forked():
     """, env=env)
     assert out.returncode == 0, out.stderr
     assert out.stdout.split() == ["forkserver"]
+
+
+def test_parsing_leaves_argparse_translating_as_before():
+    import argparse
+
+    from eigengate.cli.arguments import _parser, _untranslated
+
+    before = argparse._, argparse.ngettext
+    with _untranslated():
+        args = _parser().parse_args(["check", "-q", "-j", "2", "models"])
+    assert (args.command, args.quiet, args.jobs, args.paths) == ("check", True, 2, ["models"])
+    assert (argparse._, argparse.ngettext) == before
+    with pytest.raises(SystemExit), _untranslated():
+        _parser().parse_args(["check", "--jobs", "x"])
+    assert (argparse._, argparse.ngettext) == before
+
+
+def test_usage_errors_read_as_argparse_writes_them(capsys):
+    from eigengate.cli import main
+
+    assert main(["check", "--jobs", "x"]) == 2
+    assert "argument --jobs/-j: invalid int value: 'x'" in capsys.readouterr().err
+    assert main(["check", "--format", "nope"]) == 2
+    assert "invalid choice: 'nope' (choose from" in capsys.readouterr().err

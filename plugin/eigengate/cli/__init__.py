@@ -11,7 +11,8 @@ import os
 import sys
 from pathlib import Path
 
-from .arguments import COMMANDS, FORMATS, _normalise, _parser  # noqa: F401 (re-exported)
+from .arguments import (COMMANDS, FORMATS, _normalise, _parser,  # noqa: F401 (re-exported)
+                        _untranslated)
 from .files import _make_folder, _write_atomic, _write_files, _write_pole_maps  # noqa: F401
 from .status import CLOSED_PIPE, Exit, OutputError, UsageError  # noqa: F401 (re-exported)
 
@@ -48,9 +49,10 @@ def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line; return the exit status."""
     from ..scan.config import ConfigError
 
-    parser = _parser()
     try:
-        args = parser.parse_args(_normalise(list(sys.argv[1:] if argv is None else argv)))
+        with _untranslated():
+            args = _parser().parse_args(
+                _normalise(list(sys.argv[1:] if argv is None else argv)))
     except SystemExit as exc:  # argparse: --help/--version (0) and usage errors (2)
         return int(exc.code or 0)
     try:
@@ -439,11 +441,11 @@ def _leave(status: int) -> None:
     stream that cannot be flushed (then the ordinary exit reports it as it would)."""
     import atexit
     import gc
-    import threading
 
     gc.freeze()  # the ordinary exit's collection would scan all the run made
     run_exit = getattr(atexit, "_run_exitfuncs", None)
-    if run_exit is None or threading.active_count() > 1:
+    threading = sys.modules.get("threading")  # (never imported: no thread started by it)
+    if run_exit is None or (threading is not None and threading.active_count() > 1):
         sys.exit(status)
     try:
         sys.stdout.flush()

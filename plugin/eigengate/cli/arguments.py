@@ -39,6 +39,34 @@ class _Parser(argparse.ArgumentParser):
         return self.formatter_class(prog=self.prog, width=(columns if columns > 0 else 80) - 2)
 
 
+class _untranslated:
+    """While the command line is parsed, argparse's own messages looked up in no catalogue
+    when the current text domain has none (the usual case: Python ships none), which is what
+    the lookup would find each time: the messages as written. argparse asks for each of its
+    21 messages separately, and each lookup searches the locale folders again (measured:
+    0.4 ms of a 35 ms check of an unchanged repository with ``LANG=C.UTF-8``, more where the
+    locale names more folders)."""
+
+    def __enter__(self) -> None:
+        import gettext
+
+        domain = gettext.textdomain()
+        self.saved = None
+        if gettext.find(domain, gettext.bindtextdomain(domain)) is None:
+            self.saved = argparse._, argparse.ngettext
+            argparse._ = str  # type: ignore[attr-defined]
+            argparse.ngettext = _plural  # type: ignore[attr-defined]
+
+    def __exit__(self, *exc) -> None:
+        if self.saved is not None:
+            argparse._, argparse.ngettext = self.saved  # type: ignore[attr-defined]
+
+
+def _plural(singular: str, plural: str, n: int) -> str:
+    """``gettext.ngettext`` where no catalogue translates: the English rule."""
+    return singular if n == 1 else plural
+
+
 def _parser() -> argparse.ArgumentParser:
     from ..version import __version__
 
