@@ -142,3 +142,4 @@ def test_usage_errors_read_as_argparse_writes_them(capsys):
     assert "argument --jobs/-j: invalid int value: 'x'" in capsys.readouterr().err
     assert main(["check", "--format", "nope"]) == 2
     assert "invalid choice: 'nope' (choose from" in capsys.readouterr().err
+

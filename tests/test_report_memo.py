@@ -304,3 +304,25 @@ def test_a_walk_within_the_racy_window_is_not_kept(repo, scans, discoveries, mon
     first = _check(repo)
     assert _check(repo) == first == _check(repo) and len(scans) == 1
     assert len(discoveries) == 3
+
+
+def test_the_digest_tells_apart_how_names_split_between_its_lists(tmp_path):
+    """The memo's digest joins thousands of names instead of encoding them as JSON (issue
+    16); the lists' lengths go first, so names moved from one list to the next, or a name
+    split in two, make another digest."""
+    from eigengate.scan.config import load_config
+    from eigengate.scan.report_memo import ReportMemo
+
+    (tmp_path / ".git").mkdir()
+    memo = ReportMemo(load_config(start=tmp_path), {"paths": ["."]})
+    seen = {memo._digest(rels, keys, unselected, refs) for rels, keys, unselected, refs in [
+        (["a", "b"], ["k1", "k2"], [], {}),
+        (["a"], ["b", "k1", "k2"], [], {}),
+        (["a", "b"], ["k1"], ["k2"], {}),
+        (["a\0b"], ["k1", "k2"], [], {}),
+        (["a", "b"], ["k1", "k2"], [""], {}),
+        (["a", "b"], ["k1", "k2"], [], {"m.mtx": "d1"}),
+        (["a", "b\udcff"], ["k1", "k2"], [], {}),  # a name that is not UTF-8 on disk
+    ]}
+    assert len(seen) == 7
+    assert memo._digest(["a", "b"], ["k1", "k2"], [], {}) in seen  # the same inputs: the same

@@ -47,7 +47,7 @@ if TYPE_CHECKING:  # pragma: no cover - names for annotations only
 __all__ = ["ReportMemo"]
 
 #: Version of the memo's own layout (inside a cache format).
-MEMO_VERSION = 2  # 2: the discovery walk
+MEMO_VERSION = 3  # 2: the discovery walk; 3: the digest of joined names
 #: A memo file larger than this is neither written nor read.
 MAX_BYTES = 64 << 20
 #: Reports kept per configuration (for as many different command lines or dates), each in
@@ -283,9 +283,16 @@ class ReportMemo:
             except OSError:
                 baselines.append([policy.base, policy.digest, None])
         h = hasher(20)
-        h.update(json.dumps([self.request, today_iso(), rels, keys, unselected,
+        # the small parts as JSON, with the lengths of the long lists, which follow as their
+        # items each ended by a NUL (which no path or key holds): the same inputs make the
+        # same text and other inputs another, and thousands of names are joined, not encoded
+        h.update(json.dumps([self.request, today_iso(), len(rels), len(keys), len(unselected),
                              sorted(refs.items()), baselines],
                             separators=(",", ":")).encode())
+        for names in (rels, keys, unselected):
+            h.update(b"\n")
+            h.update("\0".join(names).encode("utf-8", "surrogatepass"))
+            h.update(b"\0")
         return h.hexdigest()
 
     # ------------------------------------------------------------------ recording
