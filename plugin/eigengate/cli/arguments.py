@@ -51,15 +51,14 @@ class _untranslated:
         import gettext
 
         domain = gettext.textdomain()
-        self.saved = None
+        self.saved: tuple | None = None
         if gettext.find(domain, gettext.bindtextdomain(domain)) is None:
-            self.saved = argparse._, argparse.ngettext
-            argparse._ = str  # type: ignore[attr-defined]
-            argparse.ngettext = _plural  # type: ignore[attr-defined]
+            self.saved = vars(argparse)["_"], vars(argparse)["ngettext"]
+            vars(argparse).update(_=str, ngettext=_plural)
 
     def __exit__(self, *exc) -> None:
         if self.saved is not None:
-            argparse._, argparse.ngettext = self.saved  # type: ignore[attr-defined]
+            vars(argparse).update(_=self.saved[0], ngettext=self.saved[1])
 
 
 def _plural(singular: str, plural: str, n: int) -> str:

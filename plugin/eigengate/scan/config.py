@@ -50,6 +50,7 @@ from .frozen import Frozen, factory
 from .policy_values import (  # noqa: F401 (cluster_address and Layer re-exported)
     CLUSTER_SCHEMES, Layer, _drift, _layer, _policy, _quoted, _strings, _unknown,
     cluster_address)
+from .nested_policy import DEFAULT_BASELINE, inherit_keys, local_glob, nest_keys
 from .policyfiles import (  # noqa: F401 (ConfigError re-exported)
     ConfigError, find_config, find_top_config, policy_file, read_table)
 
@@ -70,7 +71,6 @@ CONFIG_KEYS = ("include", "exclude", "on_uncertain", "require", "select", "ignor
 OVERRIDE_KEYS = ("paths", "requirements", "on_uncertain", "require", "allowed_drift")
 SEVERITIES = ("error", "warning", "off")
 #: Where a policy's baseline is kept, relative to its folder, unless it says otherwise.
-DEFAULT_BASELINE = ".eigengate/baseline.json"
 
 
 class Config(Frozen):
@@ -223,8 +223,8 @@ class Config(Frozen):
         for pattern in self.include:
             stem, dot, ext = pattern.rpartition(".")
             if dot and "/" not in ext and glob_match(rel, stem + suffix):
-                return _local(stem + suffix, self.base)
-        return _local(f"{folder}/*{suffix}" if folder else rel, self.base)
+                return local_glob(stem + suffix, self.base)
+        return local_glob(f"{folder}/*{suffix}" if folder else rel, self.base)
 
     @property
     def baseline_path(self) -> Path:
@@ -305,20 +305,6 @@ class Config(Frozen):
             if getattr(o, key) is not None and o.applies(rel):
                 value = getattr(o, key)
         return value
-
-
-def _rebase(pattern: str, base: str) -> str:
-    """A glob of a nested policy (relative to its folder ``base``) relative to the root."""
-    if not base:
-        return pattern
-    pattern = pattern.strip("/")
-    if "/" not in pattern:  # a bare name matches in any folder below the policy's
-        pattern = "**/" + pattern
-    return f"{base}/{pattern}"
-
-
-def _local(pattern: str, base: str) -> str:
-    return pattern[len(base) + 1:] if base and pattern.startswith(base + "/") else pattern
 
 
 def _load_nested(path: Path, root: Path, base: str, parent: "Config", memo: dict) -> "Config":
@@ -467,10 +453,10 @@ def parse_config(table: Mapping[str, Any], *, root: Path, source: str | None = "
         raise ConfigError(shown, "extend", f"must be true or false, got {table['extend']!r}",
                           "true layers this policy on the one of the folder above")
     if base:
-        _nest(kw, base, shown)
+        nest_keys(kw, base, shown)
     outer = ""
     if table.get("extend") and parent is not None:
-        _inherit(kw, parent)
+        inherit_keys(kw, parent)
         outer = parent.digest
     import json
 
@@ -484,29 +470,3 @@ def parse_config(table: Mapping[str, Any], *, root: Path, source: str | None = "
                              default=str).encode())
     kw["digest"] = digest.hexdigest()
     return Config(root=root, source=source, _folders={} if folders is None else folders, **kw)
-
-
-def _nest(kw: dict[str, Any], base: str, source: str) -> None:
-    """A nested policy's globs and baseline, made relative to the root."""
-    from dataclasses import replace
-
-    for key in ("include", "exclude"):
-        if key in kw:
-            kw[key] = tuple(_rebase(p, base) for p in kw[key])
-    kw["overrides"] = tuple(replace(o, paths=tuple(_rebase(p, base) for p in o.paths))
-                            for o in kw.get("overrides", ()))
-    kw["waivers"] = tuple(replace(w, paths=tuple(_rebase(p, base) for p in w.paths))
-                          for w in kw.get("waivers", ()))
-    kw["baseline"] = f"{base}/{kw.get('baseline', DEFAULT_BASELINE)}"
-    kw["base"] = base
-
-
-def _inherit(kw: dict[str, Any], parent: Config) -> None:
-    """``extend = true``: what the policy does not set comes from its parent; requirements
-    and overrides layer on the parent's; include, exclude, waivers and baseline stay its own."""
-    for key in ("on_uncertain", "require", "select", "ignore", "allow_python", "allowed_drift",
-                "waiver_warning_days"):
-        kw.setdefault(key, getattr(parent, key))
-    kw["severity"] = {**parent.severity, **kw.get("severity", {})}
-    kw["overrides"] = parent.overrides + tuple(kw.get("overrides", ()))
-    kw["inherited"] = parent.inherited + (parent.complete().requirements,)
