@@ -11,7 +11,7 @@ eigenvalues, 1×1 to 12×12, huge and tiny scales, continuous and discrete):
 * the one-pass threshold and stability verdicts of ``rules.requirements`` against the
   definitions (the margins, ``min`` by ``(margin, index)``, the decision as the weakest of
   the rows' levels), on the modes of those spectra and on hand-made rows at the boundaries;
-* ``scan.engine.analyse_model``'s equilibrium against ``rules.requirements.origin``.
+* ``scan.engine.analyse_model``'s equilibrium against ``rules.origin_requirements.origin``.
 
 The references are the general paths of this package (common practice: a fast path is
 checked against the path it shortcuts, every field compared, NaN equal to NaN and the
@@ -28,6 +28,7 @@ from hypothesis import strategies as st
 from eigengate import from_arrays
 from eigengate.analysis import modes
 from eigengate.rules import requirements as rq
+from eigengate.rules.origin_requirements import origin
 from eigengate.scan.engine import analyse_model
 
 from test_modes_small_path import _same
@@ -230,7 +231,7 @@ def test_threshold_verdict_at_the_boundaries(values):
 def test_analyse_model_equilibrium_is_origins(a):
     for model in _models(a):
         result = analyse_model(model)
-        expected = rq.origin(list(result.spectrum.modes), result.spectrum)[0]
+        expected = origin(list(result.spectrum.modes), result.spectrum)[0]
         assert result.equilibrium.__dict__ == expected.__dict__
         assert list(result.__dict__) == ["model", "spectrum", "equilibrium", "verdicts",
                                          "findings", "waived", "used_waivers", "pictures"]

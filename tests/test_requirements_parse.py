@@ -5,9 +5,8 @@ import pytest
 from eigengate.rules.parsing import parse_known_modes, parse_requirement_layer, parse_requirements
 from eigengate.errors import ModelError
 from eigengate.rules.known_modes import KnownMode
-from eigengate.rules.requirements import (
-    DirectionCounts, EquilibriumType, MinDamping, PoleRegion, Stability, apply_layers,
-)
+from eigengate.rules.origin_requirements import DirectionCounts, EquilibriumType
+from eigengate.rules.requirements import MinDamping, PoleRegion, Stability, apply_layers
 
 
 def parse(raw):

@@ -41,8 +41,8 @@ _EXPORTS = {
     "Requirement": "rules.requirements", "Stability": "rules.requirements",
     "MinDecayRate": "rules.requirements", "MinDamping": "rules.requirements",
     "MaxFrequency": "rules.requirements", "PoleRegion": "rules.requirements",
-    "EquilibriumType": "rules.requirements", "NoSaddle": "rules.requirements",
-    "DirectionCounts": "rules.requirements", "evaluate": "rules.requirements",
+    "EquilibriumType": "rules.origin_requirements", "NoSaddle": "rules.origin_requirements",
+    "DirectionCounts": "rules.origin_requirements", "evaluate": "rules.requirements",
     "KnownMode": "rules.known_modes", "Finding": "rules.findings",
     "ModelResult": "rules.results", "FileResult": "rules.results",
     # the pipeline
@@ -102,8 +102,8 @@ if TYPE_CHECKING:  # pragma: no cover - the same names, for type checkers
     from .rules.catalogue import RULES, Rule, Verdict
     from .rules.findings import Finding
     from .rules.known_modes import KnownMode
-    from .rules.requirements import (DirectionCounts, EquilibriumType, MaxFrequency,
-                                     MinDamping, MinDecayRate, NoSaddle, PoleRegion,
+    from .rules.origin_requirements import DirectionCounts, EquilibriumType, NoSaddle
+    from .rules.requirements import (MaxFrequency, MinDamping, MinDecayRate, PoleRegion,
                                      Requirement, Stability, evaluate)
     from .rules.results import FileResult, ModelResult
     from .scan.engine import check_file, check_model, check_paths

@@ -21,9 +21,9 @@ from scipy.sparse.linalg import eigs
 from eigengate.analysis.modes import analyse
 from eigengate.analysis.sparse_modes import Target, analyse_sparse
 from eigengate.model.core import from_arrays
-from eigengate.rules.requirements import (DirectionCounts, EquilibriumType, MaxFrequency,
-                                          MinDamping, MinDecayRate, PoleRegion, Stability,
-                                          evaluate)
+from eigengate.rules.origin_requirements import DirectionCounts, EquilibriumType
+from eigengate.rules.requirements import (MaxFrequency, MinDamping, MinDecayRate, PoleRegion,
+                                          Stability, evaluate)
 
 
 def laplacian(m, c=0.0):

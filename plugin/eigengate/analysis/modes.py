@@ -35,6 +35,7 @@ from .bounds import (ENCLOSE_LIMIT, FIGURE_FLOOR, MAX_BLOCK, TOUCH, cap_defectiv
                      components, enclose, estimate, hoelder, map_to_s, sweep_order, touching,
                      touching_small)
 from .mode_order import _round_sig, mode_order, sort_key  # noqa: F401 (re-exported)
+from .multiplicity import SVD_RANK_LIMIT, geometric_multiplicity, vector_rank  # noqa: F401
 from .small_lapack import SMALL_ORDER, small_eig, small_lapack  # noqa: F401 (SMALL_ORDER: public)
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -47,8 +48,6 @@ __all__ = ["Mode", "ModeFigures", "Spectrum", "analyse", "vector_rank", "sort_ke
 BOUND_FACTOR = 4.0
 #: Eigenvalues within this many times the sum of their error bounds are one cluster.
 CLUSTER_FACTOR = 4.0
-#: Above this order, geometric multiplicity is read from the eigenvectors instead of an SVD.
-SVD_RANK_LIMIT = 400
 
 
 class ModeFigures:
@@ -350,7 +349,7 @@ def analyse(model: Model) -> Spectrum:
         else:
             vals = lam[members]
             centre = complex(vals.mean())
-            geometric = _geometric(model, centre, vr[:, members], len(members), norm)
+            geometric = geometric_multiplicity(model, centre, vr[:, members], len(members), norm)
             # The cluster stands for each member: its bound covers the spread and every
             # member's own bound, and, when defective, the Hölder-type sensitivity of the
             # largest Jordan block the multiplicities allow (rotated or triangular alike).
@@ -451,43 +450,6 @@ def _groups(labels: list[int]) -> list[list[int]]:
     for i, root in enumerate(labels):
         groups.setdefault(root, []).append(i)
     return [sorted(g) for _, g in sorted(groups.items())]
-
-
-def _geometric(model: Model, centre: complex, vectors: "np.ndarray", size: int,
-               norm: float) -> int:
-    """Geometric multiplicity of a cluster: null-space dimension of A - λE at the cluster mean."""
-    import numpy as np
-
-    n = model.n_states
-    eps = np.finfo(float).eps
-    if n <= SVD_RANK_LIMIT:
-        E = np.eye(n) if model.E is None else model.E
-        sv = np.linalg.svd(model.A - centre * E, compute_uv=False)
-        tol = 1e3 * n * eps * (norm + abs(centre))
-        return int(min(size, max(1, int(np.sum(sv <= tol)))))
-    # above the limit: directions of the vectors' span on which A − λE is at rounding level
-    # (σ_j((A − λE)Q) ≥ σ_{n−r+j}(A − λE), so they count null directions as the SVD above
-    # does), or the vectors' own rank when that is larger
-    u, sv, _ = np.linalg.svd(vectors, full_matrices=False)
-    Q = u[:, sv > 1e-10 * sv[0]]
-    AQ = model.A @ Q - centre * (Q if model.E is None else model.E @ Q)
-    tol = 1e3 * n * eps * (norm + abs(centre))
-    flat = int(np.sum(np.linalg.svd(AQ, compute_uv=False) <= tol))
-    return int(min(size, max(flat, vector_rank(vectors, size))))
-
-
-def vector_rank(vectors: "np.ndarray", size: int) -> int:
-    """Geometric multiplicity of a cluster of ``size`` from its eigenvectors: they are
-    (nearly) parallel when it is defective (used above :data:`SVD_RANK_LIMIT` states and for
-    sparse models)."""
-    import numpy as np
-
-    eps = np.finfo(float).eps
-    unit = vectors / np.linalg.norm(vectors, axis=0)
-    sv = np.linalg.svd(unit, compute_uv=False)
-    # a group of parallel unit vectors has a singular value ≥ 1, so 0.5 caps the tolerance,
-    # which for size ≥ 16 would otherwise exceed sv[0] and call any cluster defective
-    return int(max(1, np.sum(sv > min(10.0 * eps ** (1.0 / size) * sv[0], 0.5))))
 
 
 #: ``FIGURE_FLOOR · eps``: the relative rounding floor of s, as :func:`_mode_fields` scales it.

@@ -2,8 +2,8 @@
 
 They are taken out of the spectrum before the other requirements run (the type of the origin
 says so; when they are all the modes, it is classified from them, see
-``requirements.origin``), and a declaration that no longer matches the model is itself a failing verdict
-(EG109), so a stale declaration cannot hide a real change.
+``origin_requirements.origin``), and a declaration that no longer matches the model is itself
+a failing verdict (EG109), so a stale declaration cannot hide a real change.
 """
 
 from __future__ import annotations

@@ -10,10 +10,8 @@ from ..analysis.equilibrium import EQUILIBRIUM_TYPES
 from ..errors import ModelError
 from ..model.formats import suggest
 from .known_modes import KnownMode
-from .requirements import (
-    DirectionCounts, EquilibriumType, MaxFrequency, MinDamping, MinDecayRate, NoSaddle,
-    PoleRegion, Requirement, Stability,
-)
+from .origin_requirements import DirectionCounts, EquilibriumType, NoSaddle
+from .requirements import MaxFrequency, MinDamping, MinDecayRate, PoleRegion, Requirement, Stability
 from .catalogue import rule_by_key
 
 __all__ = ["REQUIREMENT_KEYS", "parse_requirements", "parse_requirement_layer",

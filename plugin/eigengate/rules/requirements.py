@@ -17,7 +17,7 @@ from ..errors import counted
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any, Callable, Iterable, Sequence
 
-from ..analysis.equilibrium import classify, side
+from ..analysis.equilibrium import side
 from .known_modes import KnownMode, known_modes_verdict, split_known_modes
 from ..analysis.modes import Mode, Spectrum
 from .catalogue import RULES, Rule, Verdict, make_verdict
@@ -170,7 +170,7 @@ class Stability(Requirement):
     def check(self, modes, spectrum, on_uncertain):
         discrete = spectrum.model.discrete
         # one pass: each mode's side (equilibrium.side) and, off the exact boundary, how it
-        # is decided (_side_level), in mode order
+        # is decided (side_level), in mode order
         unstable, inexact, exact, decay, total = [], [], [], [], 0
         unsure_level = loose = False  # whether _level gave "uncertain", "estimated"
         for m in modes:
@@ -231,7 +231,7 @@ class Stability(Requirement):
         if discrete:  # margin in the plane of the measured value: 1 - spectral radius
             margin = 1.0 - measured
         if certain:  # an exact boundary mode is taken as exact: estimated, never certified
-            decided = "certified" if any(_side_level(m) == "certified" for m in unstable) \
+            decided = "certified" if any(side_level(m) == "certified" for m in unstable) \
                 else "estimated"
         else:
             decided = "uncertain" if unsure_level else "estimated" if loose or exact else \
@@ -341,108 +341,9 @@ class PoleRegion(Requirement):
                                   "widen it")
 
 
-def _side_level(m: Mode) -> str:
+def side_level(m: Mode) -> str:
     """How the side of the stability boundary a mode lies on is decided."""
     return _level(m.s.real, m.uncertainty, m.enclosure)
-
-
-def _type_level(eq, seen: Sequence[Mode]) -> str:
-    """How an equilibrium type (and its direction counts) is decided: certified when every
-    mode is a single eigenvalue (or pair) with its own enclosure off the boundary, which
-    also certifies it real or non-real (a real matrix: a disc holding one eigenvalue holds
-    its conjugate only when it is real)."""
-    if eq.uncertain:
-        return "uncertain"
-    ok = all(m.multiplicity == 1 and math.isfinite(m.enclosure)
-             and _side_level(m) == "certified" for m in seen)
-    return "certified" if ok and seen else "estimated"
-
-
-def origin(modes: Sequence[Mode], spectrum: Spectrum):
-    """The type of the origin and the modes it was classified from.
-
-    Declared known modes (the difference between ``modes`` and the spectrum) are set aside,
-    and the description says so; when they are all the modes, there is nothing else to
-    classify, so the origin is classified from all of them (a declared double zero stays a
-    degenerate origin, never a node with no directions)."""
-    every = spectrum.modes
-    same = len(modes) == len(every) and all(a is b for a, b in zip(modes, every))
-    declared = 0 if same else spectrum.n_eigenvalues - sum(m.count for m in modes)
-    seen = tuple(modes) if modes or not declared else spectrum.modes
-    return classify(seen, declared=declared, set_aside=bool(modes)), seen
-
-
-@dataclass(frozen=True)
-class EquilibriumType(Requirement):
-    """The origin has the expected type."""
-
-    expected: str
-    rule = "EG106"
-
-    def spec(self):
-        return f"equilibrium: {self.expected}"
-
-    def check(self, modes, spectrum, on_uncertain):
-        eq, seen = origin(modes, spectrum)
-        ok = eq.type == self.expected
-        passed = ok and (not eq.uncertain or on_uncertain == "pass")
-        message = f"expected {self.expected}, found {eq.describe()}"
-        return self._verdict(passed=passed, uncertain=eq.uncertain, measured=eq.type,
-                             decided_by=_type_level(eq, seen),
-                             threshold=self.expected, margin=None,
-                             offending=() if ok else seen, message=message,
-                             suggestion=None if passed else f"equilibrium: {eq.type} matches "
-                             "the current model")
-
-
-@dataclass(frozen=True)
-class NoSaddle(Requirement):
-    """Not both stable and unstable directions."""
-
-    rule = "EG107"
-
-    def spec(self):
-        return "no_saddle: true"
-
-    def check(self, modes, spectrum, on_uncertain):
-        eq, seen = origin(modes, spectrum)
-        saddle = eq.stable > 0 and eq.unstable > 0
-        passed = not saddle and (not eq.uncertain or on_uncertain == "pass")
-        offending = tuple(m for m in seen if side(m) > 0) if saddle else ()
-        return self._verdict(passed=passed, uncertain=eq.uncertain, measured=eq.type,
-                             decided_by=_type_level(eq, seen),
-                             threshold="not saddle", margin=None, offending=offending,
-                             message=("saddle: " if saddle else "no saddle: ") + eq.describe())
-
-
-@dataclass(frozen=True)
-class DirectionCounts(Requirement):
-    """Numbers of stable, unstable and center directions (any subset)."""
-
-    stable: int | None = None
-    unstable: int | None = None
-    center: int | None = None
-    rule = "EG108"
-
-    def spec(self):
-        parts = [f"{k}: {v}" for k, v in (("stable", self.stable), ("unstable", self.unstable),
-                                          ("center", self.center)) if v is not None]
-        return "directions: {" + ", ".join(parts) + "}"
-
-    def check(self, modes, spectrum, on_uncertain):
-        eq, seen = origin(modes, spectrum)
-        found = {"stable": eq.stable, "unstable": eq.unstable, "center": eq.center}
-        wrong = [f"{k} {found[k]} (expected {v})" for k, v in
-                 (("stable", self.stable), ("unstable", self.unstable), ("center", self.center))
-                 if v is not None and found[k] != v]
-        passed = not wrong and (not eq.uncertain or on_uncertain == "pass")
-        message = ("direction counts differ: " + ", ".join(wrong) if wrong else
-                   "direction counts as expected") + f"; {eq.describe()}"
-        return self._verdict(passed=passed, uncertain=eq.uncertain,
-                             decided_by=_type_level(eq, seen),
-                             measured=f"{eq.stable}/{eq.unstable}/{eq.center}",
-                             threshold=self.spec(), margin=None,
-                             offending=seen if wrong else (), message=message)
 
 
 def evaluate(spectrum: Spectrum, requirements: Sequence[Requirement] | None = None, *,

@@ -69,7 +69,8 @@ def _analysis_stages() -> tuple:
     from ..analysis.equilibrium import classify
     from ..analysis.modes import analyse
     from ..rules.pictures import pictures_of
-    from ..rules.requirements import evaluate, origin
+    from ..rules.origin_requirements import origin
+    from ..rules.requirements import evaluate
 
     _stages = (analyse, evaluate, origin, classify, pictures_of)
     return _stages

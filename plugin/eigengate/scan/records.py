@@ -32,13 +32,14 @@ REQUIREMENT_NAMES = frozenset((
 def requirement_classes() -> dict[str, type]:
     """The requirement classes a cached model may hold, by class name."""
     from ..rules import loop_requirements as lr
+    from ..rules import origin_requirements as o
     from ..rules import requirements as r
     from ..rules import robustness as rb
     from ..rules.robust_range import RobustOverRange
 
     return {c.__name__: c for c in (r.Stability, r.MinDecayRate, r.MinDamping, r.MaxFrequency,
-                                     r.PoleRegion, r.EquilibriumType, r.NoSaddle,
-                                     r.DirectionCounts, lr.MinGainMargin, lr.MinPhaseMargin,
+                                     r.PoleRegion, o.EquilibriumType, o.NoSaddle,
+                                     o.DirectionCounts, lr.MinGainMargin, lr.MinPhaseMargin,
                                      lr.MinDelayMargin, lr.MaxSensitivityPeak, lr.MinDiskMargin,
                                      lr.NoSaddleInBox, lr.EquilibriumAt, lr.EquilibriumCount,
                                      lr.EquilibriaStable, rb.MinStabilityRadius,
