@@ -116,3 +116,17 @@ def test_a_plain_model_imports_no_margin_or_robustness_rules(tmp_path):
                             str(tmp_path / "m.yaml")], capture_output=True, text=True,
                            cwd=tmp_path, env=cli_env())
     assert "eigengate.rules.loop_requirements" in again.stdout  # used: imported
+
+
+def test_the_origin_requirements_are_still_read_from_their_old_module():
+    """EG106-EG108 moved to ``rules.origin_requirements`` (issue 16's module split); code that
+    imported them from ``rules.requirements`` gets the same classes, and a name that never
+    was there is still an AttributeError."""
+    import eigengate
+    from eigengate.rules import origin_requirements, requirements
+
+    for name in ("EquilibriumType", "NoSaddle", "DirectionCounts", "origin"):
+        assert getattr(requirements, name) is getattr(origin_requirements, name)
+    assert eigengate.DirectionCounts is origin_requirements.DirectionCounts
+    with pytest.raises(AttributeError):
+        requirements.NoSuchRequirement  # noqa: B018

@@ -36,7 +36,7 @@ def _target(kind: str, value: float) -> "Target":
 
 __all__ = [
     "Verdict", "Requirement", "Stability", "MinDecayRate", "MinDamping", "MaxFrequency",
-    "PoleRegion", "EquilibriumType", "NoSaddle", "DirectionCounts", "KnownMode",
+    "PoleRegion", "KnownMode",
     "RULES", "Rule", "evaluate", "apply_layers", "region_distance",
 ]
 
@@ -403,8 +403,6 @@ def _only_certified(v: Verdict, policy: str) -> Verdict:
                    suggestion=v.suggestion if passed == v.passed else None)
 
 
-
-
 def apply_layers(layers: Iterable[tuple[Sequence[Requirement], Sequence[str]]]
                  ) -> tuple[Requirement, ...]:
     """Combine requirement layers, general first: each layer's ``(requirements, off)`` first
@@ -416,3 +414,18 @@ def apply_layers(layers: Iterable[tuple[Sequence[Requirement], Sequence[str]]]
         for r in reqs:
             by_rule[r.rule] = r
     return tuple(by_rule[k] for k in sorted(by_rule))
+
+
+#: Names that moved to :mod:`eigengate.rules.origin_requirements`, still read here for code
+#: that imported them from this module (the public face is ``from eigengate import ...``).
+_MOVED = ("EquilibriumType", "NoSaddle", "DirectionCounts", "origin")
+
+
+def __getattr__(name: str) -> Any:
+    """A moved name (:data:`_MOVED`), looked up where it lives now, on first use: imported
+    only then, so the two modules do not import each other when loaded."""
+    if name in _MOVED:
+        import importlib
+
+        return getattr(importlib.import_module("eigengate.rules.origin_requirements"), name)
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
