@@ -14,9 +14,9 @@
   many items from a collector that reads nothing, the same ones failing.
 
 eigengate runs as the installed console script beside the interpreter (``python -m
-eigengate`` where there is none). Every process starts fresh, with its bytecode cached outside the folder as on a user's
-machine; each side runs once per round, back to back (the warm check three times in a row,
-its best counting), and each figure is the median of the per-round ratios with their range
+eigengate`` where there is none). Every process starts fresh, with its bytecode cached
+outside the folder as on a user's machine; each side runs once per round, back to back (the
+warm check three times in a row, its best counting), and each figure is the median of the per-round ratios with their range
 (:func:`bench_engine.ratio`): only ratios mean anything on a shared machine.
 Run: ``python benchmarks/bench_small_models.py [--files 2000] [--repeat 5]``.
 """

@@ -93,8 +93,8 @@ def _serve(conn, config) -> None:
 _FORK_PRELOAD = ("numpy", "eigengate.load.loader", "eigengate.load.blocks",
                  "eigengate.model.interconnect", "eigengate.analysis.modes",
                  "eigengate.analysis.small_modes", "eigengate.analysis.equilibrium",
-                 "eigengate.rules.requirements", "eigengate.rules.pictures",
-                 "eigengate.scan.serial")
+                 "eigengate.rules.requirements", "eigengate.rules.origin_requirements",
+                 "eigengate.rules.pictures", "eigengate.scan.serial")
 
 #: The thread counts of the BLAS libraries numpy and scipy load: one per process when the
 #: pool's processes are the parallelism (unless the user set them), so that loading them
